@@ -1,0 +1,1029 @@
+"""Thermal plume of a reinjection well: the analytic line-source model for screening well interference.
+
+A reinjection well returns water that is colder (heating) or warmer (cooling) than the aquifer. Down-gradient it
+leaves a thermal plume; where another doublet's extraction well sits in it, that well's source temperature
+shifts. This module estimates the shift with the linear advective-dispersive heat transport model of a
+continuous line source fully penetrating a confined, homogeneous aquifer of infinite extent in uniform flow
+(Kinzelbach 1987; used for thermal plumes by Haehnlein et al. 2010 and compared with numerical models by
+Pophillat et al. 2020).
+
+Model and derivation
+--------------------
+Depth-averaged heat balance of the saturated aquifer for the temperature change ``T`` [K], with the flow along
+``+x`` (``x`` along the flow, ``y`` across it, origin at the reinjection well)::
+
+    C_a dT/dt + C_w q dT/dx = d/dx(L_L dT/dx) + d/dy(L_T dT/dy) + (C_w Q dT_inj / b) delta(x) delta(y)
+
+``C_a`` and ``C_w`` are the volumetric heat capacities of the saturated aquifer and of water [J/(m³ K)], ``q``
+the Darcy velocity [m/s], ``b`` the saturated thickness [m], ``Q dT_inj`` the product of injection rate
+[m³/s] and injection temperature difference [K]. The thermal dispersion is conduction plus mechanical
+dispersion, ``L_L = lambda_m + alpha_L C_w q`` (likewise ``L_T``). Dividing by ``C_a`` gives the thermal
+velocity ``u = q C_w / C_a`` (the thermal front lags the water by the retardation ``C_a / (n C_w)``) and
+``D_L = alpha_L u + lambda_m / C_a``, ``D_T = alpha_T u + lambda_m / C_a`` [m²/s].
+
+With ``m = C_w Q dT_inj / (b C_a)`` the continuous source is the time integral of instantaneous Gaussian
+puffs drifting at ``u``::
+
+    T(x, y, t) = m / (4 pi sqrt(D_L D_T)) * int_0^t exp(-(x - u s)² / (4 D_L s) - y² / (4 D_T s)) ds / s
+
+Expanding the square takes ``exp(x u / (2 D_L))`` out of the integral. With ``rho² = x²/D_L + y²/D_T``,
+``beta = u rho / (2 sqrt(D_L))`` and the substitution ``s = s* e^v``, ``s* = rho sqrt(D_L) / u``, the
+exponent becomes ``-beta cosh(v)``, so that::
+
+    T(x, y, t) = m / (4 pi sqrt(D_L D_T)) exp(x u / (2 D_L)) int_{-inf}^{ln(t/s*)} exp(-beta cosh v) dv
+
+which is the Hantush leaky-well function form ``W(0, beta) - W(u² t / (4 D_L), beta)``. As ``t -> inf``
+the integral is ``2 K0(beta)`` (the integral representation of the modified Bessel function), giving the
+steady state::
+
+    T(x, y) = C_w Q dT_inj / (2 pi b C_a sqrt(D_L D_T)) * exp(x u / (2 D_L)) * K0(beta)
+
+The same result follows directly from the steady equation: with ``T = exp(x u / (2 D_L)) phi`` and the
+coordinates scaled by ``sqrt(D_L)``, ``sqrt(D_T)``, ``phi`` solves the modified Helmholtz equation whose
+point-source solution is ``K0 / (2 pi)``. Far from the well (``beta >> 1``, no conduction) the asymptotic form
+``K0(z) ~ sqrt(pi / (2 z)) e^-z`` recovers the published LAHM expression (Kinzelbach 1987, as written in
+Pophillat et al. 2020) with its error function set to its large-time value 2.
+
+Heat balance. Integrated across the flow the steady equation becomes one-dimensional; its bounded solution is
+constant down-gradient, ``int T dy = m / u``, so the advective heat flux ``C_w q b int T dy`` equals the
+injected ``C_w Q dT_inj`` at every distance down-gradient and the longitudinal dispersive flux there is zero
+(the heat that disperses up-gradient returns). ``tests/test_plume.py`` checks this numerically.
+
+Linearity. The plume shape does not depend on ``Q``: the well enters only as the source strength, so the
+solution is linear in the product ``Q dT_inj``. This is also the model's main simplification near the well,
+where the injected water really pushes the groundwater aside (see :func:`validity_notes`).
+
+Numerics. The steady state uses the exponentially scaled ``k0e`` so that ``exp(x u / (2 D_L) - beta)`` is
+evaluated with an exponent that is never positive. The transient integral uses the symmetry of
+``cosh``: it equals ``k0e(beta) +/- int_0^|v_max| exp(-beta (cosh v - 1)) dv`` (times ``exp(-beta)``),
+evaluated by Gauss-Legendre quadrature over a range cut where the integrand is below ``e^-50``. Without flow
+(``q = 0``) the transient is the conduction line source ``m / (4 pi D) E1(r² / (4 D t))`` (``exp1``).
+
+Near-well clipping. The line source is singular at the well (``K0`` grows like ``-ln``); no real temperature
+change exceeds the injected one, so results are clipped to ``|T| <= |dT_inj|``. Within roughly the width of the
+injected water's stream tube, ``Q / (b q)``, the model is not valid at all.
+
+Screening only: homogeneous aquifer, uniform flow, no heat exchange with the confining layers, no hydraulic
+effect of the wells. Results are screening estimates; a permit needs the numerical groundwater model the water
+authority asks for, and decisions belong to licensed engineers and the local authority.
+
+References
+----------
+.. [1] Kinzelbach, W. (1987). Numerische Methoden zur Modellierung des Transports von Schadstoffen im
+   Grundwasser. Oldenbourg, Munich.
+.. [2] Haehnlein, S., Bayer, P. and Blum, P. (2010). International legal status of the use of shallow
+   geothermal energy. Renewable and Sustainable Energy Reviews 14(9), 2611-2625.
+.. [3] Pophillat, W., Attard, G., Bayer, P., Hecht-Mendez, J. and Blum, P. (2020). Analytical solutions for
+   predicting thermal plumes of groundwater heat pump systems. Renewable Energy 147, 2696-2707.
+.. [4] Hantush, M. S. and Jacob, C. E. (1955). Non-steady radial flow in an infinite leaky aquifer.
+   Transactions, American Geophysical Union 36(1), 95-100.
+.. [5] Carslaw, H. S. and Jaeger, J. C. (1959). Conduction of Heat in Solids, 2nd ed. Oxford University Press
+   (continuous line source, section 10.4).
+.. [6] Abramowitz, M. and Stegun, I. A. (1964). Handbook of Mathematical Functions. National Bureau of
+   Standards (integral representation of K0, 9.6.24).
+.. [7] Snyder, J. P. (1987). Map Projections: A Working Manual. U.S. Geological Survey Professional Paper 1395
+   (equirectangular projection, chapter 12).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import special
+
+EARTH_RADIUS_M = 6_371_008.8
+"""Mean Earth radius R1 of GRS 80 [m] (Moritz 2000, Journal of Geodesy 74, 128-133)."""
+
+SECONDS_PER_DAY = 86_400.0
+
+DEFAULT_THERMAL_CONDUCTIVITY_W_PER_M_K = 2.0
+"""Thermal conductivity of a water-saturated sand or gravel aquifer [W/(m K)]; a typical handbook value,
+quoted from memory (saturated unconsolidated sediments lie roughly between 1.5 and 2.5 W/(m K))."""
+
+SCREENING_CAUTION = (
+    "Screening estimate only: an analytic plume model in a uniform, homogeneous aquifer. It does not replace "
+    "the numerical groundwater model a well permit requires; defer to the water authority, local codes and "
+    "licensed engineers."
+)
+
+_QUADRATURE_NODES, _QUADRATURE_WEIGHTS = np.polynomial.legendre.leggauss(128)
+_INTEGRAND_CUTOFF = 50.0  # the transient integrand is cut where it falls below exp(-50) of its peak
+_CHUNK = 20_000  # points per quadrature block, to bound memory (points x nodes)
+_MAX_ISOTHERM_RADIUS_M = 1.0e7
+
+
+# ----------------------------------------------------------------------------- argument checks
+def _scalar(value, name: str, *, minimum: float | None = None, strictly: bool = False) -> float:
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise ValueError(f"{name} must be a number; got {value!r}") from None
+    if not np.isfinite(number):
+        raise ValueError(f"{name} must be finite; got {number}")
+    if minimum is not None:
+        if strictly and number <= minimum:
+            raise ValueError(f"{name} must be greater than {minimum:g}; got {number:g}")
+        if not strictly and number < minimum:
+            raise ValueError(f"{name} must be at least {minimum:g}; got {number:g}")
+    return number
+
+
+def _array(value, name: str) -> np.ndarray:
+    try:
+        array = np.asarray(value, dtype=float)
+    except (TypeError, ValueError):
+        raise ValueError(f"{name} must be numeric; got {value!r}") from None
+    if not np.all(np.isfinite(array)):
+        raise ValueError(f"{name} must be finite; got a NaN or infinite value")
+    return array
+
+
+def _as_result(array: np.ndarray):
+    return array[()] if array.ndim == 0 else array
+
+
+def _transport_coefficients(
+    darcy_velocity_m_per_s,
+    longitudinal_dispersivity_m,
+    transverse_dispersivity_m,
+    aquifer_heat_capacity_j_per_m3_k,
+    water_heat_capacity_j_per_m3_k,
+    thermal_conductivity_w_per_m_k,
+):
+    """Thermal velocity u [m/s] and dispersion coefficients D_L, D_T [m²/s], after checking the arguments."""
+    q = _scalar(darcy_velocity_m_per_s, "darcy_velocity_m_per_s", minimum=0.0)
+    alpha_l = _scalar(longitudinal_dispersivity_m, "longitudinal_dispersivity_m", minimum=0.0)
+    alpha_t = _scalar(transverse_dispersivity_m, "transverse_dispersivity_m", minimum=0.0)
+    c_a = _scalar(aquifer_heat_capacity_j_per_m3_k, "aquifer_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
+    c_w = _scalar(water_heat_capacity_j_per_m3_k, "water_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
+    lam = _scalar(thermal_conductivity_w_per_m_k, "thermal_conductivity_w_per_m_k", minimum=0.0)
+    u = q * c_w / c_a
+    d_l = alpha_l * u + lam / c_a
+    d_t = alpha_t * u + lam / c_a
+    if d_l <= 0.0:
+        raise ValueError(
+            "longitudinal_dispersivity_m and thermal_conductivity_w_per_m_k are both zero (or there is no flow): "
+            "the longitudinal dispersion coefficient must be positive"
+        )
+    if d_t <= 0.0:
+        raise ValueError(
+            "transverse_dispersivity_m and thermal_conductivity_w_per_m_k are both zero (or there is no flow): "
+            "the transverse dispersion coefficient must be positive"
+        )
+    return u, d_l, d_t, c_w / c_a
+
+
+def _gauss_legendre(function, lower: np.ndarray, upper: np.ndarray, beta: np.ndarray) -> np.ndarray:
+    """Integral of ``function(v, beta)`` from ``lower`` to ``upper`` (1-D arrays) by 128-node Gauss-Legendre."""
+    total = np.empty_like(lower)
+    for start in range(0, lower.size, _CHUNK):
+        block = slice(start, start + _CHUNK)
+        half = 0.5 * (upper[block] - lower[block])
+        mid = 0.5 * (upper[block] + lower[block])
+        nodes = mid[:, None] + half[:, None] * _QUADRATURE_NODES[None, :]
+        values = function(nodes, beta[block][:, None])
+        total[block] = half * (values @ _QUADRATURE_WEIGHTS)
+    return total
+
+
+def _scaled_cosh_integrand(v: np.ndarray, beta: np.ndarray) -> np.ndarray:
+    # exp(-beta (cosh v - 1)), written with expm1-free cosh: cosh v - 1 = 2 sinh²(v/2) keeps precision near 0
+    return np.exp(-2.0 * beta * np.sinh(0.5 * v) ** 2)
+
+
+def _incomplete_cosh_integral_scaled(beta: np.ndarray, v_max: np.ndarray) -> np.ndarray:
+    """``exp(beta) * int_{-inf}^{v_max} exp(-beta cosh v) dv`` for beta > 0 (1-D arrays).
+
+    Equals ``2 k0e(beta)`` as ``v_max -> inf``. Uses the symmetry of cosh so that no large numbers cancel.
+    """
+    cut = np.arccosh(1.0 + _INTEGRAND_CUTOFF / beta)
+    result = np.zeros_like(beta)
+    ahead = v_max >= 0.0
+    if np.any(ahead):
+        upper = np.minimum(v_max[ahead], cut[ahead])
+        result[ahead] = special.k0e(beta[ahead]) + _gauss_legendre(
+            _scaled_cosh_integrand, np.zeros_like(upper), upper, beta[ahead]
+        )
+    behind = (~ahead) & (-v_max < cut)
+    if np.any(behind):
+        result[behind] = _gauss_legendre(_scaled_cosh_integrand, -v_max[behind], cut[behind], beta[behind])
+    return result
+
+
+# ----------------------------------------------------------------------------- plume physics
+def unit_plume_response_s_per_m3(
+    x_m,
+    y_m,
+    darcy_velocity_m_per_s,
+    saturated_thickness_m,
+    longitudinal_dispersivity_m,
+    transverse_dispersivity_m,
+    aquifer_heat_capacity_j_per_m3_k=2.8e6,
+    water_heat_capacity_j_per_m3_k=4.18e6,
+    thermal_conductivity_w_per_m_k=DEFAULT_THERMAL_CONDUCTIVITY_W_PER_M_K,
+    time_s=None,
+):
+    """Temperature change per unit injected ``Q * dT_inj`` of a continuous line source, unclipped.
+
+    The kernel of :func:`plume_temperature_change_k`: multiply by ``Q * dT_inj`` [m³/s K] to get kelvin. It is
+    not clipped, so it is infinite at the well itself; see the module docstring for the formula.
+
+    Parameters
+    ----------
+    x_m : float or array_like
+        Distance along the groundwater flow from the reinjection well (negative up-gradient). [m]
+    y_m : float or array_like
+        Distance across the flow from the reinjection well. [m] Broadcast against ``x_m``.
+    darcy_velocity_m_per_s : float
+        Darcy velocity (specific discharge) of the undisturbed groundwater flow. [m/s] Must be positive for
+        the steady state; zero is allowed for the transient (pure conduction).
+    saturated_thickness_m : float
+        Saturated thickness of the confined aquifer, fully penetrated by the well. [m]
+    longitudinal_dispersivity_m, transverse_dispersivity_m : float
+        Dispersivities along and across the flow. [m]
+    aquifer_heat_capacity_j_per_m3_k : float, default 2.8e6
+        Volumetric heat capacity of the saturated aquifer. [J/(m³ K)]
+    water_heat_capacity_j_per_m3_k : float, default 4.18e6
+        Volumetric heat capacity of water. [J/(m³ K)]
+    thermal_conductivity_w_per_m_k : float, default 2.0
+        Thermal conductivity of the saturated aquifer. [W/(m K)]
+    time_s : None, float or array_like, optional
+        Time since injection started. [s] None gives the steady state. Broadcast against ``x_m``, ``y_m``.
+
+    Returns
+    -------
+    numpy.ndarray or float
+        Temperature change per unit ``Q * dT_inj``. [K / (m³/s K)] = [s/m³]
+
+    Raises
+    ------
+    ValueError
+        Naming the first argument that is not finite, negative where it must not be, or inconsistent (no flow
+        in steady state, zero dispersion).
+
+    References
+    ----------
+    Kinzelbach (1987); Pophillat et al. (2020); Hantush and Jacob (1955); Carslaw and Jaeger (1959),
+    full citations in the module docstring.
+    """
+    x = _array(x_m, "x_m")
+    y = _array(y_m, "y_m")
+    b = _scalar(saturated_thickness_m, "saturated_thickness_m", minimum=0.0, strictly=True)
+    u, d_l, d_t, capacity_ratio = _transport_coefficients(
+        darcy_velocity_m_per_s,
+        longitudinal_dispersivity_m,
+        transverse_dispersivity_m,
+        aquifer_heat_capacity_j_per_m3_k,
+        water_heat_capacity_j_per_m3_k,
+        thermal_conductivity_w_per_m_k,
+    )
+    steady_coefficient = capacity_ratio / (2.0 * np.pi * b * np.sqrt(d_l * d_t))
+    if time_s is None:
+        if u <= 0.0:
+            raise ValueError(
+                "darcy_velocity_m_per_s must be positive for the steady state (time_s=None): without flow a "
+                "2-D continuous source never settles; give time_s"
+            )
+        x, y = np.broadcast_arrays(x, y)
+        rho = np.sqrt(x**2 / d_l + y**2 / d_t)  # [s^0.5]
+        beta = u * rho / (2.0 * np.sqrt(d_l))
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            # x u / (2 D_L) <= beta always, so the exponent is never positive; k0e(0) = inf at the well
+            response = steady_coefficient * np.exp(x * u / (2.0 * d_l) - beta) * special.k0e(beta)
+        return _as_result(np.where(beta == 0.0, np.inf, response))
+
+    t = _array(time_s, "time_s")
+    if np.any(t <= 0.0):
+        raise ValueError(f"time_s must be positive; got {float(np.min(t)):g} s")
+    x, y, t = np.broadcast_arrays(x, y, t)
+    shape = x.shape
+    x, y, t = x.ravel(), y.ravel(), t.ravel()
+    rho = np.sqrt(x**2 / d_l + y**2 / d_t)
+    response = np.full(x.shape, np.inf)
+    away = rho > 0.0
+    if u <= 0.0:
+        # pure conduction, D_L = D_T: continuous line source of Carslaw and Jaeger, E1(r² / (4 D t))
+        response[away] = 0.5 * steady_coefficient * special.exp1(rho[away] ** 2 / (4.0 * t[away]))
+        return _as_result(response.reshape(shape))
+    beta = u * rho[away] / (2.0 * np.sqrt(d_l))
+    centre_time = rho[away] * np.sqrt(d_l) / u  # time at which the puff integrand peaks [s]
+    v_max = np.log(t[away] / centre_time)
+    integral = _incomplete_cosh_integral_scaled(beta, v_max)
+    with np.errstate(over="ignore", invalid="ignore"):
+        response[away] = 0.5 * steady_coefficient * np.exp(x[away] * u / (2.0 * d_l) - beta) * integral
+    return _as_result(response.reshape(shape))
+
+
+def plume_temperature_change_k(
+    x_m,
+    y_m,
+    injection_rate_m3_per_s,
+    injection_temp_change_k,
+    darcy_velocity_m_per_s,
+    saturated_thickness_m,
+    longitudinal_dispersivity_m,
+    transverse_dispersivity_m,
+    aquifer_heat_capacity_j_per_m3_k=2.8e6,
+    water_heat_capacity_j_per_m3_k=4.18e6,
+    thermal_conductivity_w_per_m_k=DEFAULT_THERMAL_CONDUCTIVITY_W_PER_M_K,
+    time_s=None,
+):
+    """Groundwater temperature change around a reinjection well (continuous line source, Kinzelbach 1987).
+
+    Steady state::
+
+        dT(x, y) = C_w Q dT_inj / (2 pi b C_a sqrt(D_L D_T)) exp(x u / (2 D_L)) K0(beta)
+
+    with ``u = q C_w / C_a``, ``D_L = alpha_L u + lambda_m / C_a``, ``D_T = alpha_T u + lambda_m / C_a`` and
+    ``beta = (u / (2 sqrt(D_L))) sqrt(x² / D_L + y² / D_T)``; the transient replaces ``2 K0`` by the
+    incomplete (Hantush) integral, see the module docstring for the derivation.
+
+    The model is singular at the well; the result is clipped so that ``|dT| <= |dT_inj|``. Within about
+    ``Q / (b q)`` of the well, where the injected water displaces the groundwater, the line source is not a
+    valid description (:func:`validity_notes`). Screening estimate only.
+
+    Parameters
+    ----------
+    x_m : float or array_like
+        Distance along the groundwater flow from the reinjection well (negative up-gradient). [m]
+    y_m : float or array_like
+        Distance across the flow. [m] Broadcast against ``x_m``.
+    injection_rate_m3_per_s : float
+        Reinjected volume flow. [m³/s] Not negative.
+    injection_temp_change_k : float
+        Reinjection temperature minus undisturbed groundwater temperature. [K] Negative for cold water
+        (heating), positive for warm water (cooling).
+    darcy_velocity_m_per_s : float
+        Darcy velocity (specific discharge). [m/s]
+    saturated_thickness_m : float
+        Saturated thickness of the confined aquifer. [m]
+    longitudinal_dispersivity_m, transverse_dispersivity_m : float
+        Dispersivities along and across the flow. [m]
+    aquifer_heat_capacity_j_per_m3_k : float, default 2.8e6
+        Volumetric heat capacity of the saturated aquifer. [J/(m³ K)]
+    water_heat_capacity_j_per_m3_k : float, default 4.18e6
+        Volumetric heat capacity of water. [J/(m³ K)]
+    thermal_conductivity_w_per_m_k : float, default 2.0
+        Thermal conductivity of the saturated aquifer (typical handbook value, from memory). [W/(m K)]
+    time_s : None, float or array_like, optional
+        Time since continuous injection started. [s] None (default) gives the steady state.
+
+    Returns
+    -------
+    numpy.ndarray or float
+        Temperature change of the groundwater, same sign as ``injection_temp_change_k``. [K]
+
+    Raises
+    ------
+    ValueError
+        Naming the argument that is not finite, out of range or inconsistent.
+
+    References
+    ----------
+    Kinzelbach (1987); Haehnlein et al. (2010); Pophillat et al. (2020), full citations in the module docstring.
+    """
+    rate = _scalar(injection_rate_m3_per_s, "injection_rate_m3_per_s", minimum=0.0)
+    delta = _scalar(injection_temp_change_k, "injection_temp_change_k")
+    response = np.asarray(
+        unit_plume_response_s_per_m3(
+            x_m,
+            y_m,
+            darcy_velocity_m_per_s,
+            saturated_thickness_m,
+            longitudinal_dispersivity_m,
+            transverse_dispersivity_m,
+            aquifer_heat_capacity_j_per_m3_k,
+            water_heat_capacity_j_per_m3_k,
+            thermal_conductivity_w_per_m_k,
+            time_s,
+        )
+    )
+    if rate == 0.0 or delta == 0.0:
+        return _as_result(np.zeros_like(response))
+    magnitude = np.minimum(rate * abs(delta) * response, abs(delta))
+    return _as_result(np.sign(delta) * magnitude)
+
+
+# ----------------------------------------------------------------------------- coordinates
+def to_flow_frame(dx_east_m, dy_north_m, flow_direction_deg):
+    """Rotate east/north offsets from a well into the flow frame (x along the flow, y across it).
+
+    Parameters
+    ----------
+    dx_east_m, dy_north_m : float or array_like
+        Offset of the points from the well, east and north. [m]
+    flow_direction_deg : float
+        Direction the groundwater flows TO, clockwise from north (90 = flowing east). [°]
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        ``(x_along_m, y_across_m)``: distance down-gradient and distance to the left of the flow. [m]
+
+    Raises
+    ------
+    ValueError
+        If an argument is not finite.
+    """
+    dx = _array(dx_east_m, "dx_east_m")
+    dy = _array(dy_north_m, "dy_north_m")
+    angle = np.radians(_scalar(flow_direction_deg, "flow_direction_deg"))
+    # unit vector of the flow in (east, north) is (sin a, cos a); the left normal is (-cos a, sin a)
+    x_along = dx * np.sin(angle) + dy * np.cos(angle)
+    y_across = -dx * np.cos(angle) + dy * np.sin(angle)
+    return _as_result(x_along), _as_result(y_across)
+
+
+def from_flow_frame(x_along_m, y_across_m, flow_direction_deg):
+    """Inverse of :func:`to_flow_frame`: flow-frame coordinates back to east/north offsets.
+
+    Parameters
+    ----------
+    x_along_m, y_across_m : float or array_like
+        Distance down-gradient and to the left of the flow. [m]
+    flow_direction_deg : float
+        Direction the groundwater flows TO, clockwise from north. [°]
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        ``(dx_east_m, dy_north_m)``. [m]
+    """
+    x = _array(x_along_m, "x_along_m")
+    y = _array(y_across_m, "y_across_m")
+    angle = np.radians(_scalar(flow_direction_deg, "flow_direction_deg"))
+    dx_east = x * np.sin(angle) - y * np.cos(angle)
+    dy_north = x * np.cos(angle) + y * np.sin(angle)
+    return _as_result(dx_east), _as_result(dy_north)
+
+
+def _check_latitude(lat: np.ndarray, name: str) -> None:
+    if np.any(np.abs(lat) > 90.0):
+        raise ValueError(f"{name} must lie between -90 and 90 degrees; got {float(np.max(np.abs(lat))):g}")
+
+
+def lonlat_to_local_m(lon, lat, lon0, lat0):
+    """WGS 84 longitude/latitude to local east/north metres about a reference point (equirectangular).
+
+    ``x = R cos(lat0) (lon - lon0)``, ``y = R (lat - lat0)`` with angles in radians and R the mean Earth
+    radius. Over a few kilometres, the scale of well interference, the error is far below a metre per
+    kilometre; it is not meant for distances of hundreds of kilometres.
+
+    Parameters
+    ----------
+    lon, lat : float or array_like
+        Position. [° WGS 84]
+    lon0, lat0 : float
+        Reference point (origin of the local frame). [° WGS 84]
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        ``(x_east_m, y_north_m)``. [m]
+
+    References
+    ----------
+    Snyder (1987), Map Projections: A Working Manual, chapter 12.
+    """
+    lon = _array(lon, "lon")
+    lat = _array(lat, "lat")
+    lon0 = _scalar(lon0, "lon0")
+    lat0 = _scalar(lat0, "lat0")
+    _check_latitude(lat, "lat")
+    if abs(lat0) >= 89.0:
+        raise ValueError(f"lat0 must lie within 89 degrees of the equator for a local frame; got {lat0:g}")
+    dlon = (lon - lon0 + 180.0) % 360.0 - 180.0  # across the antimeridian as well
+    x_east = EARTH_RADIUS_M * np.cos(np.radians(lat0)) * np.radians(dlon)
+    y_north = EARTH_RADIUS_M * np.radians(lat - lat0)
+    return _as_result(x_east), _as_result(y_north)
+
+
+def local_m_to_lonlat(x_east, y_north, lon0, lat0):
+    """Inverse of :func:`lonlat_to_local_m`: local east/north metres to WGS 84 longitude/latitude.
+
+    Parameters
+    ----------
+    x_east, y_north : float or array_like
+        Offset from the reference point. [m]
+    lon0, lat0 : float
+        Reference point. [° WGS 84]
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        ``(lon, lat)``. [° WGS 84]
+
+    References
+    ----------
+    Snyder (1987), Map Projections: A Working Manual, chapter 12.
+    """
+    x = _array(x_east, "x_east")
+    y = _array(y_north, "y_north")
+    lon0 = _scalar(lon0, "lon0")
+    lat0 = _scalar(lat0, "lat0")
+    if abs(lat0) >= 89.0:
+        raise ValueError(f"lat0 must lie within 89 degrees of the equator for a local frame; got {lat0:g}")
+    lon = lon0 + np.degrees(x / (EARTH_RADIUS_M * np.cos(np.radians(lat0))))
+    lat = lat0 + np.degrees(y / EARTH_RADIUS_M)
+    return _as_result(lon), _as_result(lat)
+
+
+# ----------------------------------------------------------------------------- doublets
+def plume_parameters_from_aquifer(aquifer, thermal_conductivity_w_per_m_k=DEFAULT_THERMAL_CONDUCTIVITY_W_PER_M_K):
+    """Keyword arguments in SI units for the plume functions from an ``[aquifer]`` description.
+
+    Parameters
+    ----------
+    aquifer : object
+        Anything with the attributes of :class:`engine.inputs.Aquifer`: ``flow_direction_deg`` [°],
+        ``darcy_velocity_m_per_d`` [m/d], ``saturated_thickness_m`` [m], ``longitudinal_dispersivity_m`` and
+        ``transverse_dispersivity_m`` [m], ``aquifer_heat_capacity_mj_per_m3_k`` and
+        ``water_heat_capacity_mj_per_m3_k`` [MJ/(m³ K)].
+    thermal_conductivity_w_per_m_k : float, default 2.0
+        Thermal conductivity of the saturated aquifer (not part of the scenario file). [W/(m K)]
+
+    Returns
+    -------
+    dict
+        ``flow_direction_deg``, ``darcy_velocity_m_per_s``, ``saturated_thickness_m``,
+        ``longitudinal_dispersivity_m``, ``transverse_dispersivity_m``, ``aquifer_heat_capacity_j_per_m3_k``,
+        ``water_heat_capacity_j_per_m3_k``, ``thermal_conductivity_w_per_m_k``: exactly the keywords of
+        :func:`interference_matrix_k_per_unit` and :func:`isotherm_polygon_lonlat`.
+    """
+    return {
+        "flow_direction_deg": float(aquifer.flow_direction_deg),
+        "darcy_velocity_m_per_s": float(aquifer.darcy_velocity_m_per_d) / SECONDS_PER_DAY,
+        "saturated_thickness_m": float(aquifer.saturated_thickness_m),
+        "longitudinal_dispersivity_m": float(aquifer.longitudinal_dispersivity_m),
+        "transverse_dispersivity_m": float(aquifer.transverse_dispersivity_m),
+        "aquifer_heat_capacity_j_per_m3_k": float(aquifer.aquifer_heat_capacity_mj_per_m3_k) * 1e6,
+        "water_heat_capacity_j_per_m3_k": float(aquifer.water_heat_capacity_mj_per_m3_k) * 1e6,
+        "thermal_conductivity_w_per_m_k": float(thermal_conductivity_w_per_m_k),
+    }
+
+
+def interference_matrix_k_per_unit(
+    reinjection_lon,
+    reinjection_lat,
+    extraction_lon,
+    extraction_lat,
+    flow_direction_deg,
+    darcy_velocity_m_per_s,
+    saturated_thickness_m,
+    longitudinal_dispersivity_m,
+    transverse_dispersivity_m,
+    aquifer_heat_capacity_j_per_m3_k=2.8e6,
+    water_heat_capacity_j_per_m3_k=4.18e6,
+    thermal_conductivity_w_per_m_k=DEFAULT_THERMAL_CONDUCTIVITY_W_PER_M_K,
+    time_s=None,
+):
+    """Temperature change at every extraction well per unit ``Q * dT_inj`` at every reinjection well.
+
+    Entry ``[i, j]`` is the plume response of reinjection well ``i`` at extraction well ``j``
+    (:func:`unit_plume_response_s_per_m3`). Because the line-source model is linear in ``Q * dT_inj``, the
+    temperature shift at extraction well ``j`` is ``sum_i M[i, j] Q_i dT_i``; use
+    :func:`extraction_temperature_shift_k`, which also applies the near-well clipping. The diagonal is each
+    doublet's own recirculation (its reinjection plume at its own extraction well); the model ignores the
+    drawdown cone of the extraction well, which in reality pulls water towards it, so a diagonal entry is
+    a crude indicator only (usually near zero, as extraction wells sit up-gradient). Entries are not clipped
+    and are infinite where a reinjection and an extraction well coincide. Screening estimate only.
+
+    Parameters
+    ----------
+    reinjection_lon, reinjection_lat : array_like, shape (n,)
+        Reinjection well positions. [° WGS 84]
+    extraction_lon, extraction_lat : array_like, shape (n,)
+        Extraction well positions of the same n doublets. [° WGS 84]
+    flow_direction_deg : float
+        Direction the groundwater flows TO, clockwise from north. [°]
+    darcy_velocity_m_per_s, saturated_thickness_m, longitudinal_dispersivity_m, transverse_dispersivity_m,
+    aquifer_heat_capacity_j_per_m3_k, water_heat_capacity_j_per_m3_k, thermal_conductivity_w_per_m_k, time_s
+        As in :func:`plume_temperature_change_k`. [m/s], [m], [m], [m], [J/(m³ K)], [J/(m³ K)], [W/(m K)], [s]
+
+    Returns
+    -------
+    numpy.ndarray, shape (n, n)
+        ``M[i, j]``, temperature change at extraction well j per unit ``Q * dT_inj`` at reinjection well i.
+        [K / (m³/s K)] = [s/m³]
+
+    Raises
+    ------
+    ValueError
+        If the position arrays differ in length or hold non-finite values, or an aquifer argument is bad.
+
+    References
+    ----------
+    Kinzelbach (1987); Pophillat et al. (2020), full citations in the module docstring.
+    """
+    positions = {
+        "reinjection_lon": reinjection_lon,
+        "reinjection_lat": reinjection_lat,
+        "extraction_lon": extraction_lon,
+        "extraction_lat": extraction_lat,
+    }
+    arrays = {name: np.atleast_1d(_array(value, name)) for name, value in positions.items()}
+    for name, array in arrays.items():
+        if array.ndim != 1:
+            raise ValueError(f"{name} must be one-dimensional; got shape {array.shape}")
+    sizes = {name: array.size for name, array in arrays.items()}
+    if len(set(sizes.values())) != 1:
+        raise ValueError(f"reinjection and extraction positions must have the same length; got {sizes}")
+    _check_latitude(arrays["reinjection_lat"], "reinjection_lat")
+    _check_latitude(arrays["extraction_lat"], "extraction_lat")
+    if sizes["reinjection_lon"] == 0:
+        return np.zeros((0, 0))
+    lon0 = float(np.mean(np.concatenate([arrays["reinjection_lon"], arrays["extraction_lon"]])))
+    lat0 = float(np.mean(np.concatenate([arrays["reinjection_lat"], arrays["extraction_lat"]])))
+    source_east, source_north = lonlat_to_local_m(arrays["reinjection_lon"], arrays["reinjection_lat"], lon0, lat0)
+    target_east, target_north = lonlat_to_local_m(arrays["extraction_lon"], arrays["extraction_lat"], lon0, lat0)
+    x_along, y_across = to_flow_frame(
+        target_east[None, :] - source_east[:, None], target_north[None, :] - source_north[:, None], flow_direction_deg
+    )
+    return np.asarray(
+        unit_plume_response_s_per_m3(
+            x_along,
+            y_across,
+            darcy_velocity_m_per_s,
+            saturated_thickness_m,
+            longitudinal_dispersivity_m,
+            transverse_dispersivity_m,
+            aquifer_heat_capacity_j_per_m3_k,
+            water_heat_capacity_j_per_m3_k,
+            thermal_conductivity_w_per_m_k,
+            time_s,
+        ),
+        dtype=float,
+    ).reshape(x_along.shape)
+
+
+def extraction_temperature_shift_k(interference_matrix, injection_rate_m3_per_s, injection_temp_change_k):
+    """Temperature shift at each extraction well from all reinjection plumes (superposition with clipping).
+
+    ``shift_j = sum_i clip(M[i, j] Q_i dT_i)``, each term clipped to ``|dT_i|`` (the near-well clipping of
+    :func:`plume_temperature_change_k`) and the sum clipped to the range spanned by zero and the injected
+    temperature differences, which no mixture of the injected waters can leave.
+
+    Parameters
+    ----------
+    interference_matrix : array_like, shape (n, n)
+        From :func:`interference_matrix_k_per_unit`. [K / (m³/s K)]
+    injection_rate_m3_per_s : array_like, shape (n,)
+        Reinjected volume flow of each doublet. [m³/s] Not negative.
+    injection_temp_change_k : array_like, shape (n,)
+        Reinjection minus undisturbed groundwater temperature of each doublet. [K] Negative for heating.
+
+    Returns
+    -------
+    numpy.ndarray, shape (n,)
+        Temperature change of the water reaching each extraction well. [K]
+
+    Raises
+    ------
+    ValueError
+        If the shapes do not match, a rate is negative or a value is not finite (NaN; the matrix may hold +inf).
+    """
+    matrix = np.asarray(interference_matrix, dtype=float)
+    rate = np.atleast_1d(_array(injection_rate_m3_per_s, "injection_rate_m3_per_s"))
+    delta = np.atleast_1d(_array(injection_temp_change_k, "injection_temp_change_k"))
+    if matrix.ndim != 2 or matrix.shape[0] != matrix.shape[1]:
+        raise ValueError(f"interference_matrix must be square; got shape {matrix.shape}")
+    if np.any(np.isnan(matrix)) or np.any(matrix < 0.0):
+        raise ValueError("interference_matrix must hold non-negative numbers (NaN or negative found)")
+    n = matrix.shape[0]
+    if rate.shape != (n,):
+        raise ValueError(f"injection_rate_m3_per_s must have {n} values; got shape {rate.shape}")
+    if delta.shape != (n,):
+        raise ValueError(f"injection_temp_change_k must have {n} values; got shape {delta.shape}")
+    if np.any(rate < 0.0):
+        raise ValueError(f"injection_rate_m3_per_s must not be negative; got {float(np.min(rate)):g}")
+    strength = rate * np.abs(delta)
+    with np.errstate(invalid="ignore"):
+        magnitude = np.where(strength[:, None] > 0.0, matrix * strength[:, None], 0.0)
+    terms = np.sign(delta)[:, None] * np.minimum(magnitude, np.abs(delta)[:, None])
+    shift = terms.sum(axis=0)
+    return np.clip(shift, min(0.0, float(delta.min(initial=0.0))), max(0.0, float(delta.max(initial=0.0))))
+
+
+# ----------------------------------------------------------------------------- isotherms
+def _ray_radius_bisect(evaluate, directions: np.ndarray, level: float, lower: np.ndarray, upper: np.ndarray):
+    """Radius on each ray where ``evaluate`` crosses ``level``, bisecting in log radius; f(lower) >= level > f(upper)."""
+    log_lo, log_hi = np.log(lower), np.log(upper)
+    for _ in range(60):
+        log_mid = 0.5 * (log_lo + log_hi)
+        inside = evaluate(np.exp(log_mid)[:, None] * directions) >= level
+        log_lo = np.where(inside, log_mid, log_lo)
+        log_hi = np.where(inside, log_hi, log_mid)
+    return np.exp(0.5 * (log_lo + log_hi))
+
+
+def _isotherm_radii(evaluate_steady, evaluate, directions: np.ndarray, level: float, transient: bool) -> np.ndarray:
+    """Outermost radius of the level on each ray (directions: (k, 2) unit vectors in the flow frame)."""
+    count = directions.shape[0]
+    lower = np.ones(count)
+    upper = np.ones(count)
+    # bracket the steady crossing: the steady plume decreases strictly along every ray from the well
+    for _ in range(80):
+        too_far = evaluate_steady(lower[:, None] * directions) < level
+        if not np.any(too_far):
+            break
+        lower = np.where(too_far, lower / 4.0, lower)
+    for _ in range(80):
+        reached = evaluate_steady(upper[:, None] * directions) >= level
+        if not np.any(reached):
+            break
+        if np.any(upper[reached] > _MAX_ISOTHERM_RADIUS_M):
+            raise ValueError(
+                "level_k: the isotherm reaches beyond 10 000 km, far outside where the model means anything; "
+                "check darcy_velocity_m_per_s and the injection figures"
+            )
+        upper = np.where(reached, upper * 4.0, upper)
+    upper = np.maximum(upper, lower * 1.0001)
+    steady_radius = _ray_radius_bisect(evaluate_steady, directions, level, lower, upper)
+    if not transient:
+        return steady_radius
+    # the transient plume lies inside the steady one (its integrand is positive, its range shorter);
+    # sample each ray and bisect after the outermost sample at or above the level
+    fractions = np.geomspace(1e-6, 1.0, 240)
+    radii = steady_radius[:, None] * fractions[None, :]
+    values = evaluate(radii[:, :, None] * directions[:, None, :])
+    above = values >= level
+    has_crossing = above.any(axis=1)
+    last = np.where(has_crossing, above.shape[1] - 1 - np.argmax(above[:, ::-1], axis=1), 0)
+    result = np.zeros(count)
+    ray = np.flatnonzero(has_crossing)
+    if ray.size == 0:
+        return result
+    inner = radii[ray, last[ray]]
+    outer = np.where(last[ray] + 1 < radii.shape[1], radii[ray, np.minimum(last[ray] + 1, radii.shape[1] - 1)], inner)
+    done = last[ray] + 1 >= radii.shape[1]
+    bisected = _ray_radius_bisect(evaluate, directions[ray], level, inner, np.maximum(outer, inner * 1.0001))
+    result[ray] = np.where(done, inner, bisected)
+    return result
+
+
+def isotherm_polygon_lonlat(
+    level_k,
+    reinjection_lon,
+    reinjection_lat,
+    injection_rate_m3_per_s,
+    injection_temp_change_k,
+    flow_direction_deg,
+    darcy_velocity_m_per_s,
+    saturated_thickness_m,
+    longitudinal_dispersivity_m,
+    transverse_dispersivity_m,
+    aquifer_heat_capacity_j_per_m3_k=2.8e6,
+    water_heat_capacity_j_per_m3_k=4.18e6,
+    thermal_conductivity_w_per_m_k=DEFAULT_THERMAL_CONDUCTIVITY_W_PER_M_K,
+    time_s=None,
+    ray_count=181,
+):
+    """Outline of the area where a plume changes the groundwater temperature by at least ``level_k``.
+
+    Rays are cast from the reinjection well and the crossing ``|dT| = level_k`` is found on each by bisection.
+    The steady plume strictly decreases along every ray from the well (``d ln dT / dr = u cos(a) / (2 D_L) -
+    k K1(k r) / K0(k r) < 0`` since ``K1 > K0``), so it is star-shaped and the rays find its exact outline.
+    The transient plume is sampled along each ray and the outermost crossing taken. A first pass with evenly
+    spaced rays measures the plume's elongation; a second pass spaces the rays evenly in a frame stretched by
+    that elongation, so that a long narrow plume gets rays along its sides and tip too.
+
+    Parameters
+    ----------
+    level_k : float
+        Isotherm, as a magnitude of temperature change. [K] Positive.
+    reinjection_lon, reinjection_lat : float
+        Reinjection well. [° WGS 84]
+    injection_rate_m3_per_s, injection_temp_change_k, darcy_velocity_m_per_s, saturated_thickness_m,
+    longitudinal_dispersivity_m, transverse_dispersivity_m, aquifer_heat_capacity_j_per_m3_k,
+    water_heat_capacity_j_per_m3_k, thermal_conductivity_w_per_m_k, time_s
+        As in :func:`plume_temperature_change_k`.
+    flow_direction_deg : float
+        Direction the groundwater flows TO, clockwise from north. [°]
+    ray_count : int, default 181
+        Number of rays (and vertices). At least 8.
+
+    Returns
+    -------
+    list of tuple of float
+        ``[(lon, lat), ...]`` [° WGS 84], a closed ring (the first vertex repeated at the end, as GeoJSON
+        wants), counter-clockwise seen from above. Empty when the level is never reached: no injection, or
+        ``level_k >= |injection_temp_change_k|``, which only the clipped, invalid zone at the well could reach.
+        Also empty for a transient so early that the isotherm is smaller than a millionth of the steady one.
+
+    Raises
+    ------
+    ValueError
+        Naming the argument that is not finite or out of range.
+
+    References
+    ----------
+    Kinzelbach (1987); Pophillat et al. (2020), full citations in the module docstring.
+    """
+    level = _scalar(level_k, "level_k", minimum=0.0, strictly=True)
+    lon0 = _scalar(reinjection_lon, "reinjection_lon")
+    lat0 = _scalar(reinjection_lat, "reinjection_lat")
+    rate = _scalar(injection_rate_m3_per_s, "injection_rate_m3_per_s", minimum=0.0)
+    delta = _scalar(injection_temp_change_k, "injection_temp_change_k")
+    direction = _scalar(flow_direction_deg, "flow_direction_deg")
+    try:
+        rays = int(ray_count)
+    except (TypeError, ValueError):
+        raise ValueError(f"ray_count must be an integer; got {ray_count!r}") from None
+    if rays < 8:
+        raise ValueError(f"ray_count must be at least 8; got {rays}")
+    if time_s is not None:
+        time_s = _scalar(time_s, "time_s", minimum=0.0, strictly=True)
+    aquifer = dict(
+        darcy_velocity_m_per_s=darcy_velocity_m_per_s,
+        saturated_thickness_m=saturated_thickness_m,
+        longitudinal_dispersivity_m=longitudinal_dispersivity_m,
+        transverse_dispersivity_m=transverse_dispersivity_m,
+        aquifer_heat_capacity_j_per_m3_k=aquifer_heat_capacity_j_per_m3_k,
+        water_heat_capacity_j_per_m3_k=water_heat_capacity_j_per_m3_k,
+        thermal_conductivity_w_per_m_k=thermal_conductivity_w_per_m_k,
+    )
+    # validate the aquifer once (raises with the argument's name), also when nothing is injected
+    unit_plume_response_s_per_m3(1.0, 0.0, **aquifer, time_s=time_s)
+    strength = rate * abs(delta)
+    if strength == 0.0 or level >= abs(delta):
+        return []
+
+    def evaluate(points: np.ndarray, time=time_s) -> np.ndarray:
+        response = unit_plume_response_s_per_m3(points[..., 0], points[..., 1], **aquifer, time_s=time)
+        return strength * np.asarray(response)
+
+    if float(darcy_velocity_m_per_s) > 0.0:
+        transient = time_s is not None
+
+        def evaluate_steady(points: np.ndarray) -> np.ndarray:
+            return evaluate(points, None)
+
+    else:
+        # no flow: only the transient exists (the check above raised otherwise); it is the conduction line
+        # source E1(r² / (4 D t)), which decreases along every ray, so it brackets itself
+        transient = False
+        evaluate_steady = evaluate
+
+    def outline(angles: np.ndarray, stretch: float) -> np.ndarray:
+        directions = np.column_stack([np.cos(angles), np.sin(angles) / stretch])
+        directions /= np.linalg.norm(directions, axis=1)[:, None]
+        radii = _isotherm_radii(evaluate_steady, evaluate, directions, level, transient)
+        return radii[:, None] * directions
+
+    angles = np.linspace(0.0, 2.0 * np.pi, rays, endpoint=False)
+    first = outline(angles, 1.0)
+    length = np.ptp(first[:, 0])
+    width = np.ptp(first[:, 1])
+    stretch = float(np.clip(length / width, 1.0, 1e3)) if width > 0.0 else 1.0
+    points = outline(angles, stretch) if stretch > 1.05 else first
+    if not np.any(np.linalg.norm(points, axis=1) > 0.0):
+        return []
+    east, north = from_flow_frame(points[:, 0], points[:, 1], direction)
+    lon, lat = local_m_to_lonlat(east, north, lon0, lat0)
+    ring = list(zip(np.atleast_1d(lon).tolist(), np.atleast_1d(lat).tolist()))
+    if _signed_area(np.atleast_1d(east), np.atleast_1d(north)) < 0.0:
+        ring.reverse()
+    ring.append(ring[0])
+    return ring
+
+
+def _signed_area(x: np.ndarray, y: np.ndarray) -> float:
+    """Shoelace area of a polygon given by its vertices (positive when counter-clockwise)."""
+    return 0.5 * float(np.sum(x * np.roll(y, -1) - np.roll(x, -1) * y))
+
+
+# ----------------------------------------------------------------------------- validity
+def validity_notes(
+    darcy_velocity_m_per_d,
+    *,
+    effective_porosity=None,
+    injection_rate_m3_per_s=None,
+    saturated_thickness_m=None,
+    distance_m=None,
+    time_s=None,
+    longitudinal_dispersivity_m=None,
+    aquifer_heat_capacity_j_per_m3_k=2.8e6,
+    water_heat_capacity_j_per_m3_k=4.18e6,
+):
+    """Plain-language warnings on where the line-source plume model is not valid.
+
+    The first note is always the screening caution. The velocity thresholds are rules of thumb quoted from
+    memory: below a Darcy velocity of about 0.01 m/d heat moves mainly by conduction and a radial model or a
+    numerical model is needed; up to about 0.1 m/d the steady line source (no vertical heat loss) overstates
+    the plume's reach; Pophillat et al. (2020) compare the analytic models with numerical ones and find the
+    advective line-source model reliable only for fairly fast flow (seepage velocity of the order of 1 m/d and
+    above, a figure recalled from memory, not checked against the paper).
+
+    Parameters
+    ----------
+    darcy_velocity_m_per_d : float
+        Darcy velocity (specific discharge). [m/d] Not negative.
+    effective_porosity : float, optional
+        Effective porosity, to judge the seepage velocity. [-]
+    injection_rate_m3_per_s : float, optional
+        Reinjected volume flow. [m³/s]
+    saturated_thickness_m : float, optional
+        Saturated thickness. [m] With the injection rate, gives the near-well zone ``Q / (b q)``.
+    distance_m : float, optional
+        Distance from the reinjection well to the point of interest (e.g. a neighbour's extraction well). [m]
+    time_s : float, optional
+        Operating time the estimate is for; None means the steady state is used. [s]
+    longitudinal_dispersivity_m : float, optional
+        Longitudinal dispersivity. [m]
+    aquifer_heat_capacity_j_per_m3_k, water_heat_capacity_j_per_m3_k : float
+        Volumetric heat capacities, for the travel time of the thermal front. [J/(m³ K)]
+
+    Returns
+    -------
+    list of str
+        Warnings, most important first.
+
+    Raises
+    ------
+    ValueError
+        Naming the argument that is not finite or out of range.
+
+    References
+    ----------
+    Pophillat et al. (2020); Haehnlein et al. (2010), full citations in the module docstring.
+    """
+    q_per_day = _scalar(darcy_velocity_m_per_d, "darcy_velocity_m_per_d", minimum=0.0)
+    c_a = _scalar(aquifer_heat_capacity_j_per_m3_k, "aquifer_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
+    c_w = _scalar(water_heat_capacity_j_per_m3_k, "water_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
+    notes = [SCREENING_CAUTION]
+    if q_per_day < 0.01:
+        notes.append(
+            f"Darcy velocity {q_per_day:g} m/d is below about 0.01 m/d (rule of thumb, from memory): heat spreads "
+            "mainly by conduction around the well, the advective line-source model does not apply, and its "
+            "steady state does not exist without flow. Use a radial or numerical model."
+        )
+    elif q_per_day < 0.1:
+        notes.append(
+            f"Darcy velocity {q_per_day:g} m/d is low (below about 0.1 m/d, rule of thumb, from memory): "
+            "conduction matters and the steady line-source model, which has no heat loss to the confining layers, "
+            "overstates how far the plume reaches (Pophillat et al. 2020 discuss the validity range)."
+        )
+    if effective_porosity is not None:
+        porosity = _scalar(effective_porosity, "effective_porosity", minimum=0.0, strictly=True)
+        if porosity > 1.0:
+            raise ValueError(f"effective_porosity must be at most 1; got {porosity:g}")
+        seepage = q_per_day / porosity
+        if seepage < 1.0:
+            notes.append(
+                f"Seepage velocity {seepage:.3g} m/d is below about 1 m/d; Pophillat et al. (2020) found the "
+                "analytic line-source model to deviate from numerical models at slow flow (threshold recalled "
+                "from memory)."
+            )
+    near_zone_m = None
+    if injection_rate_m3_per_s is not None and saturated_thickness_m is not None and q_per_day > 0.0:
+        rate = _scalar(injection_rate_m3_per_s, "injection_rate_m3_per_s", minimum=0.0)
+        thickness = _scalar(saturated_thickness_m, "saturated_thickness_m", minimum=0.0, strictly=True)
+        near_zone_m = rate / (thickness * q_per_day / SECONDS_PER_DAY)
+        notes.append(
+            f"Within about {near_zone_m:.0f} m of the reinjection well (the width Q/(b q) of the injected water's "
+            "stream tube) the injected water pushes the groundwater aside; the line source ignores this and is "
+            "not valid there. Values at the well are clipped to the injection temperature difference."
+        )
+    if distance_m is not None:
+        distance = _scalar(distance_m, "distance_m", minimum=0.0)
+        if near_zone_m is not None and distance < near_zone_m:
+            notes.append(
+                f"The point of interest ({distance:.0f} m away) lies inside the near-well zone: treat the estimate "
+                "as an order of magnitude at best."
+            )
+        if longitudinal_dispersivity_m is not None:
+            alpha_l = _scalar(longitudinal_dispersivity_m, "longitudinal_dispersivity_m", minimum=0.0)
+            if alpha_l > 0.0 and distance < 10.0 * alpha_l:
+                notes.append(
+                    f"The distance ({distance:.0f} m) is less than ten longitudinal dispersivities; dispersivities "
+                    "depend on scale and the near field is poorly described by constant values (common practice)."
+                )
+        thermal_velocity = q_per_day * c_w / c_a
+        if thermal_velocity > 0.0:
+            arrival_s = distance / thermal_velocity * SECONDS_PER_DAY
+            if time_s is None:
+                notes.append(
+                    f"The steady state assumes continuous, constant injection for much longer than the thermal "
+                    f"front needs to travel {distance:.0f} m (about {arrival_s / (365.25 * SECONDS_PER_DAY):.2g} "
+                    "years); seasonal operation (heating in winter, cooling in summer) gives smaller plumes."
+                )
+            else:
+                operating = _scalar(time_s, "time_s", minimum=0.0, strictly=True)
+                if operating < arrival_s:
+                    notes.append(
+                        f"After {operating / SECONDS_PER_DAY:.0f} days the thermal front has not yet reached "
+                        f"{distance:.0f} m (it needs about {arrival_s / SECONDS_PER_DAY:.0f} days); the estimate "
+                        "there is mostly dispersion ahead of the front and sensitive to the dispersivity."
+                    )
+    if time_s is None:
+        notes.append(
+            "Steady state: the plume of years of continuous, constant injection with no heat loss to the layers "
+            "above and below. Its isotherms can stretch for kilometres down-gradient and overstate real plumes, "
+            "which seasonal operation and vertical heat exchange keep shorter; prefer the transient estimate for "
+            "the operating period or use the annual net heat."
+        )
+    notes.append(
+        "Assumes a homogeneous confined aquifer of constant thickness, uniform flow in one direction, fully "
+        "penetrating wells, constant injection, no heat exchange with the layers above and below, and no "
+        "change of the flow field by pumping (the pull of extraction wells is ignored)."
+    )
+    return notes
