@@ -200,9 +200,10 @@ def _incomplete_cosh_integral_scaled(beta: np.ndarray, v_max: np.ndarray) -> np.
     ahead = v_max >= 0.0
     if np.any(ahead):
         upper = np.minimum(v_max[ahead], cut[ahead])
-        result[ahead] = special.k0e(beta[ahead]) + _gauss_legendre(
-            _scaled_cosh_integrand, np.zeros_like(upper), upper, beta[ahead]
-        )
+        half_integral = special.k0e(beta[ahead])
+        partial = _gauss_legendre(_scaled_cosh_integrand, np.zeros_like(upper), upper, beta[ahead])
+        # the part up to v_max never exceeds the half beyond 0; the cap removes rounding above the steady state
+        result[ahead] = half_integral + np.minimum(partial, half_integral)
     behind = (~ahead) & (-v_max < cut)
     if np.any(behind):
         result[behind] = _gauss_legendre(_scaled_cosh_integrand, -v_max[behind], cut[behind], beta[behind])
