@@ -706,7 +706,10 @@ def extraction_temperature_shift_k(interference_matrix, injection_rate_m3_per_s,
 
 # ----------------------------------------------------------------------------- isotherms
 def _ray_radius_bisect(evaluate, directions: np.ndarray, level: float, lower: np.ndarray, upper: np.ndarray):
-    """Radius on each ray where ``evaluate`` crosses ``level``, bisecting in log radius; f(lower) >= level > f(upper)."""
+    """Radius on each ray where ``evaluate`` crosses ``level``, by bisection in log radius.
+
+    Expects ``evaluate(lower) >= level > evaluate(upper)`` on every ray.
+    """
     log_lo, log_hi = np.log(lower), np.log(upper)
     for _ in range(60):
         log_mid = 0.5 * (log_lo + log_hi)

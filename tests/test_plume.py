@@ -209,7 +209,8 @@ def test_no_flow_transient_is_the_conduction_line_source(r_m, days):
 # ----------------------------------------------------------------------------- published LAHM form
 def lahm_k(x, y, time_s=None, porosity=0.2):
     """LAHM of Kinzelbach (1987) as published in Pophillat et al. (2020), per unit Q dT_inj:
-    dT = 1 / (4 n b v sqrt(pi alpha_T)) exp((x - r) / (2 alpha_L)) r^-1/2 erfc((r - v t / R) / (2 sqrt(alpha_L v t / R)))
+    dT = 1 / (4 n b v sqrt(pi alpha_T)) exp((x - r) / (2 alpha_L)) r^-1/2
+         erfc((r - v t / R) / (2 sqrt(alpha_L v t / R)))
     with r = sqrt(x² + y² alpha_L / alpha_T), seepage velocity v = q / n, R = C_a / (n C_w); transcribed from
     the secondary literature, not checked against the paper itself. It neglects conduction."""
     r = np.sqrt(x**2 + y**2 * ALPHA_L / ALPHA_T)
@@ -218,8 +219,10 @@ def lahm_k(x, y, time_s=None, porosity=0.2):
     if time_s is None:
         front = 2.0
     else:
-        front = special.erfc((r - seepage * time_s / retardation) / (2 * np.sqrt(ALPHA_L * seepage * time_s / retardation)))
-    return np.exp((x - r) / (2 * ALPHA_L)) / np.sqrt(r) * front / (4 * porosity * THICKNESS * seepage * np.sqrt(np.pi * ALPHA_T))
+        front_travel = seepage * time_s / retardation
+        front = special.erfc((r - front_travel) / (2 * np.sqrt(ALPHA_L * front_travel)))
+    scale = 4 * porosity * THICKNESS * seepage * np.sqrt(np.pi * ALPHA_T)
+    return np.exp((x - r) / (2 * ALPHA_L)) / np.sqrt(r) * front / scale
 
 
 @pytest.mark.parametrize("x, y", [(50.0, 0.0), (200.0, 0.0), (200.0, 5.0), (500.0, 10.0), (1000.0, 20.0)])
