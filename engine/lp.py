@@ -1,0 +1,268 @@
+"""A linear program assembled from numpy arrays in bulk.
+
+The district model has hundreds of thousands of variables that come in regular blocks (one per district, technology
+and time step). Building them one pulp expression at a time costs more than solving them, and pulp's HiGHS
+interface then hands them to the solver one row at a time. :class:`LinearProgram` therefore keeps variables as
+index blocks and constraints as coordinate triplets, hands HiGHS the whole sparse matrix in one call, and reads the
+primal and dual solution back as arrays. :meth:`LinearProgram.to_pulp` turns the same program into a
+``pulp.LpProblem`` (for small instances, for inspection and for cross-checks against pulp's own HiGHS interface).
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.sparse as sp
+
+INF = float("inf")
+
+
+@dataclass
+class RowBlock:
+    name: str
+    start: int
+    stop: int
+
+
+@dataclass
+class LpSolution:
+    status: str
+    """'optimal', 'infeasible', 'unbounded', 'time_limit', 'interrupted' or 'error'."""
+    message: str
+    objective: float = float("nan")
+    x: np.ndarray | None = None
+    row_dual: np.ndarray | None = None
+    solve_s: float = 0.0
+
+
+class LinearProgram:
+    """Minimise c @ x subject to row_lower <= A @ x <= row_upper and col_lower <= x <= col_upper."""
+
+    def __init__(self) -> None:
+        self.n_cols = 0
+        self.n_rows = 0
+        self._col_lower: list[np.ndarray] = []
+        self._col_upper: list[np.ndarray] = []
+        self._cost = []  # (cols, coefs)
+        self._triplets = []  # (rows, cols, coefs)
+        self._row_lower: list[np.ndarray] = []
+        self._row_upper: list[np.ndarray] = []
+        self.var_blocks: dict[str, tuple[int, tuple[int, ...]]] = {}
+        self.row_blocks: dict[str, RowBlock] = {}
+        self._matrix = None
+
+    # ------------------------------------------------------------------ variables
+    def add_variables(self, name: str, shape, lower=0.0, upper=INF) -> np.ndarray:
+        """Add a block of variables; returns their column indices with the given shape."""
+        if name in self.var_blocks:
+            raise ValueError(f"variable block '{name}' exists already")
+        shape = tuple(int(s) for s in np.atleast_1d(shape))
+        size = int(np.prod(shape)) if shape else 1
+        start = self.n_cols
+        self.n_cols += size
+        self._col_lower.append(np.broadcast_to(np.asarray(lower, float), shape).ravel().copy())
+        self._col_upper.append(np.broadcast_to(np.asarray(upper, float), shape).ravel().copy())
+        self.var_blocks[name] = (start, shape)
+        self._matrix = None
+        return np.arange(start, start + size).reshape(shape)
+
+    def add_cost(self, cols, coefs) -> None:
+        """Add ``coefs * x[cols]`` to the objective (arrays broadcast together)."""
+        cols, coefs = np.broadcast_arrays(np.asarray(cols), np.asarray(coefs, float))
+        self._cost.append((cols.ravel(), coefs.ravel()))
+
+    def set_objective(self, cost: np.ndarray) -> None:
+        """Replace the whole objective by the vector ``cost`` (one entry per column)."""
+        cost = np.asarray(cost, float)
+        if cost.shape != (self.n_cols,):
+            raise ValueError(f"cost must have {self.n_cols} entries, got {cost.shape}")
+        self._cost = [(np.arange(self.n_cols), cost.copy())]
+
+    # ------------------------------------------------------------------ constraints
+    def add_rows(self, name: str, terms, lower=-INF, upper=INF) -> np.ndarray:
+        """Add a block of rows ``lower <= sum_k coef_k * x[col_k] <= upper``.
+
+        ``terms`` is a list of ``(cols, coefs)`` pairs; every pair is broadcast to the block's row shape, so that
+        row ``r`` receives ``coefs[r] * x[cols[r]]`` from each pair. Returns the row indices.
+        """
+        if name in self.row_blocks:
+            raise ValueError(f"row block '{name}' exists already")
+        arrays = [np.asarray(c) for c, _ in terms] + [np.asarray(v, float) for _, v in terms]
+        shape = np.broadcast_shapes(*(a.shape for a in arrays), np.shape(lower), np.shape(upper))
+        size = int(np.prod(shape)) if shape else 1
+        rows = np.arange(self.n_rows, self.n_rows + size).reshape(shape)
+        for cols, coefs in terms:
+            c = np.broadcast_to(np.asarray(cols), shape).ravel()
+            v = np.broadcast_to(np.asarray(coefs, float), shape).ravel()
+            keep = v != 0.0
+            self._triplets.append((rows.ravel()[keep], c[keep], v[keep]))
+        self._row_lower.append(np.broadcast_to(np.asarray(lower, float), shape).ravel().copy())
+        self._row_upper.append(np.broadcast_to(np.asarray(upper, float), shape).ravel().copy())
+        self.row_blocks[name] = RowBlock(name, self.n_rows, self.n_rows + size)
+        self.n_rows += size
+        self._matrix = None
+        return rows
+
+    def add_rows_coo(self, name: str, n_rows: int, rows, cols, coefs, lower=-INF, upper=INF) -> np.ndarray:
+        """Add ``n_rows`` rows given as coordinate triplets (``rows`` counted from 0 within the block)."""
+        if name in self.row_blocks:
+            raise ValueError(f"row block '{name}' exists already")
+        rows = np.asarray(rows, np.int64).ravel()
+        cols = np.asarray(cols, np.int64).ravel()
+        coefs = np.asarray(coefs, float).ravel()
+        if not (rows.shape == cols.shape == coefs.shape):
+            raise ValueError("rows, cols and coefs must have the same length")
+        keep = coefs != 0.0
+        self._triplets.append((rows[keep] + self.n_rows, cols[keep], coefs[keep]))
+        self._row_lower.append(np.broadcast_to(np.asarray(lower, float), (n_rows,)).copy())
+        self._row_upper.append(np.broadcast_to(np.asarray(upper, float), (n_rows,)).copy())
+        self.row_blocks[name] = RowBlock(name, self.n_rows, self.n_rows + n_rows)
+        index = np.arange(self.n_rows, self.n_rows + n_rows)
+        self.n_rows += n_rows
+        self._matrix = None
+        return index
+
+    # ------------------------------------------------------------------ assembled arrays
+    def _cat(self, parts, dtype=float) -> np.ndarray:
+        return np.concatenate(parts).astype(dtype) if parts else np.zeros(0, dtype)
+
+    @property
+    def cost(self) -> np.ndarray:
+        c = np.zeros(self.n_cols)
+        for cols, coefs in self._cost:
+            np.add.at(c, cols, coefs)
+        return c
+
+    @property
+    def col_lower(self) -> np.ndarray:
+        return self._cat(self._col_lower)
+
+    @property
+    def col_upper(self) -> np.ndarray:
+        return self._cat(self._col_upper)
+
+    @property
+    def row_lower(self) -> np.ndarray:
+        return self._cat(self._row_lower)
+
+    @property
+    def row_upper(self) -> np.ndarray:
+        return self._cat(self._row_upper)
+
+    def matrix(self) -> sp.csc_matrix:
+        """The constraint matrix (duplicates summed), as CSC."""
+        if self._matrix is None:
+            rows = self._cat([t[0] for t in self._triplets], np.int64)
+            cols = self._cat([t[1] for t in self._triplets], np.int64)
+            vals = self._cat([t[2] for t in self._triplets])
+            self._matrix = sp.csc_matrix((vals, (rows, cols)), shape=(self.n_rows, self.n_cols))
+            self._matrix.sum_duplicates()
+        return self._matrix
+
+    @property
+    def n_nonzeros(self) -> int:
+        return int(self.matrix().nnz)
+
+    # ------------------------------------------------------------------ solving
+    def to_highs(self, time_limit_s: float | None = None, threads: int | None = None):
+        import highspy
+
+        h = highspy.Highs()
+        h.setOptionValue("output_flag", False)
+        if time_limit_s:
+            h.setOptionValue("time_limit", float(time_limit_s))
+        if threads:
+            h.setOptionValue("threads", int(threads))
+        lp = highspy.HighsLp()
+        lp.num_col_ = self.n_cols
+        lp.num_row_ = self.n_rows
+        lp.col_cost_ = self.cost
+        lp.col_lower_ = self.col_lower
+        lp.col_upper_ = np.where(np.isinf(self.col_upper), highspy.kHighsInf, self.col_upper)
+        lp.row_lower_ = np.where(np.isinf(self.row_lower), -highspy.kHighsInf, self.row_lower)
+        lp.row_upper_ = np.where(np.isinf(self.row_upper), highspy.kHighsInf, self.row_upper)
+        a = self.matrix()
+        lp.a_matrix_.format_ = highspy.MatrixFormat.kColwise
+        lp.a_matrix_.start_ = a.indptr.astype(np.int32)
+        lp.a_matrix_.index_ = a.indices.astype(np.int32)
+        lp.a_matrix_.value_ = a.data
+        h.passModel(lp)
+        return h
+
+    def solve(self, time_limit_s: float | None = None, threads: int | None = None, cancel=None) -> LpSolution:
+        """Solve with HiGHS. ``cancel`` is an optional callable; when it returns True the solve is interrupted."""
+        import highspy
+
+        h = self.to_highs(time_limit_s, threads)
+        if cancel is not None:
+            def _callback(callback_type, message, data_out, data_in, user_data):
+                if cancel():
+                    data_in.user_interrupt = True
+
+            try:
+                h.setCallback(_callback, None)
+                h.startCallback(highspy.cb.HighsCallbackType.kCallbackSimplexInterrupt)
+                h.startCallback(highspy.cb.HighsCallbackType.kCallbackIpmInterrupt)
+            except Exception:  # older highspy without callbacks: cancel is then checked only before solving
+                if cancel():
+                    return LpSolution("interrupted", "The solve was cancelled.")
+        started = time.perf_counter()
+        h.run()
+        elapsed = time.perf_counter() - started
+        return read_highs_solution(h, elapsed)
+
+    # ------------------------------------------------------------------ pulp
+    def to_pulp(self, name: str = "heatmosaic"):
+        """The same program as a ``pulp.LpProblem`` (one LpVariable per column, one constraint per row)."""
+        import pulp
+
+        prob = pulp.LpProblem(name, pulp.LpMinimize)
+        lower, upper = self.col_lower, self.col_upper
+        variables = [
+            pulp.LpVariable(f"x{j}", None if np.isinf(lower[j]) else lower[j], None if np.isinf(upper[j]) else upper[j])
+            for j in range(self.n_cols)
+        ]
+        cost = self.cost
+        prob.setObjective(pulp.LpAffineExpression([(variables[j], cost[j]) for j in np.flatnonzero(cost)]))
+        a = self.matrix().tocsr()
+        rl, ru = self.row_lower, self.row_upper
+        for i in range(self.n_rows):
+            lo, hi = a.indptr[i], a.indptr[i + 1]
+            expr = pulp.LpAffineExpression([(variables[j], v) for j, v in zip(a.indices[lo:hi], a.data[lo:hi])])
+            if rl[i] == ru[i]:
+                prob += pulp.LpConstraint(expr, pulp.LpConstraintEQ, f"r{i}", rl[i])
+                continue
+            if np.isfinite(rl[i]):
+                prob += pulp.LpConstraint(expr, pulp.LpConstraintGE, f"r{i}_lo", rl[i])
+            if np.isfinite(ru[i]):
+                prob += pulp.LpConstraint(expr, pulp.LpConstraintLE, f"r{i}_up", ru[i])
+        return prob, variables
+
+
+def read_highs_solution(h, solve_s: float) -> LpSolution:
+    import highspy
+
+    status = h.getModelStatus()
+    ms = highspy.HighsModelStatus
+    text = h.modelStatusToString(status)
+    if status == ms.kOptimal:
+        sol = h.getSolution()
+        return LpSolution(
+            "optimal",
+            "Optimal solution found.",
+            objective=float(h.getInfo().objective_function_value),
+            x=np.asarray(sol.col_value),
+            row_dual=np.asarray(sol.row_dual),
+            solve_s=solve_s,
+        )
+    mapping = {
+        ms.kInfeasible: "infeasible",
+        ms.kUnbounded: "unbounded",
+        ms.kUnboundedOrInfeasible: "infeasible",
+        ms.kTimeLimit: "time_limit",
+        ms.kIterationLimit: "time_limit",
+        ms.kInterrupt: "interrupted",
+    }
+    return LpSolution(mapping.get(status, "error"), f"HiGHS: {text}", solve_s=solve_s)

@@ -1,0 +1,459 @@
+"""The district linear program: investment and dispatch of every district's heat and cooling supply.
+
+The formulation is that of ``model.md`` section 3. Every quantity is a block of variables indexed by supply unit
+(a technology in a district, or a heat pump bound to one well) and model step; every constraint family is added in
+one bulk call (:mod:`engine.lp`). Power is in kW and one step is one hour, so a step's energy in kWh equals its
+power; annual sums multiply by the step weights [h]. Prices are per MWh and per tonne, hence the factors 1/1000.
+
+Two refinements over the design document:
+
+* The well limit is written in pumped water rather than heat: the flow the heat pump needs at the largest spread
+  the reinjection window allows plus the flow the cooling needs must stay within the permit,
+  ``sum_units q_ext / (c_p dT_heat) + q_rej / (c_p dT_cool) <= m_dot_permit``. With one service this is exactly
+  ``q <= m_dot c_p dT``; with both it never lets a well exceed its permitted flow.
+* The CO2 objective is lexicographic: first minimise emissions (unserved heat counts as 10 t per MWh so that it is
+  used only where nothing else can serve), then minimise cost with emissions and unserved heat held at that optimum.
+  The design document's "tiny secondary cost term" depends on a weight; two stages do not.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .inputs import COOLING_KINDS, FUELS, WELL_KINDS
+from .lp import INF, LinearProgram, LpSolution
+from .prepare import KWH_PER_MWH, PreparedRun
+
+UNSERVED_CO2_EQUIVALENT_T_PER_MWH = 10.0
+"""Weight of unserved heat in the CO2 objective: far above any real supply (fuel oil emits 0.27 t/MWh)."""
+
+
+@dataclass
+class SupplyUnits:
+    """One row per unit that can be built and dispatched (stores excluded)."""
+
+    district: np.ndarray  # index into prepared.district_ids
+    technology_id: list
+    kind: list
+    well: np.ndarray  # index into prepared.well_ids, -1 if none
+    existing_kw: np.ndarray
+    max_new_kw: np.ndarray
+    serves_cooling: np.ndarray  # bool
+    # per unit and step [per kWh of output]
+    electricity: np.ndarray
+    fuel: np.ndarray
+    network: np.ndarray
+    aquifer_exchange: np.ndarray  # kWh extracted (heating) or rejected (cooling) per kWh of output
+    output_upper: np.ndarray  # kW, inf where unbounded by physics
+    fuel_name: list
+
+
+@dataclass
+class StoreUnits:
+    district: np.ndarray
+    technology_id: list
+    existing_kwh: np.ndarray
+    max_new_kwh: np.ndarray
+    loss_per_h: np.ndarray
+    charge_efficiency: np.ndarray
+    discharge_efficiency: np.ndarray
+    hours: np.ndarray
+
+
+@dataclass
+class DistrictModel:
+    """The LP together with the maps needed to read its solution."""
+
+    prepared: PreparedRun
+    districts: np.ndarray  # indices of the districts in this model
+    lp: LinearProgram
+    units: SupplyUnits
+    stores: StoreUnits
+    cols: dict = field(default_factory=dict)
+    rows: dict = field(default_factory=dict)
+    money: np.ndarray | None = None  # €/a per unit of each column
+    emissions: np.ndarray | None = None  # t/a per unit of each column
+    constant_fixed_om: np.ndarray | None = None  # €/a of existing capacity per unit (not a decision)
+    build_s: float = 0.0
+
+
+def _district_potential(prepared: PreparedRun) -> dict:
+    dt = prepared.scenario.district_technologies
+    return {(r.district_id, r.technology_id): (float(r.existing_kw), float(r.potential_kw)) for r in dt.itertuples()}
+
+
+def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUnits, StoreUnits]:
+    """List the units that may exist in ``districts`` with their per-step conversion factors."""
+    scenario = prepared.scenario
+    dist_table = scenario.districts
+    techs = scenario.technologies
+    pot = _district_potential(prepared)
+    n_t = prepared.n_steps
+    grid_elec = prepared.electricity_eur_per_mwh  # noqa: F841 (kept for readability of the factors below)
+    rec = {k: [] for k in SupplyUnits.__dataclass_fields__}
+    srec = {k: [] for k in StoreUnits.__dataclass_fields__}
+    ones = np.ones(n_t)
+    zeros = np.zeros(n_t)
+
+    def add(i, tech, well, existing, max_new, cooling, elec, fuel, net, aquifer, upper):
+        rec["district"].append(i)
+        rec["technology_id"].append(tech.technology_id)
+        rec["kind"].append(tech.kind)
+        rec["well"].append(well)
+        rec["existing_kw"].append(existing)
+        rec["max_new_kw"].append(max_new)
+        rec["serves_cooling"].append(cooling)
+        rec["electricity"].append(elec)
+        rec["fuel"].append(fuel)
+        rec["network"].append(net)
+        rec["aquifer_exchange"].append(aquifer)
+        rec["output_upper"].append(upper)
+        rec["fuel_name"].append(tech.carrier if tech.carrier in FUELS else "")
+
+    for i in districts:
+        d = dist_table.iloc[i]
+        did = d["district_id"]
+        has_cooling = d["cooling_demand_mwh_per_a"] > 0
+        for tech in techs.itertuples(index=False):
+            existing, potential = pot.get((did, tech.technology_id), (0.0, INF))
+            kind = tech.kind
+            if kind in COOLING_KINDS and not has_cooling:
+                continue
+            if kind == "network_connection":
+                if not d["network_available"]:
+                    continue
+                potential = min(potential, float(d["network_connection_limit_kw"]))
+            if potential <= 0 and existing <= 0:
+                continue
+            max_new = max(potential - existing, 0.0)
+            if kind == "heat_store":
+                eff = float(tech.store_efficiency)
+                srec["district"].append(i)
+                srec["technology_id"].append(tech.technology_id)
+                srec["existing_kwh"].append(existing)
+                srec["max_new_kwh"].append(max_new)
+                srec["loss_per_h"].append(float(tech.store_loss_pct_per_h) / 100.0)
+                srec["charge_efficiency"].append(np.sqrt(eff))
+                srec["discharge_efficiency"].append(np.sqrt(eff))
+                srec["hours"].append(float(tech.store_hours))
+                continue
+            if kind in WELL_KINDS:
+                for j in np.flatnonzero(prepared.well_district == i):
+                    if kind == "groundwater_heat_pump":
+                        cop = prepared.well_cop[tech.technology_id][j]
+                        usable = np.isfinite(prepared.well_flow_per_kw_heating[j])
+                        add(i, tech, j, 0.0, max_new, False, 1.0 / cop, zeros, zeros, 1.0 - 1.0 / cop,
+                            np.where(usable, INF, 0.0))
+                    else:
+                        eer = float(tech.efficiency)
+                        usable = np.isfinite(prepared.well_flow_per_kw_cooling[j])
+                        add(i, tech, j, 0.0, max_new, True, ones / eer, zeros, zeros, ones * (1.0 + 1.0 / eer),
+                            np.where(usable, INF, 0.0))
+                continue
+            cooling = kind in COOLING_KINDS
+            elec, fuel, net = zeros, zeros, zeros
+            if kind == "fuel_boiler":
+                fuel = ones / float(tech.efficiency)
+            elif kind == "electric_boiler" or kind == "chiller":
+                elec = ones / float(tech.efficiency)
+            elif kind == "air_heat_pump":
+                elec = 1.0 / prepared.air_cop[tech.technology_id][i]
+            elif kind == "network_connection":
+                net = ones
+            add(i, tech, -1, existing, max_new, cooling, elec, fuel, net, zeros, ones * INF)
+
+    units = SupplyUnits(
+        district=np.array(rec["district"], dtype=int),
+        technology_id=rec["technology_id"],
+        kind=rec["kind"],
+        well=np.array(rec["well"], dtype=int),
+        existing_kw=np.array(rec["existing_kw"], float),
+        max_new_kw=np.array(rec["max_new_kw"], float),
+        serves_cooling=np.array(rec["serves_cooling"], bool),
+        electricity=np.array(rec["electricity"], float).reshape(-1, n_t),
+        fuel=np.array(rec["fuel"], float).reshape(-1, n_t),
+        network=np.array(rec["network"], float).reshape(-1, n_t),
+        aquifer_exchange=np.array(rec["aquifer_exchange"], float).reshape(-1, n_t),
+        output_upper=np.array(rec["output_upper"], float).reshape(-1, n_t),
+        fuel_name=rec["fuel_name"],
+    )
+    stores = StoreUnits(
+        district=np.array(srec["district"], dtype=int),
+        technology_id=srec["technology_id"],
+        existing_kwh=np.array(srec["existing_kwh"], float),
+        max_new_kwh=np.array(srec["max_new_kwh"], float),
+        loss_per_h=np.array(srec["loss_per_h"], float),
+        charge_efficiency=np.array(srec["charge_efficiency"], float),
+        discharge_efficiency=np.array(srec["discharge_efficiency"], float),
+        hours=np.array(srec["hours"], float),
+    )
+    return units, stores
+
+
+def previous_step(period: np.ndarray) -> np.ndarray:
+    """Index of the step before each step, cyclic within its period (a typical day, or the whole year)."""
+    n = len(period)
+    prev = np.arange(n) - 1
+    starts = np.flatnonzero(np.r_[True, period[1:] != period[:-1]])
+    ends = np.r_[starts[1:], n] - 1
+    prev[starts] = ends
+    return prev
+
+
+def build_model(
+    prepared: PreparedRun,
+    districts=None,
+    co2_cap_t_per_a: float | None = None,
+    network_plant_limit_kw: float | None = None,
+) -> DistrictModel:
+    """Build the LP for ``districts`` (indices; all by default). City-wide limits apply to those districts."""
+    started = time.perf_counter()
+    settings = prepared.settings
+    if districts is None:
+        districts = np.arange(len(prepared.district_ids))
+    districts = np.asarray(districts, dtype=int)
+    if co2_cap_t_per_a is None:
+        co2_cap_t_per_a = settings.co2_cap_t_per_a
+    if network_plant_limit_kw is None:
+        network_plant_limit_kw = settings.network_plant_limit_kw
+    prices = prepared.prices
+    techs = prepared.scenario.technologies.set_index("technology_id")
+    units, stores = supply_units(prepared, districts)
+    n_t = prepared.n_steps
+    w = prepared.grid.weight_h
+    n_u, n_s, n_d = len(units.technology_id), len(stores.technology_id), len(districts)
+    local = {int(i): k for k, i in enumerate(districts)}  # global district index -> position in this model
+    lp = LinearProgram()
+    cols, rows = {}, {}
+
+    # ---------------------------------------------------------------- variables
+    cols["new"] = lp.add_variables("new_capacity_kw", n_u, 0.0, units.max_new_kw)
+    cols["out"] = lp.add_variables("output_kw", (n_u, n_t), 0.0, units.output_upper)
+    cols["store_new"] = lp.add_variables("store_new_kwh", n_s, 0.0, stores.max_new_kwh)
+    cols["level"] = lp.add_variables("store_level_kwh", (n_s, n_t))
+    cols["charge"] = lp.add_variables("store_charge_kw", (n_s, n_t))
+    cols["discharge"] = lp.add_variables("store_discharge_kw", (n_s, n_t))
+    cols["unserved_heat"] = lp.add_variables("unserved_heat_kw", (n_d, n_t))
+    cooling_demand = prepared.cooling_demand_kw[districts]
+    cooled = np.flatnonzero(cooling_demand.sum(axis=1) > 0)
+    cols["cooled"] = cooled
+    cols["unserved_cooling"] = lp.add_variables("unserved_cooling_kw", (len(cooled), n_t))
+
+    t_idx = np.arange(n_t)
+    unit_local = np.array([local[int(i)] for i in units.district], dtype=int)
+    store_local = np.array([local[int(i)] for i in stores.district], dtype=int)
+
+    # ---------------------------------------------------------------- heat balance per district and step
+    heat_units = np.flatnonzero(~units.serves_cooling)
+    r = [unit_local[heat_units][:, None] * n_t + t_idx[None, :]]
+    c = [cols["out"][heat_units]]
+    v = [np.ones((len(heat_units), n_t))]
+    r += [store_local[:, None] * n_t + t_idx[None, :]] * 2
+    c += [cols["discharge"], cols["charge"]]
+    v += [np.ones((n_s, n_t)), -np.ones((n_s, n_t))]
+    r.append(np.arange(n_d)[:, None] * n_t + t_idx[None, :])
+    c.append(cols["unserved_heat"])
+    v.append(np.ones((n_d, n_t)))
+    heat_demand = prepared.heat_demand_kw[districts]
+    rows["heat_balance"] = lp.add_rows_coo(
+        "heat_balance", n_d * n_t, *(np.concatenate([a.ravel() for a in x]) for x in (r, c, v)),
+        lower=heat_demand.ravel(), upper=heat_demand.ravel(),
+    ).reshape(n_d, n_t)
+
+    # ---------------------------------------------------------------- cooling balance
+    cool_units = np.flatnonzero(units.serves_cooling)
+    cooled_pos = {int(k): p for p, k in enumerate(cooled)}
+    if len(cooled):
+        cu_row = np.array([cooled_pos[int(unit_local[u])] for u in cool_units], dtype=int)
+        r = [cu_row[:, None] * n_t + t_idx[None, :], np.arange(len(cooled))[:, None] * n_t + t_idx[None, :]]
+        c = [cols["out"][cool_units], cols["unserved_cooling"]]
+        v = [np.ones((len(cool_units), n_t)), np.ones((len(cooled), n_t))]
+        demand_c = cooling_demand[cooled]
+        rows["cooling_balance"] = lp.add_rows_coo(
+            "cooling_balance", len(cooled) * n_t, *(np.concatenate([a.ravel() for a in x]) for x in (r, c, v)),
+            lower=demand_c.ravel(), upper=demand_c.ravel(),
+        ).reshape(len(cooled), n_t)
+
+    # ---------------------------------------------------------------- capacity of every unit
+    rows["capacity"] = lp.add_rows(
+        "capacity",
+        [(cols["out"], 1.0), (cols["new"][:, None], -1.0)],
+        upper=units.existing_kw[:, None] * np.ones((1, n_t)),
+    )
+
+    # potential of well technologies is per district, shared by that district's wells
+    well_units = np.flatnonzero(units.well >= 0)
+    pot = _district_potential(prepared)
+    groups = {}
+    for u in well_units:
+        groups.setdefault((int(units.district[u]), units.technology_id[u]), []).append(u)
+    g_rows, g_cols, g_ub = [], [], []
+    for g, ((i, tech), members) in enumerate(groups.items()):
+        _, potential = pot.get((prepared.district_ids[i], tech), (0.0, INF))
+        if np.isfinite(potential):
+            k = len(g_ub)
+            g_rows += [k] * len(members)
+            g_cols += list(cols["new"][members])
+            g_ub.append(potential)
+    if g_ub:
+        rows["well_potential"] = lp.add_rows_coo(
+            "well_potential", len(g_ub), g_rows, g_cols, np.ones(len(g_rows)), upper=np.array(g_ub)
+        )
+
+    # ---------------------------------------------------------------- stores
+    if n_s:
+        prev = previous_step(prepared.grid.period)
+        keep = 1.0 - stores.loss_per_h
+        rows["store_balance"] = lp.add_rows(
+            "store_balance",
+            [
+                (cols["level"], 1.0),
+                (cols["level"][:, prev], -keep[:, None]),
+                (cols["charge"], -stores.charge_efficiency[:, None]),
+                (cols["discharge"], 1.0 / stores.discharge_efficiency[:, None]),
+            ],
+            lower=0.0,
+            upper=0.0,
+        )
+        exist = stores.existing_kwh[:, None] * np.ones((1, n_t))
+        rows["store_level"] = lp.add_rows(
+            "store_level", [(cols["level"], 1.0), (cols["store_new"][:, None], -1.0)], upper=exist
+        )
+        rate = 1.0 / stores.hours[:, None]
+        for name in ("charge", "discharge"):
+            rows[f"store_{name}"] = lp.add_rows(
+                f"store_{name}", [(cols[name], 1.0), (cols["store_new"][:, None], -rate)], upper=exist * rate
+            )
+
+    # ---------------------------------------------------------------- wells: permitted flow and annual volume
+    wells_here = np.unique(units.well[well_units]) if len(well_units) else np.zeros(0, int)
+    if len(wells_here):
+        wpos = {int(j): p for p, j in enumerate(wells_here)}
+        flow_h = np.where(np.isfinite(prepared.well_flow_per_kw_heating), prepared.well_flow_per_kw_heating, 0.0)
+        flow_c = np.where(np.isfinite(prepared.well_flow_per_kw_cooling), prepared.well_flow_per_kw_cooling, 0.0)
+        flow_coef = np.array(
+            [
+                units.aquifer_exchange[u] * (flow_c[units.well[u]] if units.serves_cooling[u] else flow_h[units.well[u]])
+                for u in well_units
+            ]
+        )  # kg/s per kW of output, (well units, steps)
+        wrow = np.array([wpos[int(units.well[u])] for u in well_units])
+        rows["well_flow"] = lp.add_rows_coo(
+            "well_flow", len(wells_here) * n_t,
+            (wrow[:, None] * n_t + t_idx[None, :]).ravel(), cols["out"][well_units].ravel(), flow_coef.ravel(),
+            upper=np.repeat(prepared.well_permit_flow_kg_s[wells_here], n_t),
+        ).reshape(len(wells_here), n_t)
+        volume = prepared.well_annual_volume_m3[wells_here]
+        limited = np.flatnonzero(np.isfinite(volume))
+        if len(limited):
+            m3_per_kg = 3600.0 / prepared.well_density_kg_per_m3  # m³ per (kg/s · h)
+            sel = np.isin(wrow, limited)
+            vpos = {int(p): k for k, p in enumerate(limited)}
+            vrow = np.array([vpos[int(p)] for p in wrow[sel]])
+            coef = flow_coef[sel] * w[None, :] * m3_per_kg[units.well[well_units][sel]]
+            rows["well_volume"] = lp.add_rows_coo(
+                "well_volume", len(limited), np.repeat(vrow, n_t), cols["out"][well_units][sel].ravel(), coef.ravel(),
+                upper=volume[limited],
+            )
+        cols["wells_here"] = wells_here
+
+    # ---------------------------------------------------------------- city-wide network plant limit
+    net_units = np.flatnonzero(np.array(units.kind) == "network_connection")
+    if network_plant_limit_kw and network_plant_limit_kw > 0 and len(net_units):
+        rows["network_plant"] = lp.add_rows_coo(
+            "network_plant", n_t, np.tile(t_idx, len(net_units)), cols["out"][net_units].ravel(),
+            np.ones(len(net_units) * n_t), upper=np.full(n_t, float(network_plant_limit_kw)),
+        )
+
+    # ---------------------------------------------------------------- money and emissions per column
+    money = np.zeros(lp.n_cols)
+    emis = np.zeros(lp.n_cols)
+    fuel_price = np.array([prices.fuel_eur_per_mwh.get(f, 0.0) for f in units.fuel_name])
+    fuel_co2 = np.array([prepared.scenario.prices.co2_kg_per_mwh.get(f, 0.0) if f else 0.0 for f in units.fuel_name])
+    tech_rows = techs.loc[units.technology_id]
+    var_om = tech_rows["variable_om_eur_per_mwh"].to_numpy(float)
+    # t CO2 per kWh of output at each step
+    unit_co2 = (
+        units.fuel * fuel_co2[:, None]
+        + units.electricity * prepared.grid_co2_kg_per_mwh[None, :]
+        + units.network * prepared.network_co2_kg_per_mwh[None, :]
+    ) / KWH_PER_MWH / 1000.0
+    unit_energy_eur = (
+        units.fuel * fuel_price[:, None]
+        + units.electricity * prepared.electricity_eur_per_mwh[None, :]
+        + units.network * prepared.network_eur_per_mwh[None, :]
+    ) / KWH_PER_MWH
+    co2_price = prices.co2_eur_per_t
+    out_cols = cols["out"]
+    money[out_cols] = w[None, :] * (unit_energy_eur + var_om[:, None] / KWH_PER_MWH + co2_price * unit_co2)
+    emis[out_cols] = w[None, :] * unit_co2
+    annuity = np.array([prepared.annuity[t] for t in units.technology_id])
+    net_inv = np.array([prices.investment_eur_per_kw[t] for t in units.technology_id])
+    gross_inv = np.array([prices.gross_investment_eur_per_kw[t] for t in units.technology_id])
+    fom = tech_rows["fixed_om_pct_per_a"].to_numpy(float) / 100.0
+    money[cols["new"]] = annuity * net_inv + fom * gross_inv
+    constant_fom = fom * gross_inv * units.existing_kw
+    if n_s:
+        st = techs.loc[stores.technology_id]
+        s_ann = np.array([prepared.annuity[t] for t in stores.technology_id])
+        s_net = np.array([prices.investment_eur_per_kw[t] for t in stores.technology_id])
+        s_gross = np.array([prices.gross_investment_eur_per_kw[t] for t in stores.technology_id])
+        s_fom = st["fixed_om_pct_per_a"].to_numpy(float) / 100.0
+        money[cols["store_new"]] = s_ann * s_net + s_fom * s_gross
+        money[cols["discharge"]] = w[None, :] * st["variable_om_eur_per_mwh"].to_numpy(float)[:, None] / KWH_PER_MWH
+        constant_fom = np.concatenate([constant_fom, s_fom * s_gross * stores.existing_kwh])
+    voll = settings.value_of_unserved_heat_eur_per_mwh / KWH_PER_MWH
+    money[cols["unserved_heat"]] = w[None, :] * voll
+    money[cols["unserved_cooling"]] = w[None, :] * voll
+    # a negligible cost on store charging removes simultaneous charge and discharge without changing the optimum
+    money[cols["charge"]] += w[None, :] * 1e-6
+
+    if co2_cap_t_per_a and co2_cap_t_per_a > 0:
+        nz = np.flatnonzero(emis)
+        rows["co2_cap"] = lp.add_rows_coo(
+            "co2_cap", 1, np.zeros(len(nz)), nz, emis[nz], upper=np.array([float(co2_cap_t_per_a)])
+        )
+
+    lp.set_objective(money)
+    model = DistrictModel(prepared, districts, lp, units, stores, cols, rows, money, emis, constant_fom)
+    model.build_s = time.perf_counter() - started
+    return model
+
+
+def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None, cancel=None) -> LpSolution:
+    """Solve for least cost, or for least CO2 and then least cost at that CO2 (lexicographic)."""
+    lp = model.lp
+    if objective == "cost":
+        lp.set_objective(model.money)
+        return lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+    if objective != "co2":
+        raise ValueError(f"objective must be 'cost' or 'co2', got {objective!r}")
+    w = model.prepared.grid.weight_h
+    first = model.emissions.copy()
+    unserved_cols = np.concatenate([model.cols["unserved_heat"].ravel(), model.cols["unserved_cooling"].ravel()])
+    penalty = UNSERVED_CO2_EQUIVALENT_T_PER_MWH / KWH_PER_MWH
+    unserved_weight = np.concatenate(
+        [np.broadcast_to(w, model.cols["unserved_heat"].shape).ravel(),
+         np.broadcast_to(w, model.cols["unserved_cooling"].shape).ravel()]
+    )
+    first[unserved_cols] += unserved_weight * penalty
+    # a small cost term keeps the first stage well posed where emissions are flat (e.g. zero-carbon supplies)
+    lp.set_objective(first)
+    stage1 = lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+    if stage1.status != "optimal":
+        return stage1
+    x = stage1.x
+    co2_opt = float(model.emissions @ x)
+    unserved_opt = float(unserved_weight @ x[unserved_cols])
+    nz = np.flatnonzero(model.emissions)
+    lp.add_rows_coo("co2_optimum", 1, np.zeros(len(nz)), nz, model.emissions[nz],
+                    upper=np.array([co2_opt * (1 + 1e-7) + 1e-4]))
+    lp.add_rows_coo("unserved_optimum", 1, np.zeros(len(unserved_cols)), unserved_cols, unserved_weight,
+                    upper=np.array([unserved_opt * (1 + 1e-7) + 1e-3]))
+    lp.set_objective(model.money)
+    stage2 = lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+    stage2.solve_s += stage1.solve_s
+    return stage2

@@ -1,0 +1,208 @@
+"""From a validated scenario to the arrays the district LP multiplies.
+
+:func:`prepare_run` applies the cost case, builds the time grid (full year or typical days), derives hourly heat
+and cooling demand, heat pump COPs, groundwater temperatures and the usable temperature spreads of each well, and
+returns one :class:`PreparedRun` whose arrays are all indexed by model step. Nothing here knows about the LP.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from . import demand as demand_mod
+from . import economics, heatpump, water, wells as wells_mod
+from .inputs import COOLING_KINDS, HEAT_KINDS, WELL_KINDS, EffectivePrices, Scenario, Settings, apply_cost_case
+from .timeseries import TimeGrid, daily_features, full_year_grid, typical_day_grid
+
+KWH_PER_MWH = 1000.0
+
+
+@dataclass
+class PreparedRun:
+    scenario: Scenario
+    settings: Settings
+    cost_case: str
+    prices: EffectivePrices
+    grid: TimeGrid
+    district_ids: list
+    heat_demand_kw: np.ndarray  # (districts, steps)
+    cooling_demand_kw: np.ndarray  # (districts, steps)
+    heat_demand_year_kw: np.ndarray  # (districts, hours)
+    cooling_demand_year_kw: np.ndarray
+    air_cop: dict  # technology_id -> (districts, steps)
+    well_ids: list
+    well_district: np.ndarray  # index into district_ids per well
+    groundwater_temp_c: np.ndarray  # (wells, steps)
+    well_cop: dict  # technology_id -> (wells, steps)
+    well_flow_per_kw_heating: np.ndarray  # kg/s of pumped water per kW extracted, inf where no spread is left
+    well_flow_per_kw_cooling: np.ndarray  # kg/s per kW rejected
+    well_permit_flow_kg_s: np.ndarray
+    well_annual_volume_m3: np.ndarray  # inf where no annual limit
+    well_density_kg_per_m3: np.ndarray  # (wells, steps)
+    spread_heating_k: np.ndarray  # usable spread when heating (wells, steps)
+    spread_cooling_k: np.ndarray
+    electricity_eur_per_mwh: np.ndarray  # (steps,)
+    network_eur_per_mwh: np.ndarray
+    grid_co2_kg_per_mwh: np.ndarray
+    network_co2_kg_per_mwh: np.ndarray
+    annuity: dict  # technology_id -> annuity factor [1/a]
+
+    @property
+    def n_steps(self) -> int:
+        return self.grid.n_steps
+
+    def technology(self, technology_id: str) -> pd.Series:
+        techs = self.scenario.technologies
+        return techs.loc[techs["technology_id"] == technology_id].iloc[0]
+
+
+def demand_year_kw(scenario: Scenario, settings: Settings) -> tuple[np.ndarray, np.ndarray]:
+    """Hourly heat and cooling demand of every district over the whole year [kW]."""
+    outdoor = scenario.hourly["outdoor_temp_c"].to_numpy(float)
+    districts = scenario.districts
+    heat = np.zeros((len(districts), len(outdoor)))
+    cool = np.zeros_like(heat)
+    measured = scenario.heat_demand_hourly_kw
+    for i, row in enumerate(districts.itertuples(index=False)):
+        if measured is not None and row.district_id in measured.columns:
+            heat[i] = measured[row.district_id].to_numpy(float)
+        else:
+            heat[i] = demand_mod.heat_demand_profile_kw(
+                row.heat_demand_mwh_per_a, outdoor, row.hot_water_share, settings.heating_base_temp_c
+            )
+        if row.cooling_demand_mwh_per_a > 0:
+            cool[i] = demand_mod.cooling_demand_profile_kw(
+                row.cooling_demand_mwh_per_a, outdoor, settings.cooling_base_temp_c
+            )
+    return heat, cool
+
+
+def groundwater_year_c(scenario: Scenario) -> np.ndarray:
+    """Hourly groundwater temperature at every well's extraction [°C], shape (wells, hours)."""
+    wells = scenario.wells
+    n = scenario.n_hours
+    out = np.zeros((len(wells), n))
+    measured = scenario.groundwater_temp_hourly_c
+    for i, row in enumerate(wells.itertuples(index=False)):
+        if measured is not None and row.well_id in measured.columns:
+            out[i] = measured[row.well_id].to_numpy(float)
+        else:
+            out[i] = wells_mod.groundwater_temp_series_c(
+                row.groundwater_temp_c, row.groundwater_temp_amplitude_k, row.coldest_day_of_year, n
+            )
+    if "source_temp_shift_k" in wells.columns:
+        out = out + wells["source_temp_shift_k"].to_numpy(float)[:, None]
+    return out
+
+
+def build_time_grid(scenario: Scenario, settings: Settings, heat_year_kw: np.ndarray) -> TimeGrid:
+    """Full year when ``settings.typical_days`` is 0, else k-medoids typical days with the peak day kept."""
+    n_hours = scenario.n_hours
+    n_days = n_hours // 24
+    if settings.typical_days <= 0 or settings.typical_days >= n_days:
+        return full_year_grid(n_hours)
+    hourly = scenario.hourly
+    city_heat = heat_year_kw.sum(axis=0)
+    series = np.column_stack(
+        [
+            hourly["outdoor_temp_c"].to_numpy(float),
+            city_heat,
+            hourly["electricity_price_eur_per_mwh"].to_numpy(float),
+            hourly["network_price_eur_per_mwh"].to_numpy(float),
+            hourly["grid_co2_kg_per_mwh"].to_numpy(float),
+        ]
+    )
+    features = daily_features(series)
+    peak_day = int(np.argmax(city_heat.reshape(n_days, 24).sum(axis=1)))
+    return typical_day_grid(features, settings.typical_days, peak_day)
+
+
+def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = None) -> PreparedRun:
+    settings = settings or scenario.settings
+    prices = apply_cost_case(scenario, cost_case)
+    heat_year, cool_year = demand_year_kw(scenario, settings)
+    grid = build_time_grid(scenario, settings, heat_year)
+    steps = grid.year_hour
+    districts = scenario.districts
+    techs = scenario.technologies
+    outdoor = scenario.hourly["outdoor_temp_c"].to_numpy(float)[steps]
+    supply = districts["supply_temp_c"].to_numpy(float)
+
+    air_cop = {}
+    for row in techs[techs["kind"] == "air_heat_pump"].itertuples(index=False):
+        air_cop[row.technology_id] = heatpump.heat_pump_cop(
+            supply[:, None], outdoor[None, :], row.cop_quality_grade, row.sink_approach_k, row.source_approach_k
+        )
+
+    wells = scenario.wells
+    district_index = {d: i for i, d in enumerate(districts["district_id"])}
+    well_district = np.array([district_index[d] for d in wells["district_id"]], dtype=int)
+    gw = groundwater_year_c(scenario)[:, steps] if len(wells) else np.zeros((0, len(steps)))
+    well_cop = {}
+    for row in techs[techs["kind"] == "groundwater_heat_pump"].itertuples(index=False):
+        well_cop[row.technology_id] = heatpump.heat_pump_cop(
+            supply[well_district][:, None], gw, row.cop_quality_grade, row.sink_approach_k, row.source_approach_k
+        )
+    design = wells["design_spread_k"].to_numpy(float)[:, None] if len(wells) else np.zeros((0, 1))
+    spread_h = wells_mod.usable_spread_heating_k(gw, design, settings.reinjection_min_temp_c)
+    spread_c = wells_mod.usable_spread_cooling_k(gw, design, settings.reinjection_max_temp_c)
+    cp = water.water_specific_heat_j_per_kg_k(np.clip(gw, 0.5, 99.0)) if len(wells) else np.zeros_like(gw)
+    rho = water.water_density_kg_per_m3(np.clip(gw, 0.5, 99.0)) if len(wells) else np.zeros_like(gw)
+    with np.errstate(divide="ignore"):
+        # kg/s needed per kW exchanged at the largest spread the window allows
+        flow_h = np.where(spread_h > 1e-9, 1000.0 / (cp * np.maximum(spread_h, 1e-9)), np.inf)
+        flow_c = np.where(spread_c > 1e-9, 1000.0 / (cp * np.maximum(spread_c, 1e-9)), np.inf)
+    if len(wells):
+        rho_mean = water.water_density_kg_per_m3(np.clip(wells["groundwater_temp_c"].to_numpy(float), 0.5, 99))
+        permit_kg_s = wells["permit_flow_m3_per_h"].to_numpy(float) * rho_mean / 3600.0
+        volume = wells["permit_annual_volume_m3"].to_numpy(float)
+        volume = np.where(np.isnan(volume), np.inf, volume)
+    else:
+        permit_kg_s = np.zeros(0)
+        volume = np.zeros(0)
+
+    annuity = {
+        row.technology_id: float(economics.annuity_factor(settings.discount_rate, row.lifetime_a))
+        for row in techs.itertuples(index=False)
+    }
+    hourly = scenario.hourly
+    return PreparedRun(
+        scenario=scenario,
+        settings=settings,
+        cost_case=cost_case,
+        prices=prices,
+        grid=grid,
+        district_ids=list(districts["district_id"]),
+        heat_demand_kw=heat_year[:, steps],
+        cooling_demand_kw=cool_year[:, steps],
+        heat_demand_year_kw=heat_year,
+        cooling_demand_year_kw=cool_year,
+        air_cop=air_cop,
+        well_ids=list(wells["well_id"]),
+        well_district=well_district,
+        groundwater_temp_c=gw,
+        well_cop=well_cop,
+        well_flow_per_kw_heating=flow_h,
+        well_flow_per_kw_cooling=flow_c,
+        well_permit_flow_kg_s=permit_kg_s,
+        well_annual_volume_m3=volume,
+        well_density_kg_per_m3=rho,
+        spread_heating_k=spread_h,
+        spread_cooling_k=spread_c,
+        electricity_eur_per_mwh=prices.electricity_eur_per_mwh[steps],
+        network_eur_per_mwh=prices.network_eur_per_mwh[steps],
+        grid_co2_kg_per_mwh=hourly["grid_co2_kg_per_mwh"].to_numpy(float)[steps],
+        network_co2_kg_per_mwh=hourly["network_co2_kg_per_mwh"].to_numpy(float)[steps],
+        annuity=annuity,
+    )
+
+
+def with_settings(settings: Settings, **changes) -> Settings:
+    return dataclasses.replace(settings, **changes)
+
+
+__all__ = ["PreparedRun", "prepare_run", "with_settings", "HEAT_KINDS", "COOLING_KINDS", "WELL_KINDS"]

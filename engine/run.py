@@ -1,0 +1,181 @@
+"""Solve a scenario: prepare the arrays, build the LP, solve it with HiGHS and return one :class:`RunResult`.
+
+Without a city-wide constraint (CO2 cap, network plant limit) districts do not interact, so
+:func:`solve_scenario` may solve each district as its own LP, in parallel processes, and merge the tables
+(``decompose``). With a city-wide constraint the LP is solved in one piece.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import os
+import time
+from concurrent.futures import ProcessPoolExecutor
+from typing import Callable
+
+import numpy as np
+import pandas as pd
+
+from .extract import extract_tables
+from .inputs import Scenario, Settings, input_hash
+from .model import build_model, solve_model
+from .prepare import prepare_run
+from .results import RunResult
+
+Progress = Callable[[float, str], None]
+
+
+def run_settings(scenario: Scenario, objective=None, co2_cap_t_per_a=None, typical_days=None, **changes) -> Settings:
+    """The scenario's settings with the given overrides (None keeps the scenario's value)."""
+    updates = dict(changes)
+    if objective is not None:
+        updates["objective"] = objective
+    if co2_cap_t_per_a is not None:
+        updates["co2_cap_t_per_a"] = float(co2_cap_t_per_a)
+    if typical_days is not None:
+        updates["typical_days"] = int(typical_days)
+    return dataclasses.replace(scenario.settings, **updates)
+
+
+def _has_coupling(settings: Settings) -> bool:
+    return bool(settings.co2_cap_t_per_a and settings.co2_cap_t_per_a > 0) or bool(
+        settings.network_plant_limit_kw and settings.network_plant_limit_kw > 0
+    )
+
+
+def _solve_part(prepared, districts, objective, time_limit_s, cancel=None):
+    model = build_model(prepared, districts)
+    solution = solve_model(model, objective, time_limit_s=time_limit_s, cancel=cancel)
+    started = time.perf_counter()
+    tables = extract_tables(model, solution) if solution.status == "optimal" else None
+    extract_s = time.perf_counter() - started
+    size = {"variables": model.lp.n_cols, "constraints": model.lp.n_rows, "nonzeros": model.lp.n_nonzeros}
+    return solution.status, solution.message, tables, model.build_s, solution.solve_s, extract_s, size
+
+
+_WORKER_STATE: dict = {}
+
+
+def _worker_init(prepared):
+    _WORKER_STATE["prepared"] = prepared
+
+
+def _worker_solve(args):
+    districts, objective, time_limit_s = args
+    return _solve_part(_WORKER_STATE["prepared"], districts, objective, time_limit_s)
+
+
+def merge_tables(parts: list[dict]) -> dict[str, pd.DataFrame]:
+    """Concatenate per-district tables; the time tables are the same in every part."""
+    merged = {}
+    for name in parts[0]:
+        if name in ("steps", "day_map"):
+            merged[name] = parts[0][name]
+        else:
+            merged[name] = pd.concat([p[name] for p in parts], ignore_index=True)
+    return merged
+
+
+def failure_message(status: str, message: str, where: str) -> str:
+    hints = {
+        "infeasible": "The model has no feasible solution. Unserved heat is always allowed, so this points to "
+        "contradictory inputs (for example an existing capacity above its potential or a CO2 cap with unserved "
+        "heat switched off).",
+        "unbounded": "The model is unbounded: a cost is negative without limit (check negative prices).",
+        "time_limit": "The solver hit its time limit before reaching the optimum.",
+        "interrupted": "The solve was cancelled.",
+    }
+    return f"{hints.get(status, 'The solver failed.')} ({message}; {where})"
+
+
+def solve_scenario(
+    scenario: Scenario,
+    cost_case: str | None = None,
+    objective: str | None = None,
+    co2_cap_t_per_a: float | None = None,
+    typical_days: int | None = None,
+    decompose: bool | str = "auto",
+    workers: int | None = None,
+    progress: Progress | None = None,
+    cancel: Callable[[], bool] | None = None,
+    time_limit_s: float | None = None,
+    settings: Settings | None = None,
+) -> RunResult:
+    """Solve ``scenario`` under ``cost_case`` and return the result (never raises for solver failures)."""
+    started = time.perf_counter()
+    report = progress or (lambda share, text: None)
+    cost_case = cost_case or ("reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases)))
+    settings = settings or run_settings(scenario, objective, co2_cap_t_per_a, typical_days)
+    if settings.objective not in ("cost", "co2"):
+        raise ValueError(f"objective must be 'cost' or 'co2', got {settings.objective!r}")
+    result = RunResult(
+        status="error",
+        message="",
+        objective=settings.objective,
+        cost_case=cost_case,
+        input_hash=input_hash(scenario, cost_case, settings),
+        scenario_name=settings.name,
+        settings=dataclasses.asdict(settings),
+    )
+    report(0.02, "Preparing demand, COPs and the time grid")
+    prepared = prepare_run(scenario, cost_case, settings)
+    prepare_s = time.perf_counter() - started
+    n_d = len(prepared.district_ids)
+    if decompose == "auto":
+        decompose = n_d > 1 and not _has_coupling(settings)
+    if decompose and _has_coupling(settings):
+        raise ValueError("a city-wide CO2 cap or network plant limit couples the districts: solve without decompose")
+    parts = [[i] for i in range(n_d)] if decompose else [list(range(n_d))]
+    if workers is None:
+        workers = min(len(parts), os.cpu_count() or 1) if len(parts) > 4 else 1
+    report(0.1, f"Building and solving {len(parts)} linear program(s)")
+    outcomes = []
+    if workers > 1 and len(parts) > 1:
+        with ProcessPoolExecutor(max_workers=workers, initializer=_worker_init, initargs=(prepared,)) as pool:
+            futures = [pool.submit(_worker_solve, (p, settings.objective, time_limit_s)) for p in parts]
+            for k, future in enumerate(futures):
+                outcomes.append(future.result())
+                report(0.1 + 0.85 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)}")
+                if cancel is not None and cancel():
+                    for f in futures:
+                        f.cancel()
+                    break
+    else:
+        for k, p in enumerate(parts):
+            outcomes.append(_solve_part(prepared, p, settings.objective, time_limit_s, cancel))
+            report(0.1 + 0.85 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)}")
+            if outcomes[-1][0] != "optimal":
+                break
+    build_s = sum(o[3] for o in outcomes)
+    solve_s = sum(o[4] for o in outcomes)
+    extract_s = sum(o[5] for o in outcomes)
+    size = {key: int(sum(o[6][key] for o in outcomes)) for key in ("variables", "constraints", "nonzeros")}
+    size["linear_programs"] = len(parts)
+    result.model_size = size
+    failed = [(k, o) for k, o in enumerate(outcomes) if o[0] != "optimal"]
+    if len(outcomes) < len(parts) and not failed:
+        failed = [(len(outcomes), ("interrupted", "cancelled", None))]
+    if failed:
+        k, o = failed[0]
+        where = (
+            "district " + ", ".join(prepared.district_ids[i] for i in parts[k])
+            if decompose else "the city-wide model"
+        )
+        result.status = o[0]
+        result.message = failure_message(o[0], o[1], where)
+    else:
+        result.tables = merge_tables([o[2] for o in outcomes])
+        result.status = "optimal"
+        unserved = result.unserved_heat_mwh_per_a
+        result.message = "Optimal solution found." + (
+            f" {unserved:,.0f} MWh/a of heat demand cannot be served with the allowed supply." if unserved > 0.5 else ""
+        )
+    result.timings_s = {
+        "prepare": round(prepare_s, 4),
+        "build": round(build_s, 4),
+        "solve": round(solve_s, 4),
+        "extract": round(extract_s, 4),
+        "total": round(time.perf_counter() - started, 4),
+    }
+    report(1.0, "Done")
+    return result
