@@ -1,0 +1,1164 @@
+"""The scenario store: saved runs in one SQLite file.
+
+A planner compares many runs (cost cases, objectives, parameter sweeps) across days, so every run can be kept
+together with the scenario files it was computed from. :class:`ScenarioStore` writes runs to one SQLite file in the
+user's data folder (or wherever ``path`` / ``$HEATMOSAIC_STORE`` points).
+
+Design points
+-------------
+* One file, WAL journal and a busy timeout, so that two dashboard sessions saving at the same moment both succeed
+  (the second one waits for the first one's transaction instead of failing).
+* Every change runs inside one ``BEGIN IMMEDIATE ... COMMIT`` transaction: a save interrupted part-way (a killed
+  process, a power cut) leaves the file as it was before that save, with all earlier runs intact.
+* Values reach SQL only as bound parameters.
+* No pickle anywhere. Tables are stored as JSON (:func:`encode_table`) that records every column's dtype, so
+  that :func:`decode_table` gives back a frame equal to the original under ``pandas.testing.assert_frame_equal``:
+  bool, integer and float columns (NaN and +-inf included), text columns in pandas' ``str`` dtype or ``object``,
+  nullable and categorical columns, datetimes, row indexes and column labels.
+* The schema carries a version (``PRAGMA user_version``) and an application id (``PRAGMA application_id``), so a
+  file that belongs to another program is refused instead of altered, and a file from an older release is
+  migrated in place (see :data:`MIGRATIONS`).
+
+Schema (version 2)
+------------------
+``runs``
+    run_id, name, note, created_utc, scenario_name, cost_case, objective, status, message, input_hash,
+    total_cost_eur_per_a, co2_t_per_a, settings_json, timings_json, model_size_json, extras_json, tags, sweep_id.
+``run_tables``
+    run_id (deleted with its run), position, name, payload (the JSON of :func:`encode_table`).
+``run_inputs``
+    run_id (deleted with its run), filename (one of :data:`SCENARIO_FILES`), content (the file's bytes).
+
+Version 1 lacked ``runs.tags`` and ``runs.sweep_id``.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import re
+import sqlite3
+import sys
+import tempfile
+import threading
+import zipfile
+from collections.abc import Callable, Iterable, Mapping
+from contextlib import contextmanager
+from datetime import datetime, timezone
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from engine import __version__
+from engine.results import RunResult
+
+SCENARIO_FILES = (
+    "scenario.toml",
+    "districts.geojson",
+    "technologies.csv",
+    "hourly.csv",
+    "wells.csv",
+    "district_technologies.csv",
+    "buildings.csv",
+    "heat_demand_hourly.csv",
+    "groundwater_temp_hourly.csv",
+    "cost_cases.toml",
+)
+"""The file names a scenario folder may hold (``docs/input_format.md``); nothing else is read or written."""
+
+REQUIRED_SCENARIO_FILES = ("scenario.toml", "districts.geojson", "technologies.csv", "hourly.csv")
+
+SCHEMA_VERSION = 2
+"""Schema version written by this release."""
+
+APPLICATION_ID = 0x484D5354
+"""``PRAGMA application_id`` of a heatmosaic store (the ASCII letters "HMST")."""
+
+TABLE_CODEC_VERSION = 1
+
+ENV_STORE_PATH = "HEATMOSAIC_STORE"
+
+STORE_FILE_NAME = "scenarios.sqlite"
+
+LIST_COLUMNS = (
+    "run_id",
+    "name",
+    "cost_case",
+    "objective",
+    "total_cost_eur_per_a",
+    "co2_t_per_a",
+    "created_utc",
+    "note",
+    "status",
+    "input_hash",
+    "tags",
+    "sweep_id",
+)
+"""Columns of :meth:`ScenarioStore.list_runs`."""
+
+LIBRARY_FORMAT = "heatmosaic-library"
+LIBRARY_FORMAT_VERSION = 1
+
+_TABLE_NAME = re.compile(r"[a-z][a-z0-9_]{0,62}")
+
+
+class StoreError(Exception):
+    """A store operation failed; the message says why in plain words."""
+
+
+# ====================================================================================== where the store lives
+def default_store_path() -> Path:
+    """The store file used when none is given.
+
+    ``$HEATMOSAIC_STORE`` (a file path) when set; otherwise ``heatmosaic/scenarios.sqlite`` in the platform's
+    per-user data folder: ``$XDG_DATA_HOME`` or ``~/.local/share`` on Linux and other Unix systems,
+    ``~/Library/Application Support`` on macOS, ``%APPDATA%`` on Windows.
+    """
+    override = os.environ.get(ENV_STORE_PATH, "").strip()
+    if override:
+        return Path(override).expanduser()
+    if sys.platform.startswith("win"):
+        base = os.environ.get("APPDATA") or str(Path.home() / "AppData" / "Roaming")
+    elif sys.platform == "darwin":
+        base = str(Path.home() / "Library" / "Application Support")
+    else:
+        base = os.environ.get("XDG_DATA_HOME", "").strip() or str(Path.home() / ".local" / "share")
+    return Path(base).expanduser() / "heatmosaic" / STORE_FILE_NAME
+
+
+def read_scenario_files(folder: str | Path) -> dict[str, bytes]:
+    """The scenario files of ``folder`` as bytes, keyed by file name.
+
+    Only names in :data:`SCENARIO_FILES` are read; anything else in the folder is ignored.
+
+    Raises
+    ------
+    StoreError
+        If ``folder`` is not a folder.
+    """
+    folder = Path(folder)
+    if not folder.is_dir():
+        raise StoreError(f"scenario folder '{folder}' does not exist or is not a folder")
+    files = {}
+    for name in SCENARIO_FILES:
+        candidate = folder / name
+        if candidate.is_file():
+            files[name] = candidate.read_bytes()
+    return files
+
+
+def check_scenario_files(files: Mapping[str, bytes], where: str = "inputs") -> dict[str, bytes]:
+    """Validate a mapping of scenario file name -> bytes; returns a plain dict.
+
+    Raises
+    ------
+    StoreError
+        If a name is not one of :data:`SCENARIO_FILES`, a content is not bytes, or a file is not UTF-8 text.
+    """
+    if not isinstance(files, Mapping):
+        raise StoreError(f"{where} must map file names to bytes, not {type(files).__name__}")
+    out = {}
+    for name, content in files.items():
+        if name not in SCENARIO_FILES:
+            allowed = ", ".join(SCENARIO_FILES)
+            raise StoreError(f"{where}: '{name}' is not a scenario file name (allowed: {allowed})")
+        if isinstance(content, (bytearray, memoryview)):
+            content = bytes(content)
+        if not isinstance(content, bytes):
+            raise StoreError(f"{where}: the content of '{name}' must be bytes, not {type(content).__name__}")
+        try:
+            content.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            raise StoreError(
+                f"{where}: '{name}' is not UTF-8 text (byte {exc.start}); scenario files are UTF-8"
+            ) from None
+        out[name] = content
+    return out
+
+
+# ====================================================================================== table codec
+def encode_table(frame: pd.DataFrame, where: str = "table") -> str:
+    """A DataFrame as JSON text that :func:`decode_table` turns back into an equal frame.
+
+    Every column is kept with its dtype; float columns keep NaN, +inf and -inf, text columns keep the
+    difference between a missing value and an empty string.
+
+    Raises
+    ------
+    StoreError
+        If a column has a dtype or a value the codec cannot keep (complex numbers, arbitrary Python objects).
+    """
+    if not isinstance(frame, pd.DataFrame):
+        raise StoreError(f"{where} is a {type(frame).__name__}, not a pandas DataFrame")
+    data = []
+    for position in range(frame.shape[1]):
+        label = frame.columns[position]
+        data.append(_encode_values(frame.iloc[:, position], f"{where}, column {label!r}"))
+    payload = {
+        "codec": "heatmosaic-table",
+        "version": TABLE_CODEC_VERSION,
+        "n_rows": int(frame.shape[0]),
+        "index": _encode_index(frame.index, f"{where}, row index"),
+        "columns": _encode_index(frame.columns, f"{where}, column labels"),
+        "data": data,
+    }
+    try:
+        return json.dumps(payload, allow_nan=False, separators=(",", ":"))
+    except (TypeError, ValueError) as exc:
+        raise StoreError(f"{where} holds a value that cannot be written as JSON: {exc}") from None
+
+
+def decode_table(text: str | bytes, where: str = "table") -> pd.DataFrame:
+    """The DataFrame that :func:`encode_table` wrote.
+
+    Raises
+    ------
+    StoreError
+        If ``text`` is not such a payload.
+    """
+    try:
+        payload = json.loads(text)
+        if not isinstance(payload, dict) or payload.get("codec") != "heatmosaic-table":
+            raise ValueError("not a heatmosaic table payload")
+        if payload.get("version") != TABLE_CODEC_VERSION:
+            raise ValueError(f"table codec version {payload.get('version')!r} is not known to this release")
+        n_rows = int(payload["n_rows"])
+        columns = _decode_index(payload["columns"])
+        index = _decode_index(payload["index"])
+        arrays = [_decode_values(spec) for spec in payload["data"]]
+        if len(arrays) != len(columns) or len(index) != n_rows or any(len(a) != n_rows for a in arrays):
+            raise ValueError("the column and row counts do not agree")
+        frame = pd.DataFrame(
+            {i: pd.Series(a, dtype=a.dtype, copy=False) for i, a in enumerate(arrays)},
+            index=pd.RangeIndex(n_rows),
+        )
+        frame.index = index
+        frame.columns = columns
+        return frame
+    except StoreError:
+        raise
+    except (ValueError, TypeError, KeyError, IndexError, AttributeError, RecursionError) as exc:
+        raise StoreError(f"{where} cannot be read back ({exc}); the store may be damaged") from None
+
+
+_MASKED = {
+    "Int8", "Int16", "Int32", "Int64", "UInt8", "UInt16", "UInt32", "UInt64", "Float32", "Float64", "boolean",
+}
+
+
+def _float_list(values: np.ndarray) -> tuple[list, dict]:
+    """Finite floats as a list; NaN/inf replaced by 0 with their positions returned separately."""
+    values = np.asarray(values, dtype=np.float64)
+    bad = ~np.isfinite(values)
+    special = {}
+    if bad.any():
+        for key, mask in (("nan", np.isnan(values)), ("inf", values == np.inf), ("-inf", values == -np.inf)):
+            if mask.any():
+                special[key] = np.flatnonzero(mask).tolist()
+        values = np.where(bad, 0.0, values)
+    return values.tolist(), special
+
+
+def _put_specials(values: list, special: dict) -> list:
+    for key, positions in special.items():
+        number = float(key)
+        for i in positions:
+            values[i] = number
+    return values
+
+
+def _encode_object(value, where: str):
+    if value is None:
+        return ["none"]
+    if value is pd.NA:
+        return ["na"]
+    if value is pd.NaT:
+        return ["nat"]
+    if isinstance(value, (bool, np.bool_)):
+        return ["bool", bool(value)]
+    if isinstance(value, (int, np.integer)):
+        return ["int", int(value)]
+    if isinstance(value, (float, np.floating)):
+        value = float(value)
+        return ["float", value if math.isfinite(value) else str(value)]
+    if isinstance(value, str):
+        return ["str", str(value)]
+    if isinstance(value, (dict, list)):
+        try:
+            json.dumps(value, allow_nan=False)
+        except (TypeError, ValueError) as exc:
+            raise StoreError(f"{where}: a value cannot be written as JSON ({exc})") from None
+        return ["json", value]
+    raise StoreError(f"{where}: values of type {type(value).__name__} cannot be stored")
+
+
+def _decode_object(item):
+    tag = item[0]
+    if tag == "none":
+        return None
+    if tag == "na":
+        return pd.NA
+    if tag == "nat":
+        return pd.NaT
+    if tag == "bool":
+        return bool(item[1])
+    if tag == "int":
+        return int(item[1])
+    if tag == "float":
+        return float(item[1])
+    if tag in ("str", "json"):
+        return item[1]
+    raise ValueError(f"unknown value tag {tag!r}")
+
+
+def _string_dtype(storage: str, na: str) -> pd.StringDtype:
+    na_value = np.nan if na == "nan" else pd.NA
+    try:
+        return pd.StringDtype(storage=storage, na_value=na_value)
+    except ImportError:
+        # A store written where pyarrow is installed, read where it is not: same values, other storage.
+        return pd.StringDtype(na_value=na_value)
+
+
+def _encode_values(values: pd.Series | pd.Index, where: str) -> dict:
+    """One column (or one index level) as a JSON-safe dict."""
+    dtype = values.dtype
+    series = values if isinstance(values, pd.Series) else pd.Series(values, copy=False)
+    if isinstance(dtype, np.dtype):
+        kind = dtype.kind
+        raw = series.to_numpy()
+        if kind == "b":
+            return {"dtype": "bool", "values": raw.tolist()}
+        if kind in "iu":
+            return {"dtype": dtype.name, "values": raw.tolist()}
+        if kind == "f":
+            numbers, special = _float_list(raw)
+            return {"dtype": dtype.name, "values": numbers, "special": special}
+        if kind in "mM":
+            return {"dtype": str(dtype), "values": raw.view(np.int64).tolist()}
+        if kind == "O":
+            return {"dtype": "object", "values": [_encode_object(v, where) for v in raw.tolist()]}
+        raise StoreError(f"{where}: dtype {dtype} cannot be stored")
+    if isinstance(dtype, pd.StringDtype):
+        na = "nan" if isinstance(dtype.na_value, float) else "NA"
+        raw = series.to_numpy(dtype=object, na_value=None)
+        return {"dtype": "string", "storage": dtype.storage, "na": na, "values": raw.tolist()}
+    if isinstance(dtype, pd.CategoricalDtype):
+        codes = series.cat.codes.to_numpy().astype(np.int64)
+        return {
+            "dtype": "category",
+            "ordered": bool(dtype.ordered),
+            "categories": _encode_index(dtype.categories, f"{where}, categories"),
+            "values": codes.tolist(),
+        }
+    if isinstance(dtype, pd.DatetimeTZDtype):
+        utc = series.dt.tz_convert("UTC").dt.tz_localize(None).to_numpy()
+        return {"dtype": "datetimetz", "unit": dtype.unit, "tz": str(dtype.tz), "values": utc.view(np.int64).tolist()}
+    if str(dtype) in _MASKED:
+        raw = series.to_numpy(dtype=object, na_value=None)
+        missing = [i for i, v in enumerate(raw.tolist()) if v is None]
+        if str(dtype) == "boolean":
+            numbers = [bool(v) if v is not None else False for v in raw.tolist()]
+            special = {}
+        elif str(dtype).startswith("Float"):
+            filled = np.array([0.0 if v is None else v for v in raw.tolist()], dtype=np.float64)
+            numbers, special = _float_list(filled)
+        else:
+            numbers = [0 if v is None else int(v) for v in raw.tolist()]
+            special = {}
+        return {"dtype": str(dtype), "values": numbers, "special": special, "missing": missing}
+    raise StoreError(f"{where}: dtype {dtype} cannot be stored")
+
+
+def _decode_values(spec: dict):
+    """Inverse of :func:`_encode_values`: a numpy array or pandas extension array."""
+    dtype = spec["dtype"]
+    values = spec["values"]
+    if dtype == "bool":
+        return np.asarray(values, dtype=bool).reshape(-1)
+    if dtype == "object":
+        out = np.empty(len(values), dtype=object)
+        for i, item in enumerate(values):
+            out[i] = _decode_object(item)
+        return out
+    if dtype == "string":
+        return pd.array(values, dtype=_string_dtype(spec["storage"], spec["na"]))
+    if dtype == "category":
+        categories = _decode_index(spec["categories"])
+        return pd.Categorical.from_codes(
+            np.asarray(values, dtype=np.int64).reshape(-1), categories=categories, ordered=bool(spec["ordered"])
+        )
+    if dtype == "datetimetz":
+        naive = np.asarray(values, dtype=np.int64).reshape(-1).view(f"datetime64[{spec['unit']}]")
+        return pd.Series(naive).dt.tz_localize("UTC").dt.tz_convert(spec["tz"]).array
+    if dtype in _MASKED:
+        items = list(values)
+        if dtype.startswith("Float"):
+            items = _put_specials([float(v) for v in items], spec.get("special", {}))
+        for i in spec.get("missing", []):
+            items[i] = None
+        return pd.array(items, dtype=dtype)
+    np_dtype = np.dtype(dtype)
+    if np_dtype.kind in "iu":
+        return np.asarray(values, dtype=np_dtype).reshape(-1)
+    if np_dtype.kind == "f":
+        numbers = np.asarray(values, dtype=np.float64).reshape(-1)
+        for key, positions in spec.get("special", {}).items():
+            numbers[np.asarray(positions, dtype=np.int64)] = float(key)
+        return numbers.astype(np_dtype)
+    if np_dtype.kind in "mM":
+        return np.asarray(values, dtype=np.int64).reshape(-1).view(np_dtype)
+    raise ValueError(f"unknown dtype {dtype!r}")
+
+
+def _encode_index(index: pd.Index, where: str) -> dict:
+    if isinstance(index, pd.RangeIndex):
+        return {
+            "kind": "range",
+            "start": int(index.start),
+            "stop": int(index.stop),
+            "step": int(index.step),
+            "name": _encode_object(index.name, where),
+        }
+    if isinstance(index, pd.MultiIndex):
+        return {
+            "kind": "multi",
+            "names": [_encode_object(n, where) for n in index.names],
+            "levels": [_encode_values(index.get_level_values(i), where) for i in range(index.nlevels)],
+        }
+    return {"kind": "values", "name": _encode_object(index.name, where), "values": _encode_values(index, where)}
+
+
+def _decode_index(spec: dict) -> pd.Index:
+    kind = spec["kind"]
+    if kind == "range":
+        return pd.RangeIndex(spec["start"], spec["stop"], spec["step"], name=_decode_object(spec["name"]))
+    if kind == "multi":
+        levels = [_decode_values(level) for level in spec["levels"]]
+        names = [_decode_object(n) for n in spec["names"]]
+        return pd.MultiIndex.from_arrays([pd.Index(a, dtype=a.dtype) for a in levels], names=names)
+    if kind == "values":
+        values = _decode_values(spec["values"])
+        return pd.Index(values, dtype=values.dtype, name=_decode_object(spec["name"]), copy=False)
+    raise ValueError(f"unknown index kind {kind!r}")
+
+
+# ====================================================================================== run metadata
+def _json_default(value):
+    if isinstance(value, np.bool_):
+        return bool(value)
+    if isinstance(value, np.integer):
+        return int(value)
+    if isinstance(value, np.floating):
+        return float(value)
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    raise TypeError(f"values of type {type(value).__name__} cannot be written as JSON")
+
+
+def _dump_meta(value, field_name: str) -> str:
+    """Metadata dicts as JSON text; NaN and inf kept (written as Python's json writes them)."""
+    if not isinstance(value, dict):
+        raise StoreError(f"the run's {field_name} must be a dict, not {type(value).__name__}")
+    try:
+        return json.dumps(value, default=_json_default, allow_nan=True, sort_keys=False)
+    except (TypeError, ValueError) as exc:
+        raise StoreError(f"the run's {field_name} holds a value the store cannot keep: {exc}") from None
+
+
+def _load_meta(text: str | None, field_name: str, run_id) -> dict:
+    if not text:
+        return {}
+    try:
+        value = json.loads(text)
+    except ValueError as exc:
+        raise StoreError(f"run {run_id}: {field_name} cannot be read back ({exc})") from None
+    return value if isinstance(value, dict) else {}
+
+
+def _figure(result: RunResult, name: str) -> float | None:
+    """A city figure of ``result`` for the runs list, or None when the tables do not give it."""
+    try:
+        value = float(getattr(result, name))
+    except (KeyError, AttributeError, TypeError, ValueError):
+        return None
+    return value if math.isfinite(value) else None
+
+
+def _normalise_tags(tags) -> str:
+    if tags is None:
+        return ""
+    if isinstance(tags, str):
+        return tags.strip()
+    if isinstance(tags, Iterable):
+        parts = []
+        for tag in tags:
+            if not isinstance(tag, str):
+                raise StoreError(f"tags must be text, not {type(tag).__name__}")
+            if tag.strip():
+                parts.append(tag.strip())
+        return ", ".join(parts)
+    raise StoreError(f"tags must be text, not {type(tags).__name__}")
+
+
+def _normalise_sweep_id(sweep_id) -> str | None:
+    if sweep_id is None:
+        return None
+    if isinstance(sweep_id, (bool, np.bool_)) or not isinstance(sweep_id, (str, int, np.integer)):
+        raise StoreError(f"sweep_id must be text or a whole number, not {type(sweep_id).__name__}")
+    return str(sweep_id)
+
+
+def _now_utc() -> str:
+    return datetime.now(timezone.utc).isoformat(timespec="seconds")
+
+
+# ====================================================================================== schema
+_SCHEMA_V1 = (
+    "PRAGMA application_id = 1213027156",
+    """CREATE TABLE runs (
+        run_id INTEGER PRIMARY KEY AUTOINCREMENT,
+        name TEXT NOT NULL,
+        note TEXT NOT NULL DEFAULT '',
+        created_utc TEXT NOT NULL,
+        scenario_name TEXT NOT NULL DEFAULT '',
+        cost_case TEXT NOT NULL DEFAULT '',
+        objective TEXT NOT NULL DEFAULT '',
+        status TEXT NOT NULL DEFAULT '',
+        message TEXT NOT NULL DEFAULT '',
+        input_hash TEXT NOT NULL DEFAULT '',
+        total_cost_eur_per_a REAL,
+        co2_t_per_a REAL,
+        settings_json TEXT NOT NULL DEFAULT '{}',
+        timings_json TEXT NOT NULL DEFAULT '{}',
+        model_size_json TEXT NOT NULL DEFAULT '{}',
+        extras_json TEXT NOT NULL DEFAULT '{}'
+    )""",
+    """CREATE TABLE run_tables (
+        run_id INTEGER NOT NULL REFERENCES runs(run_id) ON DELETE CASCADE,
+        position INTEGER NOT NULL,
+        name TEXT NOT NULL,
+        payload TEXT NOT NULL,
+        PRIMARY KEY (run_id, name)
+    )""",
+    """CREATE TABLE run_inputs (
+        run_id INTEGER NOT NULL REFERENCES runs(run_id) ON DELETE CASCADE,
+        filename TEXT NOT NULL,
+        content BLOB NOT NULL,
+        PRIMARY KEY (run_id, filename)
+    )""",
+    "CREATE INDEX runs_by_input_hash ON runs(input_hash)",
+    "PRAGMA user_version = 1",
+)
+"""Version 1 of the schema. A new store is made as version 1 and then migrated, so that a new file and a
+migrated old file are built by the same statements."""
+
+def _migrate_1_to_2(conn: sqlite3.Connection) -> None:
+    """Version 2 adds free-text tags and the id of the parameter sweep a run belongs to."""
+    conn.execute("ALTER TABLE runs ADD COLUMN tags TEXT NOT NULL DEFAULT ''")
+    conn.execute("ALTER TABLE runs ADD COLUMN sweep_id TEXT")
+    conn.execute("CREATE INDEX runs_by_sweep ON runs(sweep_id)")
+    conn.execute("PRAGMA user_version = 2")
+
+
+MIGRATIONS: dict[int, Callable[[sqlite3.Connection], None]] = {1: _migrate_1_to_2}
+"""Schema migrations: ``MIGRATIONS[v]`` turns version ``v`` into version ``v + 1`` (inside a transaction)."""
+
+
+def migrate(conn: sqlite3.Connection) -> int:
+    """Bring the schema of an open store to :data:`SCHEMA_VERSION`; returns the version found.
+
+    Must be called inside a write transaction; creates the schema when the database is empty.
+    """
+    found = conn.execute("PRAGMA user_version").fetchone()[0]
+    version = found
+    if version == 0:
+        for statement in _SCHEMA_V1:
+            conn.execute(statement)
+        version = 1
+    while version < SCHEMA_VERSION:
+        MIGRATIONS[version](conn)
+        version += 1
+    return found
+
+
+# ====================================================================================== the store
+_RUN_COLUMNS = (
+    "run_id, name, note, created_utc, scenario_name, cost_case, objective, status, message, input_hash, "
+    "total_cost_eur_per_a, co2_t_per_a, settings_json, timings_json, model_size_json, extras_json, tags, sweep_id"
+)
+
+
+class ScenarioStore:
+    """Saved runs in one SQLite file.
+
+    Parameters
+    ----------
+    path : str or Path, optional
+        The store file; created (with its folders) when missing. Default: :func:`default_store_path`.
+    timeout_s : float
+        How long a save waits for another session's save to finish before giving up. [s]
+
+    Raises
+    ------
+    StoreError
+        If the file is not a heatmosaic store (not SQLite, or another program's SQLite file) or was written by
+        a newer release.
+
+    Notes
+    -----
+    One object may be shared by the threads of one process (calls are serialised by a lock); several processes
+    may open the same file at once. Use it as a context manager or call :meth:`close`.
+    """
+
+    def __init__(self, path: str | Path | None = None, *, timeout_s: float = 60.0):
+        self.path = Path(path).expanduser() if path is not None else default_store_path()
+        self._lock = threading.RLock()
+        # Called inside the save transaction after each row is written; lets tests kill a save part-way.
+        self._fault_hook: Callable[[str], None] | None = None
+        try:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise StoreError(f"cannot create the folder of the store '{self.path}': {exc}") from None
+        if self.path.is_dir():
+            raise StoreError(f"the store path '{self.path}' is a folder, not a file")
+        try:
+            self._conn = sqlite3.connect(
+                str(self.path), timeout=float(timeout_s), isolation_level=None, check_same_thread=False
+            )
+        except sqlite3.Error as exc:
+            raise StoreError(f"cannot open the store '{self.path}': {exc}") from None
+        try:
+            self._prepare()
+        except BaseException:
+            self._conn.close()
+            self._conn = None
+            raise
+
+    # ------------------------------------------------------------------ opening
+    def _prepare(self) -> None:
+        conn = self._conn
+        try:
+            application_id = conn.execute("PRAGMA application_id").fetchone()[0]
+            version = conn.execute("PRAGMA user_version").fetchone()[0]
+            n_objects = conn.execute("SELECT count(*) FROM sqlite_master").fetchone()[0]
+        except sqlite3.DatabaseError as exc:
+            raise StoreError(
+                f"'{self.path}' is not a heatmosaic scenario store (it is not an SQLite database: {exc})"
+            ) from None
+        empty = application_id == 0 and version == 0 and n_objects == 0
+        if not empty and application_id != APPLICATION_ID:
+            raise StoreError(
+                f"'{self.path}' is an SQLite database of another program, not a heatmosaic scenario store; "
+                "it was left unchanged"
+            )
+        if version > SCHEMA_VERSION:
+            raise StoreError(
+                f"the store '{self.path}' has schema version {version}, written by a newer heatmosaic release "
+                f"(this one knows up to {SCHEMA_VERSION}); update heatmosaic to open it"
+            )
+        try:
+            self.journal_mode = conn.execute("PRAGMA journal_mode = WAL").fetchone()[0]
+            conn.execute("PRAGMA foreign_keys = ON")
+        except sqlite3.Error as exc:
+            raise StoreError(f"cannot prepare the store '{self.path}': {exc}") from None
+        with self._write() as write:
+            self.migrated_from = migrate(write)
+
+    # ------------------------------------------------------------------ plumbing
+    def _connection(self) -> sqlite3.Connection:
+        if self._conn is None:
+            raise StoreError("the store is closed")
+        return self._conn
+
+    @contextmanager
+    def _write(self):
+        """One write transaction; rolled back on any error."""
+        with self._lock:
+            conn = self._connection()
+            try:
+                conn.execute("BEGIN IMMEDIATE")
+            except sqlite3.OperationalError as exc:
+                raise StoreError(f"the store '{self.path}' is busy or read-only ({exc}); try again") from None
+            try:
+                yield conn
+                conn.execute("COMMIT")
+            except BaseException:
+                if conn.in_transaction:
+                    conn.execute("ROLLBACK")
+                raise
+
+    @contextmanager
+    def _read(self):
+        """A read transaction: one consistent view of the file."""
+        with self._lock:
+            conn = self._connection()
+            conn.execute("BEGIN")
+            try:
+                yield conn
+            finally:
+                if conn.in_transaction:
+                    conn.execute("COMMIT")
+
+    def _hook(self, stage: str) -> None:
+        if self._fault_hook is not None:
+            self._fault_hook(stage)
+
+    def _require_run(self, conn: sqlite3.Connection, run_id) -> int:
+        run_id = self._run_id(run_id)
+        if conn.execute("SELECT 1 FROM runs WHERE run_id = ?", (run_id,)).fetchone() is None:
+            raise StoreError(f"there is no run {run_id} in the store '{self.path}'")
+        return run_id
+
+    @staticmethod
+    def _run_id(run_id) -> int:
+        if isinstance(run_id, (bool, np.bool_)) or not isinstance(run_id, (int, np.integer)):
+            raise StoreError(f"a run id is a whole number, not {run_id!r}")
+        return int(run_id)
+
+    def close(self) -> None:
+        """Close the file. Further calls raise :class:`StoreError`."""
+        with self._lock:
+            if self._conn is not None:
+                self._conn.close()
+                self._conn = None
+
+    def __enter__(self) -> "ScenarioStore":
+        return self
+
+    def __exit__(self, *exc_info) -> None:
+        self.close()
+
+    def __repr__(self) -> str:
+        return f"ScenarioStore('{self.path}')"
+
+    # ------------------------------------------------------------------ saving
+    def save_run(
+        self,
+        result: RunResult,
+        name: str,
+        note: str = "",
+        inputs: Mapping[str, bytes] | None = None,
+        tags: str | Iterable[str] = "",
+        sweep_id: str | int | None = None,
+    ) -> int:
+        """Save ``result`` with the scenario files it was computed from; returns the new run id.
+
+        Parameters
+        ----------
+        result : RunResult
+            The run.
+        name : str
+            Display name (need not be unique).
+        note : str
+            Free text.
+        inputs : dict of str to bytes, optional
+            The scenario folder's files (see :func:`read_scenario_files`), so the run can be reproduced.
+        tags : str or list of str
+            Free-text tags; a list is stored comma separated.
+        sweep_id : str or int, optional
+            The parameter sweep the run belongs to (stored as text).
+
+        Raises
+        ------
+        StoreError
+            If the result cannot be stored (a table or metadata value the store cannot keep, an unknown input
+            file name) or the store stays busy longer than the timeout. Nothing is saved then.
+        """
+        record, tables, files = self._prepare_run(result, name, note, inputs, tags, sweep_id)
+        try:
+            with self._write() as conn:
+                return self._insert_run(conn, record, tables, files)
+        except sqlite3.Error as exc:
+            raise StoreError(f"the run could not be saved to '{self.path}': {exc}") from None
+
+    def _prepare_run(self, result, name, note, inputs, tags, sweep_id, created_utc=None):
+        """Everything a save writes, encoded before the transaction so the lock is held briefly."""
+        if not isinstance(result, RunResult):
+            raise StoreError(f"only a RunResult can be saved, not {type(result).__name__}")
+        if not isinstance(name, str) or not name.strip():
+            raise StoreError("a run needs a name (non-empty text)")
+        if not isinstance(note, str):
+            raise StoreError(f"a note is text, not {type(note).__name__}")
+        if not isinstance(result.tables, dict):
+            raise StoreError("result.tables must be a dict of table name -> DataFrame")
+        tables = []
+        for table_name, frame in result.tables.items():
+            if not isinstance(table_name, str) or not table_name:
+                raise StoreError(f"table names must be non-empty text, not {table_name!r}")
+            tables.append((table_name, encode_table(frame, f"table '{table_name}'")))
+        files = check_scenario_files(inputs or {}, "inputs")
+        record = (
+            name.strip(),
+            note,
+            created_utc or _now_utc(),
+            str(result.scenario_name or ""),
+            str(result.cost_case or ""),
+            str(result.objective or ""),
+            str(result.status or ""),
+            str(result.message or ""),
+            str(result.input_hash or ""),
+            _figure(result, "total_cost_eur_per_a"),
+            _figure(result, "co2_t_per_a"),
+            _dump_meta(result.settings, "settings"),
+            _dump_meta(result.timings_s, "timings_s"),
+            _dump_meta(result.model_size, "model_size"),
+            _dump_meta(result.extras, "extras"),
+            _normalise_tags(tags),
+            _normalise_sweep_id(sweep_id),
+        )
+        return record, tables, files
+
+    def _insert_run(self, conn, record, tables, files) -> int:
+        cursor = conn.execute(
+            "INSERT INTO runs (name, note, created_utc, scenario_name, cost_case, objective, status, message, "
+            "input_hash, total_cost_eur_per_a, co2_t_per_a, settings_json, timings_json, model_size_json, "
+            "extras_json, tags, sweep_id) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
+            record,
+        )
+        run_id = int(cursor.lastrowid)
+        self._hook("run")
+        for position, (table_name, payload) in enumerate(tables):
+            conn.execute(
+                "INSERT INTO run_tables (run_id, position, name, payload) VALUES (?, ?, ?, ?)",
+                (run_id, position, table_name, payload),
+            )
+            self._hook(f"table:{table_name}")
+        for filename, content in files.items():
+            conn.execute(
+                "INSERT INTO run_inputs (run_id, filename, content) VALUES (?, ?, ?)",
+                (run_id, filename, sqlite3.Binary(content)),
+            )
+            self._hook(f"input:{filename}")
+        return run_id
+
+    # ------------------------------------------------------------------ reading
+    def list_runs(self) -> pd.DataFrame:
+        """All runs, newest first, with the columns of :data:`LIST_COLUMNS`."""
+        with self._read() as conn:
+            rows = conn.execute(f"SELECT {', '.join(LIST_COLUMNS)} FROM runs ORDER BY run_id DESC").fetchall()
+        frame = pd.DataFrame.from_records(rows, columns=list(LIST_COLUMNS))
+        text = {c: "str" for c in LIST_COLUMNS if c not in ("run_id", "total_cost_eur_per_a", "co2_t_per_a")}
+        return frame.astype({"run_id": "int64", "total_cost_eur_per_a": "float64", "co2_t_per_a": "float64", **text})
+
+    def load_run(self, run_id: int) -> RunResult:
+        """The saved run as a :class:`RunResult`, its tables equal to those saved.
+
+        Raises
+        ------
+        StoreError
+            If there is no such run.
+        """
+        run_id = self._run_id(run_id)
+        with self._read() as conn:
+            row = conn.execute(f"SELECT {_RUN_COLUMNS} FROM runs WHERE run_id = ?", (run_id,)).fetchone()
+            if row is None:
+                raise StoreError(f"there is no run {run_id} in the store '{self.path}'")
+            table_rows = conn.execute(
+                "SELECT name, payload FROM run_tables WHERE run_id = ? ORDER BY position", (run_id,)
+            ).fetchall()
+        (_, _, _, _, scenario_name, cost_case, objective, status, message, input_hash, _, _, settings_json,
+         timings_json, model_size_json, extras_json, _, _) = row
+        tables = {
+            table_name: decode_table(payload, f"run {run_id}, table '{table_name}'")
+            for table_name, payload in table_rows
+        }
+        return RunResult(
+            status=status,
+            message=message,
+            objective=objective,
+            cost_case=cost_case,
+            input_hash=input_hash,
+            scenario_name=scenario_name,
+            settings=_load_meta(settings_json, "settings", run_id),
+            timings_s=_load_meta(timings_json, "timings_s", run_id),
+            model_size=_load_meta(model_size_json, "model_size", run_id),
+            tables=tables,
+            extras=_load_meta(extras_json, "extras", run_id),
+        )
+
+    def run_info(self, run_id: int) -> dict:
+        """The list-row of one run (the keys of :data:`LIST_COLUMNS`) as a dict."""
+        run_id = self._run_id(run_id)
+        with self._read() as conn:
+            row = conn.execute(
+                f"SELECT {', '.join(LIST_COLUMNS)} FROM runs WHERE run_id = ?", (run_id,)
+            ).fetchone()
+        if row is None:
+            raise StoreError(f"there is no run {run_id} in the store '{self.path}'")
+        return dict(zip(LIST_COLUMNS, row))
+
+    def load_inputs(self, run_id: int) -> dict[str, bytes]:
+        """The scenario files saved with a run (empty when none were saved)."""
+        with self._read() as conn:
+            run_id = self._require_run(conn, run_id)
+            rows = conn.execute(
+                "SELECT filename, content FROM run_inputs WHERE run_id = ? ORDER BY filename", (run_id,)
+            ).fetchall()
+        return {filename: bytes(content) for filename, content in rows}
+
+    def materialise_inputs(self, run_id: int, folder: str | Path) -> Path:
+        """Write the scenario files of a run into ``folder`` (created if missing); returns the folder.
+
+        Raises
+        ------
+        StoreError
+            If the run saved no scenario files, or ``folder`` already holds scenario files (a mix of two
+            scenarios would be neither).
+        """
+        files = self.load_inputs(run_id)
+        if not files:
+            raise StoreError(f"run {run_id} was saved without its scenario files")
+        folder = Path(folder)
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise StoreError(f"cannot create the folder '{folder}': {exc}") from None
+        clashes = [name for name in SCENARIO_FILES if os.path.lexists(folder / name)]
+        if clashes:
+            raise StoreError(
+                f"the folder '{folder}' already holds scenario files ({', '.join(clashes)}); choose an empty folder"
+            )
+        root = folder.resolve()
+        for filename, content in files.items():
+            if filename not in SCENARIO_FILES:
+                raise StoreError(f"run {run_id} holds a file with a name that is not allowed: {filename!r}")
+            target = root / filename
+            if target.resolve().parent != root:
+                raise StoreError(f"refusing to write '{filename}' outside '{root}'")
+            descriptor = os.open(target, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_NOFOLLOW", 0), 0o644)
+            with os.fdopen(descriptor, "wb") as handle:
+                handle.write(content)
+        return folder
+
+    def find_by_hash(self, input_hash: str) -> int | None:
+        """The newest run with this input hash, or None (also for an empty hash)."""
+        if not isinstance(input_hash, str) or not input_hash:
+            return None
+        with self._read() as conn:
+            row = conn.execute(
+                "SELECT run_id FROM runs WHERE input_hash = ? ORDER BY run_id DESC LIMIT 1", (input_hash,)
+            ).fetchone()
+        return None if row is None else int(row[0])
+
+    # ------------------------------------------------------------------ editing
+    def _update(self, run_id, column_sql: str, value) -> None:
+        run_id = self._run_id(run_id)
+        with self._write() as conn:
+            self._require_run(conn, run_id)
+            conn.execute(column_sql, (value, run_id))
+
+    def rename_run(self, run_id: int, name: str) -> None:
+        """Give a run a new display name."""
+        if not isinstance(name, str) or not name.strip():
+            raise StoreError("a run needs a name (non-empty text)")
+        self._update(run_id, "UPDATE runs SET name = ? WHERE run_id = ?", name.strip())
+
+    def set_note(self, run_id: int, note: str) -> None:
+        """Replace a run's note."""
+        if not isinstance(note, str):
+            raise StoreError(f"a note is text, not {type(note).__name__}")
+        self._update(run_id, "UPDATE runs SET note = ? WHERE run_id = ?", note)
+
+    def set_tags(self, run_id: int, tags: str | Iterable[str]) -> None:
+        """Replace a run's tags."""
+        self._update(run_id, "UPDATE runs SET tags = ? WHERE run_id = ?", _normalise_tags(tags))
+
+    def delete_run(self, run_id: int) -> None:
+        """Delete one run with its tables and scenario files; other runs are untouched."""
+        run_id = self._run_id(run_id)
+        with self._write() as conn:
+            self._require_run(conn, run_id)
+            conn.execute("DELETE FROM runs WHERE run_id = ?", (run_id,))
+
+    # ------------------------------------------------------------------ library export and import
+    def export_library(self, path: str | Path, include_csv: bool = True) -> Path:
+        """Write every run to one zip file (JSON, CSV and the scenario files; no pickle); returns its path.
+
+        Layout: ``library.json`` (format, release, list of runs); per run ``runs/<n>/run.json`` (metadata),
+        ``runs/<n>/tables/<table>.json`` (typed, read back by :meth:`import_library`),
+        ``runs/<n>/tables/<table>.csv`` (for spreadsheets, when ``include_csv``) and ``runs/<n>/inputs/<file>``.
+        """
+        from engine import bundle as _bundle
+
+        path = Path(path)
+        path.parent.mkdir(parents=True, exist_ok=True)
+        handle, temp_name = tempfile.mkstemp(prefix=".library-", suffix=".zip", dir=path.parent)
+        os.close(handle)
+        try:
+            with self._read() as conn, zipfile.ZipFile(temp_name, "w", zipfile.ZIP_DEFLATED) as archive:
+                rows = conn.execute(f"SELECT {_RUN_COLUMNS} FROM runs ORDER BY run_id").fetchall()
+                listing = []
+                for number, row in enumerate(rows, start=1):
+                    folder = f"runs/{number:05d}"
+                    run_id = row[0]
+                    meta = dict(zip(_RUN_COLUMNS.split(", "), row))
+                    table_rows = conn.execute(
+                        "SELECT name, payload FROM run_tables WHERE run_id = ? ORDER BY position", (run_id,)
+                    ).fetchall()
+                    input_rows = conn.execute(
+                        "SELECT filename, content FROM run_inputs WHERE run_id = ? ORDER BY filename", (run_id,)
+                    ).fetchall()
+                    for table_name, _ in table_rows:
+                        if not _TABLE_NAME.fullmatch(table_name):
+                            raise StoreError(
+                                f"run {run_id}: table name '{table_name}' cannot be exported (use lower-case "
+                                "letters, digits and '_')"
+                            )
+                    run_doc = {
+                        "original_run_id": run_id,
+                        "name": meta["name"],
+                        "note": meta["note"],
+                        "created_utc": meta["created_utc"],
+                        "scenario_name": meta["scenario_name"],
+                        "cost_case": meta["cost_case"],
+                        "objective": meta["objective"],
+                        "status": meta["status"],
+                        "message": meta["message"],
+                        "input_hash": meta["input_hash"],
+                        "tags": meta["tags"],
+                        "sweep_id": meta["sweep_id"],
+                        "settings": json.loads(meta["settings_json"] or "{}"),
+                        "timings_s": json.loads(meta["timings_json"] or "{}"),
+                        "model_size": json.loads(meta["model_size_json"] or "{}"),
+                        "extras": json.loads(meta["extras_json"] or "{}"),
+                        "tables": [table_name for table_name, _ in table_rows],
+                        "inputs": [filename for filename, _ in input_rows],
+                    }
+                    _bundle.zip_write_entry(archive, f"{folder}/run.json", json.dumps(run_doc, indent=1).encode())
+                    for table_name, payload in table_rows:
+                        _bundle.zip_write_entry(archive, f"{folder}/tables/{table_name}.json", payload.encode())
+                        if include_csv:
+                            frame = decode_table(payload, f"run {run_id}, table '{table_name}'")
+                            _bundle.zip_write_entry(
+                                archive, f"{folder}/tables/{table_name}.csv", frame.to_csv(index=False).encode()
+                            )
+                    for filename, content in input_rows:
+                        _bundle.zip_write_entry(archive, f"{folder}/inputs/{filename}", bytes(content))
+                    listing.append({"folder": folder, "original_run_id": run_id, "name": meta["name"]})
+                library_doc = {
+                    "format": LIBRARY_FORMAT,
+                    "format_version": LIBRARY_FORMAT_VERSION,
+                    "created_utc": _now_utc(),
+                    "heatmosaic_version": __version__,
+                    "schema_version": SCHEMA_VERSION,
+                    "runs": listing,
+                }
+                _bundle.zip_write_entry(archive, "library.json", json.dumps(library_doc, indent=1).encode())
+            os.replace(temp_name, path)
+        except BaseException:
+            if os.path.exists(temp_name):
+                os.unlink(temp_name)
+            raise
+        return path
+
+    def import_library(self, path: str | Path) -> list[int]:
+        """Add every run of a library zip (from :meth:`export_library`) as new runs; returns their ids.
+
+        All or nothing: the whole library is checked first and written in one transaction. Names, notes,
+        tags and creation times are kept; run ids are new.
+
+        Raises
+        ------
+        StoreError
+            If the file is not a heatmosaic library, is damaged or breaks the safety limits of a zip file
+            (see :class:`engine.bundle.BundleLimits`).
+        """
+        from engine import bundle as _bundle
+
+        def allowed(name: str) -> bool:
+            return bool(_LIBRARY_ENTRY.fullmatch(name))
+
+        try:
+            with _bundle.CheckedZip(path, allowed, _bundle.LIBRARY_LIMITS, what="library") as checked:
+                library_doc = _parse_json(checked.read("library.json"), "library.json")
+                if library_doc.get("format") != LIBRARY_FORMAT:
+                    raise StoreError(f"'{path}' is not a heatmosaic library (library.json has another format)")
+                version = library_doc.get("format_version")
+                if not isinstance(version, int) or version > LIBRARY_FORMAT_VERSION:
+                    raise StoreError(f"'{path}' was written by a newer heatmosaic release (format {version!r})")
+                listing = library_doc.get("runs")
+                if not isinstance(listing, list):
+                    raise StoreError("library.json: 'runs' must be a list")
+                prepared = []
+                for item in listing:
+                    folder = item.get("folder") if isinstance(item, dict) else None
+                    if not isinstance(folder, str) or not re.fullmatch(r"runs/\d{1,6}", folder):
+                        raise StoreError(f"library.json: run entry {item!r} has no valid folder")
+                    prepared.append(self._read_library_run(checked, folder))
+        except _bundle.BundleError as exc:
+            raise StoreError(str(exc)) from None
+        try:
+            with self._write() as conn:
+                return [self._insert_run(conn, *parts) for parts in prepared]
+        except sqlite3.Error as exc:
+            raise StoreError(f"the library could not be imported into '{self.path}': {exc}") from None
+
+    def _read_library_run(self, checked, folder: str):
+        doc = _parse_json(checked.read(f"{folder}/run.json"), f"{folder}/run.json")
+        table_names = doc.get("tables", [])
+        input_names = doc.get("inputs", [])
+        if not isinstance(table_names, list) or not isinstance(input_names, list):
+            raise StoreError(f"{folder}/run.json: 'tables' and 'inputs' must be lists")
+        tables = {}
+        for table_name in table_names:
+            if not isinstance(table_name, str) or not _TABLE_NAME.fullmatch(table_name):
+                raise StoreError(f"{folder}/run.json: table name {table_name!r} is not allowed")
+            entry = f"{folder}/tables/{table_name}.json"
+            tables[table_name] = decode_table(checked.read(entry).decode("utf-8"), entry)
+        inputs = {}
+        for filename in input_names:
+            if filename not in SCENARIO_FILES:
+                raise StoreError(f"{folder}/run.json: input file {filename!r} is not a scenario file")
+            inputs[filename] = checked.read(f"{folder}/inputs/{filename}")
+
+        def text(key):
+            value = doc.get(key, "")
+            if value is None:
+                return ""
+            if not isinstance(value, str):
+                raise StoreError(f"{folder}/run.json: '{key}' must be text")
+            return value
+
+        def mapping(key):
+            value = doc.get(key, {})
+            if not isinstance(value, dict):
+                raise StoreError(f"{folder}/run.json: '{key}' must be an object")
+            return value
+
+        result = RunResult(
+            status=text("status"),
+            message=text("message"),
+            objective=text("objective"),
+            cost_case=text("cost_case"),
+            input_hash=text("input_hash"),
+            scenario_name=text("scenario_name"),
+            settings=mapping("settings"),
+            timings_s=mapping("timings_s"),
+            model_size=mapping("model_size"),
+            tables=tables,
+            extras=mapping("extras"),
+        )
+        name = text("name") or f"imported {folder}"
+        return self._prepare_run(
+            result, name, text("note"), inputs, text("tags"), doc.get("sweep_id"),
+            created_utc=text("created_utc") or None,
+        )
+
+
+_LIBRARY_ENTRY = re.compile(
+    r"library\.json|runs/\d{1,6}/run\.json|runs/\d{1,6}/tables/[a-z][a-z0-9_]{0,62}\.(?:json|csv)"
+    r"|runs/\d{1,6}/inputs/(?:" + "|".join(re.escape(n) for n in SCENARIO_FILES) + ")"
+)
+
+
+def _parse_json(data: bytes, where: str) -> dict:
+    try:
+        value = json.loads(data.decode("utf-8"))
+    except (ValueError, RecursionError) as exc:
+        raise StoreError(f"{where} is not valid JSON: {exc}") from None
+    if not isinstance(value, dict):
+        raise StoreError(f"{where} must hold a JSON object")
+    return value
