@@ -1,0 +1,795 @@
+"""Shareable bundles: one zip file holding a run's scenario files and results.
+
+A planner sends a bundle to a colleague, who opens it in the dashboard and sees the same run, and can re-run it
+from the scenario files inside. Layout::
+
+    manifest.json            format, release, input hash, cost case, objective, settings, run summary,
+                             checksums of every file and the dtypes of every result table
+    inputs/<scenario file>   the files of the scenario folder (docs/input_format.md)
+    results/<table>.csv      one CSV per result table
+    results/summary.json     RunResult.summary()
+
+Bundles arrive from outside (e-mail, upload), so :func:`read_bundle` treats them as hostile: it refuses, with a
+plain message and before writing anything, entries with absolute paths, drive letters, backslashes or ``..``;
+symbolic links and other non-regular entries; encrypted entries; more than :attr:`BundleLimits.max_entries`
+entries; an entry or a total larger than the limits; an entry compressed more than
+:attr:`BundleLimits.max_ratio` times (a "zip bomb"); archives inside the archive; and any name that is not a
+scenario file, a result table or the manifest. Sizes are read from the zip directory and enforced again while
+streaming, so a header that lies does not help. Text must be UTF-8 and the manifest valid JSON. Files are written
+only below the destination folder (checked after resolving every path), first into a hidden staging folder that
+is removed when anything is refused. Nothing is ever unpickled or executed.
+
+The results are screening-level: the manifest carries :data:`CAUTION`.
+"""
+
+from __future__ import annotations
+
+import codecs
+import hashlib
+import io
+import json
+import math
+import os
+import re
+import shutil
+import stat
+import tempfile
+import time
+import zipfile
+import zlib
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field
+from datetime import datetime, timezone
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from engine import __version__
+from engine.results import RunResult
+from engine.store import REQUIRED_SCENARIO_FILES, SCENARIO_FILES, StoreError, check_scenario_files
+
+BUNDLE_FORMAT = "heatmosaic-bundle"
+BUNDLE_FORMAT_VERSION = 1
+
+CAUTION = (
+    "Screening-level results for early planning. Well yields, aquifer temperatures, permits and investment "
+    "figures must be confirmed against local codes, by the water authority and by licensed engineers before "
+    "any decision."
+)
+
+MIB = 1024 * 1024
+
+TABLE_NAME_PATTERN = r"[a-z][a-z0-9_]{0,62}"
+"""Result table names a bundle may carry (lower-case letters, digits and ``_``)."""
+
+ARCHIVE_SUFFIXES = (
+    ".zip", ".gz", ".tgz", ".tar", ".bz2", ".tbz", ".xz", ".txz", ".7z", ".rar", ".zst", ".lz4", ".lzma", ".jar",
+    ".whl", ".egg", ".cab", ".iso", ".z",
+)
+
+_ARCHIVE_MAGIC = (
+    b"PK\x03\x04", b"PK\x05\x06", b"PK\x07\x08", b"\x1f\x8b", b"\xfd7zXZ\x00", b"7z\xbc\xaf\x27\x1c",
+    b"Rar!\x1a\x07", b"\x28\xb5\x2f\xfd", b"\x04\x22\x4d\x18", b"\x5d\x00\x00",
+)
+
+_CHUNK = 1 << 16
+
+
+class BundleError(Exception):
+    """A bundle could not be written or was refused; the message says why in plain words."""
+
+
+@dataclass(frozen=True)
+class BundleLimits:
+    """Safety limits for reading a zip file.
+
+    Attributes
+    ----------
+    max_entries : int
+        Most entries (files and folders) the zip may list.
+    max_entry_bytes : int
+        Largest unpacked size of one entry. [bytes]
+    max_total_bytes : int
+        Largest unpacked size of all entries together. [bytes]
+    max_ratio : float
+        Largest ratio of unpacked to packed size of one entry. [-]
+    ratio_floor_bytes : int
+        Entries that unpack to no more than this are exempt from ``max_ratio``: they cannot exhaust memory or
+        disk whatever their ratio, and short text files compress well. [bytes]
+    """
+
+    max_entries: int = 200
+    max_entry_bytes: int = 100 * MIB
+    max_total_bytes: int = 300 * MIB
+    max_ratio: float = 100.0
+    ratio_floor_bytes: int = 1 * MIB
+
+
+DEFAULT_LIMITS = BundleLimits()
+"""Limits of :func:`read_bundle`."""
+
+LIBRARY_LIMITS = BundleLimits(max_entries=100_000, max_entry_bytes=512 * MIB, max_total_bytes=4096 * MIB)
+"""Limits of :meth:`engine.store.ScenarioStore.import_library` (a library holds many runs)."""
+
+
+# ====================================================================================== writing zips
+def zip_write_entry(archive: zipfile.ZipFile, name: str, data: bytes, limits: BundleLimits = DEFAULT_LIMITS):
+    """Add ``data`` as entry ``name``; stores it uncompressed when deflating would exceed half the ratio limit.
+
+    That keeps files this program writes readable under the zip-bomb check of :class:`CheckedZip`.
+    """
+    compress_type = zipfile.ZIP_DEFLATED
+    if len(data) > limits.ratio_floor_bytes:
+        packed = len(zlib.compress(data, 6))
+        if len(data) > 0.5 * limits.max_ratio * max(packed, 1):
+            compress_type = zipfile.ZIP_STORED
+    info = zipfile.ZipInfo(name, date_time=time.localtime()[:6])
+    info.compress_type = compress_type
+    info.external_attr = (stat.S_IFREG | 0o644) << 16
+    archive.writestr(info, data)
+
+
+# ====================================================================================== reading zips safely
+def _entry_problem(name: str, raw_name: str, allowed: Callable[[str], bool], allowed_dirs: set[str]) -> str | None:
+    """Why an entry name is refused, or None."""
+    if "\x00" in raw_name or any(ord(ch) < 32 for ch in name):
+        return "has control characters in its name"
+    if "\\" in name:
+        return "has a backslash in its name (only '/' separates folders in a zip)"
+    if name.startswith("/"):
+        return "is an absolute path"
+    if re.match(r"[A-Za-z]:", name):
+        return "starts with a drive letter"
+    if ".." in name.split("/"):
+        return "climbs out of the destination folder with '..'"
+    if name.lower().endswith(ARCHIVE_SUFFIXES):
+        return "is an archive inside the archive (nested archives are refused)"
+    if name.endswith("/"):
+        return None if name in allowed_dirs else "is a folder a heatmosaic zip does not have"
+    if not allowed(name):
+        return "is not a file a heatmosaic zip may hold"
+    return None
+
+
+def _looks_like_archive(head: bytes) -> bool:
+    if any(head.startswith(magic) for magic in _ARCHIVE_MAGIC):
+        return True
+    if head.startswith(b"BZh") and head[4:10] == b"1AY&SY":
+        return True
+    return head[257:262] == b"ustar"
+
+
+def _declared_entry_count(handle) -> int | None:
+    """Entry count from the end-of-central-directory record, read before the directory itself is parsed."""
+    handle.seek(0, os.SEEK_END)
+    size = handle.tell()
+    tail_length = min(size, 22 + 65535)
+    handle.seek(size - tail_length)
+    tail = handle.read(tail_length)
+    handle.seek(0)
+    position = tail.rfind(b"PK\x05\x06")
+    if position < 0 or position + 22 > len(tail):
+        return None
+    total = int.from_bytes(tail[position + 10 : position + 12], "little")
+    return None if total == 0xFFFF else total
+
+
+class CheckedZip:
+    """A zip file opened for reading under :class:`BundleLimits`.
+
+    Every entry is checked when the file is opened (names, types, sizes and ratios from the zip directory);
+    :meth:`read` and :meth:`extract` enforce the limits again while streaming and require UTF-8 text without NUL
+    bytes that is not itself an archive.
+
+    Parameters
+    ----------
+    source : str, Path, bytes or binary file object
+        The zip.
+    allowed : callable
+        ``allowed(name) -> bool`` for file entries.
+    limits : BundleLimits
+    what : str
+        What the zip is, for messages ("bundle", "library").
+    allowed_dirs : set of str
+        Folder entries (ending in '/') that may appear.
+    """
+
+    def __init__(self, source, allowed, limits: BundleLimits = DEFAULT_LIMITS, what: str = "bundle",
+                 allowed_dirs: set[str] | frozenset = frozenset()):
+        self.what = what
+        self.limits = limits
+        self._total = 0
+        self._own_handle = None
+        handle = self._open_source(source)
+        try:
+            declared = _declared_entry_count(handle)
+            if declared is not None and declared > limits.max_entries:
+                self._refuse(f"it lists {declared} entries, more than the {limits.max_entries} allowed")
+            try:
+                self._zip = zipfile.ZipFile(handle)
+            except (zipfile.BadZipFile, zipfile.LargeZipFile, ValueError, EOFError, OSError) as exc:
+                raise BundleError(f"the {what} is not a readable zip file ({exc})") from None
+            try:
+                self._infos = self._check_directory(allowed, set(allowed_dirs))
+            except BaseException:
+                self._zip.close()
+                raise
+        except BaseException:
+            self._close_handle()
+            raise
+        self.names = [name for name in self._infos if not name.endswith("/")]
+
+    def _open_source(self, source):
+        if isinstance(source, (bytes, bytearray, memoryview)):
+            return io.BytesIO(bytes(source))
+        if isinstance(source, (str, os.PathLike)):
+            try:
+                self._own_handle = open(source, "rb")
+            except OSError as exc:
+                raise BundleError(f"cannot open the {self.what} '{source}': {exc.strerror or exc}") from None
+            return self._own_handle
+        if hasattr(source, "read"):
+            if hasattr(source, "seek") and getattr(source, "seekable", lambda: True)():
+                source.seek(0)
+                return source
+            data = source.read(self.limits.max_total_bytes + 64 * MIB)
+            return io.BytesIO(data)
+        raise BundleError(f"cannot read a {self.what} from a {type(source).__name__}")
+
+    def _close_handle(self):
+        if self._own_handle is not None:
+            self._own_handle.close()
+            self._own_handle = None
+
+    def _refuse(self, reason: str, entry: str | None = None):
+        where = f"entry '{entry}' " if entry is not None else ""
+        raise BundleError(f"{self.what} refused: {where}{reason}. Nothing was unpacked.")
+
+    def _check_directory(self, allowed, allowed_dirs) -> dict[str, zipfile.ZipInfo]:
+        limits = self.limits
+        infos = self._zip.infolist()
+        if len(infos) > limits.max_entries:
+            self._refuse(f"it holds {len(infos)} entries, more than the {limits.max_entries} allowed")
+        checked: dict[str, zipfile.ZipInfo] = {}
+        total = 0
+        for info in infos:
+            name = info.filename
+            problem = _entry_problem(name, info.orig_filename, allowed, allowed_dirs)
+            if problem:
+                self._refuse(problem, name)
+            mode = (info.external_attr >> 16) & 0xFFFF
+            if stat.S_ISLNK(mode):
+                self._refuse("is a symbolic link", name)
+            if stat.S_IFMT(mode) not in (0, stat.S_IFREG, stat.S_IFDIR) or info.external_attr & 0x400:
+                self._refuse("is not a regular file", name)
+            if info.flag_bits & 0x1:
+                self._refuse("is encrypted", name)
+            if info.compress_type not in (zipfile.ZIP_STORED, zipfile.ZIP_DEFLATED, zipfile.ZIP_BZIP2,
+                                          zipfile.ZIP_LZMA):
+                self._refuse(f"uses an unknown compression method ({info.compress_type})", name)
+            if name in checked:
+                self._refuse("appears twice", name)
+            if info.file_size > limits.max_entry_bytes:
+                self._refuse(
+                    f"would unpack to {info.file_size / MIB:.1f} MiB, more than the "
+                    f"{limits.max_entry_bytes / MIB:.0f} MiB allowed for one file", name)
+            total += info.file_size
+            if total > limits.max_total_bytes:
+                self._refuse(
+                    f"the entries would unpack to more than the {limits.max_total_bytes / MIB:.0f} MiB allowed "
+                    "in total")
+            if info.file_size > limits.ratio_floor_bytes and info.file_size > limits.max_ratio * max(
+                info.compress_size, 1
+            ):
+                self._refuse(
+                    f"is compressed {info.file_size / max(info.compress_size, 1):.0f} times, more than the "
+                    f"{limits.max_ratio:.0f} times allowed (a zip bomb)", name)
+            checked[name] = info
+        return checked
+
+    def _stream(self, name: str, sink: Callable[[bytes], None]) -> int:
+        """Unpack entry ``name`` chunk by chunk into ``sink`` while enforcing every limit."""
+        info = self._infos.get(name)
+        if info is None or name.endswith("/"):
+            raise BundleError(f"the {self.what} has no file '{name}'")
+        limits = self.limits
+        decoder = codecs.getincrementaldecoder("utf-8")("strict")
+        head = b""
+        written = 0
+        try:
+            with self._zip.open(info) as member:
+                while True:
+                    chunk = member.read(_CHUNK)
+                    if not chunk:
+                        break
+                    written += len(chunk)
+                    self._total += len(chunk)
+                    if written > info.file_size:
+                        self._refuse("unpacks to more bytes than its header says", name)
+                    if written > limits.max_entry_bytes:
+                        self._refuse("unpacks to more than the size allowed for one file", name)
+                    if self._total > limits.max_total_bytes:
+                        self._refuse("the entries unpack to more than the total size allowed", name)
+                    if written > limits.ratio_floor_bytes and written > limits.max_ratio * max(info.compress_size, 1):
+                        self._refuse("is compressed more than allowed (a zip bomb)", name)
+                    if len(head) < 512:
+                        head += chunk[: 512 - len(head)]
+                        if _looks_like_archive(head):
+                            self._refuse("is an archive inside the archive (nested archives are refused)", name)
+                    if b"\x00" in chunk:
+                        self._refuse("holds NUL bytes, so it is not text", name)
+                    try:
+                        decoder.decode(chunk)
+                    except UnicodeDecodeError:
+                        self._refuse("is not UTF-8 text", name)
+                    sink(chunk)
+            try:
+                decoder.decode(b"", final=True)
+            except UnicodeDecodeError:
+                self._refuse("is not UTF-8 text", name)
+        except BundleError:
+            raise
+        except (zipfile.BadZipFile, zlib.error, EOFError, NotImplementedError, RuntimeError, ValueError,
+                OSError) as exc:
+            self._refuse(f"is damaged ({exc})", name)
+        if written != info.file_size:
+            self._refuse("unpacks to fewer bytes than its header says", name)
+        return written
+
+    def read(self, name: str) -> bytes:
+        """The bytes of entry ``name``."""
+        buffer = bytearray()
+        self._stream(name, buffer.extend)
+        return bytes(buffer)
+
+    def extract(self, name: str, root: Path) -> Path:
+        """Write entry ``name`` below ``root`` (never outside it, never over an existing file)."""
+        root = Path(root).resolve()
+        target = root.joinpath(*name.split("/"))
+        parent = target.parent
+        parent.mkdir(parents=True, exist_ok=True)
+        resolved_parent = parent.resolve()
+        if resolved_parent != root and root not in resolved_parent.parents:
+            self._refuse("would be written outside the destination folder", name)
+        target = resolved_parent / target.name
+        flags = os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_NOFOLLOW", 0) | getattr(os, "O_BINARY", 0)
+        try:
+            descriptor = os.open(target, flags, 0o644)
+        except FileExistsError:
+            self._refuse("would overwrite an existing file", name)
+        with os.fdopen(descriptor, "wb") as handle:
+            self._stream(name, handle.write)
+        return target
+
+    def close(self) -> None:
+        self._zip.close()
+        self._close_handle()
+
+    def __enter__(self) -> "CheckedZip":
+        return self
+
+    def __exit__(self, *exc_info) -> None:
+        self.close()
+
+
+# ====================================================================================== tables as CSV
+_INT_NAMES = {"int8", "int16", "int32", "int64", "uint8", "uint16", "uint32", "uint64"}
+_FLOAT_NAMES = {"float16", "float32", "float64"}
+_MASKED_NAMES = {"Int8", "Int16", "Int32", "Int64", "UInt8", "UInt16", "UInt32", "UInt64", "Float32", "Float64",
+                 "boolean"}
+
+
+def _table_to_csv(frame: pd.DataFrame, table: str) -> tuple[bytes, dict]:
+    """CSV bytes of a table and the description that lets :func:`_table_from_csv` rebuild its dtypes."""
+    if not isinstance(frame, pd.DataFrame):
+        raise BundleError(f"table '{table}' is a {type(frame).__name__}, not a DataFrame")
+    labels = list(frame.columns)
+    if any(not isinstance(label, str) or not label for label in labels):
+        raise BundleError(f"table '{table}': every column needs a text name")
+    if len(set(labels)) != len(labels):
+        raise BundleError(f"table '{table}' has two columns of the same name")
+    columns = []
+    out = {}
+    for position, label in enumerate(labels):
+        series = frame.iloc[:, position].reset_index(drop=True)
+        dtype = series.dtype
+        spec: dict = {"name": label}
+        if isinstance(dtype, np.dtype) and dtype.kind == "b":
+            spec["dtype"] = "bool"
+        elif isinstance(dtype, np.dtype) and dtype.name in _INT_NAMES | _FLOAT_NAMES:
+            spec["dtype"] = dtype.name
+        elif str(dtype) in _MASKED_NAMES:
+            spec["dtype"] = str(dtype)
+        elif isinstance(dtype, pd.StringDtype):
+            spec.update(dtype="string", storage=dtype.storage, na="nan" if isinstance(dtype.na_value, float) else "NA")
+        elif isinstance(dtype, np.dtype) and dtype.kind == "O" and all(
+            isinstance(v, str) or v is None or (isinstance(v, float) and math.isnan(v)) for v in series.tolist()
+        ):
+            spec["dtype"] = "object"
+        else:
+            # Anything else travels as text and comes back as text; the manifest keeps the original dtype.
+            spec.update(dtype="text", original=str(dtype))
+            series = series.map(lambda v: None if v is None or v is pd.NA or v is pd.NaT else str(v))
+        if spec["dtype"] in ("string", "object", "text"):
+            missing = np.flatnonzero(series.isna().to_numpy()).tolist()
+            spec["missing"] = missing
+        columns.append(spec)
+        out[label] = series
+    text = pd.DataFrame(out, index=pd.RangeIndex(len(frame)), columns=labels).to_csv(index=False, lineterminator="\n")
+    data = text.encode("utf-8")
+    return data, {"rows": int(len(frame)), "columns": columns, "sha256": hashlib.sha256(data).hexdigest()}
+
+
+def _bad_cell(table: str, values: np.ndarray, parse: Callable, column: str, what: str):
+    for row, value in enumerate(values):
+        try:
+            parse(value)
+        except (ValueError, TypeError, OverflowError, KeyError):
+            return BundleError(f"results/{table}.csv, row {row + 2}, column '{column}': {value!r} is not {what}")
+    return BundleError(f"results/{table}.csv, column '{column}': values are not {what}")
+
+
+def _parse_column(values: np.ndarray, spec: dict, table: str):
+    """One column of raw CSV text (object array of str) as the dtype ``spec`` describes."""
+    dtype = spec["dtype"]
+    column = spec["name"]
+    missing = spec.get("missing", [])
+    if dtype == "bool":
+        truth = {"True": True, "False": False}
+        try:
+            return np.array([truth[v] for v in values], dtype=bool)
+        except KeyError:
+            raise _bad_cell(table, values, truth.__getitem__, column, "True or False") from None
+    if dtype in _FLOAT_NAMES:
+        filled = np.where(values == "", "nan", values)
+        try:
+            return filled.astype(np.float64).astype(dtype)
+        except (ValueError, TypeError):
+            raise _bad_cell(table, filled, float, column, "a number") from None
+    if dtype in _INT_NAMES:
+        try:
+            return values.astype(dtype)
+        except (ValueError, TypeError, OverflowError):
+            raise _bad_cell(table, values, int, column, "a whole number") from None
+    if dtype in _MASKED_NAMES:
+        if dtype == "boolean":
+            parse = {"True": True, "False": False}.__getitem__
+        elif dtype.startswith("Float"):
+            parse = float
+        else:
+            parse = int
+        try:
+            items = [None if v == "" else parse(v) for v in values]
+        except (ValueError, KeyError, OverflowError):
+            raise _bad_cell(table, values[values != ""], parse, column, f"a value of type {dtype}") from None
+        return pd.array(items, dtype=dtype)
+    if dtype in ("string", "object", "text"):
+        items = values.copy()
+        if len(missing) and (min(missing) < 0 or max(missing) >= len(items)):
+            raise BundleError(f"manifest.json: the missing cells of table '{table}', column '{column}' are out of range")
+        items[np.asarray(missing, dtype=np.int64)] = None
+        if dtype == "object":
+            return items
+        na_value = np.nan if spec.get("na", "nan") == "nan" else pd.NA
+        try:
+            string_dtype = pd.StringDtype(storage=spec.get("storage"), na_value=na_value)
+        except (ImportError, ValueError, TypeError):
+            string_dtype = pd.StringDtype(na_value=na_value)
+        return pd.array(items, dtype=string_dtype)
+    raise BundleError(f"manifest.json: table '{table}', column '{column}' has an unknown dtype {dtype!r}")
+
+
+def _table_from_csv(path: Path, spec: dict, table: str) -> pd.DataFrame:
+    """Rebuild a table written by :func:`_table_to_csv`."""
+    try:
+        rows = int(spec["rows"])
+        columns = spec["columns"]
+        names = [c["name"] for c in columns]
+        if rows < 0 or not all(isinstance(n, str) and isinstance(c.get("dtype"), str) for n, c in zip(names, columns)):
+            raise TypeError
+    except (KeyError, TypeError, ValueError, AttributeError):
+        raise BundleError(f"manifest.json: the description of table '{table}' is malformed") from None
+    if not columns:
+        return pd.DataFrame(index=pd.RangeIndex(rows))
+    try:
+        raw = pd.read_csv(path, header=None, dtype=object, keep_default_na=False, na_filter=False,
+                          skip_blank_lines=False, encoding="utf-8")
+    except (ValueError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
+        raise BundleError(f"results/{table}.csv cannot be read as CSV: {exc}") from None
+    header = [str(v) for v in raw.iloc[0].tolist()] if len(raw) else []
+    if header != names:
+        raise BundleError(f"results/{table}.csv: the header row does not match manifest.json")
+    if len(raw) - 1 != rows:
+        raise BundleError(f"results/{table}.csv has {len(raw) - 1} data rows, manifest.json says {rows}")
+    body = raw.iloc[1:]
+    data = {}
+    for position, spec_column in enumerate(columns):
+        values = body.iloc[:, position].to_numpy(dtype=object)
+        array = _parse_column(values, spec_column, table)
+        data[position] = pd.Series(array, dtype=array.dtype, copy=False)
+    frame = pd.DataFrame(data, index=pd.RangeIndex(rows))
+    frame.columns = pd.Index(names, dtype="str")
+    return frame
+
+
+# ====================================================================================== export and read
+def _json_safe(value, where: str):
+    """Plain JSON values; NaN and inf become null."""
+    if isinstance(value, dict):
+        return {str(k): _json_safe(v, where) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_json_safe(v, where) for v in value]
+    if isinstance(value, np.ndarray):
+        return [_json_safe(v, where) for v in value.tolist()]
+    if isinstance(value, (bool, np.bool_)):
+        return bool(value)
+    if isinstance(value, (int, np.integer)):
+        return int(value)
+    if isinstance(value, (float, np.floating)):
+        value = float(value)
+        return value if math.isfinite(value) else None
+    if value is None or isinstance(value, str):
+        return value
+    raise BundleError(f"{where} holds a value of type {type(value).__name__} that a bundle cannot carry")
+
+
+def _figure(result: RunResult, name: str):
+    try:
+        value = float(getattr(result, name))
+    except (KeyError, AttributeError, TypeError, ValueError):
+        return None
+    return value if math.isfinite(value) else None
+
+
+def export_bundle(result: RunResult, inputs: Mapping[str, bytes] | None, path: str | Path) -> Path:
+    """Write ``result`` and the scenario files it came from to the bundle ``path``; returns the path.
+
+    Parameters
+    ----------
+    result : RunResult
+    inputs : dict of str to bytes
+        The scenario folder's files (see :func:`engine.store.read_scenario_files`).
+    path : str or Path
+        The zip file to write (its folder is created; an existing file is replaced).
+
+    Raises
+    ------
+    BundleError
+        If an input file name is not a scenario file, a table or file exceeds the limits a reader accepts, or a
+        value cannot be carried.
+    """
+    if not isinstance(result, RunResult):
+        raise BundleError(f"only a RunResult can be bundled, not {type(result).__name__}")
+    try:
+        files = check_scenario_files(inputs or {}, "inputs")
+    except StoreError as exc:
+        raise BundleError(str(exc)) from None
+    limits = DEFAULT_LIMITS
+    entries: list[tuple[str, bytes]] = []
+    for filename, content in files.items():
+        entries.append((f"inputs/{filename}", content))
+    table_specs = {}
+    for table, frame in result.tables.items():
+        if not isinstance(table, str) or not re.fullmatch(TABLE_NAME_PATTERN, table):
+            raise BundleError(f"table name {table!r} cannot go into a bundle (use lower-case letters, digits, '_')")
+        data, spec = _table_to_csv(frame, table)
+        table_specs[table] = spec
+        entries.append((f"results/{table}.csv", data))
+    try:
+        summary = result.summary()
+    except (KeyError, AttributeError, TypeError, ValueError) as exc:
+        raise BundleError(f"the result cannot be summarised for the bundle: {exc!r}") from None
+    entries.append(("results/summary.json", json.dumps(_json_safe(summary, "the summary"), indent=2).encode()))
+    manifest = {
+        "format": BUNDLE_FORMAT,
+        "format_version": BUNDLE_FORMAT_VERSION,
+        "created_utc": datetime.now(timezone.utc).isoformat(timespec="seconds"),
+        "heatmosaic_version": __version__,
+        "scenario_name": str(result.scenario_name or ""),
+        "input_hash": str(result.input_hash or ""),
+        "cost_case": str(result.cost_case or ""),
+        "objective": str(result.objective or ""),
+        "status": str(result.status or ""),
+        "message": str(result.message or ""),
+        "settings": _json_safe(result.settings, "the settings"),
+        "timings_s": _json_safe(result.timings_s, "the timings"),
+        "model_size": _json_safe(result.model_size, "the model size"),
+        "extras": _json_safe(result.extras, "the extras"),
+        "summary": {
+            name: _figure(result, name)
+            for name in ("total_cost_eur_per_a", "co2_t_per_a", "heat_demand_mwh_per_a", "unserved_heat_mwh_per_a")
+        },
+        "inputs": {
+            filename: {"bytes": len(content), "sha256": hashlib.sha256(content).hexdigest()}
+            for filename, content in files.items()
+        },
+        "missing_required_inputs": [f for f in REQUIRED_SCENARIO_FILES if f not in files],
+        "tables": table_specs,
+        "caution": CAUTION,
+    }
+    entries.insert(0, ("manifest.json", json.dumps(manifest, indent=2, allow_nan=False).encode()))
+    total = 0
+    for name, data in entries:
+        total += len(data)
+        if len(data) > limits.max_entry_bytes:
+            raise BundleError(
+                f"{name} would be {len(data) / MIB:.0f} MiB, more than the {limits.max_entry_bytes / MIB:.0f} MiB "
+                "a bundle may hold per file (use typical days to make the result smaller)")
+    if total > limits.max_total_bytes:
+        raise BundleError(
+            f"the bundle would be {total / MIB:.0f} MiB unpacked, more than the {limits.max_total_bytes / MIB:.0f} "
+            "MiB allowed")
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    handle, temp_name = tempfile.mkstemp(prefix=".bundle-", suffix=".zip", dir=path.parent)
+    os.close(handle)
+    try:
+        with zipfile.ZipFile(temp_name, "w") as archive:
+            for name, data in entries:
+                zip_write_entry(archive, name, data, limits)
+        os.replace(temp_name, path)
+    except BaseException:
+        if os.path.exists(temp_name):
+            os.unlink(temp_name)
+        raise
+    return path
+
+
+@dataclass
+class BundleContents:
+    """What :func:`read_bundle` found.
+
+    Attributes
+    ----------
+    manifest : dict
+        ``manifest.json``.
+    input_folder : Path
+        The scenario folder unpacked from ``inputs/`` (empty when the bundle carried no inputs).
+    tables : dict of str to DataFrame
+        The result tables, with the dtypes they had when exported.
+    summary : dict
+        ``results/summary.json`` (empty when absent).
+    """
+
+    manifest: dict
+    input_folder: Path
+    tables: dict
+    summary: dict = field(default_factory=dict)
+
+    def to_result(self) -> RunResult:
+        """The run as a :class:`RunResult` (NaN in settings and extras came through as None)."""
+        m = self.manifest
+
+        def mapping(key):
+            value = m.get(key)
+            return value if isinstance(value, dict) else {}
+
+        return RunResult(
+            status=str(m.get("status", "")),
+            message=str(m.get("message", "")),
+            objective=str(m.get("objective", "")),
+            cost_case=str(m.get("cost_case", "")),
+            input_hash=str(m.get("input_hash", "")),
+            scenario_name=str(m.get("scenario_name", "")),
+            settings=mapping("settings"),
+            timings_s=mapping("timings_s"),
+            model_size=mapping("model_size"),
+            tables=dict(self.tables),
+            extras=mapping("extras"),
+        )
+
+
+_BUNDLE_ENTRY = re.compile(
+    r"manifest\.json|results/summary\.json|results/" + TABLE_NAME_PATTERN + r"\.csv"
+    r"|inputs/(?:" + "|".join(re.escape(n) for n in SCENARIO_FILES) + ")"
+)
+
+
+def _load_json(path: Path, name: str) -> dict:
+    try:
+        value = json.loads(path.read_text(encoding="utf-8"))
+    except (ValueError, RecursionError) as exc:
+        raise BundleError(f"bundle refused: {name} is not valid JSON ({exc})") from None
+    if not isinstance(value, dict):
+        raise BundleError(f"bundle refused: {name} must hold a JSON object")
+    return value
+
+
+def read_bundle(path_or_bytes, dest_folder: str | Path, *, limits: BundleLimits = DEFAULT_LIMITS) -> BundleContents:
+    """Check and unpack a bundle into ``dest_folder``.
+
+    Creates ``dest_folder/manifest.json``, ``dest_folder/inputs/`` (a scenario folder) and
+    ``dest_folder/results/``. Everything is checked before anything is moved into place; when the bundle is
+    refused ``dest_folder`` holds nothing new.
+
+    Parameters
+    ----------
+    path_or_bytes : str, Path, bytes or binary file object
+        The bundle (a path, its bytes, or an uploaded file).
+    dest_folder : str or Path
+        Where to unpack; created if missing; must not already hold a bundle.
+    limits : BundleLimits
+        Safety limits (defaults: :data:`DEFAULT_LIMITS`).
+
+    Raises
+    ------
+    BundleError
+        With a plain message, when the bundle is refused.
+    """
+    dest = Path(dest_folder)
+    try:
+        dest.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise BundleError(f"cannot create the folder '{dest}': {exc}") from None
+    root = dest.resolve()
+    taken = [n for n in ("manifest.json", "inputs", "results") if os.path.lexists(root / n)]
+    if taken:
+        raise BundleError(f"the folder '{dest}' already holds {', '.join(taken)}; unpack into an empty folder")
+    with CheckedZip(path_or_bytes, _BUNDLE_ENTRY.fullmatch, limits, "bundle", {"inputs/", "results/"}) as checked:
+        if "manifest.json" not in checked.names:
+            raise BundleError("bundle refused: it has no manifest.json, so it is not a heatmosaic bundle")
+        staging = Path(tempfile.mkdtemp(prefix=".incoming-", dir=root))
+        try:
+            for name in checked.names:
+                checked.extract(name, staging)
+            manifest = _load_json(staging / "manifest.json", "manifest.json")
+            contents = _check_staged(manifest, staging, root)
+            (staging / "inputs").mkdir(exist_ok=True)
+            (staging / "results").mkdir(exist_ok=True)
+            for name in ("manifest.json", "inputs", "results"):
+                os.replace(staging / name, root / name)
+        finally:
+            shutil.rmtree(staging, ignore_errors=True)
+    contents.input_folder = root / "inputs"
+    return contents
+
+
+def _check_staged(manifest: dict, staging: Path, root: Path) -> BundleContents:
+    """Validate the unpacked files against the manifest and read the tables."""
+    if manifest.get("format") != BUNDLE_FORMAT:
+        raise BundleError("bundle refused: manifest.json does not describe a heatmosaic bundle")
+    version = manifest.get("format_version")
+    if not isinstance(version, int) or isinstance(version, bool):
+        raise BundleError("bundle refused: manifest.json has no format_version")
+    if version > BUNDLE_FORMAT_VERSION:
+        raise BundleError(
+            f"bundle refused: it has format version {version}, written by a newer heatmosaic release "
+            f"(this one reads up to {BUNDLE_FORMAT_VERSION})")
+    listed_inputs = manifest.get("inputs", {})
+    listed_tables = manifest.get("tables", {})
+    if not isinstance(listed_inputs, dict) or not isinstance(listed_tables, dict):
+        raise BundleError("bundle refused: manifest.json 'inputs' and 'tables' must be objects")
+    inputs_dir = staging / "inputs"
+    present_inputs = {p.name for p in inputs_dir.iterdir()} if inputs_dir.is_dir() else set()
+    for filename in sorted(present_inputs | set(listed_inputs)):
+        if filename not in present_inputs:
+            raise BundleError(f"bundle refused: manifest.json lists inputs/{filename}, which is missing")
+        if filename not in listed_inputs:
+            raise BundleError(f"bundle refused: inputs/{filename} is not described in manifest.json")
+        expected = listed_inputs[filename].get("sha256") if isinstance(listed_inputs[filename], dict) else None
+        actual = hashlib.sha256((inputs_dir / filename).read_bytes()).hexdigest()
+        if actual != expected:
+            raise BundleError(
+                f"bundle refused: inputs/{filename} does not match its checksum in manifest.json "
+                "(the bundle was altered or damaged)")
+    results_dir = staging / "results"
+    present_tables = (
+        {p.name[:-4] for p in results_dir.iterdir() if p.name.endswith(".csv")} if results_dir.is_dir() else set()
+    )
+    tables = {}
+    for table in list(listed_tables) + sorted(present_tables - set(listed_tables)):
+        if table not in present_tables:
+            raise BundleError(f"bundle refused: manifest.json lists results/{table}.csv, which is missing")
+        spec = listed_tables.get(table)
+        if not isinstance(spec, dict):
+            raise BundleError(f"bundle refused: results/{table}.csv is not described in manifest.json")
+        csv_path = results_dir / f"{table}.csv"
+        if hashlib.sha256(csv_path.read_bytes()).hexdigest() != spec.get("sha256"):
+            raise BundleError(
+                f"bundle refused: results/{table}.csv does not match its checksum in manifest.json "
+                "(the bundle was altered or damaged)")
+        tables[table] = _table_from_csv(csv_path, spec, table)
+    summary_path = results_dir / "summary.json"
+    summary = _load_json(summary_path, "results/summary.json") if summary_path.exists() else {}
+    return BundleContents(manifest=manifest, input_folder=root / "inputs", tables=tables, summary=summary)
