@@ -73,13 +73,13 @@ DISTRICTS = {
         district_id="old_town", name="Old Kelmsvoort", density=550.0, supply_temp_c=78.0, hot_water_share=0.15,
         network=True, connection=1.0, cooling=0.0,
         existing={"gas_boiler": 0.45, "oil_boiler": 0.05},
-        potential={"air_hp": 0.10, "biomass_boiler": 0.0, "oil_boiler": "existing", "heat_store_kwh": 20_000.0},
+        potential={"air_hp": 0.08, "biomass_boiler": 0.0, "oil_boiler": "existing", "heat_store_kwh": 20_000.0},
     ),
     "S": dict(
         district_id="station_quarter", name="Station Quarter", density=380.0, supply_temp_c=75.0,
         hot_water_share=0.10, network=True, connection=1.0, cooling=0.06,
         existing={"gas_boiler": 0.40, "chiller": 0.30},
-        potential={"air_hp": 0.25, "biomass_boiler": 0.0, "oil_boiler": 0.0},
+        potential={"air_hp": 0.12, "biomass_boiler": 0.0, "oil_boiler": 0.0},
     ),
     "R": dict(
         district_id="tannery_reach", name="Tannery Reach (riverside)", density=220.0, supply_temp_c=65.0,
@@ -130,7 +130,7 @@ DISTRICTS = {
         potential={"biomass_boiler": 0.0, "oil_boiler": 0.0},
     ),
     "K": dict(
-        district_id="ossendrup", name="Ossendrup (village)", density=80.0, supply_temp_c=60.0, hot_water_share=0.15,
+        district_id="ossendrup", name="Ossendrup (village)", density=80.0, supply_temp_c=55.0, hot_water_share=0.15,
         network=False, connection=0.0, cooling=0.0, buildings=(9, 0.35),
         existing={"oil_boiler": 0.40, "biomass_boiler": 0.05},
         potential={"gas_boiler": 0.0, "oil_boiler": "existing"},
@@ -178,6 +178,8 @@ WELLS = (
          volume=None, spread=5.0, temp=10.5, amplitude=0.6, coldest=90),
     dict(well_id="cmp-2", cell=(5, 2), own_district=True, reinjection_m=None, permit=70.0,
          volume=250_000.0, spread=4.0, temp=10.5, amplitude=0.6, coldest=90),
+    dict(well_id="cmp-3", cell=(3, 4), own_district=True, reinjection_m=None, permit=110.0,
+         volume=None, spread=5.0, temp=10.8, amplitude=0.5, coldest=95),
     # Shallow suburban wells: colder in late winter, so the 4.5 °C reinjection floor cuts their spread.
     dict(well_id="lark-1", cell=(0, 4), own_district=True, reinjection_m=None, permit=30.0,
          volume=None, spread=5.0, temp=9.0, amplitude=3.0, coldest=60),
