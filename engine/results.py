@@ -95,13 +95,17 @@ class RunResult:
     def cost_breakdown_eur_per_a(self) -> dict:
         return {part: self._district_sum(f"{part}_eur_per_a") for part in COST_PARTS}
 
-    def heat_by_technology_mwh_per_a(self, district_id: str | None = None) -> dict:
+    def heat_by_technology_mwh_per_a(self, district_id: str | None = None, quantity: str = "heat") -> dict:
+        """Annual heat (or, with ``quantity="cooling"``, cooling) by technology [MWh/a]."""
         supply = self.tables.get("supply")
         if supply is None or supply.empty:
             return {}
         if district_id is not None:
             supply = supply[supply["district_id"] == district_id]
-        grouped = supply.groupby("technology_id", sort=True)["heat_mwh_per_a"].sum()
+        column = f"{quantity}_mwh_per_a"
+        if quantity == "cooling":
+            supply = supply[supply[column] > 0]
+        grouped = supply.groupby("technology_id", sort=True)[column].sum()
         return {k: float(v) for k, v in grouped.items()}
 
     # ------------------------------------------------------------------ hourly year
@@ -160,6 +164,8 @@ class RunResult:
             heat_demand_mwh_per_a=self.heat_demand_mwh_per_a,
             unserved_heat_mwh_per_a=self.unserved_heat_mwh_per_a,
             heat_by_technology_mwh_per_a=self.heat_by_technology_mwh_per_a(),
+            cooling_demand_mwh_per_a=self._district_sum("cooling_demand_mwh_per_a"),
+            cooling_by_technology_mwh_per_a=self.heat_by_technology_mwh_per_a(quantity="cooling"),
             cost_breakdown_eur_per_a=self.cost_breakdown_eur_per_a(),
         )
         districts = []
