@@ -10,6 +10,8 @@ primal and dual solution back as arrays. :meth:`LinearProgram.to_pulp` turns the
 
 from __future__ import annotations
 
+import os
+import sys
 import time
 from dataclasses import dataclass, field
 
@@ -169,8 +171,7 @@ class LinearProgram:
     def to_highs(self, time_limit_s: float | None = None, threads: int | None = None):
         import highspy
 
-        h = highspy.Highs()
-        h.setOptionValue("output_flag", False)
+        h = new_highs()
         if time_limit_s:
             h.setOptionValue("time_limit", float(time_limit_s))
         if threads:
@@ -239,6 +240,36 @@ class LinearProgram:
             if np.isfinite(ru[i]):
                 prob += pulp.LpConstraint(expr, pulp.LpConstraintLE, f"r{i}_up", ru[i])
         return prob, variables
+
+
+_BANNER_SILENCED = False
+
+
+def new_highs():
+    """A silent ``highspy.Highs`` instance.
+
+    HiGHS writes a banner to the C-level standard output when the first instance of a process is made, before any
+    option can switch it off; the command line's output (and a Streamlit log) should not carry it.
+    """
+    import highspy
+
+    global _BANNER_SILENCED
+    if _BANNER_SILENCED:
+        h = highspy.Highs()
+    else:
+        sys.stdout.flush()
+        saved = os.dup(1)
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        try:
+            os.dup2(devnull, 1)
+            h = highspy.Highs()
+        finally:
+            os.dup2(saved, 1)
+            os.close(saved)
+            os.close(devnull)
+        _BANNER_SILENCED = True
+    h.setOptionValue("output_flag", False)
+    return h
 
 
 def read_highs_solution(h, solve_s: float) -> LpSolution:
