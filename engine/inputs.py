@@ -55,6 +55,7 @@ class Settings:
     discount_rate: float = 0.05
     typical_days: int = 12
     value_of_unserved_heat_eur_per_mwh: float = 5000.0
+    allow_unserved_heat: bool = True
     co2_cap_t_per_a: float = 0.0
     network_plant_limit_kw: float = 0.0
     heating_base_temp_c: float = 15.0

@@ -236,11 +236,12 @@ def build_model(
     cols["level"] = lp.add_variables("store_level_kwh", (n_s, n_t))
     cols["charge"] = lp.add_variables("store_charge_kw", (n_s, n_t))
     cols["discharge"] = lp.add_variables("store_discharge_kw", (n_s, n_t))
-    cols["unserved_heat"] = lp.add_variables("unserved_heat_kw", (n_d, n_t))
+    unserved_upper = INF if settings.allow_unserved_heat else 0.0
+    cols["unserved_heat"] = lp.add_variables("unserved_heat_kw", (n_d, n_t), 0.0, unserved_upper)
     cooling_demand = prepared.cooling_demand_kw[districts]
     cooled = np.flatnonzero(cooling_demand.sum(axis=1) > 0)
     cols["cooled"] = cooled
-    cols["unserved_cooling"] = lp.add_variables("unserved_cooling_kw", (len(cooled), n_t))
+    cols["unserved_cooling"] = lp.add_variables("unserved_cooling_kw", (len(cooled), n_t), 0.0, unserved_upper)
 
     t_idx = np.arange(n_t)
     unit_local = np.array([local[int(i)] for i in units.district], dtype=int)

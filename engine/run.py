@@ -78,14 +78,77 @@ def merge_tables(parts: list[dict]) -> dict[str, pd.DataFrame]:
 
 def failure_message(status: str, message: str, where: str) -> str:
     hints = {
-        "infeasible": "The model has no feasible solution. Unserved heat is always allowed, so this points to "
-        "contradictory inputs (for example an existing capacity above its potential or a CO2 cap with unserved "
-        "heat switched off).",
-        "unbounded": "The model is unbounded: a cost is negative without limit (check negative prices).",
-        "time_limit": "The solver hit its time limit before reaching the optimum.",
+        "infeasible": "The model has no feasible solution.",
+        "unbounded": "The model is unbounded: some cost can fall without limit.",
+        "time_limit": "The solver hit its time limit before reaching the optimum; try fewer typical days or a "
+        "longer time limit.",
         "interrupted": "The solve was cancelled.",
     }
-    return f"{hints.get(status, 'The solver failed.')} ({message}; {where})"
+    return f"{hints.get(status, 'The solver failed.')} {where} ({message})"
+
+
+def district_supply_limits(prepared, district: int) -> list[str]:
+    """Plain reasons why one district cannot meet its demand with the supply it is allowed (empty if none found)."""
+    from .model import supply_units
+
+    units, stores = supply_units(prepared, np.array([district]))
+    reasons = []
+    did = prepared.district_ids[district]
+    for cooling, label, demand in (
+        (False, "heat", prepared.heat_demand_kw[district]),
+        (True, "cooling", prepared.cooling_demand_kw[district]),
+    ):
+        peak = float(demand.max()) if demand.size else 0.0
+        if peak <= 0:
+            continue
+        chosen = units.serves_cooling == cooling
+        if not chosen.any():
+            reasons.append(f"district {did} has a {label} demand (peak {peak:,.0f} kW) but no technology that may "
+                           f"supply {label} there")
+            continue
+        finite_upper = np.where(np.isfinite(units.output_upper[chosen]), units.output_upper[chosen], np.inf)
+        most = (np.minimum(units.existing_kw[chosen] + units.max_new_kw[chosen], finite_upper.max(axis=1))).sum()
+        if not cooling and len(stores.technology_id):
+            most += np.inf if np.isinf(stores.max_new_kwh).any() else 0.0
+        if np.isfinite(most) and most < peak * (1 - 1e-9):
+            reasons.append(
+                f"district {did}: peak {label} demand {peak:,.0f} kW exceeds the most its technologies may supply "
+                f"({most:,.0f} kW; see potential_kw in district_technologies.csv, the connection limit and the well "
+                "permits)"
+            )
+    return reasons
+
+
+def diagnose_failure(prepared, settings: Settings, status: str, districts: list[int]) -> str:
+    """Name the districts or city-wide constraints behind an infeasible or unbounded model."""
+    if status == "unbounded":
+        hourly = prepared.scenario.hourly
+        negative = [c for c in ("electricity_price_eur_per_mwh", "network_price_eur_per_mwh")
+                    if (hourly[c] < 0).any()]
+        rows = ", ".join(f"{c} (first at row {int(np.argmax(hourly[c].to_numpy() < 0)) + 2} of hourly.csv)"
+                         for c in negative)
+        return ("Negative prices let a store or boiler earn money without limit: " + rows) if negative else (
+            "Check for negative prices or costs in the inputs."
+        )
+    if status != "infeasible":
+        return ""
+    reasons = []
+    for i in districts:
+        reasons += district_supply_limits(prepared, i)
+    if reasons:
+        return "; ".join(reasons) + "."
+    coupling = []
+    if settings.co2_cap_t_per_a and settings.co2_cap_t_per_a > 0:
+        coupling.append(f"the city-wide CO2 cap of {settings.co2_cap_t_per_a:,.0f} t/a")
+    if settings.network_plant_limit_kw and settings.network_plant_limit_kw > 0:
+        coupling.append(f"the network plant limit of {settings.network_plant_limit_kw:,.0f} kW")
+    if coupling:
+        return ("Every district can be supplied on its own, so " + " and ".join(coupling)
+                + " cannot be met with unserved heat switched off.")
+    if not settings.allow_unserved_heat:
+        return "With unserved heat switched off, some hour of some district cannot be supplied (check well permits " \
+               "and the reinjection window, which can leave a well unusable in winter)."
+    return "Check the inputs for contradictions."
 
 
 def solve_scenario(
@@ -157,10 +220,10 @@ def solve_scenario(
         failed = [(len(outcomes), ("interrupted", "cancelled", None))]
     if failed:
         k, o = failed[0]
-        where = (
-            "district " + ", ".join(prepared.district_ids[i] for i in parts[k])
-            if decompose else "the city-wide model"
-        )
+        where = diagnose_failure(prepared, settings, o[0], parts[k])
+        if not where:
+            where = ("In district " + ", ".join(prepared.district_ids[i] for i in parts[k]) + "."
+                     if decompose else "In the city-wide model.")
         result.status = o[0]
         result.message = failure_message(o[0], o[1], where)
     else:
