@@ -664,8 +664,12 @@ class ScenarioStore:
             conn.execute("PRAGMA foreign_keys = ON")
         except sqlite3.Error as exc:
             raise StoreError(f"cannot prepare the store '{self.path}': {exc}") from None
-        with self._write() as write:
-            self.migrated_from = migrate(write)
+        # The schema version found on opening (0 for a new file). Opening a current store takes no write lock,
+        # so a session can open the store while another one is saving.
+        self.migrated_from = version
+        if version < SCHEMA_VERSION:
+            with self._write() as write:
+                self.migrated_from = migrate(write)
 
     # ------------------------------------------------------------------ plumbing
     def _connection(self) -> sqlite3.Connection:
