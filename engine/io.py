@@ -104,7 +104,6 @@ KIND_CARRIERS = {
 
 BOILER_KINDS = ("fuel_boiler", "electric_boiler")
 EER_KINDS = ("chiller", "groundwater_cooling")
-HEAT_PUMP_KINDS = ("air_heat_pump", "groundwater_heat_pump")
 
 DISTRICT_ID_PATTERN = re.compile(r"^[A-Za-z0-9_-]+$")
 
@@ -481,6 +480,13 @@ def _read_checked_table(
         return None
     _check_header(report, table, specs)
     return table, _parse_table(report, table, specs)
+
+
+def _blank_cells(table: _Table, column: str) -> np.ndarray:
+    """Mask of blank cells of ``column`` (all blank when the optional column is absent)."""
+    if column not in table.cells.columns:
+        return np.ones(len(table), dtype=bool)
+    return (table.cells[column] == "").to_numpy(dtype=bool)
 
 
 def _check_unique(report: _Report, table: _Table, values, column: str, what: str | None = None) -> None:
@@ -927,7 +933,8 @@ def _load_districts(folder: Path, report: _Report) -> _Districts | None:
     try:
         data = json.loads(text)
     except json.JSONDecodeError as error:
-        report(DISTRICTS_FILE, None, None, f"is not valid JSON: {error.msg} at line {error.lineno}, column {error.colno}")
+        where = f"line {error.lineno}, column {error.colno}"
+        report(DISTRICTS_FILE, None, None, f"is not valid JSON: {error.msg} at {where}")
         return None
     features = _feature_collection(report, data)
     if features is None:
@@ -1008,15 +1015,22 @@ def _check_technology_parameters(report: _Report, table: _Table, frame: pd.DataF
         lambda i: f"thermal efficiency of a {kinds[i]} must be > 0 and <= 1.2, got {efficiency[i]:g}",
     )
     _report_rows(
-        report, table, "efficiency", bad_eer, lambda i: f"EER of a {kinds[i]} must be > 0 and <= 50, got {efficiency[i]:g}"
+        report,
+        table,
+        "efficiency",
+        bad_eer,
+        lambda i: f"EER of a {kinds[i]} must be > 0 and <= 50, got {efficiency[i]:g}",
     )
-    blank_eer = eer & np.isnan(efficiency) & (table.cells.get("efficiency", pd.Series([""] * len(table))) == "").to_numpy()
     _report_rows(
-        report, table, "efficiency", blank_eer, lambda i: f"is blank; the EER (> 0 and <= 50) of a {kinds[i]} is required"
+        report,
+        table,
+        "efficiency",
+        eer & _blank_cells(table, "efficiency"),
+        lambda i: f"is blank; the EER (> 0 and <= 50) of a {kinds[i]} is required",
     )
     store = kinds == "heat_store"
     hours = frame["store_hours"].to_numpy(dtype=float)
-    hours_blank = (table.cells.get("store_hours", pd.Series([""] * len(table))) == "").to_numpy()
+    hours_blank = _blank_cells(table, "store_hours")
     _report_rows(
         report,
         table,
@@ -1154,7 +1168,7 @@ def _check_well_values(report: _Report, table: _Table, frame: pd.DataFrame) -> N
     _report_rows(report, table, "reinjection_lon", np.array([m is not None for m in messages]), lambda i: messages[i])
     amplitude = frame["groundwater_temp_amplitude_k"].to_numpy(dtype=float)
     day = frame["coldest_day_of_year"].to_numpy(dtype=float)
-    day_blank = (table.cells.get("coldest_day_of_year", pd.Series([""] * len(table))) == "").to_numpy()
+    day_blank = _blank_cells(table, "coldest_day_of_year")
     _report_rows(
         report,
         table,
@@ -1318,7 +1332,8 @@ def _check_hours(report: _Report, table: _Table, hours: np.ndarray, expected_row
             f"has {count} hourly rows; a year needs 8760 rows (8784 in a leap year)",
         )
     elif expected_rows is not None and count != expected_rows:
-        report(table.file, None, None, f"has {count} hourly rows but {HOURLY_FILE} has {expected_rows}; they must match")
+        message = f"has {count} hourly rows but {HOURLY_FILE} has {expected_rows}: they must match"
+        report(table.file, None, None, message)
     expected = np.arange(count)
     with np.errstate(invalid="ignore"):
         wrong = np.flatnonzero(np.isfinite(hours) & (hours != expected))
@@ -1491,6 +1506,10 @@ def _assemble(
     )
 
 
+def _unexpected(folder: Path, error: Exception) -> Problem:
+    return Problem(str(folder), None, None, f"could not be read ({type(error).__name__}: {error})")
+
+
 def load_scenario(path: str | Path) -> Scenario:
     """Read and validate a scenario folder.
 
@@ -1520,7 +1539,7 @@ def validate_scenario(path: str | Path) -> list[Problem]:
     try:
         return _read_folder(folder)[1]
     except Exception as error:  # a last resort: the per-file guards catch almost everything
-        return [Problem(str(folder), None, None, f"could not be read ({type(error).__name__}: {error})")]
+        return [_unexpected(folder, error)]
 
 
 def validate_command(path: str | Path) -> int:
@@ -1529,7 +1548,7 @@ def validate_command(path: str | Path) -> int:
     try:
         scenario, problems = _read_folder(folder)
     except Exception as error:
-        scenario, problems = None, [Problem(str(folder), None, None, f"could not be read ({type(error).__name__}: {error})")]
+        scenario, problems = None, [_unexpected(folder, error)]
     if scenario is not None and not problems:
         print(
             f"OK: {len(scenario.districts)} districts, {len(scenario.wells)} wells, "

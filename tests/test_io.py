@@ -16,7 +16,6 @@ import shutil
 from pathlib import Path
 
 import numpy as np
-import pandas as pd
 import pytest
 
 from engine import geometry, io
@@ -311,64 +310,78 @@ def test_broken_copy_reports_every_seeded_error(tmp_path):
     assert "wells.csv, row 2, column permit_flow_m3_per_h: must be a number >= 0, got 'abc'" in text
 
 
+def cell(row, column, value):
+    return lambda path: _edit_cell(path, row, column, value)
+
+
+def feature(number, key, value):
+    return lambda path: _edit_feature(path, number, key, value)
+
+
+def text(old, new):
+    return lambda path: _replace(path, old, new)
+
+
+# One bad value per rule family: (file, edit of that file, row, column, a word the message must contain).
+RULE_CASES = [
+    ("districts.geojson", feature(1, "supply_temp_c", 150), 1, "supply_temp_c", "<= 130"),
+    ("districts.geojson", feature(2, "hot_water_share", 1.5), 2, "hot_water_share", "<= 1"),
+    ("districts.geojson", feature(1, "heat_demand_mwh_per_a", -5), 1, "heat_demand_mwh_per_a", ">= 0"),
+    ("districts.geojson", feature(2, "supply_temp_c", None), 2, "supply_temp_c", "missing"),
+    ("districts.geojson", feature(1, "heat_demand_kwh_per_a", 5), 1, "heat_demand_kwh_per_a", "did you mean 'heat_demand_mwh_per_a'"),
+    ("districts.geojson", feature(2, "district_id", "old_town"), 2, "district_id", "duplicate"),
+    ("districts.geojson", feature(2, "district_id", "river side"), 2, "district_id", "letters, digits"),
+    ("districts.geojson", feature(1, "network_available", "maybe"), 1, "network_available", "true or false"),
+    ("wells.csv", cell(3, "groundwater_temp_c", "45"), 3, "groundwater_temp_c", "<= 40"),
+    ("wells.csv", cell(3, "groundwater_temp_c", "nan"), 3, "groundwater_temp_c", "'nan'"),
+    ("wells.csv", cell(2, "lon", "inf"), 2, "lon", "finite"),
+    ("wells.csv", cell(2, "permit_flow_m3_per_h", "12,5"), 2, "permit_flow_m3_per_h", "decimal mark"),
+    ("wells.csv", cell(2, "permit_flow_m3_per_h", "40000"), 2, "permit_flow_m3_per_h", "litres per hour"),
+    ("wells.csv", cell(2, "coldest_day_of_year", ""), 2, "coldest_day_of_year", "required"),
+    ("wells.csv", cell(3, "well_id", "w1"), 3, "well_id", "duplicate"),
+    ("wells.csv", cell(2, "lat", "5330000"), 2, "lon", "projected"),
+    ("wells.csv", cell(2, "lat", "11.004"), 2, "district_id", "outside every district"),
+    ("technologies.csv", cell(2, "efficiency", "1.5"), 2, "efficiency", "<= 1.2"),
+    ("technologies.csv", cell(7, "efficiency", "60"), 7, "efficiency", "<= 50"),
+    ("technologies.csv", cell(7, "efficiency", ""), 7, "efficiency", "EER"),
+    ("technologies.csv", cell(3, "cop_quality_grade", "1.2"), 3, "cop_quality_grade", "<= 1"),
+    ("technologies.csv", cell(3, "lifetime_a", "0"), 3, "lifetime_a", "> 0"),
+    ("technologies.csv", cell(3, "kind", "heatpump"), 3, "kind", "air_heat_pump"),
+    ("technologies.csv", cell(6, "carrier", "steam"), 6, "carrier", "allowed"),
+    ("technologies.csv", cell(6, "carrier", "electricity"), 6, "carrier", "none"),
+    ("technologies.csv", cell(6, "store_hours", ""), 6, "store_hours", "heat_store"),
+    ("district_technologies.csv", cell(3, "technology_id", "gas_boiler"), 3, "technology_id", "duplicate"),
+    ("district_technologies.csv", cell(3, "district_id", "harbour"), 3, "district_id", "unknown district"),
+    ("district_technologies.csv", cell(2, "existing_kw", "-1"), 2, "existing_kw", ">= 0"),
+    ("buildings.csv", cell(5, "building_id", "b1"), 5, "building_id", "duplicate"),
+    ("heat_demand_hourly.csv", cell(1, "riverside", "riversid"), 1, "riversid", "did you mean 'riverside'"),
+    ("heat_demand_hourly.csv", cell(50, "riverside", "-3"), 50, "riverside", ">= 0"),
+    ("groundwater_temp_hourly.csv", cell(1, "w2", "w9"), 1, "w9", "not a known well"),
+    ("hourly.csv", cell(20, "hour", "17"), 20, "hour", "repeats"),
+    ("hourly.csv", cell(4000, "outdoor_temp_c", ""), 4000, "outdoor_temp_c", "required"),
+    ("scenario.toml", text("discount_rate = 0.05", "discount_rate = 0.5"), 5, "run.discount_rate", "<= 0.3"),
+    ("scenario.toml", text("typical_days = 4", "typical_days = -1"), 6, "run.typical_days", ">= 0"),
+    ("scenario.toml", text('objective = "cost"', 'objective = "money"'), 4, "run.objective", "'cost', 'co2'"),
+    ("scenario.toml", text("gas_eur_per_mwh = 60.0", "gas_eur_per_mwh = 0.06"), 16, "prices.gas_eur_per_mwh", "EUR/kWh"),
+    ("scenario.toml", text("gas_eur_per_mwh = 60.0", "gas_eur_per_mwh = \"60\""), 16, "prices.gas_eur_per_mwh", "a number"),
+    ("scenario.toml", text("[aquifer]", "[aquifer]\nporosity = 0.2"), 22, "aquifer.porosity", "effective_porosity"),
+    ("scenario.toml", text("reinjection_max_temp_c = 20.0", "reinjection_max_temp_c = 4.0"), 13, "run.reinjection_max_temp_c", "above"),
+    ("cost_cases.toml", text("gw_hp = 0.4", "gw_hp = 1.4"), 11, "cases.high_co2.subsidy_share.gw_hp", "<= 1"),
+    ("cost_cases.toml", text("gas_price_factor = 1.2", "gas_price_factor = -1.2"), 7, "cases.high_co2.gas_price_factor", ">= 0"),
+    ("cost_cases.toml", text("gas_price_factor = 1.2", "gas_factor = 1.2"), 7, "cases.high_co2.gas_factor", "unknown key"),
+    ("cost_cases.toml", text("air_hp = 0.9", "air_heatpump = 0.9"), 14, "cases.high_co2.investment_factor.air_heatpump", "unknown technology"),
+]
+
+
 @pytest.mark.parametrize(
-    "edit, expected",
-    [
-        # absurd values, one per rule family (ranges are the project's plausibility limits: common practice)
-        (lambda d: _edit_feature(d / "districts.geojson", 1, "supply_temp_c", 150), ("districts.geojson", 1, "supply_temp_c", "<= 130")),
-        (lambda d: _edit_feature(d / "districts.geojson", 2, "hot_water_share", 1.5), ("districts.geojson", 2, "hot_water_share", "<= 1")),
-        (lambda d: _edit_feature(d / "districts.geojson", 1, "heat_demand_mwh_per_a", -5), ("districts.geojson", 1, "heat_demand_mwh_per_a", ">= 0")),
-        (lambda d: _edit_feature(d / "districts.geojson", 2, "supply_temp_c", None), ("districts.geojson", 2, "supply_temp_c", "missing")),
-        (lambda d: _edit_feature(d / "districts.geojson", 1, "heat_demand_kwh_per_a", 5), ("districts.geojson", 1, "heat_demand_kwh_per_a", "did you mean 'heat_demand_mwh_per_a'")),
-        (lambda d: _edit_feature(d / "districts.geojson", 2, "district_id", "old_town"), ("districts.geojson", 2, "district_id", "duplicate")),
-        (lambda d: _edit_feature(d / "districts.geojson", 2, "district_id", "river side"), ("districts.geojson", 2, "district_id", "letters, digits")),
-        (lambda d: _edit_feature(d / "districts.geojson", 1, "network_available", "maybe"), ("districts.geojson", 1, "network_available", "true or false")),
-        (lambda d: _edit_cell(d / "wells.csv", 3, "groundwater_temp_c", "45"), ("wells.csv", 3, "groundwater_temp_c", "<= 40")),
-        (lambda d: _edit_cell(d / "wells.csv", 3, "groundwater_temp_c", "nan"), ("wells.csv", 3, "groundwater_temp_c", "'nan'")),
-        (lambda d: _edit_cell(d / "wells.csv", 2, "lon", "inf"), ("wells.csv", 2, "lon", "finite")),
-        (lambda d: _edit_cell(d / "wells.csv", 2, "permit_flow_m3_per_h", "12,5"), ("wells.csv", 2, "permit_flow_m3_per_h", "decimal mark")),
-        (lambda d: _edit_cell(d / "wells.csv", 2, "permit_flow_m3_per_h", "40000"), ("wells.csv", 2, "permit_flow_m3_per_h", "litres per hour")),
-        (lambda d: _edit_cell(d / "wells.csv", 2, "coldest_day_of_year", ""), ("wells.csv", 2, "coldest_day_of_year", "required")),
-        (lambda d: _edit_cell(d / "wells.csv", 3, "well_id", "w1"), ("wells.csv", 3, "well_id", "duplicate")),
-        (lambda d: _edit_cell(d / "wells.csv", 2, "lat", "5330000"), ("wells.csv", 2, "lon", "projected")),
-        (lambda d: _edit_cell(d / "wells.csv", 2, "lat", "11.004"), ("wells.csv", 2, "district_id", "outside every district")),
-        (lambda d: _edit_cell(d / "technologies.csv", 2, "efficiency", "1.5"), ("technologies.csv", 2, "efficiency", "<= 1.2")),
-        (lambda d: _edit_cell(d / "technologies.csv", 7, "efficiency", "60"), ("technologies.csv", 7, "efficiency", "<= 50")),
-        (lambda d: _edit_cell(d / "technologies.csv", 7, "efficiency", ""), ("technologies.csv", 7, "efficiency", "EER")),
-        (lambda d: _edit_cell(d / "technologies.csv", 3, "cop_quality_grade", "1.2"), ("technologies.csv", 3, "cop_quality_grade", "<= 1")),
-        (lambda d: _edit_cell(d / "technologies.csv", 3, "lifetime_a", "0"), ("technologies.csv", 3, "lifetime_a", "> 0")),
-        (lambda d: _edit_cell(d / "technologies.csv", 3, "kind", "heatpump"), ("technologies.csv", 3, "kind", "air_heat_pump")),
-        (lambda d: _edit_cell(d / "technologies.csv", 6, "carrier", "steam"), ("technologies.csv", 6, "carrier", "allowed")),
-        (lambda d: _edit_cell(d / "technologies.csv", 6, "carrier", "electricity"), ("technologies.csv", 6, "carrier", "none")),
-        (lambda d: _edit_cell(d / "technologies.csv", 6, "store_hours", ""), ("technologies.csv", 6, "store_hours", "heat_store")),
-        (lambda d: _edit_cell(d / "district_technologies.csv", 3, "technology_id", "gas_boiler"), ("district_technologies.csv", 3, "technology_id", "duplicate")),
-        (lambda d: _edit_cell(d / "district_technologies.csv", 3, "district_id", "harbour"), ("district_technologies.csv", 3, "district_id", "unknown district")),
-        (lambda d: _edit_cell(d / "district_technologies.csv", 2, "existing_kw", "-1"), ("district_technologies.csv", 2, "existing_kw", ">= 0")),
-        (lambda d: _edit_cell(d / "buildings.csv", 5, "building_id", "b1"), ("buildings.csv", 5, "building_id", "duplicate")),
-        (lambda d: _edit_cell(d / "heat_demand_hourly.csv", 1, "riverside", "riversid"), ("heat_demand_hourly.csv", 1, "riversid", "did you mean 'riverside'")),
-        (lambda d: _edit_cell(d / "heat_demand_hourly.csv", 50, "riverside", "-3"), ("heat_demand_hourly.csv", 50, "riverside", ">= 0")),
-        (lambda d: _edit_cell(d / "groundwater_temp_hourly.csv", 1, "w2", "w9"), ("groundwater_temp_hourly.csv", 1, "w9", "not a known well")),
-        (lambda d: _edit_cell(d / "hourly.csv", 20, "hour", "17"), ("hourly.csv", 20, "hour", "repeats")),
-        (lambda d: _edit_cell(d / "hourly.csv", 4000, "outdoor_temp_c", ""), ("hourly.csv", 4000, "outdoor_temp_c", "required")),
-        (lambda d: _replace(d / "scenario.toml", "discount_rate = 0.05", "discount_rate = 0.5"), ("scenario.toml", 5, "run.discount_rate", "<= 0.3")),
-        (lambda d: _replace(d / "scenario.toml", "typical_days = 4", "typical_days = -1"), ("scenario.toml", 6, "run.typical_days", ">= 0")),
-        (lambda d: _replace(d / "scenario.toml", 'objective = "cost"', 'objective = "money"'), ("scenario.toml", 4, "run.objective", "'cost', 'co2'")),
-        (lambda d: _replace(d / "scenario.toml", "gas_eur_per_mwh = 60.0", "gas_eur_per_mwh = 0.06"), ("scenario.toml", 16, "prices.gas_eur_per_mwh", "EUR/kWh")),
-        (lambda d: _replace(d / "scenario.toml", "gas_eur_per_mwh = 60.0", "gas_eur_per_mwh = \"60\""), ("scenario.toml", 16, "prices.gas_eur_per_mwh", "a number")),
-        (lambda d: _replace(d / "scenario.toml", "[aquifer]", "[aquifer]\nporosity = 0.2"), ("scenario.toml", 22, "aquifer.porosity", "effective_porosity")),
-        (lambda d: _replace(d / "scenario.toml", "reinjection_max_temp_c = 20.0", "reinjection_max_temp_c = 4.0"), ("scenario.toml", 13, "run.reinjection_max_temp_c", "above")),
-        (lambda d: _replace(d / "cost_cases.toml", "gw_hp = 0.4", "gw_hp = 1.4"), ("cost_cases.toml", 11, "cases.high_co2.subsidy_share.gw_hp", "<= 1")),
-        (lambda d: _replace(d / "cost_cases.toml", "gas_price_factor = 1.2", "gas_price_factor = -1.2"), ("cost_cases.toml", 7, "cases.high_co2.gas_price_factor", ">= 0")),
-        (lambda d: _replace(d / "cost_cases.toml", "gas_price_factor = 1.2", "gas_factor = 1.2"), ("cost_cases.toml", 7, "cases.high_co2.gas_factor", "unknown key")),
-        (lambda d: _replace(d / "cost_cases.toml", "air_hp = 0.9", "air_heatpump = 0.9"), ("cost_cases.toml", 14, "cases.high_co2.investment_factor.air_heatpump", "unknown technology")),
-    ],
+    "file, edit, row, column, word", RULE_CASES, ids=[f"{c[0]}:{c[3]}:{c[4]}" for c in RULE_CASES]
 )
-def test_each_rule_reports_file_row_and_column(tiny, edit, expected):
+def test_each_rule_reports_file_row_and_column(tiny, file, edit, row, column, word):
     """One bad value per rule is reported with the right file, row and column and a message that says what is
     expected (docs/input_format.md for the format; the plausibility ranges are the project's, common practice)."""
-    edit(tiny)
+    edit(tiny / file)
     problems = io.validate_scenario(tiny)
-    assert _find(problems, *expected), "\n".join(map(str, problems))
+    assert _find(problems, file, row, column, word), "\n".join(map(str, problems))
 
 
 def test_kwh_written_as_mwh_gets_a_unit_hint(tiny):
@@ -392,6 +405,20 @@ def test_hourly_files_must_match_hourly_csv(tiny):
     problems = io.validate_scenario(tiny)
     assert _find(problems, "heat_demand_hourly.csv", None, None, "8784")
     assert _find(problems, "groundwater_temp_hourly.csv", None, None, "8784")
+
+
+def test_rows_count_as_a_spreadsheet_shows_them(tiny):
+    """A blank line still takes a row number, as in a spreadsheet, and trailing blank lines are not hours
+    (docs/input_format.md: header = row 1)."""
+    path = tiny / "wells.csv"
+    lines = path.read_text(encoding="utf-8").splitlines()
+    lines.insert(2, "")
+    lines[4] = lines[4].replace(",30,", ",thirty,")  # w3 now on sheet row 5
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    hourly = tiny / "hourly.csv"
+    hourly.write_text(hourly.read_text(encoding="utf-8") + "\n\n,,,,,\n", encoding="utf-8")
+    problems = io.validate_scenario(tiny)
+    assert [(p.file, p.row, p.column) for p in problems] == [("wells.csv", 5, "permit_flow_m3_per_h")]
 
 
 def test_bad_cells_are_summed_up_after_a_few(tiny):
