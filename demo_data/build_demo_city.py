@@ -342,8 +342,8 @@ def _outline(letter: str) -> list[tuple[int, int]]:
         ring.append(nxt)
     if len(ring) != len(boundary):
         raise ValueError(f"district {letter} is not one simply connected block of cells")
-    # Drop lattice points where the outline goes straight on (they only add vertices to a shared straight edge
-    # when the neighbour has them too, so keep all points: shared edges must match vertex for vertex).
+    # Every lattice point stays, also where the outline runs straight on: the neighbour's outline has the same
+    # point, so shared borders match vertex for vertex.
     return ring
 
 
