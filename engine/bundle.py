@@ -244,7 +244,7 @@ class CheckedZip:
 
     def _refuse(self, reason: str, entry: str | None = None):
         where = f"entry '{entry}' " if entry is not None else ""
-        raise BundleError(f"{self.what} refused: {where}{reason}. Nothing was unpacked.")
+        raise BundleError(f"{self.what} refused: {where}{reason}. Nothing was kept.")
 
     def _check_directory(self, allowed, allowed_dirs) -> dict[str, zipfile.ZipInfo]:
         limits = self.limits
@@ -380,6 +380,10 @@ _MASKED_NAMES = {"Int8", "Int16", "Int32", "Int64", "UInt8", "UInt16", "UInt32",
                  "boolean"}
 
 
+def _missing(value) -> bool:
+    return value is None or value is pd.NA or value is pd.NaT or (isinstance(value, float) and math.isnan(value))
+
+
 def _table_to_csv(frame: pd.DataFrame, table: str) -> tuple[bytes, dict]:
     """CSV bytes of a table and the description that lets :func:`_table_from_csv` rebuild its dtypes."""
     if not isinstance(frame, pd.DataFrame):
@@ -404,13 +408,15 @@ def _table_to_csv(frame: pd.DataFrame, table: str) -> tuple[bytes, dict]:
         elif isinstance(dtype, pd.StringDtype):
             spec.update(dtype="string", storage=dtype.storage, na="nan" if isinstance(dtype.na_value, float) else "NA")
         elif isinstance(dtype, np.dtype) and dtype.kind == "O" and all(
-            isinstance(v, str) or v is None or (isinstance(v, float) and math.isnan(v)) for v in series.tolist()
+            isinstance(v, str) or _missing(v) for v in series.tolist()
         ):
             spec["dtype"] = "object"
         else:
             # Anything else travels as text and comes back as text; the manifest keeps the original dtype.
             spec.update(dtype="text", original=str(dtype))
-            series = series.map(lambda v: None if v is None or v is pd.NA or v is pd.NaT else str(v))
+            series = pd.Series(
+                [None if _missing(v) else str(v) for v in series.astype(object).tolist()], dtype=object
+            )
         if spec["dtype"] in ("string", "object", "text"):
             missing = np.flatnonzero(series.isna().to_numpy()).tolist()
             spec["missing"] = missing

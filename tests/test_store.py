@@ -81,6 +81,7 @@ def synthetic_result(seed: int = 0, n_steps: int = 24) -> RunResult:
             "existing_kw": [0.0, 500.0, 800.0],
             "new_kw": [350.25, 0.0, 0.0],
             "heat_mwh_per_a": rng.uniform(0, 3e3, 3),
+            "cooling_mwh_per_a": [40.0, 0.0, 0.0],
             "share_of_demand": [0.7, 0.3, 1.0],
         }
     )
