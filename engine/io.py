@@ -375,6 +375,12 @@ def _report_rows(
 
 
 _DECIMAL_COMMA = re.compile(r"^[+-]?\d+,\d+$")
+
+
+def _printable(cell: str, limit: int = 40) -> str:
+    """A cell as it can be shown in a one-line message: control characters escaped, long text cut."""
+    shown = "".join(ch if ch.isprintable() else repr(ch)[1:-1] for ch in cell)
+    return shown if len(shown) <= limit else shown[: limit - 3] + "..."
 _TRUE = {"true", "yes", "1", "y"}
 _FALSE = {"false", "no", "0", "n"}
 
@@ -387,7 +393,7 @@ def _parse_number_column(report: _Report, table: _Table, spec: _Col, raw: pd.Ser
 
     def not_a_number(i: int) -> str:
         hint = " (use '.' as the decimal mark)" if _DECIMAL_COMMA.match(text[i]) else ""
-        return f"must be {need}, got '{text[i]}'{hint}"
+        return f"must be {need}, got '{_printable(text[i])}'{hint}"
 
     _report_rows(report, table, spec.name, ~blank & np.isnan(values), not_a_number)
     if not spec.allow_inf:
@@ -1074,7 +1080,7 @@ def _check_references(
         return np.zeros(len(values), dtype=bool)
     known_set = set(known)
     bad = np.array([v != "" and v not in known_set for v in values], dtype=bool)
-    shown = ", ".join(known) if len(known) <= 20 else ", ".join(known[:20]) + ", ..."
+    shown = ", ".join(known[:20]) + (", ..." if len(known) > 20 else "") if known else "(none)"
     _report_rows(report, table, column, bad, lambda i: f"unknown {what} '{values[i]}'; known: {shown}")
     return bad
 
