@@ -22,6 +22,8 @@ The pages keep their state under these keys of ``st.session_state`` (plain Pytho
     The request key of the newest solve: the "current run", shown on the results page until it is saved.
 ``hm_scenarios``
     ``{files digest: Scenario}``: scenarios already read from a saved run's files (for maps and colours).
+``hm_loaded``
+    ``{run id: RunResult}``: saved runs already read from the library in this session.
 ``hm_flash``
     A short message (saved, renamed, deleted ...) shown once on the next page run.
 
@@ -37,6 +39,7 @@ import dataclasses
 import hashlib
 import io
 import math
+import shutil
 import tempfile
 from collections.abc import Callable, Mapping, MutableMapping
 from dataclasses import dataclass, field
@@ -171,12 +174,14 @@ def input_set_from_bundle(data: bytes, workdir: str | Path, label: str = "upload
     dest = Path(tempfile.mkdtemp(prefix="bundle-", dir=workdir))
     try:
         contents = read_bundle(bytes(data), dest)
+        files = read_scenario_files(contents.input_folder)
     except BundleError as exc:
         return InputSet(label, {}, None, problems_frame([Problem(label, None, None, str(exc))]), {})
     except Exception as exc:  # a damaged upload must read as a message, not a traceback
         message = f"could not be read as a bundle ({type(exc).__name__}: {exc})"
         return InputSet(label, {}, None, problems_frame([Problem(label, None, None, message)]), {})
-    files = read_scenario_files(contents.input_folder)
+    finally:
+        shutil.rmtree(dest, ignore_errors=True)  # the files are in memory now
     missing = [name for name in scenario_io.REQUIRED_FILES if name not in files]
     if missing:
         problems = [
@@ -202,6 +207,33 @@ def input_set_from_run(store: ScenarioStore, run_id: int) -> InputSet:
         problem = Problem(label, None, None, "was saved without its scenario files; it cannot be re-opened")
         return InputSet(label, {}, None, problems_frame([problem]), {})
     return input_set_from_files(files, label)
+
+
+def initial_setup(
+    inputs: InputSet, settings: Mapping | None = None, cost_case: str | None = None
+) -> dict:
+    """The set-up page's starting choices for an input set (the ``hm_setup`` dict).
+
+    ``settings`` and ``cost_case`` (a saved run's) take precedence over the scenario's own settings, so that
+    re-opening a run puts back the choices it was solved with.
+    """
+    scenario = inputs.scenario
+    base = dataclasses.asdict(scenario.settings) if scenario is not None else {}
+    chosen = {**base, **dict(settings or {})}
+    cases = list(scenario.cost_cases) if scenario is not None else []
+    if cost_case not in cases:
+        cost_case = "reference" if "reference" in cases else (cases[0] if cases else "")
+    days = int(chosen.get("typical_days", 12) or 0)
+    return {
+        "digest": inputs.digest,
+        "cost_case": cost_case,
+        "objective": chosen.get("objective", "cost") if chosen.get("objective") in ("cost", "co2") else "cost",
+        "co2_cap_t_per_a": float(chosen.get("co2_cap_t_per_a", 0.0) or 0.0),
+        "full_year": days == 0,
+        "typical_days": days if days > 0 else 12,
+        "technology_table": editable_technology_table(scenario) if scenario is not None else None,
+        "well_table": editable_well_table(scenario) if scenario is not None else None,
+    }
 
 
 def cost_case_descriptions(scenario: Scenario) -> dict[str, str]:
@@ -544,6 +576,29 @@ def scenario_files_with_edits(
     return files
 
 
+def edited_cells(
+    scenario: Scenario, technology_table: pd.DataFrame, well_table: pd.DataFrame | None = None
+) -> pd.DataFrame:
+    """The cells that differ from the input files: table, item, column, from, to (only cells that parse)."""
+    rows = []
+    pairs = [(TECHNOLOGY_TABLE, "technology_id", editable_technology_table(scenario), technology_table,
+              TECHNOLOGY_EDIT_COLUMNS)]
+    if well_table is not None:
+        pairs.append((WELL_TABLE, "well_id", editable_well_table(scenario), well_table, WELL_EDIT_COLUMNS))
+    for name, id_column, before, after, columns in pairs:
+        if not isinstance(after, pd.DataFrame) or len(after) != len(before):
+            continue
+        for position in range(len(before)):
+            for column in columns:
+                if column not in after.columns:
+                    continue
+                old = float(before[column].iloc[position])
+                new, why = _number(after[column].iloc[position])
+                if why is None and not _same(old, new):
+                    rows.append([name, str(before[id_column].iloc[position]), column, old, new])
+    return pd.DataFrame(rows, columns=["table", "item", "column", "from", "to"])
+
+
 def table_digest(frame: pd.DataFrame | None) -> str:
     """SHA-256 of a table's values (for the request key of an edited set-up)."""
     if frame is None:
@@ -560,6 +615,8 @@ class SolvedRun:
     files: dict
     label: str
     input_hash: str
+    saved_run_id: int | None = None
+    """The library's run id once the planner saved this run."""
 
 
 def request_key(
@@ -637,6 +694,40 @@ def solve_with_cache(
     run = SolvedRun(result=result, files=dict(files), label=label, input_hash=result.input_hash)
     remember(cache, key, run)
     return run, False
+
+
+def choices_of_run(result: RunResult) -> dict:
+    """The set-up choices a run was solved with: cost_case, objective, co2_cap_t_per_a, typical_days (0 = year)."""
+    settings = result.settings or {}
+    return {
+        "cost_case": result.cost_case,
+        "objective": result.objective if result.objective in ("cost", "co2") else "cost",
+        "co2_cap_t_per_a": float(settings.get("co2_cap_t_per_a", 0.0) or 0.0),
+        "typical_days": int(settings.get("typical_days", 0) or 0),
+    }
+
+
+def resolve_saved_run(
+    cache: MutableMapping,
+    scenario: Scenario,
+    files: Mapping[str, bytes],
+    result: RunResult,
+    label: str,
+    progress: Callable[[float, str], None] | None = None,
+) -> tuple[SolvedRun, bool]:
+    """Solve a saved run again from its own files and choices (a reproducibility check)."""
+    choices = choices_of_run(result)
+    key = request_key(files_digest(files), None, None, choices["cost_case"], choices["objective"],
+                      choices["co2_cap_t_per_a"], choices["typical_days"])
+    return solve_with_cache(cache, key, scenario, files, label, progress=progress, **choices)
+
+
+def load_saved_run(store: ScenarioStore, cache: MutableMapping, run_id: int) -> RunResult:
+    """A saved run, read from the library once per session (``cache``: run id -> RunResult)."""
+    run_id = int(run_id)
+    if run_id not in cache:
+        remember(cache, run_id, store.load_run(run_id), limit=8)
+    return cache[run_id]
 
 
 def suggested_run_name(result: RunResult) -> str:
@@ -761,11 +852,16 @@ __all__ = [
     "SolvedRun",
     "apply_edits",
     "bundle_bytes",
+    "choices_of_run",
+    "load_saved_run",
+    "resolve_saved_run",
     "check_edits",
     "cost_case_descriptions",
     "demo_input_set",
     "editable_technology_table",
     "editable_well_table",
+    "edited_cells",
+    "initial_setup",
     "files_digest",
     "import_library_bytes",
     "input_set_from_bundle",

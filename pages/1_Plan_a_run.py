@@ -1,0 +1,265 @@
+"""Plan a run: inputs, cost case, objective, CO2 cap, time resolution, editable costs and permits; solve; save."""
+
+from __future__ import annotations
+
+import tempfile
+import time
+from pathlib import Path
+
+import streamlit as st
+
+from engine import workbench as wb
+from engine.problems import problems_frame
+from engine.store import ScenarioStore, StoreError
+
+RESULTS_PAGE = "pages/2_Run_results.py"
+OBJECTIVES = {"cost": "Lowest annual cost", "co2": "Lowest CO2 emissions"}
+WIDGETS = {  # widget key -> hm_setup entry it starts from
+    "setup_cost_case": "cost_case",
+    "setup_objective": "objective",
+    "setup_co2_cap": "co2_cap_t_per_a",
+    "setup_full_year": "full_year",
+    "setup_typical_days": "typical_days",
+}
+
+state = st.session_state
+st.title("Plan a run")
+st.caption(wb.CAUTION_LINE)
+
+if "hm_input" not in state:
+    state["hm_input"] = wb.demo_input_set()
+solved = state.setdefault("hm_solved", {})
+inputs: wb.InputSet = state["hm_input"]
+
+setup = state.get("hm_setup")
+if setup is None or setup.get("digest") != inputs.digest or setup.get("fresh"):
+    if setup is None or setup.get("digest") != inputs.digest:
+        setup = wb.initial_setup(inputs)
+    setup.pop("fresh", None)
+    state["hm_setup"] = setup
+    for widget, name in WIDGETS.items():
+        state[widget] = setup[name]
+else:
+    for widget, name in WIDGETS.items():
+        if widget not in state:
+            state[widget] = setup[name]
+
+
+def use_demo() -> None:
+    state["hm_input"] = wb.demo_input_set()
+
+
+def reset_tables() -> None:
+    if inputs.scenario is None:
+        return
+    setup["technology_table"] = wb.editable_technology_table(inputs.scenario)
+    setup["well_table"] = wb.editable_well_table(inputs.scenario)
+    for key in list(state.keys()):
+        if str(key).startswith(("setup_tech_", "setup_wells_")):
+            del state[key]
+
+
+# ------------------------------------------------------------------------------------------------ 1 inputs
+with st.container(border=True):
+    st.subheader("1 · Inputs")
+    left, right = st.columns([3, 2], gap="large")
+    with left:
+        scenario = inputs.scenario
+        if scenario is not None:
+            st.markdown(f"**{inputs.label}:** {scenario.settings.name}, target year {scenario.settings.target_year}")
+            st.caption(
+                f"{len(scenario.districts)} districts · {len(scenario.technologies)} technologies · "
+                f"{len(scenario.wells)} well doublets · {len(scenario.cost_cases)} cost cases · "
+                f"{scenario.districts['heat_demand_mwh_per_a'].sum():,.0f} MWh/a heat demand"
+            )
+        else:
+            st.markdown(f"**{inputs.label}** cannot be used:")
+        if inputs.manifest:
+            st.caption(
+                f"Bundle written by heatmosaic {inputs.manifest.get('heatmosaic_version', '?')} on "
+                f"{str(inputs.manifest.get('created_utc', '?'))[:10]}; run inside: cost case "
+                f"{inputs.manifest.get('cost_case', '?')}, objective {inputs.manifest.get('objective', '?')}."
+            )
+    with right:
+        if inputs.label != "Demo city":
+            st.button("Use the demo city instead", on_click=use_demo, icon=":material/location_city:")
+        upload = st.file_uploader(
+            "Or open a bundle (.zip) exported from heatmosaic", type=["zip"], key="setup_bundle",
+            help="A bundle holds a run's scenario files and results (Share page → bundle download).",
+        )
+        if upload is not None and state.get("setup_bundle_seen") != upload.file_id:
+            state["setup_bundle_seen"] = upload.file_id
+            workdir = Path(tempfile.gettempdir()) / "heatmosaic-uploads"
+            state["hm_input"] = wb.input_set_from_bundle(upload.getvalue(), workdir, f"Bundle {upload.name}")
+            st.rerun()
+    if not inputs.problems.empty:
+        st.error(f"{len(inputs.problems)} problem(s) in these inputs. Fix them in the files and upload again.")
+        st.dataframe(inputs.problems, hide_index=True, width="stretch")
+if inputs.scenario is None:
+    st.stop()
+scenario = inputs.scenario
+
+# ------------------------------------------------------------------------------------------------ 2 choices
+with st.container(border=True):
+    st.subheader("2 · Run choices")
+    descriptions = wb.cost_case_descriptions(scenario)
+    c1, c2, c3 = st.columns([2, 1.3, 1.5], gap="large")
+    with c1:
+        cost_case = st.selectbox("Cost case", list(descriptions), key="setup_cost_case")
+        st.caption(descriptions.get(cost_case, ""))
+    with c2:
+        objective = st.radio("Objective", list(OBJECTIVES), format_func=OBJECTIVES.get, key="setup_objective")
+        co2_cap = st.number_input(
+            "City-wide CO2 cap [t/a]", min_value=0.0, step=1000.0, format="%.0f", key="setup_co2_cap",
+            help="0 means no cap. A cap ties the districts into one linear program, which takes longer to solve.",
+        )
+    with c3:
+        full_year = st.toggle("Full year (8760 hours)", key="setup_full_year",
+                              help="Off: the year is represented by typical days (much faster, close results).")
+        typical_days = st.number_input("Typical days", min_value=1, max_value=366, step=1,
+                                       key="setup_typical_days", disabled=full_year,
+                                       help="Days chosen to stand for the whole year; more days, closer results.")
+        if full_year:
+            st.caption("The full year takes roughly ten times longer than 12 typical days.")
+for widget, name in WIDGETS.items():
+    setup[name] = state[widget]
+
+# ------------------------------------------------------------------------------------------------ 3 costs and permits
+token = inputs.digest[:12]
+with st.container(border=True):
+    st.subheader("3 · Technology costs and well permits")
+    st.caption("Change a cell to test another assumption; the saved run keeps the values it was solved with.")
+    tab_tech, tab_wells = st.tabs(["Technology costs", f"Well permits ({len(scenario.wells)})"])
+    with tab_tech:
+        technology_table = st.data_editor(
+            setup["technology_table"], key=f"setup_tech_{token}", hide_index=True, num_rows="fixed",
+            width="stretch", disabled=["technology_id", "name", "kind"],
+            column_config={
+                "technology_id": st.column_config.TextColumn("Technology"),
+                "name": st.column_config.TextColumn("Name"),
+                "kind": st.column_config.TextColumn("Kind"),
+                "investment_eur_per_kw": st.column_config.NumberColumn(
+                    "Investment [€/kW]", min_value=0.0, format="%.0f",
+                    help="Specific investment; per kWh of storage for heat stores."),
+                "fixed_om_pct_per_a": st.column_config.NumberColumn(
+                    "Fixed O&M [%/a]", min_value=0.0, max_value=100.0, format="%.2f",
+                    help="Fixed operation and maintenance, % of the investment per year."),
+                "variable_om_eur_per_mwh": st.column_config.NumberColumn(
+                    "Variable O&M [€/MWh]", min_value=0.0, format="%.2f"),
+                "lifetime_a": st.column_config.NumberColumn("Lifetime [a]", min_value=1, max_value=100, format="%d"),
+                "efficiency_or_grade": st.column_config.NumberColumn(
+                    "Efficiency / COP grade [-]", min_value=0.0, format="%.2f",
+                    help="Boilers: thermal efficiency; chillers and groundwater cooling: EER; heat pumps: share of "
+                         "the Carnot COP reached. Blank for network connections and stores."),
+            },
+        )
+    with tab_wells:
+        if len(scenario.wells):
+            st.caption("Permits are set by the water authority; changing them here is a what-if for screening.")
+            well_table = st.data_editor(
+                setup["well_table"], key=f"setup_wells_{token}", hide_index=True, num_rows="fixed",
+                width="stretch", disabled=["well_id", "district_id"],
+                column_config={
+                    "well_id": st.column_config.TextColumn("Well doublet"),
+                    "district_id": st.column_config.TextColumn("District"),
+                    "permit_flow_m3_per_h": st.column_config.NumberColumn(
+                        "Permitted flow [m³/h]", min_value=0.0, format="%.1f"),
+                    "permit_annual_volume_m3": st.column_config.NumberColumn(
+                        "Permitted annual volume [m³/a]", min_value=0.0, format="%.0f",
+                        help="Blank means no annual limit."),
+                    "design_spread_k": st.column_config.NumberColumn(
+                        "Design spread [K]", min_value=0.0, format="%.1f",
+                        help="Temperature difference between extraction and reinjection."),
+                    "groundwater_temp_c": st.column_config.NumberColumn(
+                        "Groundwater temperature [°C]", min_value=0.0, format="%.1f"),
+                },
+            )
+        else:
+            well_table = setup["well_table"]
+            st.info("These inputs have no well doublets.")
+    setup["technology_table"], setup["well_table"] = technology_table, well_table
+    edit_problems = wb.check_edits(scenario, technology_table, well_table)
+    changes = wb.edited_cells(scenario, technology_table, well_table)
+    if edit_problems:
+        st.error("Some edited values cannot be used; fix them before solving.")
+        st.dataframe(problems_frame(edit_problems), hide_index=True, width="stretch")
+    if not changes.empty:
+        with st.expander(f"{len(changes)} value(s) differ from the input files"):
+            st.dataframe(changes, hide_index=True, width="stretch")
+        st.button("Reset to the input files", on_click=reset_tables, icon=":material/undo:")
+
+# ------------------------------------------------------------------------------------------------ 4 solve
+days = 0 if full_year else int(typical_days)
+key = wb.request_key(inputs.digest, technology_table, well_table, cost_case, objective, co2_cap, days)
+with st.container(border=True):
+    st.subheader("4 · Solve")
+    clicked = st.button("Solve", type="primary", icon=":material/play_arrow:", disabled=bool(edit_problems),
+                        key="setup_solve")
+    earlier = key in solved and not clicked
+    if clicked:
+        bar = st.progress(0.0, text="Starting")
+        started = time.perf_counter()
+        edited, edit_problems = wb.apply_edits(scenario, technology_table, well_table)
+        if edited is None:
+            st.error("The edits cannot be used.")
+            st.stop()
+        files = wb.scenario_files_with_edits(inputs.files, technology_table, well_table, scenario)
+        run, from_cache = wb.solve_with_cache(
+            solved, key, edited, files, inputs.label, cost_case, objective, co2_cap, days,
+            progress=lambda share, text: bar.progress(min(max(float(share), 0.0), 1.0), text=text),
+        )
+        bar.progress(1.0, text=("Found in this session's runs" if from_cache else "Solved")
+                     + f" in {time.perf_counter() - started:.1f} s")
+        state["hm_current"] = key
+    elif earlier:
+        state["hm_current"] = key
+        st.caption("Solved earlier in this session with these very choices: shown straight away.")
+    run: wb.SolvedRun | None = solved.get(key)
+    if run is None:
+        st.info("Press Solve to compute this run (the demo city takes a few seconds).")
+    else:
+        result = run.result
+        if not result.solved:
+            st.error(f"The run did not solve: {result.message}")
+        else:
+            kpis = wb.run_kpis(result)
+            m = st.columns(4)
+            m[0].metric("Total cost [M€/a]", f"{kpis['total_cost_eur_per_a'] / 1e6:,.2f}")
+            m[1].metric("CO2 [t/a]", f"{kpis['co2_t_per_a']:,.0f}")
+            m[2].metric("Levelised cost [€/MWh]", f"{kpis['levelised_cost_eur_per_mwh']:,.1f}")
+            m[3].metric("Unserved heat [MWh/a]", f"{kpis['unserved_heat_mwh_per_a']:,.0f}")
+            if kpis["unserved_heat_mwh_per_a"] > 0.5:
+                st.warning(result.message)
+            else:
+                st.success(result.message)
+            districts = result.tables["districts"][
+                ["name", "main_supply", "heat_demand_mwh_per_a", "levelised_cost_eur_per_mwh", "co2_t_per_a"]
+            ]
+            st.dataframe(
+                districts, hide_index=True, width="stretch",
+                column_config={
+                    "name": "District", "main_supply": "Main supply",
+                    "heat_demand_mwh_per_a": st.column_config.NumberColumn("Heat demand [MWh/a]", format="localized"),
+                    "levelised_cost_eur_per_mwh": st.column_config.NumberColumn("Levelised cost [€/MWh]",
+                                                                                format="%.1f"),
+                    "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
+                },
+            )
+            st.page_link(RESULTS_PAGE, label="See the map, load curves and costs of this run", icon=":material/map:")
+
+# ------------------------------------------------------------------------------------------------ 5 save
+if run is not None and run.result.solved:
+    with st.container(border=True):
+        st.subheader("5 · Save to the library")
+        if run.saved_run_id is not None:
+            st.caption(f"This run is saved in the library as run #{run.saved_run_id}; saving again adds a copy.")
+        with st.form(f"setup_save_{key[:12]}", border=False):
+            name = st.text_input("Name", value=wb.suggested_run_name(run.result), max_chars=120)
+            note = st.text_area("Note", placeholder="What this run tests, where the numbers come from ...")
+            if st.form_submit_button("Save run", icon=":material/save:"):
+                try:
+                    with ScenarioStore() as store:
+                        run.saved_run_id = store.save_run(run.result, name, note, inputs=run.files)
+                    st.success(f"Saved as “{name.strip()}” (run #{run.saved_run_id}).")
+                except StoreError as error:
+                    st.error(f"The run could not be saved: {error}")

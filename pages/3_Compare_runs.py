@@ -1,0 +1,128 @@
+"""Compare runs: two to four saved runs against a baseline run, as tables, maps, load curves and costs."""
+
+from __future__ import annotations
+
+import streamlit as st
+from streamlit_folium import st_folium
+
+from engine import workbench as wb
+from engine.figures import (
+    FIGURE_CONFIG,
+    cost_breakdown_figure,
+    difference_table,
+    format_table,
+    kpi_table,
+    load_curve_figure,
+    load_duration_figure,
+    main_supply_changes,
+    supply_mix_figure,
+)
+from engine.maps import MEASURES, WELL_CAUTION, district_map
+from engine.store import ScenarioStore, StoreError
+
+PLAN_PAGE = "pages/1_Plan_a_run.py"
+MEASURE_LABELS = {
+    "main_supply": "Main heat supply",
+    "levelised_cost_eur_per_mwh": "Levelised cost of heat [€/MWh]",
+    "co2_kg_per_mwh": "CO2 per MWh of demand [kg/MWh]",
+    "change_total_cost": "Change of annual cost against the baseline [€/a]",
+}
+
+state = st.session_state
+st.title("Compare runs")
+st.caption(wb.CAUTION_LINE)
+loaded = state.setdefault("hm_loaded", {})
+scenarios = state.setdefault("hm_scenarios", {})
+
+try:
+    store = ScenarioStore()
+except StoreError as error:
+    st.error(f"The library could not be opened: {error}")
+    st.stop()
+choices = wb.run_choices(store)
+if len(choices) < 2:
+    st.info("Save at least two runs to compare them (for example the demo city under two cost cases).")
+    st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/tune:")
+    st.stop()
+
+kept = [r for r in state.get("compare_runs", []) if r in choices]
+state["compare_runs"] = kept if len(kept) >= 2 else list(choices)[:2]
+c1, c2 = st.columns([3, 2], gap="large")
+picked = c1.multiselect("Runs to compare (2 to 4)", list(choices), format_func=choices.get, max_selections=4,
+                        key="compare_runs")
+if len(picked) < 2:
+    st.info("Choose at least two runs.")
+    st.stop()
+names = wb.unique_run_names({r: store.run_info(r)["name"] for r in picked})
+results = {names[r]: wb.load_saved_run(store, loaded, r) for r in picked}
+if state.get("compare_baseline") not in picked:
+    state["compare_baseline"] = picked[0]
+baseline_id = c2.selectbox("Baseline run", picked, format_func=names.get, key="compare_baseline")
+baseline = names[baseline_id]
+files = {r: store.load_inputs(r) for r in picked}
+run_scenarios = {r: wb.scenario_for_files(scenarios, files[r]) for r in picked}
+base_scenario = run_scenarios[baseline_id]
+technologies = base_scenario.technologies if base_scenario is not None else None
+
+# ------------------------------------------------------------------------------------------------ tables
+st.subheader("Key figures")
+st.dataframe(format_table(kpi_table(results, technologies)), hide_index=True, width="stretch")
+st.subheader(f"Differences against the baseline “{baseline}”")
+st.caption("Positive: more than in the baseline (higher cost, more CO2, more heat from that technology).")
+st.dataframe(format_table(difference_table(results, baseline, technologies)), hide_index=True, width="stretch")
+with st.expander("Districts whose main supply changed"):
+    for name, result in results.items():
+        if name == baseline:
+            continue
+        changes = main_supply_changes(result, results[baseline], technologies)
+        st.markdown(f"**{name}**: {len(changes)} district(s)")
+        if not changes.empty:
+            st.dataframe(changes, hide_index=True, width="stretch")
+
+# ------------------------------------------------------------------------------------------------ maps
+st.subheader("Maps")
+measure = st.selectbox("Colour the districts by", list(MEASURES), format_func=MEASURE_LABELS.get,
+                       key="compare_measure")
+columns = st.columns(len(picked))
+for column, run_id in zip(columns, picked):
+    with column:
+        name = names[run_id]
+        st.markdown(f"**{name}**" + (" (baseline)" if run_id == baseline_id else ""))
+        scenario = run_scenarios[run_id]
+        if scenario is None:
+            st.info("The scenario files of this run are not available.")
+            continue
+        base = results[baseline] if measure == "change_total_cost" else None
+        fmap = district_map(scenario, results[name], measure=measure, baseline=base, technologies=technologies)
+        st_folium(fmap, height=380, use_container_width=True, returned_objects=[], key=f"compare_map_{run_id}")
+st.caption(WELL_CAUTION)
+
+# ------------------------------------------------------------------------------------------------ load curves
+st.subheader("Load curves")
+first = results[baseline]
+district_names = dict(zip(first.tables["districts"]["district_id"], first.tables["districts"]["name"]))
+c1, c2, c3 = st.columns([2, 1.6, 2])
+district = c1.selectbox("Where", [None] + list(district_names),
+                        format_func=lambda d: "Whole city" if d is None else district_names[d], key="compare_where")
+layout = c2.radio("Show", ["side", "overlay"], key="compare_layout",
+                  format_func={"side": "Side by side", "overlay": "Overlaid duration curves"}.get)
+week = c3.select_slider("Period", ["year"] + list(range(1, 53)), key="compare_week",
+                        format_func=lambda w: "Whole year" if w == "year" else f"Week {w}")
+if layout == "side":
+    columns = st.columns(min(len(results), 2))
+    for k, (name, result) in enumerate(results.items()):
+        with columns[k % len(columns)]:
+            st.markdown(f"**{name}**")
+            fig = load_curve_figure(result, technologies, district_id=district,
+                                    week=None if week == "year" else int(week))
+            st.plotly_chart(fig, width="stretch", config=FIGURE_CONFIG, key=f"compare_curve_{k}")
+else:
+    st.plotly_chart(load_duration_figure(results, district_id=district, technologies=technologies),
+                    width="stretch", config=FIGURE_CONFIG)
+
+# ------------------------------------------------------------------------------------------------ costs and mix
+st.subheader("Costs and supply mix")
+c1, c2 = st.columns(2)
+c1.plotly_chart(cost_breakdown_figure(results, by="run"), width="stretch", config=FIGURE_CONFIG)
+c2.plotly_chart(supply_mix_figure(results, technologies), width="stretch", config=FIGURE_CONFIG)
+st.plotly_chart(cost_breakdown_figure(results, by="district"), width="stretch", config=FIGURE_CONFIG)
