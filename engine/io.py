@@ -233,36 +233,41 @@ def _read_csv(folder: Path, name: str, report: _Report, required: bool) -> _Tabl
         separator = "';'" if ";" in header[0] else "tabs"
         report(name, 1, None, f"uses {separator} to separate columns; the format needs commas (and '.' decimals)")
         return None
+    width = len(header)
     rows: list[int] = []
     kept: list[list[str]] = []
     ragged = 0
     for index, record in enumerate(records[1:], start=2):
-        cells = [cell.strip() for cell in record]
-        if not any(cells):
+        if len(record) == width and record[0]:
+            rows.append(index)  # the common case, kept cheap for year-long hourly files
+            kept.append(record)
+            continue
+        if not "".join(record).strip():
             continue  # blank lines (often trailing) are skipped but keep the row count right
-        if len(cells) != len(header):
+        if len(record) != width:
             ragged += 1
             if ragged <= CELL_REPORT_LIMIT:
-                hint = "; a ',' used as decimal mark splits a number into two cells" if len(cells) > len(header) else ""
-                report(name, index, None, f"has {len(cells)} cells but the header has {len(header)} columns{hint}")
-            cells = (cells + [""] * len(header))[: len(header)]
+                hint = "; a ',' used as decimal mark splits a number into two cells" if len(record) > width else ""
+                report(name, index, None, f"has {len(record)} cells but the header has {width} columns{hint}")
+            record = (record + [""] * width)[:width]
         rows.append(index)
-        kept.append(cells)
+        kept.append(record)
     if ragged > CELL_REPORT_LIMIT:
         report(name, None, None, f"... and {ragged - CELL_REPORT_LIMIT} more rows with the wrong number of cells")
-    columns: dict[str, list[str]] = {}
-    for position, column in enumerate(header):
-        values = [record[position] for record in kept]
+    columns: dict[str, pd.Series] = {}
+    for position, values in enumerate(zip(*kept) if kept else [()] * width):
+        column = header[position]
+        cells = pd.Series(values, dtype=str).str.strip()
         if column == "":
-            if any(values):
+            if (cells != "").any():
                 report(name, 1, None, f"column {position + 1} holds values but has no header")
             continue
         if column in columns:
             report(name, 1, column, "appears twice in the header")
             continue
-        columns[column] = values
-    cells = pd.DataFrame(columns, dtype=str) if columns else pd.DataFrame(index=range(len(kept)))
-    return _Table(name, cells.reset_index(drop=True), rows)
+        columns[column] = cells
+    frame = pd.DataFrame(columns) if columns else pd.DataFrame(index=range(len(kept)))
+    return _Table(name, frame.reset_index(drop=True), rows)
 
 
 # ----------------------------------------------------------------------------- TOML
@@ -387,7 +392,7 @@ _FALSE = {"false", "no", "0", "n"}
 
 def _parse_number_column(report: _Report, table: _Table, spec: _Col, raw: pd.Series) -> np.ndarray:
     text = raw.to_numpy(dtype=object)
-    blank = np.array([cell == "" for cell in text], dtype=bool)
+    blank = (raw == "").to_numpy(dtype=bool)
     values = pd.to_numeric(raw.where(~blank, None), errors="coerce").to_numpy(dtype=float, na_value=np.nan).copy()
     need = spec.need_text()
 
