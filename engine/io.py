@@ -526,6 +526,7 @@ RUN_KEYS = (
     _Col("discount_rate", default=0.05, low=-0.05, high=0.3),
     _Col("typical_days", "integer", default=12, low=0, high=366),
     _Col("value_of_unserved_heat_eur_per_mwh", default=5000.0, low=0),
+    _Col("allow_unserved_heat", "bool", default=True),
     _Col("co2_cap_t_per_a", default=0.0, low=0),
     _Col("network_plant_limit_kw", default=0.0, low=0),
     _Col("heating_base_temp_c", default=15.0, low=-10, high=30),
@@ -562,6 +563,8 @@ def _toml_value_problem(value: Any, spec: _Col) -> str | None:
     """Why a TOML value does not fit ``spec``, or None."""
     if spec.kind == "text":
         return None if isinstance(value, str) else f"must be a text in quotes, got {value!r}"
+    if spec.kind == "bool":
+        return None if isinstance(value, bool) else f"must be true or false, got {value!r}"
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         return f"must be {spec.need_text()}, got {value!r}"
     if not math.isfinite(value) and not spec.allow_inf:
