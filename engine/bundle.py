@@ -25,6 +25,7 @@ The results are screening-level: the manifest carries :data:`CAUTION`.
 from __future__ import annotations
 
 import codecs
+import csv
 import hashlib
 import io
 import json
@@ -37,7 +38,7 @@ import tempfile
 import time
 import zipfile
 import zlib
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
 from pathlib import Path
@@ -114,20 +115,41 @@ LIBRARY_LIMITS = BundleLimits(max_entries=100_000, max_entry_bytes=512 * MIB, ma
 
 
 # ====================================================================================== writing zips
-def zip_write_entry(archive: zipfile.ZipFile, name: str, data: bytes, limits: BundleLimits = DEFAULT_LIMITS):
-    """Add ``data`` as entry ``name``; stores it uncompressed when deflating would exceed half the ratio limit.
+def _deflated_size(data: bytes) -> int:
+    """Size of ``data`` deflated exactly as :func:`write_checked_zip` deflates it (raw deflate, level 1)."""
+    packer = zlib.compressobj(1, zlib.DEFLATED, -15)
+    return len(packer.compress(data)) + len(packer.flush())
 
-    That keeps files this program writes readable under the zip-bomb check of :class:`CheckedZip`.
+
+def write_checked_zip(
+    path: str | Path, entries: Iterable[tuple[str, bytes]], limits: BundleLimits = DEFAULT_LIMITS
+) -> Path:
+    """Write ``entries`` (name, bytes) to the zip ``path`` so that :class:`CheckedZip` accepts every one.
+
+    Entries are deflated at a fast level; one that would deflate more than half of ``limits.max_ratio`` (and
+    would so look like a zip bomb to a reader) is stored uncompressed. The file appears at ``path`` only when
+    complete.
     """
-    compress_type = zipfile.ZIP_DEFLATED
-    if len(data) > limits.ratio_floor_bytes:
-        packed = len(zlib.compress(data, 6))
-        if len(data) > 0.5 * limits.max_ratio * max(packed, 1):
-            compress_type = zipfile.ZIP_STORED
-    info = zipfile.ZipInfo(name, date_time=time.localtime()[:6])
-    info.compress_type = compress_type
-    info.external_attr = (stat.S_IFREG | 0o644) << 16
-    archive.writestr(info, data)
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    handle, temp_name = tempfile.mkstemp(prefix=".partial-", suffix=".zip", dir=path.parent)
+    os.close(handle)
+    try:
+        with zipfile.ZipFile(temp_name, "w") as archive:
+            for name, data in entries:
+                info = zipfile.ZipInfo(name, date_time=time.localtime()[:6])
+                info.compress_type = zipfile.ZIP_DEFLATED
+                if len(data) > limits.ratio_floor_bytes and len(data) > 0.5 * limits.max_ratio * max(
+                    _deflated_size(data), 1
+                ):
+                    info.compress_type = zipfile.ZIP_STORED
+                info.external_attr = (stat.S_IFREG | 0o644) << 16
+                archive.writestr(info, data, compresslevel=1)
+        os.replace(temp_name, path)
+    finally:
+        if os.path.exists(temp_name):
+            os.unlink(temp_name)
+    return path
 
 
 # ====================================================================================== reading zips safely
@@ -422,7 +444,9 @@ def _table_to_csv(frame: pd.DataFrame, table: str) -> tuple[bytes, dict]:
             spec["missing"] = missing
         columns.append(spec)
         out[label] = series
-    text = pd.DataFrame(out, index=pd.RangeIndex(len(frame)), columns=labels).to_csv(index=False, lineterminator="\n")
+    text = pd.DataFrame(out, index=pd.RangeIndex(len(frame)), columns=labels).to_csv(
+        index=False, lineterminator="\n", quoting=csv.QUOTE_NONNUMERIC  # quoted text keeps a bare "\r" in its cell
+    )
     data = text.encode("utf-8")
     return data, {"rows": int(len(frame)), "columns": columns, "sha256": hashlib.sha256(data).hexdigest()}
 
@@ -498,21 +522,44 @@ def _table_from_csv(path: Path, spec: dict, table: str) -> pd.DataFrame:
         raise BundleError(f"manifest.json: the description of table '{table}' is malformed") from None
     if not columns:
         return pd.DataFrame(index=pd.RangeIndex(rows))
+    # Numbers are parsed by the CSV reader itself (exact with float_precision="round_trip"); everything else is
+    # read as raw text and converted by _parse_column. A cell that fails goes to the slow path, which names it.
+    if len(set(names)) != len(names):
+        raise BundleError(f"manifest.json: table '{table}' lists a column twice")
+    fast_dtypes = {}
+    na_values = {}
+    for column in columns:
+        if column["dtype"] in _FLOAT_NAMES:
+            fast_dtypes[column["name"]] = "float64"
+            na_values[column["name"]] = [""]
+        elif column["dtype"] in _INT_NAMES:
+            fast_dtypes[column["name"]] = column["dtype"]
+        else:
+            fast_dtypes[column["name"]] = object
+    options = dict(header=0, keep_default_na=False, skip_blank_lines=False, encoding="utf-8")
     try:
-        raw = pd.read_csv(path, header=None, dtype=object, keep_default_na=False, na_filter=False,
-                          skip_blank_lines=False, encoding="utf-8")
-    except (ValueError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
-        raise BundleError(f"results/{table}.csv cannot be read as CSV: {exc}") from None
-    header = [str(v) for v in raw.iloc[0].tolist()] if len(raw) else []
-    if header != names:
+        raw = pd.read_csv(path, dtype=fast_dtypes, na_values=na_values, float_precision="round_trip", **options)
+        fast = True
+    except (ValueError, TypeError, OverflowError, pd.errors.ParserError, pd.errors.EmptyDataError):
+        fast = False
+    if not fast:
+        try:
+            raw = pd.read_csv(path, dtype=object, na_filter=False, **options)
+        except (ValueError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
+            raise BundleError(f"results/{table}.csv cannot be read as CSV: {exc}") from None
+    if [str(v) for v in raw.columns] != names:
         raise BundleError(f"results/{table}.csv: the header row does not match manifest.json")
-    if len(raw) - 1 != rows:
-        raise BundleError(f"results/{table}.csv has {len(raw) - 1} data rows, manifest.json says {rows}")
-    body = raw.iloc[1:]
+    if len(raw) != rows:
+        raise BundleError(f"results/{table}.csv has {len(raw)} data rows, manifest.json says {rows}")
     data = {}
     for position, spec_column in enumerate(columns):
-        values = body.iloc[:, position].to_numpy(dtype=object)
-        array = _parse_column(values, spec_column, table)
+        series = raw.iloc[:, position]
+        if fast and spec_column["dtype"] in _FLOAT_NAMES:
+            array = series.to_numpy(dtype=np.float64).astype(spec_column["dtype"])
+        elif fast and spec_column["dtype"] in _INT_NAMES:
+            array = series.to_numpy()
+        else:
+            array = _parse_column(series.to_numpy(dtype=object), spec_column, table)
         data[position] = pd.Series(array, dtype=array.dtype, copy=False)
     frame = pd.DataFrame(data, index=pd.RangeIndex(rows))
     frame.columns = pd.Index(names, dtype="str")
@@ -626,20 +673,7 @@ def export_bundle(result: RunResult, inputs: Mapping[str, bytes] | None, path: s
         raise BundleError(
             f"the bundle would be {total / MIB:.0f} MiB unpacked, more than the {limits.max_total_bytes / MIB:.0f} "
             "MiB allowed")
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    handle, temp_name = tempfile.mkstemp(prefix=".bundle-", suffix=".zip", dir=path.parent)
-    os.close(handle)
-    try:
-        with zipfile.ZipFile(temp_name, "w") as archive:
-            for name, data in entries:
-                zip_write_entry(archive, name, data, limits)
-        os.replace(temp_name, path)
-    except BaseException:
-        if os.path.exists(temp_name):
-            os.unlink(temp_name)
-        raise
-    return path
+    return write_checked_zip(path, entries, limits)
 
 
 @dataclass

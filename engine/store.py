@@ -13,8 +13,10 @@ Design points
 * Values reach SQL only as bound parameters.
 * No pickle anywhere. Tables are stored as JSON (:func:`encode_table`) that records every column's dtype, so
   that :func:`decode_table` gives back a frame equal to the original under ``pandas.testing.assert_frame_equal``:
-  bool, integer and float columns (NaN and +-inf included), text columns in pandas' ``str`` dtype or ``object``,
-  nullable and categorical columns, datetimes, row indexes and column labels.
+  bool, integer and float columns (NaN, +-inf and -0.0 included), text columns in pandas' ``str`` dtype or
+  ``object``, nullable and categorical columns, datetimes, row indexes and column labels. Numbers are kept as
+  their little-endian bytes in base64 (RFC 4648), which is exact and fast; text as a list of distinct values
+  with one code per row.
 * The schema carries a version (``PRAGMA user_version``) and an application id (``PRAGMA application_id``), so a
   file that belongs to another program is refused instead of altered, and a file from an older release is
   migrated in place (see :data:`MIGRATIONS`).
@@ -34,15 +36,14 @@ Version 1 lacked ``runs.tags`` and ``runs.sweep_id``.
 
 from __future__ import annotations
 
+import base64
 import json
 import math
 import os
 import re
 import sqlite3
 import sys
-import tempfile
 import threading
-import zipfile
 from collections.abc import Callable, Iterable, Mapping
 from contextlib import contextmanager
 from datetime import datetime, timezone
@@ -248,25 +249,26 @@ _MASKED = {
 }
 
 
-def _float_list(values: np.ndarray) -> tuple[list, dict]:
-    """Finite floats as a list; NaN/inf replaced by 0 with their positions returned separately."""
-    values = np.asarray(values, dtype=np.float64)
-    bad = ~np.isfinite(values)
-    special = {}
-    if bad.any():
-        for key, mask in (("nan", np.isnan(values)), ("inf", values == np.inf), ("-inf", values == -np.inf)):
-            if mask.any():
-                special[key] = np.flatnonzero(mask).tolist()
-        values = np.where(bad, 0.0, values)
-    return values.tolist(), special
+def _pack(values: np.ndarray) -> str:
+    """Numbers as their little-endian bytes in base64 (RFC 4648): every bit survives, NaN and -0.0 included."""
+    array = np.ascontiguousarray(values)
+    return base64.b64encode(array.astype(array.dtype.newbyteorder("<"), copy=False).tobytes()).decode("ascii")
 
 
-def _put_specials(values: list, special: dict) -> list:
-    for key, positions in special.items():
-        number = float(key)
-        for i in positions:
-            values[i] = number
-    return values
+def _code_dtype(n_values: int) -> np.dtype:
+    """The smallest signed integer type that numbers ``n_values`` distinct values and -1 for missing."""
+    for candidate in (np.int8, np.int16, np.int32):
+        if n_values < np.iinfo(candidate).max:
+            return np.dtype(candidate)
+    return np.dtype(np.int64)
+
+
+def _unpack(text: str, dtype: np.dtype | str, n: int) -> np.ndarray:
+    dtype = np.dtype(dtype)
+    raw = base64.b64decode(text.encode("ascii"), validate=True)
+    if len(raw) != n * dtype.itemsize:
+        raise ValueError(f"{len(raw)} bytes do not hold {n} values of {dtype}")
+    return np.frombuffer(raw, dtype=dtype.newbyteorder("<")).astype(dtype)
 
 
 def _encode_object(value, where: str):
@@ -326,90 +328,91 @@ def _encode_values(values: pd.Series | pd.Index, where: str) -> dict:
     """One column (or one index level) as a JSON-safe dict."""
     dtype = values.dtype
     series = values if isinstance(values, pd.Series) else pd.Series(values, copy=False)
+    n = len(series)
     if isinstance(dtype, np.dtype):
         kind = dtype.kind
         raw = series.to_numpy()
-        if kind == "b":
-            return {"dtype": "bool", "values": raw.tolist()}
-        if kind in "iu":
-            return {"dtype": dtype.name, "values": raw.tolist()}
-        if kind == "f":
-            numbers, special = _float_list(raw)
-            return {"dtype": dtype.name, "values": numbers, "special": special}
+        if kind in "biuf":
+            return {"dtype": dtype.name, "n": n, "data": _pack(raw)}
         if kind in "mM":
-            return {"dtype": str(dtype), "values": raw.view(np.int64).tolist()}
+            return {"dtype": str(dtype), "n": n, "data": _pack(raw.view(np.int64))}
         if kind == "O":
-            return {"dtype": "object", "values": [_encode_object(v, where) for v in raw.tolist()]}
+            return {"dtype": "object", "n": n, "values": [_encode_object(v, where) for v in raw.tolist()]}
         raise StoreError(f"{where}: dtype {dtype} cannot be stored")
     if isinstance(dtype, pd.StringDtype):
-        na = "nan" if isinstance(dtype.na_value, float) else "NA"
-        raw = series.to_numpy(dtype=object, na_value=None)
-        return {"dtype": "string", "storage": dtype.storage, "na": na, "values": raw.tolist()}
+        # Dictionary-encoded: district and technology ids repeat on every row of the hourly tables.
+        codes, uniques = pd.factorize(series, use_na_sentinel=True)
+        return {
+            "dtype": "string",
+            "storage": dtype.storage,
+            "na": "nan" if isinstance(dtype.na_value, float) else "NA",
+            "n": n,
+            "uniques": [str(u) for u in uniques],
+            "codes": _pack(codes.astype(_code_dtype(len(uniques)))),
+            "code_dtype": _code_dtype(len(uniques)).name,
+        }
     if isinstance(dtype, pd.CategoricalDtype):
-        codes = series.cat.codes.to_numpy().astype(np.int64)
         return {
             "dtype": "category",
             "ordered": bool(dtype.ordered),
             "categories": _encode_index(dtype.categories, f"{where}, categories"),
-            "values": codes.tolist(),
+            "n": n,
+            "codes": _pack(series.cat.codes.to_numpy().astype(np.int64)),
         }
     if isinstance(dtype, pd.DatetimeTZDtype):
         utc = series.dt.tz_convert("UTC").dt.tz_localize(None).to_numpy()
-        return {"dtype": "datetimetz", "unit": dtype.unit, "tz": str(dtype.tz), "values": utc.view(np.int64).tolist()}
+        return {"dtype": "datetimetz", "unit": dtype.unit, "tz": str(dtype.tz), "n": n,
+                "data": _pack(utc.view(np.int64))}
     if str(dtype) in _MASKED:
-        raw = series.to_numpy(dtype=object, na_value=None)
-        missing = [i for i, v in enumerate(raw.tolist()) if v is None]
-        if str(dtype) == "boolean":
-            numbers = [bool(v) if v is not None else False for v in raw.tolist()]
-            special = {}
-        elif str(dtype).startswith("Float"):
-            filled = np.array([0.0 if v is None else v for v in raw.tolist()], dtype=np.float64)
-            numbers, special = _float_list(filled)
-        else:
-            numbers = [0 if v is None else int(v) for v in raw.tolist()]
-            special = {}
-        return {"dtype": str(dtype), "values": numbers, "special": special, "missing": missing}
+        mask = series.isna().to_numpy()
+        numpy_dtype = np.dtype(bool) if str(dtype) == "boolean" else np.dtype(str(dtype).lower())
+        filled = series.to_numpy(dtype=numpy_dtype, na_value=numpy_dtype.type(0))
+        return {"dtype": str(dtype), "n": n, "data": _pack(filled), "mask": _pack(mask)}
     raise StoreError(f"{where}: dtype {dtype} cannot be stored")
 
 
 def _decode_values(spec: dict):
     """Inverse of :func:`_encode_values`: a numpy array or pandas extension array."""
     dtype = spec["dtype"]
-    values = spec["values"]
-    if dtype == "bool":
-        return np.asarray(values, dtype=bool).reshape(-1)
+    n = int(spec["n"])
     if dtype == "object":
-        out = np.empty(len(values), dtype=object)
+        values = spec["values"]
+        if len(values) != n:
+            raise ValueError("the value count does not agree")
+        out = np.empty(n, dtype=object)
         for i, item in enumerate(values):
             out[i] = _decode_object(item)
         return out
     if dtype == "string":
-        return pd.array(values, dtype=_string_dtype(spec["storage"], spec["na"]))
+        code_dtype = np.dtype(spec.get("code_dtype", "int64"))
+        if code_dtype.kind != "i":
+            raise ValueError(f"text codes of type {code_dtype} are not known")
+        codes = _unpack(spec["codes"], code_dtype, n).astype(np.intp)
+        uniques = pd.array(list(spec["uniques"]), dtype=_string_dtype(spec["storage"], spec["na"]))
+        if len(codes) and (codes.min() < -1 or codes.max() >= len(uniques)):
+            raise ValueError("text codes out of range")
+        return uniques.take(codes, allow_fill=True)
     if dtype == "category":
         categories = _decode_index(spec["categories"])
-        return pd.Categorical.from_codes(
-            np.asarray(values, dtype=np.int64).reshape(-1), categories=categories, ordered=bool(spec["ordered"])
-        )
+        codes = _unpack(spec["codes"], np.int64, n)
+        return pd.Categorical.from_codes(codes, categories=categories, ordered=bool(spec["ordered"]))
     if dtype == "datetimetz":
-        naive = np.asarray(values, dtype=np.int64).reshape(-1).view(f"datetime64[{spec['unit']}]")
+        naive = _unpack(spec["data"], np.int64, n).view(f"datetime64[{spec['unit']}]")
         return pd.Series(naive).dt.tz_localize("UTC").dt.tz_convert(spec["tz"]).array
     if dtype in _MASKED:
-        items = list(values)
+        numpy_dtype = np.dtype(bool) if dtype == "boolean" else np.dtype(dtype.lower())
+        values = _unpack(spec["data"], numpy_dtype, n)
+        mask = _unpack(spec["mask"], bool, n)
+        if dtype == "boolean":
+            return pd.arrays.BooleanArray(values, mask)
         if dtype.startswith("Float"):
-            items = _put_specials([float(v) for v in items], spec.get("special", {}))
-        for i in spec.get("missing", []):
-            items[i] = None
-        return pd.array(items, dtype=dtype)
-    np_dtype = np.dtype(dtype)
-    if np_dtype.kind in "iu":
-        return np.asarray(values, dtype=np_dtype).reshape(-1)
-    if np_dtype.kind == "f":
-        numbers = np.asarray(values, dtype=np.float64).reshape(-1)
-        for key, positions in spec.get("special", {}).items():
-            numbers[np.asarray(positions, dtype=np.int64)] = float(key)
-        return numbers.astype(np_dtype)
-    if np_dtype.kind in "mM":
-        return np.asarray(values, dtype=np.int64).reshape(-1).view(np_dtype)
+            return pd.arrays.FloatingArray(values, mask)
+        return pd.arrays.IntegerArray(values, mask)
+    numpy_dtype = np.dtype(dtype)
+    if numpy_dtype.kind in "biuf":
+        return _unpack(spec["data"], numpy_dtype, n)
+    if numpy_dtype.kind in "mM":
+        return _unpack(spec["data"], np.int64, n).view(numpy_dtype)
     raise ValueError(f"unknown dtype {dtype!r}")
 
 
@@ -987,76 +990,59 @@ class ScenarioStore:
         """
         from engine import bundle as _bundle
 
-        path = Path(path)
-        path.parent.mkdir(parents=True, exist_ok=True)
-        handle, temp_name = tempfile.mkstemp(prefix=".library-", suffix=".zip", dir=path.parent)
-        os.close(handle)
-        try:
-            with self._read() as conn, zipfile.ZipFile(temp_name, "w", zipfile.ZIP_DEFLATED) as archive:
-                rows = conn.execute(f"SELECT {_RUN_COLUMNS} FROM runs ORDER BY run_id").fetchall()
-                listing = []
-                for number, row in enumerate(rows, start=1):
-                    folder = f"runs/{number:05d}"
-                    run_id = row[0]
-                    meta = dict(zip(_RUN_COLUMNS.split(", "), row))
-                    table_rows = conn.execute(
-                        "SELECT name, payload FROM run_tables WHERE run_id = ? ORDER BY position", (run_id,)
-                    ).fetchall()
-                    input_rows = conn.execute(
-                        "SELECT filename, content FROM run_inputs WHERE run_id = ? ORDER BY filename", (run_id,)
-                    ).fetchall()
-                    for table_name, _ in table_rows:
-                        if not _TABLE_NAME.fullmatch(table_name):
-                            raise StoreError(
-                                f"run {run_id}: table name '{table_name}' cannot be exported (use lower-case "
-                                "letters, digits and '_')"
-                            )
-                    run_doc = {
-                        "original_run_id": run_id,
-                        "name": meta["name"],
-                        "note": meta["note"],
-                        "created_utc": meta["created_utc"],
-                        "scenario_name": meta["scenario_name"],
-                        "cost_case": meta["cost_case"],
-                        "objective": meta["objective"],
-                        "status": meta["status"],
-                        "message": meta["message"],
-                        "input_hash": meta["input_hash"],
-                        "tags": meta["tags"],
-                        "sweep_id": meta["sweep_id"],
-                        "settings": json.loads(meta["settings_json"] or "{}"),
-                        "timings_s": json.loads(meta["timings_json"] or "{}"),
-                        "model_size": json.loads(meta["model_size_json"] or "{}"),
-                        "extras": json.loads(meta["extras_json"] or "{}"),
-                        "tables": [table_name for table_name, _ in table_rows],
-                        "inputs": [filename for filename, _ in input_rows],
-                    }
-                    _bundle.zip_write_entry(archive, f"{folder}/run.json", json.dumps(run_doc, indent=1).encode())
-                    for table_name, payload in table_rows:
-                        _bundle.zip_write_entry(archive, f"{folder}/tables/{table_name}.json", payload.encode())
-                        if include_csv:
-                            frame = decode_table(payload, f"run {run_id}, table '{table_name}'")
-                            _bundle.zip_write_entry(
-                                archive, f"{folder}/tables/{table_name}.csv", frame.to_csv(index=False).encode()
-                            )
-                    for filename, content in input_rows:
-                        _bundle.zip_write_entry(archive, f"{folder}/inputs/{filename}", bytes(content))
-                    listing.append({"folder": folder, "original_run_id": run_id, "name": meta["name"]})
-                library_doc = {
-                    "format": LIBRARY_FORMAT,
-                    "format_version": LIBRARY_FORMAT_VERSION,
-                    "created_utc": _now_utc(),
-                    "heatmosaic_version": __version__,
-                    "schema_version": SCHEMA_VERSION,
-                    "runs": listing,
-                }
-                _bundle.zip_write_entry(archive, "library.json", json.dumps(library_doc, indent=1).encode())
-            os.replace(temp_name, path)
-        except BaseException:
-            if os.path.exists(temp_name):
-                os.unlink(temp_name)
-            raise
-        return path
+        with self._read() as conn:
+            return _bundle.write_checked_zip(path, self._library_entries(conn, include_csv), _bundle.LIBRARY_LIMITS)
+
+    def _library_entries(self, conn: sqlite3.Connection, include_csv: bool):
+        """The (name, bytes) entries of a library zip, one run at a time."""
+        rows = conn.execute(f"SELECT {_RUN_COLUMNS} FROM runs ORDER BY run_id").fetchall()
+        listing = []
+        for number, row in enumerate(rows, start=1):
+            folder = f"runs/{number:05d}"
+            meta = dict(zip(_RUN_COLUMNS.split(", "), row))
+            run_id = meta["run_id"]
+            table_rows = conn.execute(
+                "SELECT name, payload FROM run_tables WHERE run_id = ? ORDER BY position", (run_id,)
+            ).fetchall()
+            input_rows = conn.execute(
+                "SELECT filename, content FROM run_inputs WHERE run_id = ? ORDER BY filename", (run_id,)
+            ).fetchall()
+            for table_name, _ in table_rows:
+                if not _TABLE_NAME.fullmatch(table_name):
+                    raise StoreError(
+                        f"run {run_id}: table name '{table_name}' cannot be exported (use lower-case letters, "
+                        "digits and '_')"
+                    )
+            run_doc = {key: meta[key] for key in (
+                "name", "note", "created_utc", "scenario_name", "cost_case", "objective", "status", "message",
+                "input_hash", "tags", "sweep_id")}
+            run_doc.update(
+                original_run_id=run_id,
+                settings=json.loads(meta["settings_json"] or "{}"),
+                timings_s=json.loads(meta["timings_json"] or "{}"),
+                model_size=json.loads(meta["model_size_json"] or "{}"),
+                extras=json.loads(meta["extras_json"] or "{}"),
+                tables=[table_name for table_name, _ in table_rows],
+                inputs=[filename for filename, _ in input_rows],
+            )
+            yield f"{folder}/run.json", json.dumps(run_doc, indent=1).encode()
+            for table_name, payload in table_rows:
+                yield f"{folder}/tables/{table_name}.json", payload.encode()
+                if include_csv:
+                    frame = decode_table(payload, f"run {run_id}, table '{table_name}'")
+                    yield f"{folder}/tables/{table_name}.csv", frame.to_csv(index=False).encode()
+            for filename, content in input_rows:
+                yield f"{folder}/inputs/{filename}", bytes(content)
+            listing.append({"folder": folder, "original_run_id": run_id, "name": meta["name"]})
+        library_doc = {
+            "format": LIBRARY_FORMAT,
+            "format_version": LIBRARY_FORMAT_VERSION,
+            "created_utc": _now_utc(),
+            "heatmosaic_version": __version__,
+            "schema_version": SCHEMA_VERSION,
+            "runs": listing,
+        }
+        yield "library.json", json.dumps(library_doc, indent=1).encode()
 
     def import_library(self, path: str | Path) -> list[int]:
         """Add every run of a library zip (from :meth:`export_library`) as new runs; returns their ids.

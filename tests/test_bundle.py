@@ -11,6 +11,7 @@ Tables are judged by ``pandas.testing.assert_frame_equal``.
 from __future__ import annotations
 
 import gzip
+import hashlib
 import io
 import json
 import stat
@@ -40,6 +41,7 @@ def bundle_result() -> RunResult:
     result = synthetic_result(2)
     edge = result.tables["edge"].drop(columns=["mixed", "category", "when"])
     edge["text_object"] = np.array(["a", None, "b", "", "c, d"], dtype=object)
+    edge["awkward text"] = pd.array(["\r", "a\r\nb", "  lead", "#1", "é€😀"], dtype="str")
     result.tables["edge"] = edge
     return result
 
@@ -300,6 +302,27 @@ def test_limits_on_total_size_and_entry_count_are_enforced(honest, tmp_path):
     with pytest.raises(BundleError, match="allowed for one file"):
         read_bundle(honest, tmp_path / "c", limits=BundleLimits(max_entry_bytes=100))
     assert tree(tmp_path / "a") == tree(tmp_path / "b") == tree(tmp_path / "c") == []
+
+
+def test_a_bad_cell_is_named_by_file_row_and_column(honest, tmp_path):
+    """A table cell that is not a number (checksum updated to match) is reported with file, row and column.
+
+    Row numbers count the header as row 1, as a spreadsheet shows them (docs/input_format.md).
+    """
+    entries = dict((info.filename, data) for info, data in entries_of(honest))
+    lines = entries["results/wells.csv"].decode().splitlines()
+    header = lines[0].split(",")
+    cells = lines[1].split(",")
+    cells[header.index('"annual_volume_m3"')] = "lots"
+    lines[1] = ",".join(cells)
+    table = ("\n".join(lines) + "\n").encode()
+    manifest = json.loads(entries["manifest.json"])
+    manifest["tables"]["wells"]["sha256"] = hashlib.sha256(table).hexdigest()
+    bad = tampered(honest, tmp_path / "bad.zip", replace={"results/wells.csv": table,
+                                                           "manifest.json": json.dumps(manifest).encode()})
+    with pytest.raises(BundleError, match=r"results/wells.csv, row 2, column 'annual_volume_m3': 'lots' is not a"):
+        read_bundle(bad, tmp_path / "dest")
+    assert tree(tmp_path / "dest") == []
 
 
 def test_plain_errors_for_files_that_are_not_bundles(honest, tmp_path):
