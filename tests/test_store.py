@@ -342,7 +342,7 @@ def test_find_by_hash_returns_newest_match(store_path):
 
 
 def test_pragmas_of_a_new_store(store_path):
-    """A new store is in WAL mode, has foreign keys on, the current schema version and the application id.
+    """A new store is in WAL mode, waits for busy locks, has foreign keys on, the schema version and app id.
 
     Reference: https://sqlite.org/pragma.html (journal_mode, foreign_keys, user_version, application_id).
     """
@@ -350,6 +350,7 @@ def test_pragmas_of_a_new_store(store_path):
         conn = store._connection()
         assert conn.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
         assert conn.execute("PRAGMA foreign_keys").fetchone()[0] == 1
+        assert conn.execute("PRAGMA busy_timeout").fetchone()[0] == 60_000  # [ms], the default timeout_s=60
     conn = sqlite3.connect(store_path)
     assert conn.execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION == 2
     assert conn.execute("PRAGMA application_id").fetchone()[0] == APPLICATION_ID == int.from_bytes(b"HMST", "big")
