@@ -497,7 +497,8 @@ def add_well_status(result: RunResult, scenario: Scenario, source_temp_shift_k=N
         else:
             source_temp_shift_k = {}
     shift = pd.Series(_shift_map(source_temp_shift_k, wells["well_id"]), index=wells.index)
-    table = wells.drop(columns=[c for c in ("source_temp_shift_k", "status") if c in wells.columns])
+    # a run merged from per-district parts can carry object columns (parts without wells); restore the dtypes
+    table = wells.drop(columns=[c for c in ("source_temp_shift_k", "status") if c in wells.columns]).infer_objects()
     table["source_temp_shift_k"] = shift.to_numpy(float)
     screening = screen_wells(result, scenario).set_index("well_id")["status"]
     table["status"] = table["well_id"].map(screening).fillna("ok").astype(str).to_numpy()
