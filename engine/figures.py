@@ -224,7 +224,10 @@ def load_curve_figure(
     divisor, unit = _scale(float(np.nanmax(shown_demand, initial=0.0)), "kW")
     fig = go.Figure()
     for key, label, kind, values, group in parts:
-        y = shown(values) / divisor
+        window_values = shown(values)
+        if np.nanmax(np.abs(window_values), initial=0.0) <= _ZERO_KW:
+            continue  # idle in the shown period: kept out of the legend
+        y = window_values / divisor
         color = colors.get(key, TECHNOLOGY_KIND_COLORS["unserved"] if key == "unserved" else "#5F5F5F")
         fig.add_trace(
             go.Scatter(
@@ -410,9 +413,9 @@ def supply_mix_figure(results: Mapping[str, RunResult], technologies=None) -> go
     fig = go.Figure()
     _mix_traces(fig, rows, catalogue)
     fig.update_layout(
-        template=_FIGURE_TEMPLATE, barmode="relative", height=180 + 45 * len(rows),
+        template=_FIGURE_TEMPLATE, barmode="relative", height=max(320, 160 + 45 * len(rows)),
         title=_title("Heat supply by technology", "Annual heat [MWh/a]; heat stores shift heat in time and are not shown"),
-        legend={"orientation": "h", "yanchor": "top", "y": -0.25, "x": 0},
+        legend={"orientation": "v", "x": 1.01, "xanchor": "left", "y": 1.0, "traceorder": "normal"},
         margin={"t": 90, "l": 160, "r": 20, "b": 50},
     )
     fig.update_xaxes(title_text="Heat [MWh/a]", tickformat=",")
@@ -437,7 +440,7 @@ def district_supply_figure(result: RunResult, technologies=None) -> go.Figure:
         template=_FIGURE_TEMPLATE, barmode="relative", height=200 + 30 * len(rows),
         title=_title("Heat supply by district and technology",
                      "Annual heat [MWh/a], districts by heat demand; heat stores are not shown"),
-        legend={"orientation": "h", "yanchor": "top", "y": -0.12, "x": 0},
+        legend={"orientation": "v", "x": 1.01, "xanchor": "left", "y": 1.0, "traceorder": "normal"},
         margin={"t": 90, "l": 200, "r": 20, "b": 50},
     )
     fig.update_xaxes(title_text="Heat [MWh/a]", tickformat=",")

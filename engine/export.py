@@ -1,0 +1,171 @@
+"""Result tables of one or several runs as a spreadsheet (xlsx) or a zip of CSV files.
+
+Each table kind (districts, supply, wells, dispatch, ...) becomes one sheet or one CSV holding every run, with the
+run's name in a first column ``run``. A sheet ``runs`` lists each run's status, message, cost case, objective,
+input hash and settings, and ``kpi`` the key figures of :func:`engine.figures.kpi_table`.
+
+Spreadsheet cells are written as typed values: numbers as numbers, text always as text (a name that starts with
+``=`` is not turned into a formula), NaN as an empty cell and infinities as the text ``inf``. A table longer than
+a sheet allows (1 048 576 rows) continues on sheets ``<table> 2``, ``<table> 3`` ... The CSV files keep the values
+exactly as the result holds them, as :meth:`engine.results.RunResult.write` does.
+"""
+
+from __future__ import annotations
+
+import io
+import json
+import math
+import re
+import zipfile
+from collections.abc import Mapping
+
+import numpy as np
+import pandas as pd
+
+from .results import RunResult
+
+TABLE_ORDER = ("districts", "supply", "wells", "dispatch", "demand", "well_steps", "steps", "day_map")
+MAX_SHEET_NAME = 31
+MAX_SHEET_ROWS = 1_048_576
+_ILLEGAL_XML = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f]")
+_SHEET_FORBIDDEN = re.compile(r"[\[\]:*?/\\]")
+
+
+def _check(results) -> Mapping[str, RunResult]:
+    if not isinstance(results, Mapping):
+        raise ValueError("results: expected a dict of run name -> RunResult")
+    return results
+
+
+def run_overview(results: Mapping[str, RunResult]) -> pd.DataFrame:
+    """One row per run: run, status, message, scenario, cost case, objective, input hash, settings (JSON)."""
+    rows = []
+    for run, r in _check(results).items():
+        rows.append({"run": str(run), "status": r.status, "message": r.message, "scenario": r.scenario_name,
+                     "cost case": r.cost_case, "objective": r.objective, "input hash": r.input_hash,
+                     "settings": json.dumps(r.settings, sort_keys=True, default=str)})
+    return pd.DataFrame(rows, columns=["run", "status", "message", "scenario", "cost case", "objective",
+                                       "input hash", "settings"])
+
+
+def combined_tables(results: Mapping[str, RunResult]) -> dict[str, pd.DataFrame]:
+    """Every table kind of the runs, concatenated, with a first column ``run``.
+
+    Known kinds come first in the order of :data:`TABLE_ORDER`, then any other kind a result holds.
+    """
+    names = list(TABLE_ORDER)
+    for r in _check(results).values():
+        names += [n for n in r.tables if n not in names]
+    out = {}
+    for name in names:
+        frames = []
+        for run, r in results.items():
+            table = r.tables.get(name)
+            if table is None:
+                continue
+            frame = table.reset_index(drop=True).copy()
+            if "run" in frame.columns:
+                frame = frame.rename(columns={"run": "run_in_table"})
+            frame.insert(0, "run", str(run))
+            frames.append(frame)
+        if frames:
+            out[name] = pd.concat(frames, ignore_index=True)
+    return out
+
+
+def _sheet_name(name: str, used: set[str]) -> str:
+    base = _SHEET_FORBIDDEN.sub("_", str(name)).strip("'") or "table"
+    base = base[:MAX_SHEET_NAME]
+    candidate, k = base, 2
+    while candidate.lower() in used:
+        suffix = f" {k}"
+        candidate = base[: MAX_SHEET_NAME - len(suffix)] + suffix
+        k += 1
+    used.add(candidate.lower())
+    return candidate
+
+
+def _cell_value(value):
+    if value is None or value is pd.NA or value is pd.NaT:
+        return None
+    if isinstance(value, (bool, np.bool_)):
+        return bool(value)
+    if isinstance(value, (np.integer,)):
+        return int(value)
+    if isinstance(value, (float, np.floating)):
+        number = float(value)
+        if math.isnan(number):
+            return None
+        if math.isinf(number):
+            return "inf" if number > 0 else "-inf"
+        return number
+    if isinstance(value, int):
+        return value
+    if isinstance(value, (dict, list, tuple)):
+        value = json.dumps(value, default=str)
+    return _ILLEGAL_XML.sub("", str(value))
+
+
+def _write_sheet(book, name: str, frame: pd.DataFrame, used: set[str]) -> list[str]:
+    from openpyxl.cell import WriteOnlyCell
+
+    titles = []
+    limit = MAX_SHEET_ROWS - 1  # one row for the header
+    chunks = range(0, max(len(frame), 1), limit)
+    for k, start in enumerate(chunks):
+        sheet = book.create_sheet(_sheet_name(name if k == 0 else f"{name} {k + 1}", used))
+        titles.append(sheet.title)
+        sheet.append([_cell_value(c) for c in frame.columns])
+        columns = [frame[c].tolist() for c in frame.columns]
+        for i in range(start, min(start + limit, len(frame))):
+            row = []
+            for column in columns:
+                value = _cell_value(column[i])
+                if isinstance(value, str) and value.startswith("="):
+                    cell = WriteOnlyCell(sheet, value=value)
+                    cell.data_type = "s"  # text, never a formula
+                    row.append(cell)
+                else:
+                    row.append(value)
+            sheet.append(row)
+    return titles
+
+
+def tables_xlsx(results: Mapping[str, RunResult]) -> bytes:
+    """The runs' tables as an xlsx workbook: sheets ``runs``, ``kpi``, then one per table kind."""
+    from openpyxl import Workbook
+
+    from .figures import kpi_table
+
+    book = Workbook(write_only=True)
+    used: set[str] = set()
+    _write_sheet(book, "runs", run_overview(results), used)
+    _write_sheet(book, "kpi", kpi_table(results), used)
+    for name, frame in combined_tables(results).items():
+        _write_sheet(book, name, frame, used)
+    buffer = io.BytesIO()
+    book.save(buffer)
+    return buffer.getvalue()
+
+
+def _file_name(name: str, used: set[str]) -> str:
+    base = re.sub(r"[^A-Za-z0-9_.-]+", "_", str(name)).strip("._") or "table"
+    candidate, k = base, 2
+    while candidate.lower() in used:
+        candidate = f"{base}_{k}"
+        k += 1
+    used.add(candidate.lower())
+    return candidate + ".csv"
+
+
+def tables_csv_zip(results: Mapping[str, RunResult]) -> bytes:
+    """The runs' tables as a zip of UTF-8 CSV files: runs.csv, kpi.csv and one file per table kind."""
+    from .figures import kpi_table
+
+    buffer = io.BytesIO()
+    used: set[str] = set()
+    with zipfile.ZipFile(buffer, "w", compression=zipfile.ZIP_DEFLATED) as archive:
+        tables = {"runs": run_overview(results), "kpi": kpi_table(results), **combined_tables(results)}
+        for name, frame in tables.items():
+            archive.writestr(_file_name(name, used), frame.to_csv(index=False))
+    return buffer.getvalue()

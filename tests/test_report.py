@@ -1,0 +1,168 @@
+"""Tests of engine.report (the offline HTML report) and engine.export (xlsx and zip of CSVs)."""
+
+from __future__ import annotations
+
+import csv
+import io
+import zipfile
+from html.parser import HTMLParser
+
+import numpy as np
+import openpyxl
+import pandas as pd
+import pytest
+from plotly.offline import get_plotlyjs
+
+from engine.export import MAX_SHEET_NAME, tables_csv_zip, tables_xlsx
+from engine.figures import format_value, kpi_table
+from engine.report import CAUTION, html_report
+from engine.results import RunResult
+from test_figures import TECHNOLOGIES, synthetic_result, two_runs
+from test_maps import result_with_wells, synthetic_scenario
+
+EVIL_RUN = "<img src=x onerror=alert(1)>"
+
+
+class _Resources(HTMLParser):
+    """Collects every tag's attributes, the text of <style> elements and the text outside scripts."""
+
+    def __init__(self):
+        super().__init__(convert_charrefs=True)
+        self.tags: list[tuple[str, dict]] = []
+        self.styles: list[str] = []
+        self._in_style = False
+
+    def handle_starttag(self, tag, attrs):
+        self.tags.append((tag, dict(attrs)))
+        self._in_style = tag == "style"
+
+    def handle_endtag(self, tag):
+        if tag == "style":
+            self._in_style = False
+
+    def handle_data(self, data):
+        if self._in_style:
+            self.styles.append(data)
+
+
+@pytest.fixture(scope="module")
+def report():
+    runs = {"reference": result_with_wells(), EVIL_RUN: result_with_wells(heat_pump_kw=(250.0, 300.0),
+                                                                             cost_case="high_co2")}
+    return runs, html_report(runs, synthetic_scenario(), TECHNOLOGIES, title="Plan <b>for</b> town")
+
+
+def test_report_loads_nothing_from_outside(report):
+    """No tag loads a resource by URL: no src/href/srcset/data on script, link, img, iframe, object, and no
+    url()/@import in styles (HTML Living Standard: these are the attributes that fetch; a report that opens
+    offline must carry everything inline)."""
+    _, html = report
+    parser = _Resources()
+    parser.feed(html)
+    fetching = []
+    for tag, attrs in parser.tags:
+        for name in ("src", "href", "srcset", "data", "poster", "action"):
+            value = (attrs.get(name) or "").strip().lower()
+            if value and not value.startswith("#"):
+                fetching.append((tag, name, value))
+    assert fetching == []
+    assert not any("url(" in s or "@import" in s for s in parser.styles)
+    scripts = [a for t, a in parser.tags if t == "script"]
+    assert len(scripts) >= 2 and all("src" not in a for a in scripts)
+    outside_bundle = html.replace(get_plotlyjs(), "")
+    assert len(outside_bundle) < len(html) - 1_000_000  # the bundle was there, inline
+    for text in ('src="http', "src='http", 'href="http', "href='http", "src=http"):
+        assert text not in outside_bundle
+
+
+def test_report_embeds_plotly_once_and_every_figure(report):
+    """plotly.js is inline exactly once; every figure is a Plotly.newPlot call (plotly.io.to_html layout)."""
+    runs, html = report
+    assert html.count("window.PlotlyConfig") == 1
+    # cost by run, cost by district, supply mix, per run district supply + load curve, load duration
+    assert html.count("Plotly.newPlot(") == 3 + 2 * len(runs) + 1
+
+
+def test_report_holds_every_runs_kpis_formatted_as_in_the_kpi_table(report):
+    runs, html = report
+    kpi = kpi_table(runs, TECHNOLOGIES)
+    for _, row in kpi.iterrows():
+        for column in ("total cost [€/a]", "CO2 [t/a]", "levelised cost [€/MWh]", "unserved heat [MWh/a]"):
+            assert f">{format_value(row[column], column)}<" in html
+    assert CAUTION in html
+    assert "screening estimate" in html
+
+
+def test_report_escapes_run_title_and_district_names(report):
+    """User-supplied names appear only escaped (OWASP XSS prevention cheat sheet, rule 1, common practice)."""
+    _, html = report
+    assert EVIL_RUN not in html and "onerror=alert(1)>" not in html
+    assert "&lt;img src=x onerror=alert(1)&gt;" in html
+    assert "Plan &lt;b&gt;for&lt;/b&gt; town" in html and "Plan <b>for</b>" not in html
+    assert "<script>alert(1)</script>" not in html
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in html
+
+
+def test_report_states_the_assumptions(report):
+    """Settings and cost-case parameters of each run are printed: objective, CO2 cap, typical days, discount
+    rate, reinjection window, CO2 price of the case (values of the fixture and of synthetic_scenario)."""
+    _, html = report
+    for text in ("least cost", "2 typical days", ">5.00<", "4.5 to 20.0", ">250<", ">100<", "none"):
+        assert text in html
+
+
+def test_report_with_a_failed_run_says_so():
+    runs = {"ok": synthetic_result(), "broken": RunResult(status="infeasible", message="The model has no <x>.")}
+    html = html_report(runs, synthetic_scenario(), TECHNOLOGIES)
+    assert "Run broken: infeasible. The model has no &lt;x&gt;." in html
+    with pytest.raises(ValueError, match="results"):
+        html_report({}, synthetic_scenario())
+
+
+# -------------------------------------------------------------------------------------------------- export
+def test_xlsx_has_a_sheet_per_table_with_the_run_column():
+    """The workbook opens with openpyxl (the reference reader); sheet names fit Excel's 31-character limit
+    (Microsoft Excel specifications and limits); each table sheet has a first column 'run' and the rows of
+    both runs."""
+    runs = two_runs()
+    runs["a run with a rather long name: =SUM(A1)"] = synthetic_result(cost_case="x")
+    book = openpyxl.load_workbook(io.BytesIO(tables_xlsx(runs)), read_only=True)
+    expected = ["runs", "kpi", "districts", "supply", "wells", "dispatch", "demand", "well_steps", "steps", "day_map"]
+    assert book.sheetnames == expected
+    assert all(len(name) <= MAX_SHEET_NAME for name in book.sheetnames)
+    rows = list(book["districts"].iter_rows(values_only=True))
+    assert rows[0][:3] == ("run", "district_id", "name")
+    assert len(rows) == 1 + 2 * len(runs)
+    assert rows[-1][0] == "a run with a rather long name: =SUM(A1)"
+    dispatch = list(book["dispatch"].iter_rows(values_only=True))
+    assert len(dispatch) == 1 + sum(len(r.tables["dispatch"]) for r in runs.values())
+    total = next(r for r in book["kpi"].iter_rows(values_only=True) if r[0] == "reference")
+    header = next(book["kpi"].iter_rows(values_only=True))
+    assert total[header.index("total cost [€/a]")] == pytest.approx(runs["reference"].total_cost_eur_per_a)
+
+
+def test_xlsx_writes_text_as_text_and_nan_as_empty():
+    """A name starting with '=' stays text (no formula is written); NaN becomes an empty cell (common practice
+    against spreadsheet formula injection, OWASP 'CSV injection')."""
+    result = synthetic_result(names=(("north", "=HYPERLINK(\"x\")"), ("south", "plain")))
+    result.tables["districts"].loc[0, "co2_kg_per_mwh"] = np.nan
+    book = openpyxl.load_workbook(io.BytesIO(tables_xlsx({"r": result})))
+    sheet = book["districts"]
+    header = [c.value for c in sheet[1]]
+    name_cell = sheet.cell(row=2, column=header.index("name") + 1)
+    assert name_cell.data_type == "s" and name_cell.value == "=HYPERLINK(\"x\")"
+    assert sheet.cell(row=2, column=header.index("co2_kg_per_mwh") + 1).value is None
+
+
+def test_csv_zip_round_trips():
+    """Each CSV reads back with the csv module (RFC 4180) to the combined table: same rows, same numbers."""
+    runs = two_runs()
+    archive = zipfile.ZipFile(io.BytesIO(tables_csv_zip(runs)))
+    assert {"runs.csv", "kpi.csv", "districts.csv", "dispatch.csv", "day_map.csv"} <= set(archive.namelist())
+    rows = list(csv.DictReader(io.StringIO(archive.read("districts.csv").decode("utf-8"))))
+    assert [r["run"] for r in rows] == ["reference", "reference", "more heat pumps", "more heat pumps"]
+    assert rows[1]["name"] == "<script>alert(1)</script>"
+    back = pd.read_csv(io.BytesIO(archive.read("districts.csv")))
+    for k, run in enumerate(runs):
+        expected = runs[run].tables["districts"]["total_cost_eur_per_a"].to_numpy()
+        assert back["total_cost_eur_per_a"].to_numpy()[2 * k : 2 * k + 2] == pytest.approx(expected, rel=1e-12)
