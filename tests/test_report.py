@@ -166,3 +166,44 @@ def test_csv_zip_round_trips():
     for k, run in enumerate(runs):
         expected = runs[run].tables["districts"]["total_cost_eur_per_a"].to_numpy()
         assert back["total_cost_eur_per_a"].to_numpy()[2 * k : 2 * k + 2] == pytest.approx(expected, rel=1e-12)
+
+
+# -------------------------------------------------------------------------------------------------- engine output
+@pytest.fixture(scope="module")
+def solved_tiny_city():
+    """The tiny fixture city solved by the engine under two cost cases (about 2 s)."""
+    from pathlib import Path
+
+    from engine.io import load_scenario
+    from engine.run import solve_scenario
+
+    scenario = load_scenario(Path(__file__).parent / "fixtures" / "tiny_city")
+    runs = {case: solve_scenario(scenario, cost_case=case) for case in ("reference", "high_co2")}
+    assert all(r.solved for r in runs.values())
+    return scenario, runs
+
+
+def test_engine_output_load_curve_balances_and_report_builds(solved_tiny_city):
+    """On real engine output: the stacked technologies of every week equal demand - unserved at every hour
+    (heat balance, design/model.md section 3 constraint 1), and the report, map and workbook build."""
+    from engine.figures import load_curve_figure
+    from engine.maps import district_map
+
+    scenario, runs = solved_tiny_city
+    result = runs["reference"]
+    hourly = result.hourly()
+    for week in (1, 26, 52):
+        fig = load_curve_figure(result, scenario.technologies, week=week)
+        hours = np.asarray(fig.data[0].x)
+        unit = 1000.0 if "[MW]" in fig.layout.yaxis.title.text else 1.0
+        supplied = sum(np.asarray(t.y, float) for t in fig.data if t.stackgroup and t.name != "Unserved")
+        expected = (hourly["demand_kw"] - hourly["unserved_kw"]).to_numpy()[hours] / unit
+        assert supplied == pytest.approx(expected, rel=1e-6, abs=1e-6)
+    html = html_report(runs, scenario)
+    for well_id in scenario.wells["well_id"]:
+        assert f"Well {well_id}" in html
+    assert "src=\"http" not in html.replace(get_plotlyjs(), "")
+    fmap = district_map(scenario, result, measure="change_total_cost", baseline=runs["high_co2"])
+    assert "screening estimate" in fmap.get_root().render()
+    book = openpyxl.load_workbook(io.BytesIO(tables_xlsx(runs)), read_only=True)
+    assert "well_steps" in book.sheetnames
