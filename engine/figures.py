@@ -75,7 +75,7 @@ def technology_catalogue(technologies=None, results=()) -> pd.DataFrame:
         for rec in technologies.to_dict(orient="records"):
             tid = str(rec["technology_id"])
             name = rec.get("name")
-            name = tid if name is None or (isinstance(name, float) and math.isnan(name)) or str(name) == "" else name
+            name = tid if name is None or (pd.api.types.is_scalar(name) and pd.isna(name)) or str(name) == "" else name
             rows[tid] = {"technology_id": tid, "name": str(name), "kind": str(rec.get("kind", ""))}
     elif technologies is not None:
         for item in technologies:

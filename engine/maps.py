@@ -27,7 +27,6 @@ from .palette import (
     DIVERGING_SCALE,
     NO_DATA_COLOR,
     SEQUENTIAL_SCALE,
-    TECHNOLOGY_KIND_COLORS,
     WELL_COLOR,
     WELL_LIMIT_BINDS_COLOR,
     diverging_colors,

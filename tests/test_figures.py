@@ -2,7 +2,7 @@
 
 :func:`synthetic_result` makes a two-district :class:`RunResult` with two typical days, four technologies (two fuel
 boilers, an air-source heat pump, a heat store) and some unserved heat, whose tables obey the heat balance of
-docs/../design/model.md section 3, constraint 1 (outputs + store discharge - charge + unserved = demand). The
+the design notes (model.md, section 3, constraint 1: outputs + store discharge - charge + unserved = demand). The
 figures are then checked against numbers recomputed here from the same construction, not against the figure
 itself.
 """
