@@ -15,10 +15,13 @@ licensed engineers. The legend says so.
 
 from __future__ import annotations
 
+import base64
+import functools
 import html
 import json
 import math
 from collections.abc import Mapping
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -356,6 +359,45 @@ def _rings_points(geometry):
 
 
 # ---------------------------------------------------------------------------------------------------- folium
+LEAFLET_DIR = Path(__file__).resolve().parent / "assets" / "leaflet"
+"""Leaflet 1.9.4 (BSD 2-Clause licence, see LICENSE there), shipped so that maps draw without internet."""
+
+
+@functools.lru_cache(maxsize=1)
+def _leaflet_data_urls() -> tuple[str, str]:
+    js = (LEAFLET_DIR / "leaflet.js").read_bytes()
+    css = (LEAFLET_DIR / "leaflet.css").read_text(encoding="utf-8")
+    # the stylesheet names its control icons by relative path; inline them so the data URL is self-contained
+    for image in ("layers.png", "layers-2x.png", "marker-icon.png"):
+        data = base64.b64encode((LEAFLET_DIR / "images" / image).read_bytes()).decode()
+        css = css.replace(f"images/{image}", f"data:image/png;base64,{data}")
+    return (
+        "data:text/javascript;base64," + base64.b64encode(js).decode(),
+        "data:text/css;base64," + base64.b64encode(css.encode()).decode(),
+    )
+
+
+# folium builds popup contents with jQuery's ``$(html)[0]``; this two-line stand-in does just that, so the map
+# does not need jQuery from the internet.
+_HTML_PARSER_JS = (
+    "if (typeof window.$ === 'undefined') { window.$ = function (markup) {"
+    " var t = document.createElement('template'); t.innerHTML = String(markup).trim();"
+    " return [t.content.firstElementChild]; }; }"
+)
+_HTML_PARSER_URL = "data:text/javascript;base64," + base64.b64encode(_HTML_PARSER_JS.encode()).decode()
+
+
+def use_bundled_leaflet(fmap) -> None:
+    """Load Leaflet from the copy shipped with heatmosaic instead of content delivery networks.
+
+    folium's default page pulls Leaflet, jQuery, Bootstrap and icon fonts from the internet; the district map
+    needs only Leaflet, so the map gets exactly that, as data URLs, and works on a laptop with no connection.
+    """
+    js_url, css_url = _leaflet_data_urls()
+    fmap.default_js = [("leaflet", js_url), ("html_parser", _HTML_PARSER_URL)]
+    fmap.default_css = [("leaflet_css", css_url)]
+
+
 def district_map(scenario, result: RunResult | None = None, measure: str = "main_supply",
                  baseline: RunResult | None = None, technologies=None, show_wells: bool = True,
                  plume_polygons=None, tiles: bool = False):
@@ -394,6 +436,7 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
     west, south, east, north = _bounds(districts, wells)
     fmap = folium.Map(location=[(south + north) / 2, (west + east) / 2], zoom_start=13, tiles=None,
                       control_scale=True)
+    use_bundled_leaflet(fmap)
     if tiles:
         folium.TileLayer("OpenStreetMap", name="Background map").add_to(fmap)
     layer = folium.FeatureGroup(name="Districts", show=True).add_to(fmap)
