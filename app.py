@@ -65,7 +65,7 @@ def overview() -> None:
 
 
 def main() -> None:
-    st.set_page_config(page_title="heatmosaic", page_icon=":material/heat_pump:", layout="wide")
+    st.set_page_config(page_title="heatmosaic", page_icon="♨️", layout="wide")
     navigation = st.navigation(
         [
             st.Page(overview, title="Overview", icon=":material/home:", default=True),

@@ -134,21 +134,23 @@ with st.container(border=True):
         technology_table = st.data_editor(
             setup["technology_table"], key=f"setup_tech_{token}", hide_index=True, num_rows="fixed",
             width="stretch", disabled=["technology_id", "name", "kind"],
+            column_order=[c for c in setup["technology_table"].columns if c != "technology_id"],
             column_config={
-                "technology_id": st.column_config.TextColumn("Technology"),
-                "name": st.column_config.TextColumn("Name"),
-                "kind": st.column_config.TextColumn("Kind"),
+                "technology_id": st.column_config.TextColumn("Id", width="small"),
+                "name": st.column_config.TextColumn("Technology", width="medium"),
+                "kind": st.column_config.TextColumn("Kind", width="small"),
                 "investment_eur_per_kw": st.column_config.NumberColumn(
-                    "Investment [€/kW]", min_value=0.0, format="%.0f",
+                    "Investment [€/kW]", min_value=0.0, format="%.0f", width="small",
                     help="Specific investment; per kWh of storage for heat stores."),
                 "fixed_om_pct_per_a": st.column_config.NumberColumn(
-                    "Fixed O&M [%/a]", min_value=0.0, max_value=100.0, format="%.2f",
+                    "Fixed O&M [%/a]", min_value=0.0, max_value=100.0, format="%.2f", width="small",
                     help="Fixed operation and maintenance, % of the investment per year."),
                 "variable_om_eur_per_mwh": st.column_config.NumberColumn(
-                    "Variable O&M [€/MWh]", min_value=0.0, format="%.2f"),
-                "lifetime_a": st.column_config.NumberColumn("Lifetime [a]", min_value=1, max_value=100, format="%d"),
+                    "Variable O&M [€/MWh]", min_value=0.0, format="%.2f", width="small"),
+                "lifetime_a": st.column_config.NumberColumn("Lifetime [a]", min_value=1, max_value=100, format="%d",
+                                                           width="small"),
                 "efficiency_or_grade": st.column_config.NumberColumn(
-                    "Efficiency / COP grade [-]", min_value=0.0, format="%.2f",
+                    "Efficiency / COP grade [-]", min_value=0.0, format="%.2f", width="small",
                     help="Boilers: thermal efficiency; chillers and groundwater cooling: EER; heat pumps: share of "
                          "the Carnot COP reached. Blank for network connections and stores."),
             },
@@ -195,7 +197,7 @@ with st.container(border=True):
     st.subheader("4 · Solve")
     clicked = st.button("Solve", type="primary", icon=":material/play_arrow:", disabled=bool(edit_problems),
                         key="setup_solve")
-    earlier = key in solved and not clicked
+    earlier = key in solved and not clicked and state.get("setup_just_solved") != key
     if clicked:
         bar = st.progress(0.0, text="Starting")
         started = time.perf_counter()
@@ -211,6 +213,7 @@ with st.container(border=True):
         bar.progress(1.0, text=("Found in this session's runs" if from_cache else "Solved")
                      + f" in {time.perf_counter() - started:.1f} s")
         state["hm_current"] = key
+        state["setup_just_solved"] = key
     elif earlier:
         state["hm_current"] = key
         st.caption("Solved earlier in this session with these very choices: shown straight away.")
@@ -232,19 +235,13 @@ with st.container(border=True):
                 st.warning(result.message)
             else:
                 st.success(result.message)
-            districts = result.tables["districts"][
-                ["name", "main_supply", "heat_demand_mwh_per_a", "levelised_cost_eur_per_mwh", "co2_t_per_a"]
+            districts = wb.district_results_table(result, scenario.technologies)[
+                ["district", "main supply", "heat demand [MWh/a]", "total cost [€/a]", "levelised cost [€/MWh]",
+                 "CO2 [t/a]"]
             ]
-            st.dataframe(
-                districts, hide_index=True, width="stretch",
-                column_config={
-                    "name": "District", "main_supply": "Main supply",
-                    "heat_demand_mwh_per_a": st.column_config.NumberColumn("Heat demand [MWh/a]", format="localized"),
-                    "levelised_cost_eur_per_mwh": st.column_config.NumberColumn("Levelised cost [€/MWh]",
-                                                                                format="%.1f"),
-                    "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
-                },
-            )
+            st.dataframe(districts, hide_index=True, width="stretch", height=wb.table_height(districts),
+                         column_config={c: st.column_config.NumberColumn(format="localized")
+                                        for c in districts.columns[2:]})
             st.page_link(RESULTS_PAGE, label="See the map, load curves and costs of this run", icon=":material/map:")
 
 # ------------------------------------------------------------------------------------------------ 5 save

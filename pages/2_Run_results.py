@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import streamlit as st
+import streamlit.components.v1 as components
 from streamlit_folium import st_folium
 
 from engine import workbench as wb
@@ -13,7 +14,7 @@ from engine.figures import (
     load_curve_figure,
     load_duration_figure,
 )
-from engine.maps import MEASURES, WELL_CAUTION, district_map
+from engine.maps import MEASURES, WELL_CAUTION, district_map, svg_district_map
 from engine.store import ScenarioStore, StoreError
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
@@ -100,7 +101,11 @@ else:
         ["Map", "Load curves", "Costs", "Tables", "Manage run"]
     )
     with tab_map:
-        c1, c2 = st.columns([2, 2])
+        c1, c2, c3 = st.columns([2, 2, 1.4])
+        style = c3.radio("Map", ["interactive", "plain"], key="results_map_style",
+                         format_func={"interactive": "Interactive", "plain": "Plain (works offline)"}.get,
+                         help="The interactive map loads its map library from the internet; the plain one needs "
+                              "nothing.")
         measure = c1.selectbox("Colour the districts by", list(MEASURES), format_func=MEASURE_LABELS.get,
                                key="results_measure")
         baseline = None
@@ -115,9 +120,16 @@ else:
         if scenario is None:
             st.info("The scenario files of this run are not available, so the map cannot be drawn.")
         else:
-            fmap = district_map(scenario, result, measure=measure, baseline=baseline, technologies=technologies)
-            st_folium(fmap, height=560, use_container_width=True, returned_objects=[], key="results_map")
-            st.caption(WELL_CAUTION + " Click a district or a well for its figures.")
+            if style == "interactive":
+                fmap = district_map(scenario, result, measure=measure, baseline=baseline, technologies=technologies)
+                st_folium(fmap, height=560, use_container_width=True, returned_objects=[], key="results_map")
+                st.caption(WELL_CAUTION + " Click a district or a well for its figures. No map? Your network may "
+                           "block the map library: choose the plain map.")
+            else:
+                plain = svg_district_map(scenario, result, measure=measure, baseline=baseline,
+                                         technologies=technologies, width_px=640)
+                components.html(plain, height=wb.svg_map_height(plain) + 24, scrolling=True)
+                st.caption(WELL_CAUTION + " Point at a district or a well for its figures.")
         st.plotly_chart(district_supply_figure(result, technologies), width="stretch", config=FIGURE_CONFIG)
 
     with tab_load:
@@ -132,7 +144,8 @@ else:
         has_cooling = float(districts["cooling_demand_mwh_per_a"].sum()) > 0
         quantity = "heat"
         if has_cooling:
-            quantity = st.radio("Quantity", ["heat", "cooling"], horizontal=True, key="results_quantity")
+            quantity = st.radio("Quantity", ["heat", "cooling"], horizontal=True, key="results_quantity",
+                                format_func=str.capitalize)
         st.plotly_chart(
             load_curve_figure(result, technologies, district_id=district,
                               week=None if period == "year" else int(week), quantity=quantity),
@@ -147,20 +160,26 @@ else:
     with tab_cost:
         st.plotly_chart(cost_breakdown_figure({run_name: result}, by="district"), width="stretch",
                         config=FIGURE_CONFIG)
-        st.dataframe(
-            result.tables["districts"].drop(columns=["district_id"]), hide_index=True, width="stretch",
-        )
+        table = wb.district_results_table(result, technologies)
+        st.dataframe(table, hide_index=True, width="stretch", height=wb.table_height(table),
+                     column_config={c: st.column_config.NumberColumn(format="localized") for c in table.columns[2:]})
 
     with tab_tables:
         st.markdown("**Supply per district and technology**")
-        st.dataframe(result.tables["supply"], hide_index=True, width="stretch")
-        st.markdown("**Wells**")
-        wells = result.tables.get("wells")
-        if wells is None or wells.empty:
+        table = wb.supply_results_table(result, technologies)
+        st.dataframe(table, hide_index=True, width="stretch", height=wb.table_height(table, 20),
+                     column_config={c: st.column_config.NumberColumn(format="localized") for c in table.columns[3:]})
+        st.caption("Technologies a district neither has nor builds are left out. Heat stores: capacity in kWh, "
+                   "heat is discharge minus charge (their loss).")
+        st.markdown("**Well doublets**")
+        wells = wb.well_results_table(result)
+        if wells.empty:
             st.caption("No well doublets in this run.")
         else:
-            st.dataframe(wells, hide_index=True, width="stretch")
-            st.caption(WELL_CAUTION)
+            st.dataframe(wells, hide_index=True, width="stretch", height=wb.table_height(wells),
+                         column_config={c: st.column_config.NumberColumn(format="localized")
+                                        for c in wells.columns[2:10]})
+            st.caption(WELL_CAUTION + " A binding limit means the permit, not the heat pump, sets the well's output.")
 
     with tab_manage:
         if picked == CURRENT:

@@ -54,11 +54,13 @@ if len(picked) < 2:
     st.info("Choose at least two runs.")
     st.stop()
 names = wb.unique_run_names({r: store.run_info(r)["name"] for r in picked})
-results = {names[r]: wb.load_saved_run(store, loaded, r) for r in picked}
+runs = {r: wb.load_saved_run(store, loaded, r) for r in picked}
 if state.get("compare_baseline") not in picked:
-    state["compare_baseline"] = picked[0]
+    state["compare_baseline"] = wb.default_baseline(runs)
 baseline_id = c2.selectbox("Baseline run", picked, format_func=names.get, key="compare_baseline")
 baseline = names[baseline_id]
+picked = [baseline_id] + [r for r in picked if r != baseline_id]  # the baseline first in tables, maps and figures
+results = {names[r]: runs[r] for r in picked}
 files = {r: store.load_inputs(r) for r in picked}
 run_scenarios = {r: wb.scenario_for_files(scenarios, files[r]) for r in picked}
 base_scenario = run_scenarios[baseline_id]
@@ -94,20 +96,22 @@ for column, run_id in zip(columns, picked):
             continue
         base = results[baseline] if measure == "change_total_cost" else None
         fmap = district_map(scenario, results[name], measure=measure, baseline=base, technologies=technologies)
-        st_folium(fmap, height=380, use_container_width=True, returned_objects=[], key=f"compare_map_{run_id}")
+        st_folium(fmap, height=480, use_container_width=True, returned_objects=[], key=f"compare_map_{run_id}")
 st.caption(WELL_CAUTION)
 
 # ------------------------------------------------------------------------------------------------ load curves
 st.subheader("Load curves")
 first = results[baseline]
 district_names = dict(zip(first.tables["districts"]["district_id"], first.tables["districts"]["name"]))
-c1, c2, c3 = st.columns([2, 1.6, 2])
+c1, c2, c3, c4 = st.columns([2, 1.6, 1.2, 1.6])
 district = c1.selectbox("Where", [None] + list(district_names),
                         format_func=lambda d: "Whole city" if d is None else district_names[d], key="compare_where")
 layout = c2.radio("Show", ["side", "overlay"], key="compare_layout",
-                  format_func={"side": "Side by side", "overlay": "Overlaid duration curves"}.get)
-week = c3.select_slider("Period", ["year"] + list(range(1, 53)), key="compare_week",
-                        format_func=lambda w: "Whole year" if w == "year" else f"Week {w}")
+                  format_func={"side": "Load curves side by side", "overlay": "Duration curves overlaid"}.get)
+period = c3.radio("Period", ["year", "week"], format_func={"year": "Whole year", "week": "One week"}.get,
+                  key="compare_period", disabled=layout == "overlay")
+week = c4.slider("Week of the year", 1, 52, 3, key="compare_week", disabled=layout == "overlay" or period == "year")
+week = "year" if period == "year" else week
 if layout == "side":
     columns = st.columns(min(len(results), 2))
     for k, (name, result) in enumerate(results.items()):
@@ -125,4 +129,5 @@ st.subheader("Costs and supply mix")
 c1, c2 = st.columns(2)
 c1.plotly_chart(cost_breakdown_figure(results, by="run"), width="stretch", config=FIGURE_CONFIG)
 c2.plotly_chart(supply_mix_figure(results, technologies), width="stretch", config=FIGURE_CONFIG)
-st.plotly_chart(cost_breakdown_figure(results, by="district"), width="stretch", config=FIGURE_CONFIG)
+with st.expander("Annual cost per district and run"):
+    st.plotly_chart(cost_breakdown_figure(results, by="district"), width="stretch", config=FIGURE_CONFIG)
