@@ -65,28 +65,65 @@ def coordinate_problem(lon: float, lat: float) -> str | None:
     return None
 
 
-def _positions(coordinates: Any, depth: int) -> list:
-    """Flatten nested GeoJSON coordinates ``depth`` levels deep into a list of positions."""
-    items = [coordinates]
-    for _ in range(depth):
-        nested = []
-        for item in items:
-            if not isinstance(item, (list, tuple)):
-                raise ValueError("coordinates are not nested lists as GeoJSON requires")
-            nested.extend(item)
-        items = nested
-    return items
+_NESTING = {
+    "Polygon": "a Polygon's coordinates are a list of rings, each a list of [longitude, latitude] positions",
+    "MultiPolygon": "a MultiPolygon's coordinates are a list of polygons, each a list of rings, each a list of "
+    "[longitude, latitude] positions",
+}
+
+
+def _rings(coordinates: Any, kind: str) -> list:
+    """The rings of a Polygon or MultiPolygon as lists of positions.
+
+    Raises
+    ------
+    ValueError
+        If the coordinates are not nested as ``kind`` requires.
+    """
+    polygons = [coordinates] if kind == "Polygon" else coordinates
+    if not isinstance(polygons, (list, tuple)):
+        raise ValueError(f"coordinates are not nested as GeoJSON requires: {_NESTING[kind]}")
+    rings = []
+    for polygon in polygons:
+        if not isinstance(polygon, (list, tuple)):
+            raise ValueError(f"coordinates are not nested as GeoJSON requires: {_NESTING[kind]}")
+        for ring in polygon:
+            # A ring is a list of positions, each itself a list: a bare number means a level is missing.
+            if not isinstance(ring, (list, tuple)) or any(not isinstance(p, (list, tuple)) for p in ring):
+                raise ValueError(f"coordinates are not nested as GeoJSON requires: {_NESTING[kind]}")
+            rings.append(ring)
+    return rings
 
 
 def _position_problem(position: Any) -> str | None:
     if not isinstance(position, (list, tuple)) or len(position) < 2:
-        return f"a position must be [longitude, latitude], got {position!r}"
+        return f"a position must be [longitude, latitude], got {_short(position)}"
     lon, lat = position[0], position[1]
     if isinstance(lon, bool) or isinstance(lat, bool) or not isinstance(lon, (int, float)) or not isinstance(
         lat, (int, float)
     ):
-        return f"a position must hold two numbers, got {position!r}"
+        return f"a position must hold two numbers [longitude, latitude], got {_short(position)}"
     return coordinate_problem(lon, lat)
+
+
+def _short(value: Any, limit: int = 60) -> str:
+    text = repr(value)
+    return text if len(text) <= limit else text[: limit - 3] + "..."
+
+
+def _ring_problem(number: int, ring: list) -> str | None:
+    """A ring with too few positions or that does not end where it starts (RFC 7946, section 3.1.6)."""
+    if len(ring) < 4:
+        return (
+            f"ring {number} has {len(ring)} positions; a ring needs at least 4 (three corners and the first "
+            "position repeated at the end)"
+        )
+    if [float(v) for v in ring[0][:2]] != [float(v) for v in ring[-1][:2]]:
+        return (
+            f"ring {number} is not closed: its last position {_short(list(ring[-1]))} must repeat the first "
+            f"position {_short(list(ring[0]))} (add it at the end)"
+        )
+    return None
 
 
 # ----------------------------------------------------------------------------- polygons
@@ -94,8 +131,9 @@ def geometry_problems(geometry: Any) -> list[str]:
     """Everything wrong with a GeoJSON district geometry; an empty list when it is usable.
 
     Checks the type (Polygon or MultiPolygon), the nesting of the coordinates, that every position is a plausible
-    WGS 84 longitude/latitude (with a hint when it looks projected) and that the polygon is valid in the sense
-    of the OGC Simple Features rules (no self-intersection, rings closed with at least four positions).
+    WGS 84 longitude/latitude (with a hint when it looks projected), that every ring is closed with at least four
+    positions (RFC 7946, section 3.1.6) and that the polygon is valid in the sense of the OGC Simple Features
+    rules (no self-intersection).
 
     Parameters
     ----------
@@ -108,25 +146,29 @@ def geometry_problems(geometry: Any) -> list[str]:
         return [f"geometry must be a GeoJSON object, got {type(geometry).__name__}"]
     kind = geometry.get("type")
     if kind not in POLYGON_TYPES:
-        return [f"geometry must be a Polygon or MultiPolygon, got {kind!r}"]
-    depth = 3 if kind == "Polygon" else 4
+        return [f"geometry must be a Polygon or MultiPolygon, got {_short(kind)}; draw the district as an area"]
     try:
-        positions = _positions(geometry.get("coordinates"), depth - 1)
+        rings = _rings(geometry.get("coordinates"), kind)
     except ValueError as error:
         return [str(error)]
-    if not positions:
-        return ["the geometry has no coordinates"]
-    for position in positions:
-        message = _position_problem(position)
+    if not rings or not any(rings):
+        return ["the geometry has no coordinates; draw the district outline"]
+    for ring in rings:
+        for position in ring:
+            message = _position_problem(position)
+            if message is not None:
+                # One message per geometry is enough: a projected layer has thousands of such positions.
+                return [message]
+    for number, ring in enumerate(rings, start=1):
+        message = _ring_problem(number, ring)
         if message is not None:
-            # One message per geometry is enough: a projected layer has thousands of such positions.
             return [message]
     try:
         polygon = _shape_from_mapping(geometry)
     except Exception as error:  # shapely raises several types for malformed rings
-        return [f"the polygon cannot be built: {error}"]
+        return [f"the polygon cannot be built: {error}; fix it in a GIS (e.g. 'fix geometries')"]
     if polygon.is_empty:
-        return ["the polygon is empty"]
+        return ["the polygon is empty; draw the district outline"]
     if not polygon.is_valid:
         reason = explain_validity(polygon)
         hint = " (the outline crosses itself)" if "self-intersection" in reason.lower() else ""
