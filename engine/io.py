@@ -8,8 +8,10 @@ command.
 
 Each check is a small function for one family of rules: reading a file (size, encoding, syntax), the header of a
 table (missing and unknown columns), the cells of a column (type, blanks, range), identifiers (duplicates,
-references between files), physics plausibility (ranges by technology kind, unit slips) and geography
-(polygon validity, points inside districts).
+references between files), physics plausibility (ranges by technology kind, unit slips: kWh for MWh, W for kW,
+l/h for m³/h, EUR/kWh for EUR/MWh, kelvin for °C, percent for shares) and geography (polygon validity, points
+inside districts, swapped longitude and latitude). Every message says what is wrong and, where it can, how to fix
+it.
 
 Defaults for blank cells (``docs/input_format.md`` lists the documented ones; the rest are chosen here so that
 every table the model sees is free of blanks):
@@ -50,8 +52,10 @@ import pandas as pd
 from engine import geometry
 from engine.inputs import (
     CARRIERS,
+    COOLING_KINDS,
     DEFAULT_CO2_KG_PER_MWH,
     FUELS,
+    HEAT_KINDS,
     TECHNOLOGY_KINDS,
     Aquifer,
     CostCase,
@@ -151,6 +155,47 @@ def _close_names(name: str, names: list[str]) -> list[str]:
     return difflib.get_close_matches(name, names, n=2, cutoff=0.75)
 
 
+_FILE_CONTENTS = {
+    SCENARIO_FILE: "the [run] and [prices] sections",
+    DISTRICTS_FILE: "a GeoJSON FeatureCollection with one polygon feature per district",
+    COST_CASES_FILE: "at least one [cases.<name>] table",
+}
+"""What a required file or a TOML file must hold, for the message about an empty one (CSV: a header row)."""
+
+_ARCHIVE_SIGNATURES = {
+    b"PK\x03\x04": "a zip archive (a spreadsheet workbook such as .xlsx or .ods, or a zipped layer)",
+    b"\xd0\xcf\x11\xe0": "an old-style spreadsheet workbook (.xls)",
+}
+
+
+def _empty_message(name: str, required: bool) -> str:
+    if not required and name != COST_CASES_FILE:
+        return "is empty"
+    if name.endswith(".csv"):
+        return "is empty; it must hold a header row with the column names and one row per entry"
+    contents = _FILE_CONTENTS.get(name, "its data")
+    return f"is empty; it must hold {contents} (see docs/input_format.md)" + (
+        "" if required else ", or delete the file"
+    )
+
+
+def _undecodable_cell(name: str, data: bytes, start: int) -> tuple[int, str | None]:
+    """Line (a spreadsheet row for CSV) and, for a CSV file, the column header of the byte at ``start``."""
+    line = data[:start].count(b"\n") + 1
+    if not name.lower().endswith(".csv") or line == 1:
+        return line, None
+    lines = data.decode("utf-8", errors="replace").split("\n")
+    try:
+        header = [cell.strip() for cell in next(csv.reader([lines[0].rstrip("\r")]))]
+        record = next(csv.reader([lines[line - 1].rstrip("\r")]), [])
+    except csv.Error:  # a quote left open: only the line is known
+        return line, None
+    for position, cell in enumerate(record):
+        if "\ufffd" in cell:
+            return line, (header[position] or None) if position < len(header) else None
+    return line, None
+
+
 def _read_text(folder: Path, name: str, report: _Report, required: bool) -> str | None:
     """The file's text (UTF-8, a BOM allowed), or None after reporting why it cannot be used."""
     path = folder / name
@@ -176,24 +221,49 @@ def _read_text(folder: Path, name: str, report: _Report, required: bool) -> str 
         return None
     data = path.read_bytes()
     if not data.strip():
-        report(name, None, None, "is empty")
+        report(name, None, None, _empty_message(name, required))
         return None
+    geojson = name.lower().endswith((".geojson", ".json"))
+    for signature, what in _ARCHIVE_SIGNATURES.items():
+        if data.startswith(signature):
+            fix = "export the layer as GeoJSON" if geojson else "open it and save it as 'CSV UTF-8' (comma separated)"
+            if name.lower().endswith(".toml"):
+                fix = "write it as plain text (see docs/input_format.md)"
+            report(name, None, None, f"is not a text file but {what}; {fix}")
+            return None
+    utf16 = data[:2] in (b"\xff\xfe", b"\xfe\xff") or (len(data) > 3 and data[1::2].count(0) > len(data) // 4)
+    utf16_hint = " (it looks like UTF-16)" if utf16 else ""
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as error:
-        line = data[: error.start].count(b"\n") + 1
-        utf16 = data[:2] in (b"\xff\xfe", b"\xfe\xff")
-        hint = " (it looks like UTF-16)" if utf16 else ""
+        line, column = _undecodable_cell(name, data, error.start)
+        # The cell's column goes into the message: the problem concerns the whole file, which must be saved again.
+        where = f"in column '{column}' of this row" if column else "on this line"
+        if geojson:  # a GeoJSON row is a feature number, so the line goes into the message
+            where, line = f"on line {line}", None
         report(
             name,
             line,
             None,
-            f"is not UTF-8 text{hint}: byte 0x{data[error.start]:02x} on this line cannot be decoded; "
-            "save the file as UTF-8 (in a spreadsheet: 'CSV UTF-8')",
+            f"is not UTF-8 text{utf16_hint}: byte 0x{data[error.start]:02x} {where} cannot be decoded; "
+            "save the file as UTF-8" + (" (in a spreadsheet: 'CSV UTF-8')" if name.lower().endswith(".csv") else ""),
+        )
+        return None
+    if "\x00" in text:
+        line = text[: text.index("\x00")].count("\n") + 1
+        where = "on this line"
+        if geojson:
+            where, line = f"on line {line}", None
+        report(
+            name,
+            line,
+            None,
+            f"holds a NUL byte (0x00) {where}, which text files never do{utf16_hint}: the file is binary or in "
+            "another encoding; save it as UTF-8 text",
         )
         return None
     if not text.strip():
-        report(name, None, None, "is empty")
+        report(name, None, None, _empty_message(name, required))
         return None
     return text
 
@@ -226,7 +296,7 @@ def _read_csv(folder: Path, name: str, report: _Report, required: bool) -> _Tabl
     try:
         records = list(csv.reader(io.StringIO(text, newline="")))
     except csv.Error as error:
-        report(name, None, None, f"is not a readable CSV file: {error}")
+        report(name, None, None, f"is not a readable CSV file ({error}); save it again as 'CSV UTF-8' (comma separated)")
         return None
     header = [cell.strip() for cell in records[0]]
     if len(header) == 1 and (";" in header[0] or "\t" in header[0]):
@@ -247,7 +317,10 @@ def _read_csv(folder: Path, name: str, report: _Report, required: bool) -> _Tabl
         if len(record) != width:
             ragged += 1
             if ragged <= CELL_REPORT_LIMIT:
-                hint = "; a ',' used as decimal mark splits a number into two cells" if len(record) > width else ""
+                if len(record) > width:
+                    hint = "; a ',' used as decimal mark splits a number into two cells: use '.' (or quote the cell)"
+                else:
+                    hint = "; add the missing cells (an empty cell between two commas where the value is blank)"
                 report(name, index, None, f"has {len(record)} cells but the header has {width} columns{hint}")
             record = (record + [""] * width)[:width]
         rows.append(index)
@@ -260,10 +333,16 @@ def _read_csv(folder: Path, name: str, report: _Report, required: bool) -> _Tabl
         cells = pd.Series(values, dtype=str).str.strip()
         if column == "":
             if (cells != "").any():
-                report(name, 1, None, f"column {position + 1} holds values but has no header")
+                report(
+                    name,
+                    1,
+                    None,
+                    f"column {position + 1} holds values but has no header; give it a header (a name starting with "
+                    "'note' for remarks) or delete its values",
+                )
             continue
         if column in columns:
-            report(name, 1, column, "appears twice in the header")
+            report(name, 1, column, "appears twice in the header; delete or rename one of the two columns")
             continue
         columns[column] = cells
     frame = pd.DataFrame(columns) if columns else pd.DataFrame(index=range(len(kept)))
@@ -285,8 +364,26 @@ def _read_toml(folder: Path, name: str, report: _Report, required: bool) -> tupl
         match = _TOML_LINE.search(str(error))
         line = int(match.group(1)) if match else None
         message = _TOML_LINE.sub("", str(error)).strip()
-        report(name, line, None, f"TOML syntax error: {message}")
+        report(name, line, None, f"TOML syntax error: {message}; {_toml_hint(message)}")
         return None
+
+
+_TOML_HINTS = (
+    ("invalid value", "text values need quotes (objective = \"cost\"), numbers use '.' as decimal mark"),
+    ("cannot overwrite", "a key or [section] appears twice: keep one of them"),
+    ("cannot declare", "a key or [section] appears twice: keep one of them"),
+    ("expected '='", "each line is key = value"),
+    ("unterminated", "a text value lacks its closing quote"),
+    ("unclosed", "a bracket or quote is not closed"),
+)
+
+
+def _toml_hint(message: str) -> str:
+    lowered = message.lower()
+    for key, hint in _TOML_HINTS:
+        if key in lowered:
+            return f"{hint} (compare with the example in docs/input_format.md)"
+    return "compare the line with the example in docs/input_format.md"
 
 
 def _toml_key_lines(text: str) -> dict[tuple[str, ...], int]:
@@ -316,7 +413,9 @@ def _toml_line(lines: dict[tuple[str, ...], int], path: tuple[str, ...]) -> int 
     for length in range(len(path), 0, -1):
         if path[:length] in lines:
             return lines[path[:length]]
-    return None
+    # A table known only through its sub-tables ([cases.reference] for "cases"): its first line.
+    below = [line for key, line in lines.items() if key[: len(path)] == path]
+    return min(below) if below else None
 
 
 # ============================================================================= cell checks
@@ -380,6 +479,33 @@ def _report_rows(
 
 
 _DECIMAL_COMMA = re.compile(r"^[+-]?\d+,\d+$")
+_NUMBER_WITH_UNIT = re.compile(r"^[+-]?(\d+[.,]?\d*|\.\d+)([eE][+-]?\d+)?\s*[^\d\s.,+-].*$")
+_TIMESTAMP = re.compile(r"^\d{4}-\d{2}-\d{2}([T ]\d{1,2}(:\d{2})*)?")
+_NOT_A_NUMBER = {"nan", "na", "n/a", "null", "none", "-", "--", "?"}
+
+
+def _cell_hint(text: str) -> str:
+    """Why a cell that should hold a number does not, in the planner's terms (empty when nothing fits)."""
+    if _DECIMAL_COMMA.match(text):
+        return " (use '.' as the decimal mark)"
+    if text.strip().lower() in _NOT_A_NUMBER:
+        return " (a placeholder for a missing value: enter the value, or leave the cell blank where a default exists)"
+    if _TIMESTAMP.match(text):
+        return " (a date or time stamp where a number belongs)"
+    if _NUMBER_WITH_UNIT.match(text):
+        return " (write the number without the unit; the unit is in the column name)"
+    return ""
+
+
+def _range_hint(spec: _Col, value: float) -> str:
+    """A likely cause of an out-of-range value: kelvin in a °C column, a percentage in a share."""
+    if spec.name.endswith("_temp_c") and 200 <= value <= 400:
+        return " (looks like kelvin: subtract 273.15 to get °C)"
+    if spec.low == 0 and spec.high == 1 and 1 < value <= 100:
+        return f" (a share between 0 and 1, e.g. 0.4 for 40 %: if {value:g} is a percentage, write {value / 100:g})"
+    if spec.low == 0 and spec.high == 1 and value < 0:
+        return " (a share between 0 and 1: 0.4 means 40 %)"
+    return ""
 
 
 def _printable(cell: str, limit: int = 40) -> str:
@@ -397,20 +523,34 @@ def _parse_number_column(report: _Report, table: _Table, spec: _Col, raw: pd.Ser
     need = spec.need_text()
 
     def not_a_number(i: int) -> str:
-        hint = " (use '.' as the decimal mark)" if _DECIMAL_COMMA.match(text[i]) else ""
-        return f"must be {need}, got '{_printable(text[i])}'{hint}"
+        return f"must be {need}, got '{_printable(text[i])}'{_cell_hint(text[i])}"
 
     _report_rows(report, table, spec.name, ~blank & np.isnan(values), not_a_number)
     if not spec.allow_inf:
         infinite = np.isinf(values)
-        _report_rows(report, table, spec.name, infinite, lambda i: f"must be a finite number, got '{text[i]}'")
+        _report_rows(
+            report,
+            table,
+            spec.name,
+            infinite,
+            lambda i: f"must be a finite number{' ' + spec.range_text() if spec.range_text() else ''}, got "
+            f"'{_printable(text[i])}' (enter the actual value; a huge one usually means a wrong unit)",
+        )
         values[infinite] = np.nan
     finite = np.isfinite(values)
     if spec.kind == "integer":
         fractional = finite & (values != np.round(values))
-        _report_rows(report, table, spec.name, fractional, lambda i: f"must be a whole number, got '{text[i]}'")
+        _report_rows(
+            report, table, spec.name, fractional, lambda i: f"must be a whole number, got '{_printable(text[i])}'"
+        )
     outside = ~np.isnan(values) & ~spec.in_range(values)
-    _report_rows(report, table, spec.name, outside, lambda i: f"must be {spec.range_text()}, got {text[i]}")
+    _report_rows(
+        report,
+        table,
+        spec.name,
+        outside,
+        lambda i: f"must be {spec.range_text()}, got {_printable(text[i])}{_range_hint(spec, values[i])}",
+    )
     values[outside] = np.nan
     _fill_blanks(report, table, spec, blank, values, need)
     return values
@@ -460,17 +600,72 @@ def _parse_table(report: _Report, table: _Table, specs: tuple[_Col, ...]) -> pd.
     return frame
 
 
+_TIME_COLUMN_NAMES = {"timestamp", "time", "datetime", "date", "date_time", "time_stamp", "utc", "time_utc"}
+
+
+def _first_cell(table: _Table, column: str) -> str:
+    cells = table.cells[column]
+    filled = cells[cells != ""]
+    return str(filled.iloc[0]) if len(filled) else ""
+
+
+def _timestamp_column(report: _Report, table: _Table) -> str | None:
+    """A column of time stamps standing where ``hour`` belongs; reported once, with the fix."""
+    if "hour" in table.cells.columns:
+        return None
+    for column in table.cells.columns:
+        first = _first_cell(table, column)
+        if column.lower() in _TIME_COLUMN_NAMES or _TIMESTAMP.match(first):
+            example = f" such as '{_printable(first)}'" if first else ""
+            report(
+                table.file,
+                1,
+                column,
+                f"holds time stamps{example} where the column 'hour' belongs; replace it by a column hour counting "
+                "hour 0, 1, 2, ... n-1 from the first hour of the year (no dates, no time zones)",
+            )
+            return column
+    return None
+
+
+def _check_timestamp_hours(report: _Report, table: _Table) -> None:
+    """Time stamps written into the ``hour`` column: one message, then the cells stand in as 0..n-1 so that
+    the other columns are still checked."""
+    if "hour" not in table.cells.columns:
+        return
+    cells = table.cells["hour"]
+    stamps = cells.str.match(_TIMESTAMP.pattern).to_numpy(dtype=bool)
+    if not stamps.any():
+        return
+    index = int(np.flatnonzero(stamps)[0])
+    report(
+        table.file,
+        table.rows[index],
+        "hour",
+        f"holds time stamps such as '{_printable(cells.iloc[index])}'; number the hours 0 to n-1 instead "
+        "(0 = the first hour of the year; no dates, no time zones)",
+    )
+    table.cells["hour"] = [str(i) for i in range(len(cells))]
+
+
 def _check_header(report: _Report, table: _Table, specs: tuple[_Col, ...]) -> None:
     """Missing required columns, and unknown ones (only columns starting with 'note' may be added)."""
     known = [spec.name for spec in specs]
     present = list(table.cells.columns)
+    stamps = _timestamp_column(report, table) if "hour" in known else None
     for spec in specs:
         if spec.in_header and spec.name not in present:
-            close = difflib.get_close_matches(spec.name, present, n=1, cutoff=0.7)
-            hint = f" (is '{close[0]}' meant to be it?)" if close else ""
+            if spec.name == "hour" and stamps is not None:
+                continue
+            unknown = [c for c in present if c not in known and not c.lower().startswith("note")]
+            close = difflib.get_close_matches(spec.name, unknown, n=1, cutoff=0.7)
+            if close:
+                hint = f"; is '{close[0]}' meant to be it? Rename it (and convert its values if the unit differs)"
+            else:
+                hint = "; add it to the header row (docs/input_format.md lists the columns of each file)"
             report(table.file, None, spec.name, f"required column is missing{hint}")
     for column in present:
-        if column in known or column.lower().startswith("note"):
+        if column in known or column.lower().startswith("note") or column == stamps:
             continue
         close = difflib.get_close_matches(column, known, n=1, cutoff=0.6)
         hint = f"did you mean '{close[0]}'? " if close else ""
@@ -489,6 +684,7 @@ def _read_checked_table(
     table = _read_csv(folder, name, report, required)
     if table is None:
         return None
+    _check_timestamp_hours(report, table)
     _check_header(report, table, specs)
     return table, _parse_table(report, table, specs)
 
@@ -566,13 +762,20 @@ def _toml_value_problem(value: Any, spec: _Col) -> str | None:
     if spec.kind == "bool":
         return None if isinstance(value, bool) else f"must be true or false, got {value!r}"
     if isinstance(value, bool) or not isinstance(value, (int, float)):
-        return f"must be {spec.need_text()}, got {value!r}"
+        hint = ""
+        if isinstance(value, str):
+            try:
+                float(value)
+                hint = " (a number in quotes is text: remove the quotes)"
+            except ValueError:
+                hint = _cell_hint(value)
+        return f"must be {spec.need_text()}, got {value!r}{hint}"
     if not math.isfinite(value) and not spec.allow_inf:
-        return f"must be a finite number, got {value!r}"
+        return f"must be a finite number{' ' + spec.range_text() if spec.range_text() else ''}, got {value!r}"
     if spec.kind == "integer" and value != int(value):
         return f"must be a whole number, got {value!r}"
     if not spec.in_range(np.array([float(value)]))[0]:
-        return f"must be {spec.range_text()}, got {value!r}"
+        return f"must be {spec.range_text()}, got {value!r}{_range_hint(spec, float(value))}"
     return None
 
 
@@ -710,8 +913,12 @@ def _case_overrides(
         key_path = path + (technology,)
         line = _toml_line(lines, key_path)
         if technology_ids is not None and technology not in technology_ids:
-            known = ", ".join(sorted(technology_ids))
-            report(COST_CASES_FILE, line, ".".join(key_path), f"unknown technology '{technology}'; known: {known}")
+            known = ", ".join(sorted(technology_ids)) or "(none)"
+            close = _close_names(technology, sorted(technology_ids))
+            hint = f"did you mean '{close[0]}'? " if close else ""
+            report(
+                COST_CASES_FILE, line, ".".join(key_path), f"unknown technology '{technology}'; {hint}known: {known}"
+            )
             continue
         message = _toml_value_problem(value, spec)
         if message:
@@ -946,9 +1153,19 @@ def _load_districts(folder: Path, report: _Report) -> _Districts | None:
         return None
     try:
         data = json.loads(text)
-    except json.JSONDecodeError as error:
-        where = f"line {error.lineno}, column {error.colno}"
-        report(DISTRICTS_FILE, None, None, f"is not valid JSON: {error.msg} at {where}")
+    except (json.JSONDecodeError, RecursionError) as error:
+        if isinstance(error, RecursionError):
+            detail = "its objects are nested too deeply"
+        else:
+            detail = f"{error.msg} at line {error.lineno}, column {error.colno}"
+        start = text.lstrip()[:200].lower()
+        if start.startswith("<"):
+            fix = "it looks like XML (KML or GML): export the layer as GeoJSON"
+        elif start.startswith(("shape", "\"wkt", "polygon", "multipolygon")):
+            fix = "it looks like a table or WKT text: export the layer as GeoJSON"
+        else:
+            fix = "the file may be cut short or edited by hand; export the layer as GeoJSON again"
+        report(DISTRICTS_FILE, None, None, f"is not valid JSON ({detail}); {fix}")
         return None
     features = _feature_collection(report, data)
     if features is None:
@@ -1062,7 +1279,7 @@ def _load_technologies(folder: Path, report: _Report) -> tuple[_Table, pd.DataFr
         return None
     table, frame = loaded
     if len(table) == 0:
-        report(TECHNOLOGIES_FILE, None, None, "lists no technology")
+        report(TECHNOLOGIES_FILE, None, None, "lists no technology; add one row per technology below the header")
     frame["name"] = [name or tid for name, tid in zip(frame["name"], frame["technology_id"])]
     _check_unique(report, table, list(frame["technology_id"]), "technology_id", "technology_id '{}'")
     _check_kind_and_carrier(report, table, frame)
@@ -1089,13 +1306,19 @@ def _check_references(
     known_set = set(known)
     bad = np.array([v != "" and v not in known_set for v in values], dtype=bool)
     shown = ", ".join(known[:20]) + (", ..." if len(known) > 20 else "") if known else "(none)"
-    _report_rows(report, table, column, bad, lambda i: f"unknown {what} '{values[i]}'; known: {shown}")
+
+    def message(i: int) -> str:
+        close = _close_names(str(values[i]), list(known))
+        hint = f"did you mean '{close[0]}'? " if close else ""
+        return f"unknown {what} '{_printable(str(values[i]))}'; {hint}known: {shown}"
+
+    _report_rows(report, table, column, bad, message)
     return bad
 
 
 def _load_district_technologies(
     folder: Path, report: _Report, district_ids: list[str] | None, technology_ids: list[str] | None
-) -> pd.DataFrame | None:
+) -> tuple[_Table, pd.DataFrame] | None:
     loaded = _read_checked_table(folder, DISTRICT_TECHNOLOGIES_FILE, DISTRICT_TECHNOLOGY_COLUMNS, report, False)
     if loaded is None:
         return None
@@ -1113,9 +1336,10 @@ def _load_district_technologies(
         table,
         "existing_kw",
         above,
-        lambda i: f"existing capacity {existing[i]:g} is above the potential {potential[i]:g}",
+        lambda i: f"existing capacity {existing[i]:g} is above the potential {potential[i]:g}; raise potential_kw "
+        "to at least the existing capacity or lower existing_kw",
     )
-    return frame
+    return table, frame
 
 
 def _full_district_technologies(
@@ -1146,6 +1370,24 @@ def _outside_note(districts: _Districts) -> str:
     if districts.unusable:
         return f" ({districts.unusable} district polygon(s) could not be used; fix districts.geojson first)"
     return ""
+
+
+def _swapped_hints(districts: _Districts, lons: np.ndarray, lats: np.ndarray, outside: np.ndarray) -> list[str]:
+    """For points outside every district: a hint when the point, read the other way round, lies in one."""
+    hints = [""] * len(lons)
+    if not outside.any():
+        return hints
+    with np.errstate(invalid="ignore"):
+        plausible = outside & (np.abs(lons) <= 90)
+    swapped = np.full(len(lons), -1)
+    if plausible.any():
+        swapped[plausible] = geometry.containing_index(districts.shapes, lats[plausible], lons[plausible])
+    for i in np.flatnonzero(swapped >= 0):
+        hints[i] = (
+            f"; longitude and latitude look swapped: read as ({lats[i]:g}, {lons[i]:g}) the point lies in district "
+            f"'{districts.ids[swapped[i]]}' (the order is lon, then lat)"
+        )
+    return hints
 
 
 # ----------------------------------------------------------------------------- wells.csv
@@ -1216,13 +1458,15 @@ def _bind_wells(
     )
     outside = blank & (found < 0)
     note = _outside_note(districts)
+    lons, lats = frame["lon"].to_numpy(dtype=float), frame["lat"].to_numpy(dtype=float)
+    swapped = _swapped_hints(districts, lons, lats, outside)
     _report_rows(
         report,
         table,
         "district_id",
         outside,
-        lambda i: f"the extraction well at ({frame['lon'].iloc[i]:g}, {frame['lat'].iloc[i]:g}) lies outside every "
-        f"district: name its district in column district_id{note}",
+        lambda i: f"the extraction well at ({lons[i]:g}, {lats[i]:g}) lies outside every district"
+        + (swapped[i] or f": name its district in column district_id or correct its position{note}"),
     )
     ids = districts.ids
     frame["district_id"] = [
@@ -1301,13 +1545,16 @@ def _load_buildings(folder: Path, report: _Report, districts: _Districts | None)
         districts.shapes, frame["lon"].to_numpy(dtype=float), frame["lat"].to_numpy(dtype=float)
     )
     note = _outside_note(districts)
+    lons, lats = frame["lon"].to_numpy(dtype=float), frame["lat"].to_numpy(dtype=float)
+    outside = usable & (found < 0)
+    swapped = _swapped_hints(districts, lons, lats, outside)
     _report_rows(
         report,
         table,
         None,
-        usable & (found < 0),
-        lambda i: f"building '{frame['building_id'].iloc[i]}' at ({frame['lon'].iloc[i]:g}, "
-        f"{frame['lat'].iloc[i]:g}) lies outside every district; move it or extend a district polygon{note}",
+        outside,
+        lambda i: f"building '{_printable(frame['building_id'].iloc[i])}' at ({lons[i]:g}, {lats[i]:g}) lies outside "
+        "every district" + (swapped[i] or f"; move it or extend a district polygon{note}"),
     )
     frame["district_index"] = found
     return frame
@@ -1335,6 +1582,26 @@ HOURLY_COLUMNS = (
 )
 
 
+def _row_count_hint(count: int, hours: np.ndarray) -> str:
+    """What an hourly file with the wrong number of rows most likely is, and what to do."""
+    if count == 0:
+        return "; the file holds only its header: add one row per hour"
+    for per_hour, minutes in ((2, 30), (4, 15), (6, 10), (12, 5)):
+        if count in (per_hour * 8760, per_hour * 8784):
+            return f"; this looks like {minutes}-minute data: average it to hourly values"
+    if count in (365, 366):
+        return "; this looks like daily data: the format needs one row per hour"
+    in_order = bool(np.array_equal(hours, np.arange(count)))
+    if count < 8760 and in_order:
+        missing = 8760 - count
+        return f"; the last {missing} hour(s) of the year are missing (the file ends at hour {count - 1}): add them"
+    if 8760 < count < 8784 and in_order:
+        return f"; delete the {count - 8760} row(s) after hour 8759 (or complete a leap year to 8784 rows)"
+    if count > 8784 and in_order:
+        return f"; delete the {count - 8784} row(s) after hour 8783 (one year only)"
+    return "; one row per hour, no gaps or repeats"
+
+
 def _check_hours(report: _Report, table: _Table, hours: np.ndarray, expected_rows: int | None) -> None:
     """Row count of one year (or of hourly.csv) and an ``hour`` column 0, 1, 2, ... without gaps."""
     count = len(hours)
@@ -1343,10 +1610,13 @@ def _check_hours(report: _Report, table: _Table, hours: np.ndarray, expected_row
             table.file,
             None,
             None,
-            f"has {count} hourly rows; a year needs 8760 rows (8784 in a leap year)",
+            f"has {count} hourly rows; a year needs 8760 rows (8784 in a leap year){_row_count_hint(count, hours)}",
         )
     elif expected_rows is not None and count != expected_rows:
-        message = f"has {count} hourly rows but {HOURLY_FILE} has {expected_rows}: they must match"
+        message = (
+            f"has {count} hourly rows but {HOURLY_FILE} has {expected_rows}: they must match (the same year, "
+            "hour by hour)"
+        )
         report(table.file, None, None, message)
     expected = np.arange(count)
     with np.errstate(invalid="ignore"):
@@ -1354,7 +1624,12 @@ def _check_hours(report: _Report, table: _Table, hours: np.ndarray, expected_row
     if len(wrong):
         index = int(wrong[0])
         got = int(hours[index])
-        what = f"hour {index} is missing" if got > index else "an hour repeats or goes back"
+        if index == 0 and got == 1 and np.array_equal(hours, expected + 1):
+            what = "hour 0 is missing: hours start at 0, not 1; subtract 1 from every hour"
+        elif got > index:
+            what = f"hour {index} is missing; add its row"
+        else:
+            what = "an hour repeats or goes back; delete the repeated row or sort the rows by hour"
         report(
             table.file,
             table.rows[index],
@@ -1370,7 +1645,28 @@ def _load_hourly(folder: Path, report: _Report) -> pd.DataFrame | None:
     table, frame = loaded
     if "hour" in table.cells.columns:
         _check_hours(report, table, frame["hour"].to_numpy(dtype=float), None)
+    _check_hourly_price_units(report, table, frame)
     return frame
+
+
+def _check_hourly_price_units(report: _Report, table: _Table, frame: pd.DataFrame) -> None:
+    """Prices in EUR/kWh written into an EUR/MWh column: a typical value below 1 EUR/MWh."""
+    for column in ("electricity_price_eur_per_mwh", "network_price_eur_per_mwh"):
+        if column not in table.cells.columns:
+            continue
+        values = np.abs(frame[column].to_numpy(dtype=float))
+        values = values[np.isfinite(values)]
+        if not len(values):
+            continue
+        median = float(np.median(values))
+        if 0 < median < 1 and float(values.max()) < 10:
+            report(
+                table.file,
+                None,
+                column,
+                f"the median price is {median:.3g} EUR/MWh, below 1 EUR/MWh; looks like EUR/kWh instead of EUR/MWh: "
+                "multiply the values by 1000",
+            )
 
 
 def _load_id_series(
@@ -1386,9 +1682,12 @@ def _load_id_series(
     table = _read_csv(folder, name, report, required=False)
     if table is None:
         return None
-    columns = [c for c in table.cells.columns if c != "hour" and not c.lower().startswith("note")]
+    _check_timestamp_hours(report, table)
+    stamps = _timestamp_column(report, table)
+    columns = [c for c in table.cells.columns if c not in ("hour", stamps) and not c.lower().startswith("note")]
     if "hour" not in table.cells.columns:
-        report(name, None, "hour", "required column is missing")
+        if stamps is None:
+            report(name, None, "hour", "required column is missing; add it as the first column, counting 0 to n-1")
     else:
         hours = _parse_table(report, table, (_Col("hour", "integer"),))["hour"].to_numpy(dtype=float)
         _check_hours(report, table, hours, expected_rows)
@@ -1404,19 +1703,114 @@ def _load_id_series(
     return _parse_table(report, table, specs)
 
 
-def _check_series_units(report: _Report, name: str, frame: pd.DataFrame | None) -> None:
-    """Hourly heat demand in W instead of kW shows as an absurd annual sum."""
+def _check_series_units(
+    report: _Report, name: str, frame: pd.DataFrame | None, districts: "_Districts | None"
+) -> None:
+    """Hourly heat demand in W instead of kW shows as an absurd annual sum, in total or per km² of the district."""
     if frame is None:
         return
+    areas = {}
+    if districts is not None:
+        for district_id, shape, geometry_dict in zip(districts.ids, districts.shapes, districts.geometries):
+            if shape is not None:
+                areas[district_id] = geometry.area_km2(geometry_dict)
     for column in frame.columns:
         annual_mwh = float(np.nansum(frame[column].to_numpy(dtype=float))) / 1000.0
+        area = areas.get(column, math.nan)
+        density = annual_mwh / area if area > 0 else math.nan
         if annual_mwh > MAX_DISTRICT_DEMAND_MWH_PER_A:
-            report(
-                name,
-                None,
-                column,
-                f"sums to {annual_mwh:.3g} MWh/a, more than 10 TWh/a for one district; looks like W instead of kW",
+            why = "more than 10 TWh/a for one district"
+        elif density > MAX_HEAT_DENSITY_MWH_PER_KM2:
+            why = (
+                f"{density:.3g} MWh per km² of district '{column}', far above any city (limit "
+                f"{MAX_HEAT_DENSITY_MWH_PER_KM2:.0e})"
             )
+        else:
+            continue
+        report(
+            name,
+            None,
+            column,
+            f"sums to {annual_mwh:.3g} MWh/a, {why}; looks like W instead of kW: divide the values by 1000",
+        )
+
+
+# ============================================================================= unit slips across files
+CAPACITY_SLIP_RATIO = 250.0
+"""A connection limit or existing capacity above this many times the district's mean demand is taken for W
+written as kW. A heating peak rarely exceeds about five times the annual mean demand (common practice), so the
+ratio leaves a wide margin for generous limits while a factor of 1000 still stands out."""
+CAPACITY_SLIP_FLOOR_KW = 1000.0
+"""Capacities below this are never flagged, however small the district's demand. [kW]"""
+
+
+def _mean_demand_kw(
+    districts: _Districts, buildings: pd.DataFrame | None, heat_series: pd.DataFrame | None
+) -> tuple[np.ndarray, np.ndarray]:
+    """Mean heat and cooling demand of each district over the year [kW], buildings and measured series included."""
+    heat = districts.frame["heat_demand_mwh_per_a"].to_numpy(dtype=float).copy()
+    cooling = districts.frame["cooling_demand_mwh_per_a"].to_numpy(dtype=float).copy()
+    if buildings is not None and "district_index" in buildings:
+        for column, total in (("heat_demand_mwh_per_a", heat), ("cooling_demand_mwh_per_a", cooling)):
+            inside = buildings[buildings["district_index"] >= 0]
+            sums = inside.groupby("district_index")[column].sum()
+            np.add.at(total, sums.index.to_numpy(dtype=int), np.nan_to_num(sums.to_numpy(dtype=float)))
+    heat_kw = heat * 1000.0 / 8760.0
+    if heat_series is not None:
+        for i, district_id in enumerate(districts.ids):
+            if district_id in heat_series.columns:
+                heat_kw[i] = float(np.nanmean(heat_series[district_id].to_numpy(dtype=float)))
+    return heat_kw, cooling * 1000.0 / 8760.0
+
+
+def _check_capacity_units(
+    report: _Report,
+    districts: _Districts | None,
+    buildings: pd.DataFrame | None,
+    heat_series: pd.DataFrame | None,
+    technologies: tuple[_Table, pd.DataFrame] | None,
+    overrides: tuple[_Table, pd.DataFrame] | None,
+) -> None:
+    """Connection limits and existing capacities a thousand times the district's demand: W written as kW."""
+    if districts is None or not len(districts.frame):
+        return
+    heat_kw, cooling_kw = _mean_demand_kw(districts, buildings, heat_series)
+
+    def implausible(capacity: np.ndarray, mean: np.ndarray) -> np.ndarray:
+        with np.errstate(invalid="ignore"):
+            return (mean > 0) & (capacity > CAPACITY_SLIP_FLOOR_KW) & (capacity > CAPACITY_SLIP_RATIO * mean)
+
+    limit = districts.frame["network_connection_limit_kw"].to_numpy(dtype=float)
+    _report_rows(
+        report,
+        districts.table,
+        "network_connection_limit_kw",
+        implausible(limit, heat_kw),
+        lambda i: f"{limit[i]:.6g} kW is {limit[i] / heat_kw[i]:,.0f} times the district's mean heat demand "
+        f"({heat_kw[i]:,.0f} kW); looks like W instead of kW: divide it by 1000",
+    )
+    if overrides is None or technologies is None:
+        return
+    table, frame = overrides
+    kinds = dict(zip(technologies[1]["technology_id"], technologies[1]["kind"]))
+    position = {district_id: i for i, district_id in enumerate(districts.ids)}
+    index = np.array([position.get(d, -1) for d in frame["district_id"]], dtype=int)
+    kind = np.array([kinds.get(t, "") for t in frame["technology_id"]], dtype=object)
+    mean = np.where(
+        index >= 0,
+        np.where(np.isin(kind, COOLING_KINDS), cooling_kw[index], heat_kw[index]),
+        np.nan,
+    )
+    mean = np.where(np.isin(kind, HEAT_KINDS + COOLING_KINDS), mean, np.nan)  # stores hold kWh: not compared
+    existing = frame["existing_kw"].to_numpy(dtype=float)
+    _report_rows(
+        report,
+        table,
+        "existing_kw",
+        implausible(existing, mean),
+        lambda i: f"{existing[i]:.6g} kW is {existing[i] / mean[i]:,.0f} times the mean demand of district "
+        f"'{frame['district_id'].iloc[i]}' ({mean[i]:,.0f} kW); looks like W instead of kW: divide it by 1000",
+    )
 
 
 # ============================================================================= the folder
@@ -1473,7 +1867,7 @@ def _read_folder(folder: Path) -> tuple[Scenario | None, list[Problem]]:
         heat_series = _load_id_series(
             folder, HEAT_DEMAND_HOURLY_FILE, report, district_ids, "district", _Col("", low=0), n_hours
         )
-        _check_series_units(report, HEAT_DEMAND_HOURLY_FILE, heat_series)
+        _check_series_units(report, HEAT_DEMAND_HOURLY_FILE, heat_series, districts)
     with report.guard(GROUNDWATER_TEMP_HOURLY_FILE):
         well_ids = list(wells["well_id"]) if wells is not None else None
         temp_series = _load_id_series(
@@ -1481,13 +1875,15 @@ def _read_folder(folder: Path) -> tuple[Scenario | None, list[Problem]]:
         )
     with report.guard(COST_CASES_FILE):
         cost_cases = _load_cost_cases(folder, report, set(technology_ids) if technology_ids is not None else None)
+    with report.guard(str(folder)):
+        _check_capacity_units(report, districts, buildings, heat_series, technologies, overrides)
 
     if report.problems:
         return None, report.problems
     with report.guard(str(folder)):
         return _assemble(
-            folder, settings, districts, technologies[1], hourly, wells, overrides, buildings, heat_series,
-            temp_series, cost_cases,
+            folder, settings, districts, technologies[1], hourly, wells, overrides[1] if overrides else None,
+            buildings, heat_series, temp_series, cost_cases,
         ), []
     return None, report.problems
 
