@@ -6,6 +6,8 @@ pages live in ``pages/``. The session-state keys the pages share are documented 
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import streamlit as st
 
 from engine.store import ScenarioStore, StoreError
@@ -15,6 +17,26 @@ PLAN_PAGE = "pages/1_Plan_a_run.py"
 RESULTS_PAGE = "pages/2_Run_results.py"
 COMPARE_PAGE = "pages/3_Compare_runs.py"
 SHARE_PAGE = "pages/4_Share.py"
+# Titles and icons of the known pages; any other pages/*.py joins the navigation under its file name.
+PAGE_TITLES = {
+    PLAN_PAGE: ("Plan a run", ":material/tune:"),
+    RESULTS_PAGE: ("Run results", ":material/map:"),
+    COMPARE_PAGE: ("Compare runs", ":material/compare_arrows:"),
+    SHARE_PAGE: ("Share", ":material/ios_share:"),
+}
+HERE = Path(__file__).resolve().parent
+
+
+def page_list() -> list[str]:
+    """The page files in ``pages/``, in the order of their numbers, as paths relative to this file."""
+    return sorted(p.relative_to(HERE).as_posix() for p in (HERE / "pages").glob("[0-9]*.py"))
+
+
+def page_title(path: str) -> tuple[str, str]:
+    if path in PAGE_TITLES:
+        return PAGE_TITLES[path]
+    stem = Path(path).stem.split("_", 1)[-1]
+    return stem.replace("_", " "), ":material/article:"
 
 
 def overview() -> None:
@@ -66,15 +88,11 @@ def overview() -> None:
 
 def main() -> None:
     st.set_page_config(page_title="heatmosaic", page_icon="♨️", layout="wide")
-    navigation = st.navigation(
-        [
-            st.Page(overview, title="Overview", icon=":material/home:", default=True),
-            st.Page(PLAN_PAGE, title="Plan a run", icon=":material/tune:"),
-            st.Page(RESULTS_PAGE, title="Run results", icon=":material/map:"),
-            st.Page(COMPARE_PAGE, title="Compare runs", icon=":material/compare_arrows:"),
-            st.Page(SHARE_PAGE, title="Share", icon=":material/ios_share:"),
-        ]
-    )
+    pages = [st.Page(overview, title="Overview", icon=":material/home:", default=True)]
+    for path in page_list():
+        title, icon = page_title(path)
+        pages.append(st.Page(path, title=title, icon=icon))
+    navigation = st.navigation(pages)
     navigation.run()
 
 

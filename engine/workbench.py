@@ -893,7 +893,7 @@ def library_table(store: ScenarioStore) -> pd.DataFrame:
             "cost case": runs["cost_case"].to_numpy(),
             "objective": ["lowest CO2" if o == "co2" else "lowest cost" for o in runs["objective"]],
             "total cost [M€/a]": runs["total_cost_eur_per_a"].to_numpy(float) / 1e6,
-            "CO2 [t/a]": runs["co2_t_per_a"].to_numpy(float),
+            "CO2 [t/a]": runs["co2_t_per_a"].to_numpy(float).round(0),
             "created (UTC)": [str(c)[:16].replace("T", " ") for c in runs["created_utc"]],
             "note": runs["note"].to_numpy(),
             "status": runs["status"].to_numpy(),

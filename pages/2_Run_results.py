@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import streamlit as st
-import streamlit.components.v1 as components
 from streamlit_folium import st_folium
 
 from engine import workbench as wb
@@ -14,7 +13,7 @@ from engine.figures import (
     load_curve_figure,
     load_duration_figure,
 )
-from engine.maps import MEASURES, WELL_CAUTION, district_map, svg_district_map
+from engine.maps import MEASURES, WELL_CAUTION, district_map
 from engine.store import ScenarioStore, StoreError
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
@@ -101,11 +100,7 @@ else:
         ["Map", "Load curves", "Costs", "Tables", "Manage run"]
     )
     with tab_map:
-        c1, c2, c3 = st.columns([2, 2, 1.4])
-        style = c3.radio("Map", ["interactive", "plain"], key="results_map_style",
-                         format_func={"interactive": "Interactive", "plain": "Plain (works offline)"}.get,
-                         help="The interactive map loads its map library from the internet; the plain one needs "
-                              "nothing.")
+        c1, c2 = st.columns(2)
         measure = c1.selectbox("Colour the districts by", list(MEASURES), format_func=MEASURE_LABELS.get,
                                key="results_measure")
         baseline = None
@@ -120,16 +115,9 @@ else:
         if scenario is None:
             st.info("The scenario files of this run are not available, so the map cannot be drawn.")
         else:
-            if style == "interactive":
-                fmap = district_map(scenario, result, measure=measure, baseline=baseline, technologies=technologies)
-                st_folium(fmap, height=560, use_container_width=True, returned_objects=[], key="results_map")
-                st.caption(WELL_CAUTION + " Click a district or a well for its figures. No map? Your network may "
-                           "block the map library: choose the plain map.")
-            else:
-                plain = svg_district_map(scenario, result, measure=measure, baseline=baseline,
-                                         technologies=technologies, width_px=640)
-                components.html(plain, height=wb.svg_map_height(plain) + 24, scrolling=True)
-                st.caption(WELL_CAUTION + " Point at a district or a well for its figures.")
+            fmap = district_map(scenario, result, measure=measure, baseline=baseline, technologies=technologies)
+            st_folium(fmap, height=560, use_container_width=True, returned_objects=[], key="results_map")
+            st.caption(WELL_CAUTION + " Click a district or a well for its figures.")
         st.plotly_chart(district_supply_figure(result, technologies), width="stretch", config=FIGURE_CONFIG)
 
     with tab_load:

@@ -1,0 +1,183 @@
+"""The dashboard pages, driven through their widgets with Streamlit's AppTest (no browser).
+
+The reference for the numbers is the command line, ``python -m engine solve demo``, run in a separate process
+on the same inputs: the dashboard must show the very run the engine computes. The demo is solved twice through
+the widgets (two cost cases) and once on the command line, in parallel, to keep the suite quick.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from streamlit.testing.v1 import AppTest
+
+from engine.store import ScenarioStore
+
+ROOT = Path(__file__).resolve().parents[1]
+APP = str(ROOT / "app.py")
+PLAN = "pages/1_Plan_a_run.py"
+RESULTS = "pages/2_Run_results.py"
+COMPARE = "pages/3_Compare_runs.py"
+SHARE = "pages/4_Share.py"
+TIMEOUT_S = 120
+CLI_CASE = "high_co2"
+TYPICAL_DAYS = 12  # the demo's scenario.toml setting, which the set-up page starts from
+
+
+def _pages() -> list[str]:
+    return sorted(p.relative_to(ROOT).as_posix() for p in (ROOT / "pages").glob("[0-9]*.py"))
+
+
+def _texts(at: AppTest) -> str:
+    parts = []
+    for kind in ("markdown", "caption", "warning", "info", "success", "error", "title"):
+        parts += [str(element.value) for element in at.get(kind)]
+    return "\n".join(parts)
+
+
+def _button(at: AppTest, label: str):
+    matches = [b for b in at.button if b.label == label]
+    assert matches, f"no button {label!r}; buttons: {[b.label for b in at.button]}"
+    return matches[0]
+
+
+def _solve_and_save(at: AppTest, name: str) -> None:
+    at.button(key="setup_solve").click().run()
+    assert not at.exception, at.exception
+    assert len(at.metric) == 4, "the result summary did not appear"
+    [field] = [t for t in at.text_input if t.label == "Name"]
+    field.input(name)
+    _button(at, "Save run").click().run()
+    assert not at.exception, at.exception
+    assert any(name in str(s.value) for s in at.success), "no confirmation of the save"
+
+
+@pytest.fixture(scope="module")
+def session(tmp_path_factory):
+    """One dashboard session in which the demo was solved and saved under two cost cases.
+
+    Meanwhile the command line solves the demo under ``CLI_CASE`` in another process.
+    """
+    folder = tmp_path_factory.mktemp("dashboard")
+    before = os.environ.get("HEATMOSAIC_STORE")
+    os.environ["HEATMOSAIC_STORE"] = str(folder / "store.sqlite")
+    cli = subprocess.Popen(
+        [sys.executable, "-m", "engine", "solve", "demo", "--cost-case", CLI_CASE, "--typical-days",
+         str(TYPICAL_DAYS), "--out", str(folder / "cli"), "--quiet"],
+        cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE,
+    )
+    try:
+        at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
+        at.switch_page(PLAN).run()
+        assert not at.exception, at.exception
+        assert at.selectbox(key="setup_cost_case").value == "reference"
+        _solve_and_save(at, "Reference prices")
+        at.selectbox(key="setup_cost_case").select(CLI_CASE).run()
+        _solve_and_save(at, "High CO2 price")
+        _, errors = cli.communicate(timeout=TIMEOUT_S)
+        assert cli.returncode == 0, errors.decode()
+        summary = json.loads((folder / "cli" / "summary.json").read_text())
+        yield {"at": at, "cli": summary, "store": folder / "store.sqlite"}
+    finally:
+        if cli.poll() is None:
+            cli.kill()
+        if before is None:
+            os.environ.pop("HEATMOSAIC_STORE", None)
+        else:
+            os.environ["HEATMOSAIC_STORE"] = before
+
+
+def test_every_page_renders_with_an_empty_library(tmp_path, monkeypatch):
+    """Each page draws without an exception on a fresh library and shows the screening caution (project rule:
+    results that could hurt someone carry the caution)."""
+    monkeypatch.setenv("HEATMOSAIC_STORE", str(tmp_path / "empty.sqlite"))
+    at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
+    assert not at.exception, at.exception
+    assert "Screening" in _texts(at)
+    assert "No saved runs yet" in _texts(at)
+    for page in _pages():
+        at.switch_page(page).run()
+        assert not at.exception, (page, at.exception)
+        assert "Screening" in _texts(at) or "screening" in _texts(at), page
+
+
+def test_solving_through_the_widgets_matches_the_command_line(session):
+    """The total cost and CO2 the set-up page solved under high_co2 with 12 typical days equal those of
+    ``python -m engine solve demo --cost-case high_co2 --typical-days 12`` (rel 1e-6), in the session and in
+    the saved run."""
+    at, cli = session["at"], session["cli"]
+    current = at.session_state["hm_solved"][at.session_state["hm_current"]]
+    assert current.result.cost_case == CLI_CASE
+    assert current.result.total_cost_eur_per_a == pytest.approx(cli["total_cost_eur_per_a"], rel=1e-6)
+    assert current.result.co2_t_per_a == pytest.approx(cli["co2_t_per_a"], rel=1e-6)
+    assert current.input_hash == cli["input_hash"]
+    with ScenarioStore(session["store"]) as store:
+        runs = store.list_runs()
+    saved = runs[runs["name"] == "High CO2 price"].iloc[0]
+    assert saved["total_cost_eur_per_a"] == pytest.approx(cli["total_cost_eur_per_a"], rel=1e-6)
+
+
+def test_going_back_to_a_solved_cost_case_needs_no_new_solve(session):
+    """Choosing a cost case solved before shows its result at once from the session cache (common practice)."""
+    at = session["at"]
+    solved_before = len(at.session_state["hm_solved"])
+    at.selectbox(key="setup_cost_case").select("reference").run()
+    assert not at.exception, at.exception
+    assert len(at.session_state["hm_solved"]) == solved_before
+    current = at.session_state["hm_solved"][at.session_state["hm_current"]]
+    assert current.result.cost_case == "reference"
+    assert "Solved earlier in this session" in _texts(at)
+    assert len(at.metric) == 4
+    at.selectbox(key="setup_cost_case").select(CLI_CASE).run()
+
+
+def test_both_saved_runs_appear_in_the_comparison(session):
+    """The comparison's key-figure table lists both saved runs; the difference table holds the run that is not
+    the baseline (the reference cost case is the default baseline)."""
+    at = session["at"]
+    at.switch_page(COMPARE).run()
+    assert not at.exception, at.exception
+    kpis = at.dataframe[0].value
+    assert set(kpis["run"]) == {"Reference prices", "High CO2 price"}
+    differences = at.dataframe[1].value
+    assert list(differences["run"]) == ["High CO2 price"]
+    assert at.selectbox(key="compare_baseline").value is not None
+    assert "Reference prices" in _texts(at)
+
+
+def test_results_page_shows_a_saved_run_and_reopens_it(session):
+    """The results page shows the chosen saved run's figures; re-opening it puts its cost case back on the
+    set-up page."""
+    at = session["at"]
+    at.switch_page(RESULTS).run()
+    assert not at.exception, at.exception
+    with ScenarioStore(session["store"]) as store:
+        runs = store.list_runs()
+    reference_id = int(runs[runs["name"] == "Reference prices"]["run_id"].iloc[0])
+    at.selectbox(key="results_run").select(reference_id).run()
+    assert not at.exception, at.exception
+    total = float(runs[runs["run_id"] == reference_id]["total_cost_eur_per_a"].iloc[0])
+    assert at.metric[0].value == f"{total / 1e6:,.2f}"
+    at.button(key="results_reopen").click().run()
+    assert not at.exception, at.exception
+    assert at.selectbox(key="setup_cost_case").value == "reference"
+    assert "Saved run" in _texts(at)
+
+
+def test_share_page_and_overview_list_the_runs(session):
+    """The share page offers its downloads for saved runs and the overview's library lists both runs."""
+    at = session["at"]
+    at.switch_page(SHARE).run()
+    assert not at.exception, at.exception
+    labels = [b.proto.label for b in at.get("download_button")]
+    assert "Download the HTML summary" in labels and "Spreadsheet (.xlsx)" in labels
+    assert any(label.startswith("Export all 2 run") for label in labels)
+    at.switch_page(APP).run()
+    assert not at.exception, at.exception
+    library = at.dataframe[0].value
+    assert set(library["name"]) == {"Reference prices", "High CO2 price"}
