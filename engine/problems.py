@@ -81,13 +81,16 @@ def format_problems(problems: list[Problem]) -> str:
 
 
 def problems_frame(problems: list[Problem]) -> pd.DataFrame:
-    """Problems as a table for the dashboard: columns file, row (nullable integer), column, message."""
+    """Problems as a table for the dashboard: columns file, row (nullable integer), column (nullable text), message.
+
+    A problem without a row or column shows one kind of blank (``<NA>``) in both columns, whatever the mix.
+    """
     frame = pd.DataFrame(
         {
-            "file": [p.file for p in problems],
+            "file": pd.array([p.file for p in problems], dtype="string"),
             "row": pd.array([p.row for p in problems], dtype="Int64"),
-            "column": [p.column for p in problems],
-            "message": [p.message for p in problems],
+            "column": pd.array([p.column for p in problems], dtype="string"),
+            "message": pd.array([p.message for p in problems], dtype="string"),
         },
         columns=list(PROBLEM_COLUMNS),
     )
