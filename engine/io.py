@@ -631,8 +631,8 @@ def _timestamp_column(report: _Report, table: _Table) -> str | None:
 def _check_timestamp_hours(report: _Report, table: _Table) -> None:
     """Time stamps written into the ``hour`` column: one message, then the cells stand in as 0..n-1 so that
     the other columns are still checked."""
-    if "hour" not in table.cells.columns:
-        return
+    if "hour" not in table.cells.columns or not _TIMESTAMP.match(_first_cell(table, "hour")):
+        return  # a stray time stamp further down is reported as a bad number, with a hint
     cells = table.cells["hour"]
     stamps = cells.str.match(_TIMESTAMP.pattern).to_numpy(dtype=bool)
     if not stamps.any():
