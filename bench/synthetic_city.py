@@ -127,7 +127,8 @@ def synthetic_city(
         Number of districts, >= 1.
     n_hours : int
         Length of the hourly series, a multiple of 24 (8760 for a year; shorter series make small test models).
-        Annual demands are scaled by ``n_hours / 8760`` so that hourly loads stay those of a real city. [h]
+        Annual demands and specific investments are scaled by ``n_hours / 8760`` so that hourly loads and the
+        balance of capacity and energy costs stay those of a real city. [h]
     typical_days : int
         The scenario's default time resolution (0 = every hour).
     seed : int
@@ -212,6 +213,8 @@ def synthetic_city(
             )
     technologies = pd.DataFrame(_TECHNOLOGY_ROWS, columns=_TECHNOLOGY_COLUMNS)
     technologies["lifetime_a"] = technologies["lifetime_a"].astype(float)
+    # annual costs of capacity shrink with a shortened year so that capacity and energy keep their real balance
+    technologies["investment_eur_per_kw"] = technologies["investment_eur_per_kw"] * year_share
     cost_cases = {
         "reference": CostCase(),
         "high_co2": CostCase(

@@ -1,0 +1,477 @@
+"""The trade-off between annual cost and CO2, and the CO2 price that meets a city-wide cap.
+
+:func:`tradeoff_curve` traces the cost-CO2 frontier by the epsilon-constraint method: its two end points are the
+least-cost run and the least-CO2 run, and every interior point minimises the cost with the city's CO2 held below
+a bound taken evenly between the two. A bound couples the districts, so those points are solved as one linear
+program (that is what :func:`engine.run.solve_scenario` does whenever a city-wide cap is set).
+
+:func:`co2_price_for_cap` reaches the same capped optimum the other way round: it searches the CO2 price at
+which the districts, each solved on its own, together stay within the cap (Lagrangian relaxation of the cap).
+
+Both are screening tools for comparing supply strategies; an investment decision needs a detailed study.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import sys
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable
+
+import numpy as np
+import pandas as pd
+
+from .inputs import CostCase, Scenario
+from .results import RunResult
+from .run import run_settings, solve_scenario
+
+Progress = Callable[[float, str], None]
+
+TRADEOFF_COLUMNS = (
+    "point", "kind", "co2_bound_t_per_a", "co2_t_per_a", "total_cost_eur_per_a", "unserved_heat_mwh_per_a",
+    "abatement_cost_eur_per_t", "status",
+)
+"""Leading columns of the trade-off table; ``heat_<technology>_mwh_per_a`` columns follow."""
+
+
+def _default_case(scenario: Scenario, cost_case: str | None) -> str:
+    if cost_case is not None:
+        if cost_case not in scenario.cost_cases:
+            known = ", ".join(sorted(scenario.cost_cases))
+            raise ValueError(f"cost_case '{cost_case}' is not a cost case of the scenario (known: {known})")
+        return cost_case
+    return "reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases))
+
+
+def _row(point: int, kind: str, bound: float, result: RunResult) -> dict:
+    row = {
+        "point": point,
+        "kind": kind,
+        "co2_bound_t_per_a": bound,
+        "co2_t_per_a": result.co2_t_per_a if result.solved else math.nan,
+        "total_cost_eur_per_a": result.total_cost_eur_per_a if result.solved else math.nan,
+        "unserved_heat_mwh_per_a": result.unserved_heat_mwh_per_a if result.solved else math.nan,
+        "abatement_cost_eur_per_t": math.nan,
+        "status": result.status,
+    }
+    if result.solved:
+        for tech, mwh in result.heat_by_technology_mwh_per_a().items():
+            row[f"heat_{tech}_mwh_per_a"] = mwh
+    return row
+
+
+def tradeoff_curve_runs(
+    scenario: Scenario,
+    cost_case: str | None = None,
+    n_points: int = 7,
+    typical_days: int | None = None,
+    progress: Progress | None = None,
+    cancel: Callable[[], bool] | None = None,
+) -> tuple[pd.DataFrame, list[RunResult]]:
+    """The cost-CO2 trade-off curve and the run behind each of its points.
+
+    Point 0 is the least-cost run (no CO2 bound); the last point is the least-CO2 run (objective ``"co2"``:
+    least emissions, then least cost at those emissions); points in between minimise the cost subject to
+    ``CO2 <= eps_k`` with ``eps_k`` evenly spaced from the first point's CO2 down to the last point's.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        The city.
+    cost_case : str, optional
+        Cost case of every point (default: ``reference``, else the first).
+    n_points : int
+        Number of points, >= 2 (2 gives just the two end points).
+    typical_days : int, optional
+        Time resolution (None keeps the scenario's; 0 is the full year).
+    progress : callable, optional
+        ``progress(share, text)`` after each point.
+    cancel : callable, optional
+        Checked between points; when it returns True the curve stops and the points so far are returned.
+
+    Returns
+    -------
+    table : pandas.DataFrame
+        One row per point with the columns of :data:`TRADEOFF_COLUMNS` and ``heat_<technology>_mwh_per_a``.
+        ``co2_bound_t_per_a`` is NaN for the least-cost point and the reached minimum for the least-CO2 point.
+        ``abatement_cost_eur_per_t`` is the extra cost per tonne avoided relative to the previous point. [€/t]
+    results : list of RunResult
+        The run of each point, in the order of the table.
+
+    Raises
+    ------
+    ValueError
+        If ``n_points`` < 2 or ``cost_case`` is unknown.
+
+    Notes
+    -----
+    With a CO2 bound the districts share one constraint, so every interior point is solved as one linear
+    program for the whole city; the end points are decomposed by district where the scenario allows.
+    Cost can only rise as the bound tightens: each tighter bound shrinks the feasible set of the same LP.
+
+    References
+    ----------
+    .. [1] Haimes, Y. Y., Lasdon, L. S., Wismer, D. A. (1971). On a bicriterion formulation of the problems of
+       integrated system identification and system optimization. IEEE Transactions on Systems, Man, and
+       Cybernetics, SMC-1(3), 296-297.
+    """
+    if int(n_points) != n_points or n_points < 2:
+        raise ValueError(f"n_points must be a whole number >= 2, got {n_points!r}")
+    n_points = int(n_points)
+    case = _default_case(scenario, cost_case)
+    report = progress or (lambda share, text: None)
+    stopped = cancel or (lambda: False)
+    settings_cost = run_settings(scenario, "cost", 0.0, typical_days)
+    settings_co2 = run_settings(scenario, "co2", 0.0, typical_days)
+
+    report(0.0, "Least-cost run")
+    cheapest = solve_scenario(scenario, case, settings=settings_cost)
+    rows = [_row(0, "cost_optimal", math.nan, cheapest)]
+    results = [cheapest]
+    if not cheapest.solved or stopped():
+        return _finish(rows), results
+    report(1.0 / n_points, "Least-CO2 run")
+    cleanest = solve_scenario(scenario, case, settings=settings_co2)
+    if not cleanest.solved:
+        rows.append(_row(n_points - 1, "co2_optimal", math.nan, cleanest))
+        return _finish(rows), results + [cleanest]
+    co2_high, co2_low = cheapest.co2_t_per_a, cleanest.co2_t_per_a
+    span = co2_high - co2_low
+    interior = n_points - 2 if span > 1e-9 * max(1.0, abs(co2_high)) else 0
+    bounds = co2_high - span * np.arange(1, interior + 1) / (interior + 1)
+    for k, bound in enumerate(bounds, start=1):
+        if stopped():
+            break
+        report((k + 1) / n_points, f"Least cost with CO2 <= {bound:,.0f} t/a ({k} of {interior})")
+        # solve_scenario treats a cap of 0 as "no cap"; a bound that small is the least-CO2 point anyway
+        capped = solve_scenario(
+            scenario, case, settings=run_settings(scenario, "cost", max(float(bound), 1e-6), typical_days)
+        )
+        rows.append(_row(k, "co2_bounded", float(bound), capped))
+        results.append(capped)
+    rows.append(_row(len(rows), "co2_optimal", co2_low, cleanest))
+    results.append(cleanest)
+    report(1.0, "Trade-off curve done")
+    return _finish(rows), results
+
+
+def _finish(rows: list[dict]) -> pd.DataFrame:
+    table = pd.DataFrame(rows)
+    for column in TRADEOFF_COLUMNS:
+        if column not in table:
+            table[column] = math.nan
+    heat = sorted(c for c in table.columns if c.startswith("heat_"))
+    table = table[list(TRADEOFF_COLUMNS) + heat]
+    table[heat] = table[heat].fillna(0.0)
+    cost = table["total_cost_eur_per_a"].to_numpy(float)
+    co2 = table["co2_t_per_a"].to_numpy(float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        abatement = np.r_[math.nan, (cost[1:] - cost[:-1]) / (co2[:-1] - co2[1:])]
+    table["abatement_cost_eur_per_t"] = np.where(np.isfinite(abatement), abatement, math.nan)
+    table["point"] = np.arange(len(table))
+    return table
+
+
+def tradeoff_curve(
+    scenario: Scenario,
+    cost_case: str | None = None,
+    n_points: int = 7,
+    typical_days: int | None = None,
+    progress: Progress | None = None,
+) -> pd.DataFrame:
+    """The cost-CO2 trade-off table of :func:`tradeoff_curve_runs` (without the runs)."""
+    table, _ = tradeoff_curve_runs(scenario, cost_case, n_points, typical_days, progress)
+    return table
+
+
+def point_scenario(scenario: Scenario, table: pd.DataFrame, point: int) -> Scenario:
+    """A copy of ``scenario`` whose run settings reproduce one point of a trade-off table.
+
+    The least-CO2 point becomes objective ``"co2"``; a bounded point becomes objective ``"cost"`` with
+    ``co2_cap_t_per_a`` set to its bound; the least-cost point keeps no cap. The copy can be solved, saved
+    and shared like any scenario.
+
+    Raises
+    ------
+    ValueError
+        If ``point`` is not a point of ``table``.
+    """
+    rows = table[table["point"] == point]
+    if rows.empty:
+        raise ValueError(f"point {point!r} is not in the trade-off table (points 0 to {len(table) - 1})")
+    row = rows.iloc[0]
+    settings = scenario.settings
+    if row["kind"] == "co2_optimal":
+        settings = dataclasses.replace(settings, objective="co2", co2_cap_t_per_a=0.0)
+    elif row["kind"] == "co2_bounded":
+        settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=float(row["co2_bound_t_per_a"]))
+    else:
+        settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=0.0)
+    return dataclasses.replace(scenario, settings=settings)
+
+
+# ============================================================================================ CO2 price for a cap
+@dataclass
+class CapPrice:
+    """The outcome of :func:`co2_price_for_cap`."""
+
+    cap_t_per_a: float
+    co2_price_eur_per_t: float
+    """CO2 price at which the decomposed solution meets the cap (the case's price plus the surcharge). [€/t]"""
+    surcharge_eur_per_t: float
+    """Price added to the cost case's own CO2 price (the Lagrange multiplier of the cap). [€/t]"""
+    co2_t_per_a: float
+    """Emissions of the run at that price, <= the cap. [t/a]"""
+    cost_lower_eur_per_a: float
+    """Lagrangian lower bound on the capped optimum (costs at the cost case's own prices). [€/a]"""
+    cost_upper_eur_per_a: float
+    """Cost of a plan that meets the cap (a blend of the two runs that bracket the price). [€/a]"""
+    iterations: int
+    converged: bool
+    result: RunResult | None = None
+    """The decomposed run at the price (meets the cap); its costs include the surcharge on CO2."""
+    history: list = field(default_factory=list)
+
+    @property
+    def cost_estimate_eur_per_a(self) -> float:
+        """Midpoint of the bounds on the capped optimum. [€/a]"""
+        return 0.5 * (self.cost_lower_eur_per_a + self.cost_upper_eur_per_a)
+
+    @property
+    def relative_gap(self) -> float:
+        return (self.cost_upper_eur_per_a - self.cost_lower_eur_per_a) / max(abs(self.cost_upper_eur_per_a), 1.0)
+
+
+def scenario_with_case(scenario: Scenario, case: CostCase) -> Scenario:
+    """A shallow copy of ``scenario`` with ``case`` added to its cost cases (the tables are shared, not copied)."""
+    cases = dict(scenario.cost_cases)
+    cases[case.name] = case
+    return dataclasses.replace(scenario, cost_cases=cases)
+
+
+def co2_price_for_cap(
+    scenario: Scenario,
+    cap_t_per_a: float,
+    cost_case: str | None = None,
+    typical_days: int | None = None,
+    rel_tol: float = 1e-5,
+    max_iterations: int = 40,
+    first_step_eur_per_t: float = 100.0,
+    max_surcharge_eur_per_t: float = 1e5,
+    workers: int | None = None,
+    progress: Progress | None = None,
+) -> CapPrice:
+    """The CO2 price at which the districts, solved one by one, together emit no more than ``cap_t_per_a``.
+
+    A city-wide cap couples the districts. Pricing it instead decouples them: for a surcharge ``lam >= 0`` on
+    every tonne, each district minimises its own cost plus ``lam`` times its emissions, and the city's emissions
+    ``E(lam)`` fall as ``lam`` rises. The search first brackets the cap (doubling ``lam`` from
+    ``first_step_eur_per_t``) and then narrows the bracket; each step takes the price at which the two bracketing
+    plans cost the same (the chord of the dual function), and falls back to bisection of the bracket when that
+    price lies too close to an end.
+
+    For every ``lam`` the run gives a lower bound on the capped optimum ``C*`` (LP duality)::
+
+        L(lam) = C(x_lam) + lam * (E(x_lam) - cap) = [cost of x_lam at the surcharged price] - lam * cap <= C*
+
+    where ``C`` is the cost at the cost case's own prices. A blend ``theta x_lo + (1 - theta) x_hi`` of the two
+    bracketing plans with ``E = cap`` is feasible for the capped LP, so its cost is an upper bound. For a linear
+    program the bounds meet at the right price (no duality gap); the search stops when they are within
+    ``rel_tol``.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        The city; a network plant limit (another city-wide constraint) is not allowed here.
+    cap_t_per_a : float
+        City-wide CO2 cap, > 0. [t/a]
+    cost_case : str, optional
+        Cost case whose CO2 price the surcharge adds to (default ``reference``).
+    typical_days : int, optional
+        Time resolution (None keeps the scenario's).
+    rel_tol : float
+        Relative gap between the bounds at which the search stops. [-]
+    max_iterations : int
+        Largest number of decomposed solves.
+    first_step_eur_per_t, max_surcharge_eur_per_t : float
+        First trial surcharge, and the largest one tried before the cap is declared out of reach. [€/t]
+    workers : int, optional
+        Worker processes for the district solves (see :func:`engine.run.solve_scenario`).
+    progress : callable, optional
+        ``progress(share, text)`` after each solve.
+
+    Returns
+    -------
+    CapPrice
+        With ``result`` the run at the found price; ``converged`` is False when the iteration limit was reached.
+
+    Raises
+    ------
+    ValueError
+        If ``cap_t_per_a`` is not > 0, the scenario has a network plant limit, or the cap cannot be met even at
+        ``max_surcharge_eur_per_t`` (it lies below the least-CO2 run).
+    RuntimeError
+        If a district solve fails.
+
+    References
+    ----------
+    .. [1] Everett, H. (1963). Generalized Lagrange multiplier method for solving problems of optimum
+       allocation of resources. Operations Research, 11(3), 399-417.
+    .. [2] Geoffrion, A. M. (1974). Lagrangean relaxation for integer programming. Mathematical Programming
+       Study 2, 82-114 (duality of the relaxation; for linear programs the bound is exact).
+    """
+    if not (isinstance(cap_t_per_a, (int, float, np.floating)) and math.isfinite(cap_t_per_a) and cap_t_per_a > 0):
+        raise ValueError(f"cap_t_per_a must be a number > 0, got {cap_t_per_a!r}")
+    if scenario.settings.network_plant_limit_kw and scenario.settings.network_plant_limit_kw > 0:
+        raise ValueError("co2_price_for_cap: the scenario has a network plant limit, which also couples the "
+                         "districts; remove it or solve the capped LP in one piece")
+    cap = float(cap_t_per_a)
+    case_name = _default_case(scenario, cost_case)
+    base = scenario.cost_cases[case_name]
+    base_price = float(scenario.prices.co2_eur_per_t if base.co2_eur_per_t is None else base.co2_eur_per_t)
+    settings = run_settings(scenario, "cost", 0.0, typical_days)
+    report = progress or (lambda share, text: None)
+    history = []
+
+    def solve_at(surcharge: float):
+        case = dataclasses.replace(base, name=f"{case_name}+co2_{surcharge:.6g}", co2_eur_per_t=base_price + surcharge)
+        result = solve_scenario(scenario_with_case(scenario, case), case.name, settings=settings, decompose=True,
+                                workers=workers)
+        if not result.solved:
+            raise RuntimeError(f"the district solve at a CO2 surcharge of {surcharge:.6g} EUR/t failed: "
+                               f"{result.message}")
+        emissions = result.co2_t_per_a
+        own_cost = result.total_cost_eur_per_a - surcharge * emissions
+        lower = own_cost + surcharge * (emissions - cap)
+        history.append({"surcharge_eur_per_t": surcharge, "co2_t_per_a": emissions, "cost_eur_per_a": own_cost,
+                        "lower_bound_eur_per_a": lower})
+        report(min(0.95, len(history) / max_iterations), f"CO2 surcharge {surcharge:,.2f} EUR/t: "
+               f"{emissions:,.0f} t/a against a cap of {cap:,.0f} t/a")
+        return result, emissions, own_cost, lower
+
+    lo = (0.0, *solve_at(0.0))  # (surcharge, result, emissions, own cost, lower bound)
+    best_lower = lo[4]
+    if lo[2] <= cap:
+        return CapPrice(cap, base_price, 0.0, lo[2], lo[3], lo[3], 1, True, lo[1], history)
+    hi = None
+    step = float(first_step_eur_per_t)
+    while hi is None:
+        if len(history) >= max_iterations or step > max_surcharge_eur_per_t:
+            raise ValueError(f"the cap of {cap:,.0f} t/a is not met even at a CO2 surcharge of "
+                             f"{min(step, max_surcharge_eur_per_t):,.0f} EUR/t; it may lie below the least-CO2 run")
+        trial = (step, *solve_at(step))
+        best_lower = max(best_lower, trial[4])
+        if trial[2] <= cap:
+            hi = trial
+        else:
+            lo = trial
+            step *= 2.0
+
+    def upper_bound() -> float:
+        e_lo, e_hi = lo[2], hi[2]
+        theta = (cap - e_hi) / (e_lo - e_hi) if e_lo > e_hi else 0.0
+        return theta * lo[3] + (1.0 - theta) * hi[3]
+
+    upper = upper_bound()
+    converged = (upper - best_lower) <= rel_tol * max(abs(upper), 1.0)
+    while not converged and len(history) < max_iterations:
+        width = hi[0] - lo[0]
+        # price at which the two bracketing plans cost the same
+        chord = (hi[3] - lo[3]) / (lo[2] - hi[2]) if lo[2] > hi[2] else math.nan
+        if not (math.isfinite(chord) and lo[0] + 0.05 * width <= chord <= hi[0] - 0.05 * width):
+            chord = 0.5 * (lo[0] + hi[0])
+        trial = (chord, *solve_at(chord))
+        best_lower = max(best_lower, trial[4])
+        if trial[2] <= cap:
+            hi = trial
+        else:
+            lo = trial
+        upper = min(upper, upper_bound())
+        converged = (upper - best_lower) <= rel_tol * max(abs(upper), 1.0) or width <= 1e-9 * max(hi[0], 1.0)
+    report(1.0, "CO2 price found" if converged else "CO2 price search stopped at its iteration limit")
+    return CapPrice(cap, base_price + hi[0], hi[0], hi[2], best_lower, upper, len(history), converged, hi[1], history)
+
+
+# ============================================================================================ command line
+def add_tradeoff_parser(sub) -> None:
+    """Register ``tradeoff`` on an argparse sub-parser collection."""
+    p = sub.add_parser("tradeoff", help="cost-CO2 trade-off curve (epsilon-constraint); writes tradeoff.csv")
+    p.add_argument("scenario", help="scenario folder, or 'demo'")
+    p.add_argument("--points", type=int, default=7, help="number of points, >= 2 (default 7)")
+    p.add_argument("--cost-case", default=None)
+    group = p.add_mutually_exclusive_group()
+    group.add_argument("--typical-days", type=int, default=None)
+    group.add_argument("--full-year", action="store_true")
+    p.add_argument("--out", default="out")
+    p.add_argument("--quiet", action="store_true")
+
+
+def _stderr_progress(quiet: bool):
+    if quiet:
+        return None
+
+    def report(share: float, text: str) -> None:
+        print(f"[{share * 100:5.1f} %] {text}", file=sys.stderr, flush=True)
+
+    return report
+
+
+def load_for_command(path_arg: str):
+    """The scenario of a command-line argument, or None after printing its problems on stderr."""
+    from .io import load_scenario, resolve_scenario_path
+    from .problems import InputError
+
+    try:
+        return load_scenario(resolve_scenario_path(path_arg))
+    except InputError as error:
+        print(f"The scenario has {len(error.problems)} problem(s):", file=sys.stderr)
+        for problem in error.problems:
+            print(f"  {problem}", file=sys.stderr)
+        return None
+
+
+def cmd_tradeoff(args) -> int:
+    """``python -m engine tradeoff DIR --points N --out OUT``: exit 0 solved, 2 input error, 3 solver failure."""
+    if args.points < 2:
+        print("--points must be >= 2", file=sys.stderr)
+        return 2
+    typical_days = 0 if args.full_year else args.typical_days
+    if typical_days is not None and typical_days < 0:
+        print("--typical-days must be >= 0 (0 means the full year)", file=sys.stderr)
+        return 2
+    scenario = load_for_command(args.scenario)
+    if scenario is None:
+        return 2
+    if args.cost_case is not None and args.cost_case not in scenario.cost_cases:
+        known = ", ".join(sorted(scenario.cost_cases))
+        print(f"Unknown cost case '{args.cost_case}'. Known cost cases: {known}", file=sys.stderr)
+        return 2
+    table, _ = tradeoff_curve_runs(scenario, args.cost_case, args.points, typical_days,
+                                   _stderr_progress(args.quiet))
+    out = Path(args.out)
+    out.mkdir(parents=True, exist_ok=True)
+    table.to_csv(out / "tradeoff.csv", index=False)
+    failed = table[table["status"] != "optimal"]
+    if len(failed):
+        print(f"{len(failed)} point(s) failed: {', '.join(failed['status'].astype(str))}", file=sys.stderr)
+        return 3
+    if not args.quiet:
+        print(f"{len(table)} points from {table['total_cost_eur_per_a'].iloc[0]:,.0f} EUR/a at "
+              f"{table['co2_t_per_a'].iloc[0]:,.0f} t/a to {table['total_cost_eur_per_a'].iloc[-1]:,.0f} EUR/a at "
+              f"{table['co2_t_per_a'].iloc[-1]:,.0f} t/a; written to {out / 'tradeoff.csv'}")
+    return 0
+
+
+def main(argv=None) -> int:
+    import argparse
+
+    parser = argparse.ArgumentParser(prog="python -m engine.tradeoff")
+    add_tradeoff_parser(parser.add_subparsers(dest="command", required=True))
+    args = parser.parse_args(["tradeoff", *(sys.argv[1:] if argv is None else argv)])
+    return cmd_tradeoff(args)
+
+
+if __name__ == "__main__":
+    sys.exit(main())
