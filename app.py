@@ -93,6 +93,10 @@ def main() -> None:
         title, icon = page_title(path)
         pages.append(st.Page(path, title=title, icon=icon))
     navigation = st.navigation(pages)
+    st.session_state["hm_shell"] = True
+    goto = st.session_state.pop("hm_goto", None)
+    if goto:
+        st.switch_page(goto)  # a page opened by its address before the navigation existed
     navigation.run()
 
 

@@ -26,6 +26,9 @@ The pages keep their state under these keys of ``st.session_state`` (plain Pytho
     ``{run id: RunResult}``: saved runs already read from the library in this session.
 ``hm_flash``
     A short message (saved, renamed, deleted ...) shown once on the next page run.
+``hm_shell``, ``hm_goto``
+    True once ``app.py`` has set up the navigation in this session; the page to go to when a page was opened by
+    its address before that (Streamlit then runs the page file on its own, without the navigation).
 
 Widget keys start with the page's short name (``setup_``, ``results_``, ``compare_``, ``share_``).
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import streamlit as st
+from streamlit.errors import StreamlitAPIException
 from streamlit_folium import st_folium
 
 from engine import workbench as wb
@@ -29,6 +30,14 @@ MEASURE_LABELS = {
 }
 
 state = st.session_state
+if not state.get("hm_shell"):
+    # Opened by its address before app.py ever ran in this server, so Streamlit runs the file on its own: let
+    # app.py set up the navigation first and come back here.
+    state["hm_goto"] = "pages/3_Compare_runs.py"
+    try:
+        st.switch_page("app.py")
+    except StreamlitAPIException:
+        pass  # run without app.py (a test of this page alone)
 st.title("Compare runs")
 st.caption(wb.CAUTION_LINE)
 loaded = state.setdefault("hm_loaded", {})

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import streamlit as st
+from streamlit.errors import StreamlitAPIException
 
 from engine import workbench as wb
 from engine.export import tables_csv_zip, tables_xlsx
@@ -12,6 +13,14 @@ from engine.store import ScenarioStore, StoreError
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 
 state = st.session_state
+if not state.get("hm_shell"):
+    # Opened by its address before app.py ever ran in this server, so Streamlit runs the file on its own: let
+    # app.py set up the navigation first and come back here.
+    state["hm_goto"] = "pages/4_Share.py"
+    try:
+        st.switch_page("app.py")
+    except StreamlitAPIException:
+        pass  # run without app.py (a test of this page alone)
 st.title("Share")
 st.caption(wb.CAUTION_LINE)
 loaded = state.setdefault("hm_loaded", {})
