@@ -127,9 +127,10 @@ def superposed_shift_k(interference_matrix, injection_rate_m3_per_s, injection_t
         raise ValueError(f"interference_matrix must be square; got shape {matrix.shape}")
     n = matrix.shape[0]
     arrays = {}
+    offset_in = np.zeros(n) if reinjection_offset_k is None else reinjection_offset_k
     for name, value in (("injection_rate_m3_per_s", injection_rate_m3_per_s),
                         ("injection_temp_change_k", injection_temp_change_k),
-                        ("reinjection_offset_k", np.zeros(n) if reinjection_offset_k is None else reinjection_offset_k)):
+                        ("reinjection_offset_k", offset_in)):
         array = np.atleast_1d(np.asarray(value, dtype=float))
         if array.shape != (n,):
             raise ValueError(f"{name} must have {n} values; got shape {array.shape}")
@@ -254,12 +255,13 @@ def plume_outlines(scenario: Scenario, result: RunResult, levels_k=DEFAULT_PLUME
 
 
 def plume_polygons(result: RunResult) -> list[dict]:
-    """The ``plumes`` table of a run as ``[{well_id, level_k, coordinates: [(lon, lat), ...]}, ...]``."""
+    """The ``plumes`` table of a run as ``[{well_id, level_k, sign, coordinates: [(lon, lat), ...]}, ...]``
+    (the form :func:`engine.maps.district_map` takes as ``plume_polygons``)."""
     table = result.tables.get("plumes")
     if table is None or table.empty:
         return []
     return [
-        {"well_id": str(r.well_id), "level_k": float(r.level_k),
+        {"well_id": str(r.well_id), "level_k": float(r.level_k), "sign": int(r.sign),
          "coordinates": [tuple(p) for p in json.loads(r.coordinates_json)]}
         for r in table.itertuples(index=False)
     ]
@@ -372,6 +374,7 @@ def solve_with_interference(
     horizon_years: float = 1.0,
     plume_levels_k=DEFAULT_PLUME_LEVELS_K,
     cancel: Callable[[], bool] | None = None,
+    workers: int | None = None,
 ) -> RunResult:
     """Solve ``scenario`` again and again with the source temperature shifts neighbouring plumes cause.
 
@@ -398,6 +401,9 @@ def solve_with_interference(
         Isotherms drawn into ``tables["plumes"]`` [K]; empty to skip (they take a fraction of a second each).
     cancel : callable, optional
         Returns True to stop after the current solve (the last solved run is returned, not converged).
+    workers : int, optional
+        Processes for the district solves and the isotherms; None lets :func:`engine.run.solve_scenario`
+        choose. Pass 1 inside a threaded server (a dashboard), where forking a process pool is unsafe.
 
     Returns
     -------
@@ -441,6 +447,7 @@ def solve_with_interference(
         result = solve_scenario(
             _with_shift(scenario, shift), cost_case=cost_case, objective=objective,
             co2_cap_t_per_a=co2_cap_t_per_a, typical_days=typical_days, time_limit_s=time_limit_s, cancel=cancel,
+            workers=workers,
         )
         record = {
             "iteration": k + 1,
@@ -498,7 +505,7 @@ def solve_with_interference(
         add_well_status(result, shifted)
         if levels and n:
             report(0.98, "Drawing plume isotherms")
-            result.tables["plumes"] = plume_outlines(shifted, result, levels, horizon_years)
+            result.tables["plumes"] = plume_outlines(shifted, result, levels, horizon_years, workers=workers)
         else:
             result.tables["plumes"] = pd.DataFrame(columns=["well_id", "level_k", "sign", "coordinates_json"])
     extras["seconds"] = round(time.perf_counter() - started, 3)

@@ -20,9 +20,13 @@ sys.path.insert(0, str(Path(__file__).parent))
 import scenario_factory as f  # noqa: E402
 from engine import plume  # noqa: E402
 from engine.groundwater import (  # noqa: E402
+    STATUS_COLORS,
     add_well_status,
+    groundwater_map_figure,
     net_injection,
     screen_wells,
+    screening_display_table,
+    well_year_figure,
     well_year_profiles,
 )
 from engine.inputs import Aquifer, Prices, Settings  # noqa: E402
@@ -54,7 +58,8 @@ def line_of_doublets(heat_kw=(400.0, 400.0), spacing_m=300.0, amplitude_k=0.0, p
     )
     names = ("A", "B")
     districts = [
-        f.district(d, k, supply_temp_c=35.0, heat_demand_mwh_per_a=h * 8.76) for k, (d, h) in enumerate(zip(names, heat_kw))
+        f.district(d, k, supply_temp_c=35.0, heat_demand_mwh_per_a=h * 8.76)
+        for k, (d, h) in enumerate(zip(names, heat_kw))
     ]
     demand = pd.DataFrame({d: np.full(8760, float(h)) for d, h in zip(names, heat_kw)})
     common = dict(permit_flow_m3_per_h=permit_m3_per_h, groundwater_temp_amplitude_k=amplitude_k,
@@ -262,3 +267,34 @@ def test_screening_refuses_an_unsolved_run(seasonal_case):
         screen_wells(empty, scenario)
     with pytest.raises(ValueError, match="reinjection_max_temp_c"):
         screen_wells(result, scenario, reinjection_min_temp_c=10.0, reinjection_max_temp_c=8.0)
+
+
+def test_year_figure_shows_the_daily_extremes(seasonal_case):
+    """The flow panel shows each day's highest hourly flow share, in % (one point a day)."""
+    scenario, result = seasonal_case
+    profiles = well_year_profiles(result, scenario, well_ids=["wb"])
+    figure = well_year_figure(profiles, "wb", 4.5, 20.0)
+    flow = next(trace for trace in figure.data if trace.name == "flow share")
+    daily_max = profiles.groupby(profiles["hour"] // 24)["flow_share"].max().to_numpy()
+    np.testing.assert_allclose(np.asarray(flow.y), 100.0 * daily_max)
+    with pytest.raises(ValueError, match="well_id"):
+        well_year_figure(profiles, "nope", 4.5, 20.0)
+
+
+def test_map_figure_is_to_scale_and_coloured_by_status(seasonal_case):
+    """Equirectangular map: one degree of latitude is drawn 1/cos(latitude) times one degree of longitude
+    (Snyder 1987, Map Projections: A Working Manual, ch. 12); wells take their status colour."""
+    scenario, result = seasonal_case
+    screening = screen_wells(result, scenario)
+    ring = [(LON0, LAT), (LON0 + 0.001, LAT), (LON0 + 0.001, LAT + 0.001), (LON0, LAT)]
+    figure = groundwater_map_figure(scenario, screening, [{"well_id": "wa", "level_k": 1.0, "coordinates": ring}])
+    lats = [c[1] for d in scenario.districts["geometry"] for c in d["coordinates"][0]]
+    lats += list(scenario.wells["lat"]) + list(scenario.wells["reinjection_lat"])
+    mid = (min(lats) + max(lats)) / 2
+    assert figure.layout.yaxis.scaleratio == pytest.approx(1.0 / np.cos(np.radians(mid)))
+    extraction = [t for t in figure.data if t.name and t.name.startswith("extraction well")]
+    assert [t.marker.color for t in extraction] == [STATUS_COLORS["at_limit"]]
+    assert sum(1 for t in figure.data if t.name and "isotherm" in t.name) == 1
+    shown = screening_display_table(screening)
+    assert list(shown["status"]) == ["at a limit", "at a limit"]
+    assert shown["peak flow [% of permit]"].to_list() == pytest.approx([100.0, 100.0], abs=0.05)
