@@ -17,6 +17,7 @@ import dataclasses
 
 import pandas as pd
 import streamlit as st
+from streamlit.errors import StreamlitAPIException
 from streamlit_folium import st_folium
 
 from engine import workbench as wb
@@ -45,6 +46,13 @@ VIEW_AS_SOLVED = "as solved"
 VIEW_CHECKED = "with interference"
 
 state = st.session_state
+if not state.get("hm_shell"):
+    # opened by its address before app.py set up the navigation in this server: let app.py do that first
+    state["hm_goto"] = "pages/5_Groundwater.py"
+    try:
+        st.switch_page("app.py")
+    except StreamlitAPIException:
+        pass  # run without app.py (this page on its own)
 st.title("Groundwater check")
 st.warning(PAGE_CAUTION + " " + wb.CAUTION_LINE, icon=":material/warning:")
 solved = state.setdefault("hm_solved", {})
@@ -158,9 +166,14 @@ if counts.get("breach", 0):
              "inputs, or change the doublet's design or permit.")
 table = screening_display_table(screening, district_names)
 status_colors = {label: STATUS_COLORS[key] for key, label in STATUS_LABELS.items()}
+number_formats = {
+    column: ("{:.2f}" if ("[K]" in column or "COP" in column) else "{:.1f}" if ("°C" in column or "%" in column)
+             else "{:,.0f}")
+    for column in table.columns if table[column].dtype.kind == "f"
+}
 st.dataframe(
     table.style.map(lambda value: f"color: {status_colors.get(value, 'inherit')}; font-weight: 600",
-                    subset=["status"]),
+                    subset=["status"]).format(number_formats, na_rep="–"),
     hide_index=True, width="stretch", height=wb.table_height(table),
     column_config={
         "status": st.column_config.TextColumn(help="ok / at a limit / breach of the permit or window"),
