@@ -28,6 +28,8 @@ def _parser() -> argparse.ArgumentParser:
     group.add_argument("--typical-days", type=int, default=None)
     group.add_argument("--full-year", action="store_true")
     p.add_argument("--interference", action="store_true", help="re-solve until well source temperatures settle")
+    p.add_argument("--horizon-years", type=float, default=1.0,
+                   help="operating time the plume screening looks ahead [a] (with --interference)")
     p.add_argument("--out", default="out")
     p.add_argument("--time-limit-s", type=float, default=None)
     p.add_argument("--quiet", action="store_true")
@@ -89,7 +91,10 @@ def cmd_solve(args) -> int:
     if args.interference:
         from .interference import solve_with_interference
 
-        result = solve_with_interference(scenario, **kwargs)
+        if args.horizon_years <= 0:
+            print("--horizon-years must be > 0", file=sys.stderr)
+            return EXIT_INPUT
+        result = solve_with_interference(scenario, horizon_years=args.horizon_years, **kwargs)
     else:
         result = solve_scenario(scenario, **kwargs)
     out = result.write(Path(args.out))

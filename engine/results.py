@@ -19,7 +19,10 @@ Tables (``result.tables[name]``):
 ``wells``
     one row per doublet: well_id, district_id, heat_mwh_per_a, cooling_mwh_per_a, extracted_mwh_per_a,
     rejected_mwh_per_a, heat_pump_kw, peak_flow_share, annual_volume_m3, min_reinjection_temp_c,
-    max_reinjection_temp_c, flow_limit_binds, volume_limit_binds.
+    max_reinjection_temp_c, flow_limit_binds, volume_limit_binds, annual_volume_share, and from the permit
+    screening (:func:`engine.groundwater.add_well_status`) status ("ok", "at_limit" or "breach") and
+    source_temp_shift_k (the shift of the groundwater temperature by neighbours' plumes; 0 without the
+    interference check).
 ``dispatch``
     one row per model step, district and technology (and well): step, district_id, technology_id, well_id,
     heat_kw (stores: discharge minus charge), cooling_kw, electricity_kw, fuel_kw.
@@ -29,6 +32,8 @@ Tables (``result.tables[name]``):
 ``well_steps``
     one row per model step and well: step, well_id, groundwater_temp_c, extracted_kw, rejected_kw, flow_share,
     reinjection_temp_c (NaN when the well is idle).
+``plumes`` (only after the interference check)
+    one row per reinjection well and isotherm: well_id, level_k, sign, coordinates_json (a lon/lat ring).
 ``steps``
     one row per model step: step, period, hour_of_day, weight_h, year_hour.
 ``day_map``

@@ -71,8 +71,10 @@ def merge_tables(parts: list[dict]) -> dict[str, pd.DataFrame]:
     for name in parts[0]:
         if name in ("steps", "day_map"):
             merged[name] = parts[0][name]
-        else:
-            merged[name] = pd.concat([p[name] for p in parts], ignore_index=True)
+            continue
+        # empty pieces (a district without wells) would turn every column into object dtype
+        pieces = [p[name] for p in parts if len(p[name])] or [parts[0][name]]
+        merged[name] = pd.concat(pieces, ignore_index=True)
     return merged
 
 
@@ -229,6 +231,9 @@ def solve_scenario(
     else:
         result.tables = merge_tables([o[2] for o in outcomes])
         result.status = "optimal"
+        from .groundwater import add_well_status
+
+        add_well_status(result, scenario)
         unserved = result.unserved_heat_mwh_per_a
         result.message = "Optimal solution found." + (
             f" {unserved:,.0f} MWh/a of heat demand cannot be served with the allowed supply." if unserved > 0.5 else ""
