@@ -1,4 +1,4 @@
-"""Command line: ``python -m engine validate|solve ...``.
+"""Command line: ``python -m engine validate|solve|tradeoff|sweep ...``.
 
 Exit codes: 0 solved (or valid), 2 input errors (printed, no traceback), 3 the solver failed.
 """
@@ -33,6 +33,12 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--out", default="out")
     p.add_argument("--time-limit-s", type=float, default=None)
     p.add_argument("--quiet", action="store_true")
+
+    from .sweep import add_sweep_parser
+    from .tradeoff import add_tradeoff_parser
+
+    add_tradeoff_parser(sub)
+    add_sweep_parser(sub)
     return parser
 
 
@@ -119,6 +125,14 @@ def main(argv=None) -> int:
             return validate_command(args.scenario)
         if args.command == "solve":
             return cmd_solve(args)
+        if args.command == "tradeoff":
+            from .tradeoff import cmd_tradeoff
+
+            return cmd_tradeoff(args)
+        if args.command == "sweep":
+            from .sweep import cmd_sweep
+
+            return cmd_sweep(args)
     except KeyboardInterrupt:
         print("Cancelled.", file=sys.stderr)
         return EXIT_SOLVER
