@@ -213,14 +213,17 @@ def cached_fidelity(
     cache_path: str | Path | None = None,
     workers: int | None = None,
     progress: Progress | None = None,
+    refresh: bool = False,
 ) -> pd.DataFrame:
     """The fidelity table of these inputs: from the cache, or measured once and stored there.
+
+    ``refresh=True`` measures again and replaces the cached entry.
 
     The cache key is :func:`fidelity_key` (the input hash with the resolution left out), so editing any input,
     cost case or setting measures again. ``table.attrs["measured_utc"]`` says when it was measured.
     """
     path = Path(cache_path) if cache_path is not None else default_cache_path()
-    found = lookup_fidelity(scenario, cost_case, objective, day_counts, path)
+    found = None if refresh else lookup_fidelity(scenario, cost_case, objective, day_counts, path)
     if found is not None:
         return found
     started = time.perf_counter()

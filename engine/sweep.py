@@ -274,12 +274,23 @@ def _init_worker(scenario):
     _WORKER["scenario"] = scenario
 
 
-def _solve_in_worker(task, typical_days, objective, keep_result):
-    return solve_task(_WORKER["scenario"], task, typical_days, objective, keep_result)
+def _payload(task: SweepTask) -> tuple:
+    # plain values cross the process boundary: a class re-imported by a reloading host (a dashboard that
+    # watches its source files) would otherwise no longer pickle
+    return task.name, dataclasses.asdict(task.cost_case), dict(task.prices)
 
 
-def _solve_on_cluster(scenario, task, typical_days, objective, keep_result):
-    return solve_task(scenario, task, typical_days, objective, keep_result)
+def _task(payload: tuple) -> SweepTask:
+    name, case, prices = payload
+    return SweepTask(name, CostCase(**case), prices)
+
+
+def _solve_in_worker(payload, typical_days, objective, keep_result):
+    return solve_task(_WORKER["scenario"], _task(payload), typical_days, objective, keep_result)
+
+
+def _solve_on_cluster(scenario, payload, typical_days, objective, keep_result):
+    return solve_task(scenario, _task(payload), typical_days, objective, keep_result)
 
 
 def run_sweep(
@@ -355,7 +366,7 @@ def run_sweep(
         else:
             with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(scenario,)) as pool:
                 futures = {
-                    pool.submit(_solve_in_worker, task, typical_days, objective, keep_results): k
+                    pool.submit(_solve_in_worker, _payload(task), typical_days, objective, keep_results): k
                     for k, task in enumerate(tasks)
                 }
                 for future in as_completed(futures):
@@ -373,7 +384,7 @@ def _run_on_cluster(scenario, tasks, typical_days, objective, keep_results, sche
     try:
         shared = client.scatter(scenario, broadcast=True)
         futures = [
-            client.submit(_solve_on_cluster, shared, task, typical_days, objective, keep_results, pure=False,
+            client.submit(_solve_on_cluster, shared, _payload(task), typical_days, objective, keep_results, pure=False,
                           key=f"heatmosaic-{task.name}-{uuid.uuid4().hex[:8]}")
             for task in tasks
         ]
@@ -501,6 +512,7 @@ def tornado_figure(tornado: pd.DataFrame):
                 "main supply changes in %{customdata[1]} district(s)<extra></extra>",
                 text=[f"{c} changed" if c else "" for c in changed],
                 textposition="outside",
+                cliponaxis=False,
             )
         )
     fig.update_layout(

@@ -1,0 +1,235 @@
+"""Trade-offs and sweeps: the cost-CO2 curve, price sweeps with a tornado chart, and typical-day fidelity.
+
+Session state, besides the keys documented in :mod:`engine.workbench`:
+
+``hm_tradeoff``
+    ``{request key: (trade-off table, list of RunResult)}``: curves computed in this session.
+``hm_sweeps``
+    ``{request key: SweepOutcome}``: sweeps run in this session (with their runs, so they can be saved).
+``hm_fidelity``
+    ``{fidelity key: table}``: typical-day fidelity tables read or measured in this session.
+
+Widget keys start with ``tradeoffs_``.
+"""
+
+from __future__ import annotations
+
+import streamlit as st
+from streamlit.errors import StreamlitAPIException
+
+from engine import workbench as wb
+from engine.fidelity import DEFAULT_DAY_COUNTS, cached_fidelity, fidelity_key, fidelity_note, lookup_fidelity
+from engine.fidelity import recommend_typical_days
+from engine.store import ScenarioStore, StoreError
+from engine.sweep import (
+    PARAMETERS, default_ranges, random_samples, run_sweep, save_sweep, tasks_from_cost_cases, tasks_from_samples,
+    tornado_figure, tornado_table, tornado_tasks,
+)
+from engine.tradeoff import supply_mix_figure, tradeoff_curve_runs, tradeoff_figure
+
+state = st.session_state
+if not state.get("hm_shell"):
+    state["hm_goto"] = "pages/6_Trade_offs_and_sweeps.py"
+    try:
+        st.switch_page("app.py")
+    except StreamlitAPIException:
+        pass  # run without app.py (a test of this page alone)
+
+st.title("Trade-offs and sweeps")
+st.caption(wb.CAUTION_LINE)
+
+if "hm_input" not in state:
+    state["hm_input"] = wb.demo_input_set()
+inputs: wb.InputSet = state["hm_input"]
+if inputs.scenario is None:
+    st.error(f"{inputs.label} has problems; fix them on the Plan a run page first.")
+    st.stop()
+scenario = inputs.scenario
+setup = state.get("hm_setup") or {}
+curves = state.setdefault("hm_tradeoff", {})
+sweeps = state.setdefault("hm_sweeps", {})
+fidelities = state.setdefault("hm_fidelity", {})
+
+
+def progress_bar():
+    bar = st.progress(0.0, text="Starting")
+    return lambda share, text: bar.progress(min(max(float(share), 0.0), 1.0), text=text)
+
+
+st.markdown(f"**{inputs.label}:** {scenario.settings.name} · {len(scenario.districts)} districts")
+top = st.columns([2, 1, 1])
+cases = list(scenario.cost_cases)
+default_case = setup.get("cost_case", "reference")
+cost_case = top[0].selectbox("Cost case", cases, index=cases.index(default_case) if default_case in cases else 0,
+                             key="tradeoffs_cost_case")
+full_year = top[1].toggle("Full year", value=bool(setup.get("full_year", False)), key="tradeoffs_full_year",
+                          help="Every hour of the year: far slower; typical days are usually close enough "
+                               "(see the fidelity tab).")
+typical_days = top[2].number_input("Typical days", 1, 366, int(setup.get("typical_days", 12) or 12),
+                                   key="tradeoffs_typical_days", disabled=full_year)
+days = 0 if full_year else int(typical_days)
+
+tab_curve, tab_sweep, tab_fidelity = st.tabs(["Cost-CO2 trade-off", "Price sweep", "Typical-day fidelity"])
+
+# ------------------------------------------------------------------------------------------------ trade-off curve
+with tab_curve:
+    st.markdown(
+        "From the least-cost plan to the least-CO2 plan: each point in between is the cheapest plan whose CO2 "
+        "stays below a bound (epsilon-constraint method). Click a point to see and save it."
+    )
+    n_points = st.slider("Points on the curve", 2, 12, 6, key="tradeoffs_points")
+    curve_key = f"{inputs.digest[:16]}|{cost_case}|{days}|{n_points}"
+    if st.button("Compute the curve", type="primary", icon=":material/show_chart:", key="tradeoffs_run_curve"):
+        curves[curve_key] = tradeoff_curve_runs(scenario, cost_case, n_points, days, progress=progress_bar())
+    if curve_key not in curves:
+        st.info("Each point is one solve of the whole city (the CO2 bound ties the districts together); "
+                "the demo city at 12 typical days takes a few seconds per point.")
+    else:
+        table, results = curves[curve_key]
+        points = [int(p) for p in table.loc[table["status"] == "optimal", "point"]]
+        chosen = state.get(f"tradeoffs_chosen_{curve_key}", points[0] if points else 0)
+        event = st.plotly_chart(tradeoff_figure(table, chosen), key=f"tradeoffs_chart_{curve_key}",
+                                on_select="rerun", selection_mode="points", width="stretch")
+        selected = (event or {}).get("selection", {}).get("points", []) if isinstance(event, dict) else \
+            getattr(getattr(event, "selection", None), "points", [])
+        if selected:
+            clicked = selected[0].get("customdata", [None])[0]
+            if clicked is not None and int(float(clicked)) != chosen:
+                state[f"tradeoffs_chosen_{curve_key}"] = int(float(clicked))
+                st.rerun()
+        chosen = st.selectbox("Point", points, index=points.index(chosen) if chosen in points else 0,
+                              format_func=lambda p: f"{p}: {table.loc[p, 'kind'].replace('_', ' ')}, "
+                              f"{table.loc[p, 'co2_t_per_a']:,.0f} t/a, "
+                              f"{table.loc[p, 'total_cost_eur_per_a'] / 1e6:,.2f} M€/a",
+                              key=f"tradeoffs_point_{curve_key}")
+        state[f"tradeoffs_chosen_{curve_key}"] = chosen
+        st.plotly_chart(supply_mix_figure(table, scenario.technologies), key=f"tradeoffs_mix_{curve_key}",
+                        width="stretch")
+        shown = table[["point", "kind", "co2_bound_t_per_a", "co2_t_per_a", "total_cost_eur_per_a",
+                       "abatement_cost_eur_per_t", "unserved_heat_mwh_per_a", "status"]]
+        st.dataframe(shown, hide_index=True, width="stretch", column_config={
+            "co2_bound_t_per_a": st.column_config.NumberColumn("CO2 bound [t/a]", format="localized"),
+            "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
+            "total_cost_eur_per_a": st.column_config.NumberColumn("Total cost [€/a]", format="localized"),
+            "abatement_cost_eur_per_t": st.column_config.NumberColumn("Abatement cost [€/t]", format="%.0f",
+                                                                      help="Extra cost per tonne avoided "
+                                                                           "against the previous point."),
+            "unserved_heat_mwh_per_a": st.column_config.NumberColumn("Unserved heat [MWh/a]", format="%.1f"),
+        })
+        with st.form(f"tradeoffs_save_{curve_key}", border=True):
+            st.markdown(f"**Save point {chosen} as a run in the library**")
+            result = results[chosen]
+            name = st.text_input("Name", value=f"Trade-off point {chosen}: {wb.suggested_run_name(result)}",
+                                 max_chars=120)
+            note = st.text_area("Note", placeholder="Why this point ...")
+            if st.form_submit_button("Save point", icon=":material/save:"):
+                try:
+                    with ScenarioStore() as store:
+                        run_id = store.save_run(result, name, note, inputs=inputs.files, tags="trade-off")
+                    st.success(f"Saved as run #{run_id}. Its objective and CO2 bound come along, so opening it "
+                               "on the Plan a run page solves the same point again.")
+                except StoreError as error:
+                    st.error(f"The point could not be saved: {error}")
+
+# ------------------------------------------------------------------------------------------------ price sweep
+with tab_sweep:
+    st.markdown("Solve many price futures at once, on this computer's cores or on a Dask cluster.")
+    modes = {"cases": "The scenario's cost cases", "sample": "Random sample of prices (Latin hypercube)",
+             "tornado": "One price at a time, low and high (tornado)"}
+    mode = st.radio("Runs", list(modes), format_func=modes.get, key="tradeoffs_sweep_mode", horizontal=True)
+    left, right = st.columns(2)
+    names = left.multiselect("Prices to vary", list(PARAMETERS), default=list(PARAMETERS),
+                             format_func=lambda k: f"{PARAMETERS[k].label} ({PARAMETERS[k].low:g} to "
+                             f"{PARAMETERS[k].high:g} {PARAMETERS[k].unit})",
+                             key="tradeoffs_sweep_parameters", disabled=mode == "cases")
+    n_samples = left.number_input("Samples", 2, 500, 8, key="tradeoffs_sweep_samples", disabled=mode != "sample")
+    seed = left.number_input("Seed", 0, 10_000, 0, key="tradeoffs_sweep_seed", disabled=mode != "sample")
+    scheduler = right.text_input("Dask scheduler (optional)", placeholder="tcp://scheduler:8786",
+                                 key="tradeoffs_sweep_scheduler",
+                                 help="Blank: the runs share this computer's cores. The cluster's workers need "
+                                      "heatmosaic installed.").strip() or None
+    keep = right.checkbox("Save every run to the library, tagged with the sweep id", key="tradeoffs_sweep_keep")
+    sweep_key = f"{inputs.digest[:16]}|{cost_case}|{days}|{mode}|{','.join(names)}|{n_samples}|{seed}"
+    if st.button("Run the sweep", type="primary", icon=":material/grid_view:", key="tradeoffs_run_sweep",
+                 disabled=mode != "cases" and not names):
+        if mode == "cases":
+            tasks = tasks_from_cost_cases(scenario)
+        elif mode == "tornado":
+            tasks = tornado_tasks(scenario, cost_case, names)
+        else:
+            tasks = tasks_from_samples(scenario, random_samples(default_ranges(names), int(n_samples), int(seed)),
+                                       cost_case)
+        try:
+            outcome = run_sweep(scenario, tasks, typical_days=days, scheduler=scheduler, keep_results=keep,
+                                progress=progress_bar())
+            sweeps[sweep_key] = outcome
+            if keep:
+                with ScenarioStore() as store:
+                    saved = save_sweep(outcome, store, "Sweep", inputs=inputs.files)
+                st.success(f"{len(saved)} runs saved to the library with sweep id {outcome.sweep_id}.")
+        except (OSError, StoreError, RuntimeError, TimeoutError) as error:
+            st.error(f"The sweep could not run: {error}")
+    outcome = sweeps.get(sweep_key)
+    if outcome is not None:
+        failed = outcome.table[outcome.table["status"] != "optimal"]
+        if len(failed):
+            st.warning(f"{len(failed)} run(s) did not solve: {', '.join(failed['name'])}")
+        if mode == "tornado":
+            tornado = tornado_table(outcome)
+            st.plotly_chart(tornado_figure(tornado), key=f"tradeoffs_tornado_{sweep_key}", width="stretch")
+            st.caption("Bars: change in the city's total annual cost when one price moves to its low or high "
+                       "value, the others at the reference; labels: districts whose main supply changes.")
+        shown = outcome.table.drop(columns=["message"])
+        st.dataframe(shown, hide_index=True, width="stretch", column_config={
+            "total_cost_eur_per_a": st.column_config.NumberColumn("Total cost [€/a]", format="localized"),
+            "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
+        })
+        with st.expander("Main supply of each district in each run"):
+            st.dataframe(outcome.main_supply, width="stretch")
+        st.download_button("Download the sweep (CSV)", outcome.table.to_csv(index=False).encode(),
+                           file_name="sweep.csv", mime="text/csv", key=f"tradeoffs_sweep_csv_{sweep_key}")
+
+# ------------------------------------------------------------------------------------------------ fidelity
+with tab_fidelity:
+    st.markdown(
+        "How close do typical days come to the full hourly year for these inputs? Measured once per set of "
+        f"inputs ({', '.join(map(str, DEFAULT_DAY_COUNTS))} typical days against the full year) and kept next "
+        "to the library."
+    )
+    key = fidelity_key(scenario, cost_case)
+    table = fidelities.get(key)
+    if table is None:
+        table = lookup_fidelity(scenario, cost_case)
+        if table is not None:
+            fidelities[key] = table
+    if st.button("Measure now" if table is None else "Measure again", key="tradeoffs_measure",
+                 help="Solves the full year once: minutes for a city the size of the demo."):
+        try:
+            table = cached_fidelity(scenario, cost_case, progress=progress_bar(), refresh=table is not None)
+            fidelities[key] = table
+        except (RuntimeError, ValueError) as error:
+            st.error(f"The fidelity could not be measured: {error}")
+    if table is None:
+        st.info("Not measured for these inputs yet.")
+    else:
+        note = fidelity_note(table, days)
+        if note:
+            st.success(note)
+        st.caption(f"Fewest typical days within 1 % on cost and 10 % on capacity: {recommend_typical_days(table)} "
+                   "(0 means the full year).")
+        columns = ["typical_days", "model_steps", "total_cost_eur_per_a", "total_cost_error_pct", "co2_t_per_a",
+                   "co2_error_pct", "capacity_deviation_pct", "capacity_error_max_pct", "solve_s"]
+        st.dataframe(table[columns], hide_index=True, width="stretch", column_config={
+            "typical_days": st.column_config.NumberColumn("Typical days (0 = year)"),
+            "total_cost_eur_per_a": st.column_config.NumberColumn("Total cost [€/a]", format="localized"),
+            "total_cost_error_pct": st.column_config.NumberColumn("Cost error [%]", format="%+.2f"),
+            "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
+            "co2_error_pct": st.column_config.NumberColumn("CO2 error [%]", format="%+.2f"),
+            "capacity_deviation_pct": st.column_config.NumberColumn("Capacity placed differently [%]",
+                                                                    format="%.1f"),
+            "capacity_error_max_pct": st.column_config.NumberColumn("Largest capacity error [%]", format="%.1f"),
+            "solve_s": st.column_config.NumberColumn("Solve time [s]", format="%.1f"),
+        })
+        with st.expander("Capacity per technology"):
+            st.dataframe(table[[c for c in table.columns if c.startswith("capacity_") and c.endswith("_kw")]
+                               + ["typical_days"]], hide_index=True, width="stretch")
