@@ -239,6 +239,14 @@ def initial_setup(
     }
 
 
+def problems_for_display(problems: pd.DataFrame) -> pd.DataFrame:
+    """A problems table (file, row, column, message) with blank cells where a problem names no row or column."""
+    out = problems.copy()
+    out["row"] = ["" if pd.isna(r) else str(int(r)) for r in out["row"]]
+    out["column"] = ["" if c is None or (isinstance(c, float) and math.isnan(c)) else str(c) for c in out["column"]]
+    return out
+
+
 def cost_case_descriptions(scenario: Scenario) -> dict[str, str]:
     """Cost case name -> description, in the order of the file."""
     return {name: case.description for name, case in scenario.cost_cases.items()}
@@ -1005,6 +1013,7 @@ __all__ = [
     "library_bytes",
     "library_table",
     "load_uploaded_bundle",
+    "problems_for_display",
     "remember",
     "request_key",
     "run_choices",

@@ -25,6 +25,8 @@ MEASURE_LABELS = {
     "co2_kg_per_mwh": "CO2 per MWh of demand [kg/MWh]",
     "change_total_cost": "Change of annual cost against a baseline run [€/a]",
 }
+TABS = ["Map", "Load curves", "Costs", "Tables", "Manage run"]
+
 
 state = st.session_state
 if not state.get("hm_shell"):
@@ -67,10 +69,8 @@ def option_label(option) -> str:
 if state.get("results_run") not in options:
     state["results_run"] = options[0]
 picked = st.selectbox("Run", options, format_func=option_label, key="results_run")
-
 if picked == CURRENT:
-    result, files, run_name = current.result, current.files, "Current run"
-    info = None
+    result, files, run_name, run_id, info = current.result, current.files, "Current run", None, None
 else:
     run_id = int(picked)
     result = wb.load_saved_run(store, loaded, run_id)
@@ -81,150 +81,157 @@ scenario = wb.scenario_for_files(scenarios, files)
 technologies = scenario.technologies if scenario is not None else None
 
 choice = wb.choices_of_run(result)
-details = (
-    f"Cost case **{choice['cost_case']}** · objective **{'lowest CO2' if choice['objective'] == 'co2' else 'lowest cost'}**"
-    f" · CO2 cap {'none' if not choice['co2_cap_t_per_a'] else format(choice['co2_cap_t_per_a'], ',.0f') + ' t/a'}"
-    f" · {str(choice['typical_days']) + ' typical days' if choice['typical_days'] else 'full year'}"
+cap = choice["co2_cap_t_per_a"]
+st.markdown(
+    f"Cost case **{choice['cost_case']}** · objective **{'lowest CO2' if choice['objective'] == 'co2' else 'lowest cost'}"
+    f"** · CO2 cap {f'{cap:,.0f} t/a' if cap else 'none'} · "
+    + (f"{choice['typical_days']} typical days" if choice["typical_days"] else "full year")
 )
-st.markdown(details)
 if info is not None:
-    st.caption(f"Saved {str(info['created_utc'])[:16].replace('T', ' ')} UTC"
-               + (f" · note: {info['note']}" if info["note"] else "")
-               + f" · input hash {result.input_hash[:12]}")
+    note = f" · note: {info['note']}" if info["note"] else ""
+    st.caption(f"Saved {str(info['created_utc'])[:16].replace('T', ' ')} UTC{note} · input hash {result.input_hash[:12]}")
+
+
+def numbers(table, first: int, last: int | None = None) -> dict:
+    """Thousands separators for the number columns ``first:last`` of a table."""
+    return {c: st.column_config.NumberColumn(format="localized") for c in list(table.columns)[first:last]}
+
+
+def show_map() -> None:
+    c1, c2 = st.columns(2)
+    measure = c1.selectbox("Colour the districts by", list(MEASURES), format_func=MEASURE_LABELS.get,
+                           key="results_measure")
+    baseline = None
+    if measure == "change_total_cost":
+        others = [r for r in choices if r != run_id]
+        if not others:
+            c2.info("Save another run to compare against it.")
+            measure = "main_supply"
+        else:
+            base_id = c2.selectbox("Baseline run", others, format_func=choices.get, key="results_baseline")
+            baseline = wb.load_saved_run(store, loaded, base_id)
+    if scenario is None:
+        st.info("The scenario files of this run are not available, so the map cannot be drawn.")
+    else:
+        fmap = district_map(scenario, result, measure=measure, baseline=baseline, technologies=technologies)
+        st_folium(fmap, height=560, use_container_width=True, returned_objects=[], key="results_map")
+        st.caption(WELL_CAUTION + " Click a district or a well for its figures.")
+    st.plotly_chart(district_supply_figure(result, technologies), width="stretch", config=FIGURE_CONFIG)
+
+
+def show_load_curves() -> None:
+    districts = result.tables["districts"]
+    names = dict(zip(districts["district_id"], districts["name"]))
+    c1, c2, c3 = st.columns([2, 1.2, 2])
+    district = c1.selectbox("Where", [None] + list(names),
+                            format_func=lambda d: "Whole city" if d is None else names[d], key="results_where")
+    period = c2.radio("Period", ["year", "week"], format_func={"year": "Whole year", "week": "One week"}.get,
+                      key="results_period", horizontal=True)
+    week = c3.slider("Week of the year", 1, 52, 3, key="results_week", disabled=period == "year")
+    quantity = "heat"
+    if float(districts["cooling_demand_mwh_per_a"].sum()) > 0:
+        quantity = st.radio("Quantity", ["heat", "cooling"], horizontal=True, key="results_quantity",
+                            format_func=str.capitalize)
+    st.plotly_chart(
+        load_curve_figure(result, technologies, district_id=district, week=None if period == "year" else int(week),
+                          quantity=quantity),
+        width="stretch", config=FIGURE_CONFIG,
+    )
+    st.plotly_chart(
+        load_duration_figure({run_name: result}, district_id=district, quantity=quantity, technologies=technologies),
+        width="stretch", config=FIGURE_CONFIG,
+    )
+
+
+def show_costs() -> None:
+    st.plotly_chart(cost_breakdown_figure({run_name: result}, by="district"), width="stretch", config=FIGURE_CONFIG)
+    table = wb.district_results_table(result, technologies)
+    st.dataframe(table, hide_index=True, width="stretch", height=wb.table_height(table),
+                 column_config=numbers(table, 2))
+
+
+def show_tables() -> None:
+    st.markdown("**Supply per district and technology**")
+    table = wb.supply_results_table(result, technologies)
+    st.dataframe(table, hide_index=True, width="stretch", height=wb.table_height(table, 20),
+                 column_config=numbers(table, 3))
+    st.caption("Technologies a district neither has nor builds are left out. Heat stores: capacity in kWh, heat is "
+               "discharge minus charge (their loss).")
+    st.markdown("**Well doublets**")
+    wells = wb.well_results_table(result)
+    if wells.empty:
+        st.caption("No well doublets in this run.")
+        return
+    st.dataframe(wells, hide_index=True, width="stretch", height=wb.table_height(wells),
+                 column_config=numbers(wells, 2, 10))
+    st.caption(WELL_CAUTION + " A binding limit means the permit, not the heat pump, sets the well's output.")
+
+
+def show_manage() -> None:
+    if info is None:
+        st.info("This run is not in the library yet; save it on the set-up page.")
+        st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/save:")
+        return
+    left, right = st.columns(2, gap="large")
+    with left:
+        st.markdown("**Rename**")
+        new_name = st.text_input("New name", value=info["name"], key=f"results_rename_{run_id}")
+        if st.button("Rename", key="results_rename_button"):
+            try:
+                store.rename_run(run_id, new_name)
+                state["hm_flash"] = f"Renamed to “{new_name.strip()}”."
+                st.rerun()
+            except StoreError as error:
+                st.error(str(error))
+        st.markdown("**Delete**")
+        sure = st.checkbox(f"Yes, delete “{info['name']}” from the library", key=f"results_sure_{run_id}")
+        if st.button("Delete run", disabled=not sure, key="results_delete", icon=":material/delete:"):
+            store.delete_run(run_id)
+            loaded.pop(run_id, None)
+            state.pop("results_run", None)
+            state["hm_flash"] = f"Deleted “{info['name']}”."
+            st.rerun()
+    with right:
+        st.markdown("**Re-open on the set-up page**")
+        st.caption("Puts this run's files and choices back on the set-up page, to change and solve again.")
+        if st.button("Re-open", key="results_reopen", icon=":material/edit:", disabled=scenario is None):
+            reopened = wb.input_set_from_files(files, f"Saved run “{info['name']}”")
+            state["hm_input"] = reopened
+            state["hm_setup"] = {**wb.initial_setup(reopened, result.settings, result.cost_case), "fresh": True}
+            st.switch_page(PLAN_PAGE)
+        st.markdown("**Re-solve**")
+        st.caption("Solves the run again from its saved files; the result should match to solver precision.")
+        if st.button("Re-solve", key="results_resolve", icon=":material/replay:", disabled=scenario is None):
+            bar = st.progress(0.0, text="Starting")
+            again, _ = wb.resolve_saved_run(
+                solved, scenario, files, result, f"re-solve of “{info['name']}”",
+                progress=lambda share, text: bar.progress(min(max(float(share), 0.0), 1.0), text=text),
+            )
+            bar.empty()
+            if again.result.solved:
+                delta = again.result.total_cost_eur_per_a - result.total_cost_eur_per_a
+                st.success(f"Re-solved: total cost {again.result.total_cost_eur_per_a:,.0f} €/a (saved "
+                           f"{result.total_cost_eur_per_a:,.0f} €/a, difference {delta:,.0f} €/a).")
+            else:
+                st.error(f"The re-solve failed: {again.result.message}")
+
 
 if not result.solved:
     st.error(f"This run did not solve: {result.message}")
-else:
-    kpis = wb.run_kpis(result)
-    m = st.columns(5)
-    m[0].metric("Total cost [M€/a]", f"{kpis['total_cost_eur_per_a'] / 1e6:,.2f}")
-    m[1].metric("CO2 [t/a]", f"{kpis['co2_t_per_a']:,.0f}")
-    m[2].metric("Heat demand [MWh/a]", f"{kpis['heat_demand_mwh_per_a']:,.0f}")
-    m[3].metric("Levelised cost [€/MWh]", f"{kpis['levelised_cost_eur_per_mwh']:,.1f}")
-    m[4].metric("Unserved heat [MWh/a]", f"{kpis['unserved_heat_mwh_per_a']:,.0f}")
-    if kpis["unserved_heat_mwh_per_a"] > 0.5:
-        st.warning(result.message)
+    st.stop()
+kpis = wb.run_kpis(result)
+m = st.columns(5)
+m[0].metric("Total cost [M€/a]", f"{kpis['total_cost_eur_per_a'] / 1e6:,.2f}")
+m[1].metric("CO2 [t/a]", f"{kpis['co2_t_per_a']:,.0f}")
+m[2].metric("Heat demand [MWh/a]", f"{kpis['heat_demand_mwh_per_a']:,.0f}")
+m[3].metric("Levelised cost [€/MWh]", f"{kpis['levelised_cost_eur_per_mwh']:,.1f}")
+m[4].metric("Unserved heat [MWh/a]", f"{kpis['unserved_heat_mwh_per_a']:,.0f}")
+if kpis["unserved_heat_mwh_per_a"] > 0.5:
+    st.warning(result.message)
 
-    tab_map, tab_load, tab_cost, tab_tables, tab_manage = st.tabs(
-        ["Map", "Load curves", "Costs", "Tables", "Manage run"]
-    )
-    with tab_map:
-        c1, c2 = st.columns(2)
-        measure = c1.selectbox("Colour the districts by", list(MEASURES), format_func=MEASURE_LABELS.get,
-                               key="results_measure")
-        baseline = None
-        if measure == "change_total_cost":
-            others = [r for r in choices if picked == CURRENT or r != int(picked)]
-            if not others:
-                c2.info("Save another run to compare against it.")
-                measure = "main_supply"
-            else:
-                base_id = c2.selectbox("Baseline run", others, format_func=choices.get, key="results_baseline")
-                baseline = wb.load_saved_run(store, loaded, base_id)
-        if scenario is None:
-            st.info("The scenario files of this run are not available, so the map cannot be drawn.")
-        else:
-            fmap = district_map(scenario, result, measure=measure, baseline=baseline, technologies=technologies)
-            st_folium(fmap, height=560, use_container_width=True, returned_objects=[], key="results_map")
-            st.caption(WELL_CAUTION + " Click a district or a well for its figures.")
-        st.plotly_chart(district_supply_figure(result, technologies), width="stretch", config=FIGURE_CONFIG)
-
-    with tab_load:
-        districts = result.tables["districts"]
-        names = dict(zip(districts["district_id"], districts["name"]))
-        c1, c2, c3 = st.columns([2, 1.2, 2])
-        district = c1.selectbox("Where", [None] + list(names),
-                                format_func=lambda d: "Whole city" if d is None else names[d], key="results_where")
-        period = c2.radio("Period", ["year", "week"], format_func={"year": "Whole year", "week": "One week"}.get,
-                          key="results_period", horizontal=True)
-        week = c3.slider("Week of the year", 1, 52, 3, key="results_week", disabled=period == "year")
-        has_cooling = float(districts["cooling_demand_mwh_per_a"].sum()) > 0
-        quantity = "heat"
-        if has_cooling:
-            quantity = st.radio("Quantity", ["heat", "cooling"], horizontal=True, key="results_quantity",
-                                format_func=str.capitalize)
-        st.plotly_chart(
-            load_curve_figure(result, technologies, district_id=district,
-                              week=None if period == "year" else int(week), quantity=quantity),
-            width="stretch", config=FIGURE_CONFIG,
-        )
-        st.plotly_chart(
-            load_duration_figure({run_name: result}, district_id=district, quantity=quantity,
-                                 technologies=technologies),
-            width="stretch", config=FIGURE_CONFIG,
-        )
-
-    with tab_cost:
-        st.plotly_chart(cost_breakdown_figure({run_name: result}, by="district"), width="stretch",
-                        config=FIGURE_CONFIG)
-        table = wb.district_results_table(result, technologies)
-        st.dataframe(table, hide_index=True, width="stretch", height=wb.table_height(table),
-                     column_config={c: st.column_config.NumberColumn(format="localized") for c in table.columns[2:]})
-
-    with tab_tables:
-        st.markdown("**Supply per district and technology**")
-        table = wb.supply_results_table(result, technologies)
-        st.dataframe(table, hide_index=True, width="stretch", height=wb.table_height(table, 20),
-                     column_config={c: st.column_config.NumberColumn(format="localized") for c in table.columns[3:]})
-        st.caption("Technologies a district neither has nor builds are left out. Heat stores: capacity in kWh, "
-                   "heat is discharge minus charge (their loss).")
-        st.markdown("**Well doublets**")
-        wells = wb.well_results_table(result)
-        if wells.empty:
-            st.caption("No well doublets in this run.")
-        else:
-            st.dataframe(wells, hide_index=True, width="stretch", height=wb.table_height(wells),
-                         column_config={c: st.column_config.NumberColumn(format="localized")
-                                        for c in wells.columns[2:10]})
-            st.caption(WELL_CAUTION + " A binding limit means the permit, not the heat pump, sets the well's output.")
-
-    with tab_manage:
-        if picked == CURRENT:
-            st.info("This run is not in the library yet; save it on the set-up page.")
-            st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/save:")
-        else:
-            c1, c2 = st.columns(2, gap="large")
-            with c1:
-                st.markdown("**Rename**")
-                new_name = st.text_input("New name", value=info["name"], key=f"results_rename_{run_id}")
-                if st.button("Rename", key="results_rename_button"):
-                    try:
-                        store.rename_run(run_id, new_name)
-                        state["hm_flash"] = f"Renamed to “{new_name.strip()}”."
-                        st.rerun()
-                    except StoreError as error:
-                        st.error(str(error))
-                st.markdown("**Delete**")
-                sure = st.checkbox(f"Yes, delete “{info['name']}” from the library", key=f"results_sure_{run_id}")
-                if st.button("Delete run", disabled=not sure, key="results_delete", icon=":material/delete:"):
-                    store.delete_run(run_id)
-                    loaded.pop(run_id, None)
-                    state.pop("results_run", None)
-                    state["hm_flash"] = f"Deleted “{info['name']}”."
-                    st.rerun()
-            with c2:
-                st.markdown("**Re-open on the set-up page**")
-                st.caption("Puts this run's files and choices back on the set-up page, to change and solve again.")
-                if st.button("Re-open", key="results_reopen", icon=":material/edit:", disabled=scenario is None):
-                    reopened = wb.input_set_from_files(files, f"Saved run “{info['name']}”")
-                    state["hm_input"] = reopened
-                    state["hm_setup"] = {**wb.initial_setup(reopened, result.settings, result.cost_case),
-                                         "fresh": True}
-                    st.switch_page(PLAN_PAGE)
-                st.markdown("**Re-solve**")
-                st.caption("Solves the run again from its saved files; the result should match to solver precision.")
-                if st.button("Re-solve", key="results_resolve", icon=":material/replay:", disabled=scenario is None):
-                    bar = st.progress(0.0, text="Starting")
-                    again, _ = wb.resolve_saved_run(
-                        solved, scenario, files, result, f"re-solve of “{info['name']}”",
-                        progress=lambda share, text: bar.progress(min(max(float(share), 0.0), 1.0), text=text),
-                    )
-                    bar.empty()
-                    if again.result.solved:
-                        delta = again.result.total_cost_eur_per_a - result.total_cost_eur_per_a
-                        st.success(
-                            f"Re-solved: total cost {again.result.total_cost_eur_per_a:,.0f} €/a "
-                            f"(saved {result.total_cost_eur_per_a:,.0f} €/a, difference {delta:,.0f} €/a)."
-                        )
-                    else:
-                        st.error(f"The re-solve failed: {again.result.message}")
+# The tabs keep their selection across reruns (rename, re-solve ...), and only the open one is drawn.
+tabs = st.tabs(TABS, key="results_tab", on_change="rerun")
+for tab, draw in zip(tabs, (show_map, show_load_curves, show_costs, show_tables, show_manage)):
+    if tab.open:
+        with tab:
+            draw()

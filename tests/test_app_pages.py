@@ -7,6 +7,8 @@ the widgets (two cost cases) and once on the command line, in parallel, to keep 
 
 from __future__ import annotations
 
+import csv
+import io
 import json
 import os
 import subprocess
@@ -163,6 +165,11 @@ def test_results_page_shows_a_saved_run_and_reopens_it(session):
     assert not at.exception, at.exception
     total = float(runs[runs["run_id"] == reference_id]["total_cost_eur_per_a"].iloc[0])
     assert at.metric[0].value == f"{total / 1e6:,.2f}"
+    for tab in ("Load curves", "Costs", "Tables", "Manage run"):
+        at.session_state["results_tab"] = tab
+        at.run()
+        assert not at.exception, (tab, at.exception)
+    assert "Well doublets" not in _texts(at)  # only the open tab is drawn
     at.button(key="results_reopen").click().run()
     assert not at.exception, at.exception
     assert at.selectbox(key="setup_cost_case").value == "reference"
@@ -181,3 +188,42 @@ def test_share_page_and_overview_list_the_runs(session):
     assert not at.exception, at.exception
     library = at.dataframe[0].value
     assert set(library["name"]) == {"Reference prices", "High CO2 price"}
+
+
+def test_an_edited_cost_is_checked_solved_and_kept_in_the_run_files(session):
+    """On the set-up page a negative investment is listed with table, row and column and blocks the solve; a
+    valid edit is solved, and the run's files carry it: reading them again gives the run's input hash (the saved
+    run keeps exactly the inputs it was solved with)."""
+    from engine.inputs import input_hash
+    from engine.run import run_settings
+    from engine.workbench import choices_of_run, scenario_from_files
+
+    at = session["at"]
+    at.switch_page(PLAN).run()
+    setup = at.session_state["hm_setup"]
+    table = setup["technology_table"].copy()
+    row = int(table.index[table["technology_id"] == "air_hp"][0])
+    table.loc[row, "investment_eur_per_kw"] = -5.0
+    setup["technology_table"] = table
+    at.run()
+    assert not at.exception, at.exception
+    assert at.button(key="setup_solve").disabled
+    problems = [df.value for df in at.dataframe if "message" in df.value.columns][0]
+    assert list(problems[["file", "row", "column"]].itertuples(index=False, name=None)) == [
+        ("technology table", str(row + 1), "investment_eur_per_kw")]
+    table.loc[row, "investment_eur_per_kw"] = 800.0
+    setup["technology_table"] = table
+    at.run()
+    assert not at.button(key="setup_solve").disabled
+    assert any(e.label.startswith("1 value(s) differ") for e in at.expander)
+    at.button(key="setup_solve").click().run()
+    assert not at.exception, at.exception
+    run = at.session_state["hm_solved"][at.session_state["hm_current"]]
+    assert run.result.solved
+    rows = {r["technology_id"]: r for r in csv.DictReader(io.StringIO(run.files["technologies.csv"].decode()))}
+    assert float(rows["air_hp"]["investment_eur_per_kw"]) == 800.0
+    scenario, problems = scenario_from_files(run.files)
+    assert problems == []
+    choices = choices_of_run(run.result)
+    settings = run_settings(scenario, choices["objective"], choices["co2_cap_t_per_a"], choices["typical_days"])
+    assert input_hash(scenario, run.result.cost_case, settings) == run.result.input_hash
