@@ -118,6 +118,15 @@ MAX_HEAT_DENSITY_MWH_PER_KM2 = 2e6  # 20 000 MWh per hectare
 MAX_BUILDING_DEMAND_MWH_PER_A = 2e5  # 200 GWh/a for one building
 MAX_WELL_FLOW_M3_PER_H = 5000.0
 
+# Ceilings on money: far above anything a market or a catalogue shows, so that only unit slips and typing errors
+# hit them, and the LP never sees coefficients that large (common practice; the day-ahead power markets of
+# Europe cap prices at a few thousand EUR/MWh, from memory).
+MAX_PRICE_EUR_PER_MWH = 100_000.0
+MAX_FUEL_PRICE_EUR_PER_MWH = 10_000.0
+MAX_CO2_PRICE_EUR_PER_T = 10_000.0
+MAX_INVESTMENT_EUR_PER_KW = 100_000.0
+MAX_PRICE_FACTOR = 1000.0
+
 CELL_REPORT_LIMIT = 5
 """Bad cells listed per column and kind of problem before the rest are summed up in one line."""
 
@@ -161,6 +170,15 @@ _FILE_CONTENTS = {
     COST_CASES_FILE: "at least one [cases.<name>] table",
 }
 """What a required file or a TOML file must hold, for the message about an empty one (CSV: a header row)."""
+_CSV_ROWS = {
+    TECHNOLOGIES_FILE: "technology",
+    HOURLY_FILE: "hour of the year",
+    WELLS_FILE: "well doublet",
+    BUILDINGS_FILE: "building",
+    DISTRICT_TECHNOLOGIES_FILE: "district and technology",
+    HEAT_DEMAND_HOURLY_FILE: "hour of the year",
+    GROUNDWATER_TEMP_HOURLY_FILE: "hour of the year",
+}
 
 _ARCHIVE_SIGNATURES = {
     b"PK\x03\x04": "a zip archive (a spreadsheet workbook such as .xlsx or .ods, or a zipped layer)",
@@ -172,7 +190,8 @@ def _empty_message(name: str, required: bool) -> str:
     if not required and name != COST_CASES_FILE:
         return "is empty"
     if name.endswith(".csv"):
-        return "is empty; it must hold a header row with the column names and one row per entry"
+        entry = _CSV_ROWS.get(name, "entry")
+        return f"is empty; it must hold a header row with the column names and one row per {entry}"
     contents = _FILE_CONTENTS.get(name, "its data")
     return f"is empty; it must hold {contents} (see docs/input_format.md)" + (
         "" if required else ", or delete the file"
@@ -279,6 +298,9 @@ class _Table:
     labels: list[str] | None = None
     blank_text: str = "is blank"
     item_word: str = "rows"
+    skipped: frozenset = frozenset()
+    """Records whose cells are not checked one by one: rows with the wrong number of cells, reported already,
+    whose cells sit under the wrong headers."""
 
     def place(self, index: int) -> tuple[int, str]:
         prefix = self.labels[index] if self.labels else ""
@@ -307,6 +329,7 @@ def _read_csv(folder: Path, name: str, report: _Report, required: bool) -> _Tabl
     rows: list[int] = []
     kept: list[list[str]] = []
     ragged = 0
+    shifted: list[int] = []
     for index, record in enumerate(records[1:], start=2):
         if len(record) == width and record[0]:
             rows.append(index)  # the common case, kept cheap for year-long hourly files
@@ -323,6 +346,7 @@ def _read_csv(folder: Path, name: str, report: _Report, required: bool) -> _Tabl
                     hint = "; add the missing cells (an empty cell between two commas where the value is blank)"
                 report(name, index, None, f"has {len(record)} cells but the header has {width} columns{hint}")
             record = (record + [""] * width)[:width]
+            shifted.append(len(kept))
         rows.append(index)
         kept.append(record)
     if ragged > CELL_REPORT_LIMIT:
@@ -346,7 +370,7 @@ def _read_csv(folder: Path, name: str, report: _Report, required: bool) -> _Tabl
             continue
         columns[column] = cells
     frame = pd.DataFrame(columns) if columns else pd.DataFrame(index=range(len(kept)))
-    return _Table(name, frame.reset_index(drop=True), rows)
+    return _Table(name, frame.reset_index(drop=True), rows, skipped=frozenset(shifted))
 
 
 # ----------------------------------------------------------------------------- TOML
@@ -466,6 +490,8 @@ def _report_rows(
 ) -> None:
     """Report the first few flagged cells of a column and sum up the rest in one line."""
     positions = np.flatnonzero(mask)
+    if table.skipped:
+        positions = np.array([i for i in positions if int(i) not in table.skipped], dtype=int)
     for index in positions[:CELL_REPORT_LIMIT]:
         row, prefix = table.place(int(index))
         report(table.file, row, column, prefix + message(int(index)))
@@ -505,6 +531,8 @@ def _range_hint(spec: _Col, value: float) -> str:
         return f" (a share between 0 and 1, e.g. 0.4 for 40 %: if {value:g} is a percentage, write {value / 100:g})"
     if spec.low == 0 and spec.high == 1 and value < 0:
         return " (a share between 0 and 1: 0.4 means 40 %)"
+    if spec.high is not None and spec.high > 0 and value > 100 * spec.high:
+        return " (far above any plausible value: check the unit in the name)"
     return ""
 
 
@@ -721,7 +749,7 @@ RUN_KEYS = (
     _Col("objective", "text", default="cost"),
     _Col("discount_rate", default=0.05, low=-0.05, high=0.3),
     _Col("typical_days", "integer", default=12, low=0, high=366),
-    _Col("value_of_unserved_heat_eur_per_mwh", default=5000.0, low=0),
+    _Col("value_of_unserved_heat_eur_per_mwh", default=5000.0, low=0, high=MAX_PRICE_EUR_PER_MWH * 10),
     _Col("allow_unserved_heat", "bool", default=True),
     _Col("co2_cap_t_per_a", default=0.0, low=0),
     _Col("network_plant_limit_kw", default=0.0, low=0),
@@ -731,10 +759,10 @@ RUN_KEYS = (
     _Col("reinjection_max_temp_c", default=20.0, low=0, high=40),
 )
 PRICE_KEYS = (
-    _Col("gas_eur_per_mwh", low=0),
-    _Col("oil_eur_per_mwh", low=0),
-    _Col("biomass_eur_per_mwh", low=0),
-    _Col("co2_eur_per_t", low=0),
+    _Col("gas_eur_per_mwh", low=0, high=MAX_FUEL_PRICE_EUR_PER_MWH),
+    _Col("oil_eur_per_mwh", low=0, high=MAX_FUEL_PRICE_EUR_PER_MWH),
+    _Col("biomass_eur_per_mwh", low=0, high=MAX_FUEL_PRICE_EUR_PER_MWH),
+    _Col("co2_eur_per_t", low=0, high=MAX_CO2_PRICE_EUR_PER_T),
 )
 CO2_FACTOR_KEYS = tuple(
     _Col(f"{fuel}_kg_per_mwh", default=DEFAULT_CO2_KG_PER_MWH[fuel], low=0, high=2000) for fuel in FUELS
@@ -743,12 +771,12 @@ AQUIFER_KEYS = (
     _Col("flow_direction_deg", default=90.0, low=0, high=360),
     _Col("darcy_velocity_m_per_d", default=0.5, low=0, high=100),
     _Col("effective_porosity", default=0.2, low=0, high=1, low_open=True),
-    _Col("saturated_thickness_m", default=15.0, low=0, low_open=True),
-    _Col("longitudinal_dispersivity_m", default=5.0, low=0),
-    _Col("transverse_dispersivity_m", default=0.5, low=0),
+    _Col("saturated_thickness_m", default=15.0, low=0, high=1000, low_open=True),
+    _Col("longitudinal_dispersivity_m", default=5.0, low=0, high=10_000),
+    _Col("transverse_dispersivity_m", default=0.5, low=0, high=10_000),
     _Col("aquifer_heat_capacity_mj_per_m3_k", default=2.8, low=0, high=10, low_open=True),
     _Col("water_heat_capacity_mj_per_m3_k", default=4.18, low=0, high=10, low_open=True),
-    _Col("reinjection_offset_m", default=100.0, low=0, low_open=True),
+    _Col("reinjection_offset_m", default=100.0, low=0, high=10_000, low_open=True),
 )
 SCENARIO_SECTIONS = {"run": RUN_KEYS, "prices": PRICE_KEYS, "co2_factors": CO2_FACTOR_KEYS, "aquifer": AQUIFER_KEYS}
 REQUIRED_SECTIONS = ("run", "prices")
@@ -771,7 +799,10 @@ def _toml_value_problem(value: Any, spec: _Col) -> str | None:
                 hint = _cell_hint(value)
         return f"must be {spec.need_text()}, got {value!r}{hint}"
     if not math.isfinite(value) and not spec.allow_inf:
-        return f"must be a finite number{' ' + spec.range_text() if spec.range_text() else ''}, got {value!r}"
+        return (
+            f"must be a finite number{' ' + spec.range_text() if spec.range_text() else ''}, got {value!r} "
+            "(enter the actual value)"
+        )
     if spec.kind == "integer" and value != int(value):
         return f"must be a whole number, got {value!r}"
     if not spec.in_range(np.array([float(value)]))[0]:
@@ -887,16 +918,16 @@ def _load_settings(folder: Path, report: _Report) -> tuple[Settings, Prices, Aqu
 # ============================================================================= cost_cases.toml
 CASE_KEYS = (
     _Col("description", "text", default="Prices as given in the scenario"),
-    _Col("co2_eur_per_t", default=None, low=0),
-    _Col("gas_price_factor", default=1.0, low=0),
-    _Col("oil_price_factor", default=1.0, low=0),
-    _Col("biomass_price_factor", default=1.0, low=0),
-    _Col("electricity_price_factor", default=1.0, low=0),
-    _Col("network_price_factor", default=1.0, low=0),
+    _Col("co2_eur_per_t", default=None, low=0, high=MAX_CO2_PRICE_EUR_PER_T),
+    _Col("gas_price_factor", default=1.0, low=0, high=MAX_PRICE_FACTOR),
+    _Col("oil_price_factor", default=1.0, low=0, high=MAX_PRICE_FACTOR),
+    _Col("biomass_price_factor", default=1.0, low=0, high=MAX_PRICE_FACTOR),
+    _Col("electricity_price_factor", default=1.0, low=0, high=MAX_PRICE_FACTOR),
+    _Col("network_price_factor", default=1.0, low=0, high=MAX_PRICE_FACTOR),
 )
 CASE_TABLES = {
     "subsidy_share": _Col("subsidy_share", low=0, high=1),
-    "investment_factor": _Col("investment_factor", low=0),
+    "investment_factor": _Col("investment_factor", low=0, high=MAX_PRICE_FACTOR),
 }
 
 
@@ -1191,13 +1222,13 @@ TECHNOLOGY_COLUMNS = (
     _Col("cop_quality_grade", in_header=False, default=0.5, low=0, high=1, low_open=True),
     _Col("source_approach_k", in_header=False, default=5.0, low=0, high=30),
     _Col("sink_approach_k", in_header=False, default=3.0, low=0, high=30),
-    _Col("investment_eur_per_kw", low=0),
+    _Col("investment_eur_per_kw", low=0, high=MAX_INVESTMENT_EUR_PER_KW),
     _Col("fixed_om_pct_per_a", default=0.0, low=0, high=100),
-    _Col("variable_om_eur_per_mwh", default=0.0, low=0),
+    _Col("variable_om_eur_per_mwh", default=0.0, low=0, high=MAX_FUEL_PRICE_EUR_PER_MWH),
     _Col("lifetime_a", low=0, high=100, low_open=True),
     _Col("store_loss_pct_per_h", in_header=False, default=0.0, low=0, high=100),
     _Col("store_efficiency", in_header=False, default=1.0, low=0, high=1, low_open=True),
-    _Col("store_hours", in_header=False, default=KEEP, low=0, low_open=True),
+    _Col("store_hours", in_header=False, default=KEEP, low=0, high=8784, low_open=True),
 )
 
 
@@ -1269,6 +1300,17 @@ def _check_technology_parameters(report: _Report, table: _Table, frame: pd.DataF
         store & hours_blank,
         lambda i: "is blank; a heat_store needs its hours to charge at full power (> 0)",
     )
+    lifetime = frame["lifetime_a"].to_numpy(dtype=float)
+    with np.errstate(invalid="ignore"):
+        short = lifetime < 1
+    _report_rows(
+        report,
+        table,
+        "lifetime_a",
+        short,
+        lambda i: f"a lifetime of {lifetime[i]:g} years is shorter than one year, which no plant has; the column is "
+        "in years (a): 20 means twenty years",
+    )
     frame["efficiency"] = np.where(np.isnan(efficiency) & ~eer, 1.0, efficiency)
     frame["store_hours"] = np.where(np.isnan(hours) & ~store, 0.0, hours)
 
@@ -1305,6 +1347,7 @@ def _check_references(
         return np.zeros(len(values), dtype=bool)
     known_set = set(known)
     bad = np.array([v != "" and v not in known_set for v in values], dtype=bool)
+    known = list(dict.fromkeys(known))
     shown = ", ".join(known[:20]) + (", ..." if len(known) > 20 else "") if known else "(none)"
 
     def message(i: int) -> str:
@@ -1362,7 +1405,11 @@ def _check_points(report: _Report, table: _Table, frame: pd.DataFrame, lon: str,
     usable = np.isfinite(lons) & np.isfinite(lats)
     messages = [geometry.coordinate_problem(x, y) if ok else None for x, y, ok in zip(lons, lats, usable)]
     bad = np.array([m is not None for m in messages], dtype=bool)
-    _report_rows(report, table, lon, bad, lambda i: messages[i])
+    with np.errstate(invalid="ignore"):
+        # A latitude beyond +-90 (swapped axes) belongs to the lat column; projected metres to the pair, under lon.
+        lat_only = (np.abs(lats) > 90) & (np.abs(lats) <= geometry.PROJECTED_THRESHOLD) & (np.abs(lons) <= 180)
+    _report_rows(report, table, lon, bad & ~lat_only, lambda i: messages[i])
+    _report_rows(report, table, lat, bad & lat_only, lambda i: messages[i])
     return usable & ~bad
 
 
@@ -1575,9 +1622,9 @@ def _add_buildings(districts: pd.DataFrame, buildings: pd.DataFrame | None) -> N
 HOURLY_COLUMNS = (
     _Col("hour", "integer"),
     _Col("outdoor_temp_c", low=-60, high=60),
-    _Col("electricity_price_eur_per_mwh"),
+    _Col("electricity_price_eur_per_mwh", low=-MAX_PRICE_EUR_PER_MWH, high=MAX_PRICE_EUR_PER_MWH),
     _Col("grid_co2_kg_per_mwh", low=0, high=2000),
-    _Col("network_price_eur_per_mwh", low=0),
+    _Col("network_price_eur_per_mwh", low=0, high=MAX_PRICE_EUR_PER_MWH),
     _Col("network_co2_kg_per_mwh", low=0, high=2000),
 )
 
