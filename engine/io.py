@@ -1300,19 +1300,39 @@ def _check_technology_parameters(report: _Report, table: _Table, frame: pd.DataF
         store & hours_blank,
         lambda i: "is blank; a heat_store needs its hours to charge at full power (> 0)",
     )
-    lifetime = frame["lifetime_a"].to_numpy(dtype=float)
-    with np.errstate(invalid="ignore"):
-        short = lifetime < 1
-    _report_rows(
-        report,
-        table,
-        "lifetime_a",
-        short,
-        lambda i: f"a lifetime of {lifetime[i]:g} years is shorter than one year, which no plant has; the column is "
-        "in years (a): 20 means twenty years",
-    )
+    _check_technology_minimums(report, table, frame, boiler, eer, store)
     frame["efficiency"] = np.where(np.isnan(efficiency) & ~eer, 1.0, efficiency)
     frame["store_hours"] = np.where(np.isnan(hours) & ~store, 0.0, hours)
+
+
+TECHNOLOGY_MINIMUMS = (
+    # column, which rows, smallest plausible value, what the column means (for the message)
+    ("lifetime_a", "all", 1.0, "a lifetime in years (a): 20 means twenty years"),
+    ("efficiency", "boiler", 0.3, "a thermal efficiency as a share (0.95, not 95 %); boilers reach 0.8 to 1.1"),
+    ("efficiency", "eer", 0.5, "an EER (cooling out per electricity in); chillers reach 2 to 6"),
+    ("store_efficiency", "store", 0.1, "a round-trip efficiency as a share; hot-water stores reach 0.5 to 0.98"),
+    ("store_hours", "store", 0.1, "hours to charge the full store at full power; tanks take 2 to 24 h"),
+)
+"""Values allowed by the ranges of :data:`TECHNOLOGY_COLUMNS` but too small for any plant (typing errors or unit
+slips); a divisor this small would also put coefficients near 1e300 into the LP. Typical values: common
+practice."""
+
+
+def _check_technology_minimums(
+    report: _Report, table: _Table, frame: pd.DataFrame, boiler: np.ndarray, eer: np.ndarray, store: np.ndarray
+) -> None:
+    rows = {"all": np.ones(len(frame), dtype=bool), "boiler": boiler, "eer": eer, "store": store}
+    for column, which, smallest, meaning in TECHNOLOGY_MINIMUMS:
+        values = frame[column].to_numpy(dtype=float)
+        with np.errstate(invalid="ignore"):
+            small = rows[which] & (values > 0) & (values < smallest)
+        _report_rows(
+            report,
+            table,
+            column,
+            small,
+            lambda i: f"{values[i]:g} is implausibly small (below {smallest:g}); the column holds {meaning}",
+        )
 
 
 def _load_technologies(folder: Path, report: _Report) -> tuple[_Table, pd.DataFrame] | None:
