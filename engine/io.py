@@ -215,6 +215,13 @@ def _undecodable_cell(name: str, data: bytes, start: int) -> tuple[int, str | No
     return line, None
 
 
+def _size_text(size: int) -> str:
+    for unit, scale in (("GB", 1024**3), ("MB", 1024**2), ("kB", 1024)):
+        if size >= scale:
+            return f"{size / scale:.3g} {unit}"
+    return f"{size} bytes"
+
+
 def _read_text(folder: Path, name: str, report: _Report, required: bool) -> str | None:
     """The file's text (UTF-8, a BOM allowed), or None after reporting why it cannot be used."""
     path = folder / name
@@ -234,8 +241,8 @@ def _read_text(folder: Path, name: str, report: _Report, required: bool) -> str 
             name,
             None,
             None,
-            f"is {size / 1024**2:.0f} MB, larger than the {MAX_FILE_BYTES / 1024**2:.0f} MB limit for one input "
-            "file; aggregate the data (e.g. buildings to blocks) before loading",
+            f"is {_size_text(size)}, larger than the {_size_text(MAX_FILE_BYTES)} limit for one input file; "
+            "aggregate the data (e.g. buildings to blocks) before loading",
         )
         return None
     data = path.read_bytes()

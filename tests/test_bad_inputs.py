@@ -212,7 +212,7 @@ def test_size_limit_is_checked_before_reading(tmp_path, monkeypatch):
 
     monkeypatch.setattr(Path, "read_bytes", spy)
     problems = io.validate_scenario(folder)
-    too_big = {p.file for p in problems if "larger than the 0 MB limit" in p.message and "aggregate" in p.message}
+    too_big = {p.file for p in problems if "larger than the 1 kB limit" in p.message and "aggregate" in p.message}
     expected = {path.name for path in folder.iterdir() if path.stat().st_size > 1024}
     assert too_big == expected and "hourly.csv" in too_big
     assert not set(read) & too_big
