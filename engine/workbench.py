@@ -14,7 +14,8 @@ The pages keep their state under these keys of ``st.session_state`` (plain Pytho
 ``hm_setup``
     The set-up choices, kept while the planner visits other pages: ``cost_case``, ``objective``,
     ``co2_cap_t_per_a``, ``full_year``, ``typical_days``, ``technology_table``, ``well_table``
-    (the edited tables as DataFrames).
+    (the edited tables as DataFrames) and ``technology_base``, ``well_base`` (the data the table editors were
+    started from; it stays fixed while an editor lives, so the browser keeps the edits).
 ``hm_solved``
     The session's solve cache, ``{request key: SolvedRun}`` (see :func:`request_key` and
     :func:`solve_with_cache`), so that going back to a cost case already solved is instant.

@@ -140,13 +140,20 @@ for widget, name in WIDGETS.items():
 
 # ------------------------------------------------------------------------------------------------ 3 costs and permits
 token = inputs.digest[:12]
+tech_key, wells_key = f"setup_tech_{token}", f"setup_wells_{token}"
+# An editor's data must stay the same while it lives, or the browser drops its edits (and a click with them). It
+# starts from the kept edits whenever it is new: first visit, back from another page, or after a reset.
+if tech_key not in state:
+    setup["technology_base"] = setup["technology_table"]
+if wells_key not in state:
+    setup["well_base"] = setup["well_table"]
 with st.container(border=True):
     st.subheader("3 · Technology costs and well permits")
     st.caption("Change a cell to test another assumption; the saved run keeps the values it was solved with.")
     tab_tech, tab_wells = st.tabs(["Technology costs", f"Well permits ({len(scenario.wells)})"])
     with tab_tech:
         technology_table = st.data_editor(
-            setup["technology_table"], key=f"setup_tech_{token}", hide_index=True, num_rows="fixed",
+            setup["technology_base"], key=tech_key, hide_index=True, num_rows="fixed",
             width="stretch", disabled=["technology_id", "name", "kind"],
             column_order=[c for c in setup["technology_table"].columns if c != "technology_id"],
             column_config={
@@ -173,7 +180,7 @@ with st.container(border=True):
         if len(scenario.wells):
             st.caption("Permits are set by the water authority; changing them here is a what-if for screening.")
             well_table = st.data_editor(
-                setup["well_table"], key=f"setup_wells_{token}", hide_index=True, num_rows="fixed",
+                setup["well_base"], key=wells_key, hide_index=True, num_rows="fixed",
                 width="stretch", disabled=["well_id", "district_id"],
                 column_config={
                     "well_id": st.column_config.TextColumn("Well doublet"),

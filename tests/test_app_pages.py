@@ -204,7 +204,7 @@ def test_an_edited_cost_is_checked_solved_and_kept_in_the_run_files(session):
     table = setup["technology_table"].copy()
     row = int(table.index[table["technology_id"] == "air_hp"][0])
     table.loc[row, "investment_eur_per_kw"] = -5.0
-    setup["technology_table"] = table
+    setup["technology_table"] = setup["technology_base"] = table  # as if typed into the editor
     at.run()
     assert not at.exception, at.exception
     assert at.button(key="setup_solve").disabled
@@ -212,7 +212,7 @@ def test_an_edited_cost_is_checked_solved_and_kept_in_the_run_files(session):
     assert list(problems[["file", "row", "column"]].itertuples(index=False, name=None)) == [
         ("technology table", str(row + 1), "investment_eur_per_kw")]
     table.loc[row, "investment_eur_per_kw"] = 800.0
-    setup["technology_table"] = table
+    setup["technology_table"] = setup["technology_base"] = table
     at.run()
     assert not at.button(key="setup_solve").disabled
     assert any(e.label.startswith("1 value(s) differ") for e in at.expander)
