@@ -58,7 +58,7 @@ from engine.inputs import Scenario, input_hash
 from engine.problems import InputError, Problem, problems_frame
 from engine.results import RunResult
 from engine.run import run_settings, solve_scenario
-from engine.store import SCENARIO_FILES, ScenarioStore, StoreError, check_scenario_files, read_scenario_files
+from engine.store import ScenarioStore, StoreError, check_scenario_files, read_scenario_files
 
 CAUTION_LINE = (
     "Screening results for early planning only. Well permits, aquifer temperatures and investments must be "
@@ -391,7 +391,9 @@ def _parse_edits(scenario, technology_table, well_table):
     problems: list[Problem] = []
     parsed: dict[str, np.ndarray] = {}
     tech_ids = [str(t) for t in scenario.technologies["technology_id"]]
-    frame_problems = _check_frame(technology_table, TECHNOLOGY_TABLE, TECHNOLOGY_TABLE_COLUMNS, "technology_id", tech_ids)
+    frame_problems = _check_frame(
+        technology_table, TECHNOLOGY_TABLE, TECHNOLOGY_TABLE_COLUMNS, "technology_id", tech_ids
+    )
     problems += frame_problems
     specs = scenario_io.TECHNOLOGY_COLUMNS
     if not frame_problems:
@@ -742,6 +744,18 @@ def load_saved_run(store: ScenarioStore, cache: MutableMapping, run_id: int) -> 
     return cache[run_id]
 
 
+def describe_choices(result: RunResult) -> str:
+    """One line (Markdown) with a run's cost case, objective, CO2 cap and time resolution."""
+    choice = choices_of_run(result)
+    objective = "lowest CO2" if choice["objective"] == "co2" else "lowest cost"
+    cap = choice["co2_cap_t_per_a"]
+    days = choice["typical_days"]
+    return (
+        f"Cost case **{choice['cost_case']}** · objective **{objective}** · CO2 cap "
+        f"{f'{cap:,.0f} t/a' if cap else 'none'} · {f'{days} typical days' if days else 'full year'}"
+    )
+
+
 def suggested_run_name(result: RunResult) -> str:
     """A default name for saving: cost case, objective and resolution."""
     days = int(result.settings.get("typical_days", 0) or 0)
@@ -800,7 +814,9 @@ def district_results_table(result: RunResult, technologies: pd.DataFrame | None 
     return _rounded(out)
 
 
-def supply_results_table(result: RunResult, technologies: pd.DataFrame | None = None, all_rows: bool = False) -> pd.DataFrame:
+def supply_results_table(
+    result: RunResult, technologies: pd.DataFrame | None = None, all_rows: bool = False
+) -> pd.DataFrame:
     """Capacity and annual output per district and technology (and well), in the planner's words.
 
     Rows with neither capacity nor output are left out unless ``all_rows``. Heat stores show their storage
@@ -1001,6 +1017,7 @@ __all__ = [
     "technology_names",
     "well_results_table",
     "default_baseline",
+    "describe_choices",
     "demo_input_set",
     "editable_technology_table",
     "editable_well_table",

@@ -80,16 +80,11 @@ else:
 scenario = wb.scenario_for_files(scenarios, files)
 technologies = scenario.technologies if scenario is not None else None
 
-choice = wb.choices_of_run(result)
-cap = choice["co2_cap_t_per_a"]
-st.markdown(
-    f"Cost case **{choice['cost_case']}** · objective **{'lowest CO2' if choice['objective'] == 'co2' else 'lowest cost'}"
-    f"** · CO2 cap {f'{cap:,.0f} t/a' if cap else 'none'} · "
-    + (f"{choice['typical_days']} typical days" if choice["typical_days"] else "full year")
-)
+st.markdown(wb.describe_choices(result))
 if info is not None:
     note = f" · note: {info['note']}" if info["note"] else ""
-    st.caption(f"Saved {str(info['created_utc'])[:16].replace('T', ' ')} UTC{note} · input hash {result.input_hash[:12]}")
+    saved = str(info["created_utc"])[:16].replace("T", " ")
+    st.caption(f"Saved {saved} UTC{note} · input hash {result.input_hash[:12]}")
 
 
 def numbers(table, first: int, last: int | None = None) -> dict:

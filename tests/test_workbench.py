@@ -21,7 +21,6 @@ import pytest
 from engine import workbench as wb
 from engine.bundle import export_bundle
 from engine.inputs import input_hash
-from engine.io import DEMO_DIR
 from engine.problems import InputError
 from engine.results import RunResult
 from engine.run import run_settings
@@ -291,6 +290,8 @@ def test_choices_of_a_run_restore_the_set_up(tiny, tiny_cache):
     assert (year["cost_case"], year["objective"], year["full_year"]) == ("high_co2", "co2", True)
     assert wb.initial_setup(tiny, None, "no such case")["cost_case"] == "reference"
     assert wb.suggested_run_name(run.result) == f"reference, lowest cost, {TINY_DAYS} typical days"
+    assert wb.describe_choices(run.result) == (
+        f"Cost case **reference** · objective **lowest cost** · CO2 cap none · {TINY_DAYS} typical days")
 
 
 def test_result_tables_for_reading_add_up_to_the_city_figures(tiny, tiny_cache):
