@@ -702,11 +702,20 @@ def solve_with_cache(
             run = dataclasses.replace(solved, label=label)
             remember(cache, key, run)
             return run, True
-    result = solve_scenario(
-        scenario, cost_case=cost_case, settings=settings, progress=progress, cancel=cancel, workers=1
-    )
+    try:
+        result = solve_scenario(
+            scenario, cost_case=cost_case, settings=settings, progress=progress, cancel=cancel, workers=1
+        )
+    except Exception as exc:  # a planner sees a message, never a traceback; a failed solve is not cached
+        result = RunResult(
+            status="error", message=f"The run could not be solved ({type(exc).__name__}: {exc}).",
+            objective=settings.objective, cost_case=cost_case, input_hash=hash_, scenario_name=settings.name,
+            settings=dataclasses.asdict(settings),
+        )
+        return SolvedRun(result=result, files=dict(files), label=label, input_hash=hash_), False
     run = SolvedRun(result=result, files=dict(files), label=label, input_hash=result.input_hash)
-    remember(cache, key, run)
+    if result.solved:
+        remember(cache, key, run)
     return run, False
 
 

@@ -220,6 +220,7 @@ with st.container(border=True):
     clicked = st.button("Solve", type="primary", icon=":material/play_arrow:", disabled=bool(edit_problems),
                         key="setup_solve")
     earlier = key in solved and not clicked and state.get("setup_just_solved") != key
+    run: wb.SolvedRun | None = solved.get(key)
     if clicked:
         bar = st.progress(0.0, text="Starting")
         started = time.perf_counter()
@@ -234,12 +235,12 @@ with st.container(border=True):
         )
         bar.progress(1.0, text=("Found in this session's runs" if from_cache else "Solved")
                      + f" in {time.perf_counter() - started:.1f} s")
-        state["hm_current"] = key
-        state["setup_just_solved"] = key
+        if run.result.solved:
+            state["hm_current"] = key
+            state["setup_just_solved"] = key
     elif earlier:
         state["hm_current"] = key
         st.caption("Solved earlier in this session with these very choices: shown straight away.")
-    run: wb.SolvedRun | None = solved.get(key)
     if run is None:
         st.info("Press Solve to compute this run (the demo city takes a few seconds).")
     else:

@@ -110,7 +110,11 @@ st.caption(WELL_CAUTION)
 
 # ------------------------------------------------------------------------------------------------ load curves
 st.subheader("Load curves")
-first = results[baseline]
+solved_runs = {name: result for name, result in results.items() if result.solved}
+if not solved_runs:
+    st.info("None of these runs solved, so there are no load curves or costs to show.")
+    st.stop()
+first = solved_runs.get(baseline) or next(iter(solved_runs.values()))
 district_names = dict(zip(first.tables["districts"]["district_id"], first.tables["districts"]["name"]))
 c1, c2, c3, c4 = st.columns([2, 1.6, 1.2, 1.6])
 district = c1.selectbox("Where", [None] + list(district_names),
@@ -122,8 +126,8 @@ period = c3.radio("Period", ["year", "week"], format_func={"year": "Whole year",
 week = c4.slider("Week of the year", 1, 52, 3, key="compare_week", disabled=layout == "overlay" or period == "year")
 week = "year" if period == "year" else week
 if layout == "side":
-    columns = st.columns(min(len(results), 2))
-    for k, (name, result) in enumerate(results.items()):
+    columns = st.columns(min(len(solved_runs), 2))
+    for k, (name, result) in enumerate(solved_runs.items()):
         with columns[k % len(columns)]:
             st.markdown(f"**{name}**")
             fig = load_curve_figure(result, technologies, district_id=district,

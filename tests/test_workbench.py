@@ -353,3 +353,15 @@ def test_names_and_labels():
     assert wb.default_baseline({4: runs[3], 2: runs[3]}) == 2
     frame = pd.DataFrame({"a": range(3)})
     assert wb.table_height(frame) == 38 + 3 * 35
+
+
+def test_a_solve_that_fails_gives_a_message_and_is_not_kept(tiny):
+    """An error inside the engine reaches the page as a run with status 'error' and a message naming the error,
+    never as an exception, and the cache keeps no failed run (common practice: retrying must solve again)."""
+    cache: dict = {}
+    key = wb.request_key(tiny.digest, None, None, "reference", "money", 0.0, TINY_DAYS)
+    run, from_cache = wb.solve_with_cache(cache, key, tiny.scenario, tiny.files, tiny.label, "reference", "money",
+                                          0.0, TINY_DAYS)
+    assert from_cache is False and cache == {}
+    assert run.result.status == "error" and not run.result.solved
+    assert "ValueError" in run.result.message and "objective" in run.result.message
