@@ -305,6 +305,7 @@ class _Table:
     labels: list[str] | None = None
     blank_text: str = "is blank"
     item_word: str = "rows"
+    header_row: int = 1
     skipped: frozenset = frozenset()
     """Records whose cells are not checked one by one: rows with the wrong number of cells, reported already,
     whose cells sit under the wrong headers."""
@@ -322,22 +323,48 @@ def _read_csv(folder: Path, name: str, report: _Report, required: bool) -> _Tabl
     text = _read_text(folder, name, report, required)
     if text is None:
         return None
+    reader = csv.reader(io.StringIO(text, newline=""))
+    records: list[list[str]] = []
+    last_line = 0  # line where the last complete record ended
     try:
-        records = list(csv.reader(io.StringIO(text, newline="")))
+        for record in reader:
+            records.append(record)
+            last_line = reader.line_num
     except csv.Error as error:
-        report(name, None, None, f"is not a readable CSV file ({error}); save it again as 'CSV UTF-8' (comma separated)")
+        hint = "save it again as 'CSV UTF-8' (comma separated)"
+        if "field larger" in str(error):
+            hint = "a quote (\") opened on this row is probably not closed and swallows the rest of the file: " \
+                   "close it, or " + hint
+        report(name, last_line + 1, None, f"is not a readable CSV file ({error}); {hint}")
         return None
-    header = [cell.strip() for cell in records[0]]
+    filled = [i for i, record in enumerate(records) if "".join(record).strip()]
+    if not filled:
+        report(name, None, None, "holds only empty cells; it needs a header row with the column names")
+        return None
+    first = filled[0]  # blank lines above the header are skipped, as below it; rows keep their numbers
+    header_row = first + 1
+    header = [cell.strip() for cell in records[first]]
     if len(header) == 1 and (";" in header[0] or "\t" in header[0]):
         separator = "';'" if ";" in header[0] else "tabs"
-        report(name, 1, None, f"uses {separator} to separate columns; the format needs commas (and '.' decimals)")
+        report(
+            name, header_row, None, f"uses {separator} to separate columns; the format needs commas (and '.' decimals)"
+        )
+        return None
+    if len(header) == 1 and len(filled) > 1 and len(records[filled[1]]) > 1:
+        report(
+            name,
+            header_row,
+            None,
+            f"holds one cell ('{_printable(header[0])}') but row {filled[1] + 1} holds {len(records[filled[1]])}: "
+            "the first row must be the header with the column names; delete any title rows above it",
+        )
         return None
     width = len(header)
     rows: list[int] = []
     kept: list[list[str]] = []
     ragged = 0
     shifted: list[int] = []
-    for index, record in enumerate(records[1:], start=2):
+    for index, record in enumerate(records[first + 1 :], start=first + 2):
         if len(record) == width and record[0]:
             rows.append(index)  # the common case, kept cheap for year-long hourly files
             kept.append(record)
@@ -347,8 +374,10 @@ def _read_csv(folder: Path, name: str, report: _Report, required: bool) -> _Tabl
         if len(record) != width:
             ragged += 1
             if ragged <= CELL_REPORT_LIMIT:
-                if len(record) > width:
+                if width > 1 and len(record) > width:
                     hint = "; a ',' used as decimal mark splits a number into two cells: use '.' (or quote the cell)"
+                elif len(record) > width:
+                    hint = "; the header row lacks column names"
                 else:
                     hint = "; add the missing cells (an empty cell between two commas where the value is blank)"
                 report(name, index, None, f"has {len(record)} cells but the header has {width} columns{hint}")
@@ -358,6 +387,8 @@ def _read_csv(folder: Path, name: str, report: _Report, required: bool) -> _Tabl
         kept.append(record)
     if ragged > CELL_REPORT_LIMIT:
         report(name, None, None, f"... and {ragged - CELL_REPORT_LIMIT} more rows with the wrong number of cells")
+    if '"' in text:
+        _check_open_quotes(report, name, header, rows, kept)
     columns: dict[str, pd.Series] = {}
     for position, values in enumerate(zip(*kept) if kept else [()] * width):
         column = header[position]
@@ -366,18 +397,39 @@ def _read_csv(folder: Path, name: str, report: _Report, required: bool) -> _Tabl
             if (cells != "").any():
                 report(
                     name,
-                    1,
+                    header_row,
                     None,
                     f"column {position + 1} holds values but has no header; give it a header (a name starting with "
                     "'note' for remarks) or delete its values",
                 )
             continue
         if column in columns:
-            report(name, 1, column, "appears twice in the header; delete or rename one of the two columns")
+            report(name, header_row, column, "appears twice in the header; delete or rename one of the two columns")
             continue
         columns[column] = cells
     frame = pd.DataFrame(columns) if columns else pd.DataFrame(index=range(len(kept)))
-    return _Table(name, frame.reset_index(drop=True), rows, skipped=frozenset(shifted))
+    return _Table(name, frame.reset_index(drop=True), rows, skipped=frozenset(shifted), header_row=header_row)
+
+
+def _check_open_quotes(report: _Report, name: str, header: list[str], rows: list[int], kept: list[list[str]]) -> None:
+    """A cell that runs over several lines holding what look like further rows: a quote was left open, and the
+    rows after it would silently vanish into one cell."""
+    width = len(header)
+    for row, record in zip(rows, kept):
+        for position, cell in enumerate(record):
+            if "\n" not in cell and "\r" not in cell:
+                continue
+            swallowed = [line for line in cell.splitlines()[1:] if width > 1 and line.count(",") >= width - 1]
+            if swallowed:
+                column = header[position] if position < len(header) else None
+                report(
+                    name,
+                    row,
+                    column or None,
+                    f"a quote (\") opened in this cell is not closed: the cell runs over {len(cell.splitlines())} "
+                    f"lines and swallows {len(swallowed)} line(s) that look like rows; close or remove the quote",
+                )
+                return  # the rest of the file is inside this cell
 
 
 # ----------------------------------------------------------------------------- TOML
@@ -654,7 +706,7 @@ def _timestamp_column(report: _Report, table: _Table) -> str | None:
             example = f" such as '{_printable(first)}'" if first else ""
             report(
                 table.file,
-                1,
+                table.header_row,
                 column,
                 f"holds time stamps{example} where the column 'hour' belongs; replace it by a column hour counting "
                 "hour 0, 1, 2, ... n-1 from the first hour of the year (no dates, no time zones)",
@@ -693,7 +745,9 @@ def _check_header(report: _Report, table: _Table, specs: tuple[_Col, ...]) -> No
             if spec.name == "hour" and stamps is not None:
                 continue
             unknown = [c for c in present if c not in known and not c.lower().startswith("note")]
-            close = difflib.get_close_matches(spec.name, unknown, n=1, cutoff=0.7)
+            close = [c for c in unknown if c.lower() == spec.name] or difflib.get_close_matches(
+                spec.name, unknown, n=1, cutoff=0.7
+            )
             if close:
                 hint = f"; is '{close[0]}' meant to be it? Rename it (and convert its values if the unit differs)"
             else:
@@ -702,11 +756,11 @@ def _check_header(report: _Report, table: _Table, specs: tuple[_Col, ...]) -> No
     for column in present:
         if column in known or column.lower().startswith("note") or column == stamps:
             continue
-        close = difflib.get_close_matches(column, known, n=1, cutoff=0.6)
+        close = [k for k in known if k == column.lower()] or difflib.get_close_matches(column, known, n=1, cutoff=0.6)
         hint = f"did you mean '{close[0]}'? " if close else ""
         report(
             table.file,
-            1,
+            table.header_row,
             column,
             f"unknown column; {hint}known columns: {', '.join(known)} "
             "(extra columns are allowed only when their name starts with 'note')",
@@ -1770,7 +1824,12 @@ def _load_id_series(
             if column not in known_ids:
                 close = difflib.get_close_matches(column, known_ids, n=1, cutoff=0.6)
                 hint = f"did you mean '{close[0]}'? " if close else ""
-                report(name, 1, column, f"is not a known {what} id; {hint}each column after hour must be a {what} id")
+                report(
+                    name,
+                    table.header_row,
+                    column,
+                    f"is not a known {what} id; {hint}each column after hour must be a {what} id",
+                )
     if not columns:
         report(name, None, None, f"has no {what} columns after hour")
     specs = tuple(dataclasses.replace(value, name=column) for column in columns)
