@@ -87,22 +87,27 @@ with tab_curve:
     else:
         table, results = curves[curve_key]
         points = [int(p) for p in table.loc[table["status"] == "optimal", "point"]]
-        chosen = state.get(f"tradeoffs_chosen_{curve_key}", points[0] if points else 0)
-        event = st.plotly_chart(tradeoff_figure(table, chosen), key=f"tradeoffs_chart_{curve_key}",
-                                on_select="rerun", selection_mode="points", width="stretch")
-        selected = (event or {}).get("selection", {}).get("points", []) if isinstance(event, dict) else \
-            getattr(getattr(event, "selection", None), "points", [])
-        if selected:
-            clicked = selected[0].get("customdata", [None])[0]
-            if clicked is not None and int(float(clicked)) != chosen:
-                state[f"tradeoffs_chosen_{curve_key}"] = int(float(clicked))
-                st.rerun()
-        chosen = st.selectbox("Point", points, index=points.index(chosen) if chosen in points else 0,
+        select_key = f"tradeoffs_point_{curve_key}"
+        if state.get(select_key) not in points:
+            state[select_key] = points[0]
+        log_axis = st.checkbox("Logarithmic cost axis", key="tradeoffs_log_axis",
+                               help="The last tonnes are often far dearer than the rest of the curve.")
+        figure = tradeoff_figure(table, state[select_key])
+        if log_axis:
+            figure.update_yaxes(type="log")
+        event = st.plotly_chart(figure, key=f"tradeoffs_chart_{curve_key}", on_select="rerun",
+                                selection_mode="points", width="stretch")
+        clicked = [p.get("point_index") for p in (event or {}).get("selection", {}).get("points", [])]
+        clicked = points[clicked[0]] if clicked and clicked[0] is not None and clicked[0] < len(points) else None
+        # act on a click once: afterwards the select box may move away from the clicked point
+        if clicked is not None and state.get(f"tradeoffs_click_{curve_key}") != clicked:
+            state[f"tradeoffs_click_{curve_key}"] = clicked
+            state[select_key] = clicked
+            st.rerun()
+        chosen = st.selectbox("Point", points, key=select_key,
                               format_func=lambda p: f"{p}: {table.loc[p, 'kind'].replace('_', ' ')}, "
                               f"{table.loc[p, 'co2_t_per_a']:,.0f} t/a, "
-                              f"{table.loc[p, 'total_cost_eur_per_a'] / 1e6:,.2f} M€/a",
-                              key=f"tradeoffs_point_{curve_key}")
-        state[f"tradeoffs_chosen_{curve_key}"] = chosen
+                              f"{table.loc[p, 'total_cost_eur_per_a'] / 1e6:,.2f} M€/a")
         st.plotly_chart(supply_mix_figure(table, scenario.technologies), key=f"tradeoffs_mix_{curve_key}",
                         width="stretch")
         shown = table[["point", "kind", "co2_bound_t_per_a", "co2_t_per_a", "total_cost_eur_per_a",
@@ -214,13 +219,16 @@ with tab_fidelity:
     else:
         note = fidelity_note(table, days)
         if note:
-            st.success(note)
-        st.caption(f"Fewest typical days within 1 % on cost and 10 % on capacity: {recommend_typical_days(table)} "
-                   "(0 means the full year).")
+            st.info(note)
+        fewest = recommend_typical_days(table)
+        st.caption(f"Fewest typical days within 1 % on cost and 10 % on capacity: {fewest}." if fewest else
+                   "None of the tested numbers of typical days comes within 1 % on cost and 10 % on capacity: "
+                   "check final figures over the full year.")
         columns = ["typical_days", "model_steps", "total_cost_eur_per_a", "total_cost_error_pct", "co2_t_per_a",
                    "co2_error_pct", "capacity_deviation_pct", "capacity_error_max_pct", "solve_s"]
         st.dataframe(table[columns], hide_index=True, width="stretch", column_config={
-            "typical_days": st.column_config.NumberColumn("Typical days (0 = year)"),
+            "typical_days": st.column_config.NumberColumn("Typical days (0 = full year)"),
+            "model_steps": st.column_config.NumberColumn("Model hours"),
             "total_cost_eur_per_a": st.column_config.NumberColumn("Total cost [€/a]", format="localized"),
             "total_cost_error_pct": st.column_config.NumberColumn("Cost error [%]", format="%+.2f"),
             "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
