@@ -153,26 +153,26 @@ with st.container(border=True):
     tab_tech, tab_wells = st.tabs(["Technology costs", f"Well permits ({len(scenario.wells)})"])
     with tab_tech:
         technology_table = st.data_editor(
-            setup["technology_base"], key=tech_key, hide_index=True, num_rows="fixed",
+            setup["technology_base"], key=tech_key, hide_index=True, num_rows="fixed", placeholder="–",
             width="stretch", disabled=["technology_id", "name", "kind"],
             column_order=[c for c in setup["technology_table"].columns if c != "technology_id"],
             column_config={
                 "technology_id": st.column_config.TextColumn("Id", width="small"),
-                "name": st.column_config.TextColumn("Technology", width="medium"),
-                "kind": st.column_config.TextColumn("Kind", width="small"),
+                "name": st.column_config.TextColumn("Technology", width=180),
+                "kind": st.column_config.TextColumn("Kind", width=110),
                 "investment_eur_per_kw": st.column_config.NumberColumn(
-                    "Investment [€/kW]", min_value=0.0, format="%.0f", width="small",
+                    "Investment [€/kW]", min_value=0.0, format="%.0f", width=120,
                     help="Specific investment; per kWh of storage for heat stores."),
                 "fixed_om_pct_per_a": st.column_config.NumberColumn(
-                    "Fixed O&M [%/a]", min_value=0.0, max_value=100.0, format="%.2f", width="small",
+                    "Fixed O&M [%/a]", min_value=0.0, max_value=100.0, format="%.2f", width=120,
                     help="Fixed operation and maintenance, % of the investment per year."),
                 "variable_om_eur_per_mwh": st.column_config.NumberColumn(
-                    "Variable O&M [€/MWh]", min_value=0.0, format="%.2f", width="small"),
+                    "Var. O&M [€/MWh]", min_value=0.0, format="%.2f", width=120),
                 "lifetime_a": st.column_config.NumberColumn("Lifetime [a]", min_value=1, max_value=100, format="%d",
-                                                           width="small"),
+                                                           width=120),
                 "efficiency_or_grade": st.column_config.NumberColumn(
-                    "Efficiency / COP grade [-]", min_value=0.0, format="%.2f", width="small",
-                    help="Boilers: thermal efficiency; chillers and groundwater cooling: EER; heat pumps: share of "
+                    "Eff. or COP grade", min_value=0.0, format="%.2f", width=120,
+                    help="[-] Boilers: thermal efficiency; chillers and groundwater cooling: EER; heat pumps: share of "
                          "the Carnot COP reached. Blank for network connections and stores."),
             },
         )
@@ -180,21 +180,22 @@ with st.container(border=True):
         if len(scenario.wells):
             st.caption("Permits are set by the water authority; changing them here is a what-if for screening.")
             well_table = st.data_editor(
-                setup["well_base"], key=wells_key, hide_index=True, num_rows="fixed",
+                setup["well_base"], key=wells_key, hide_index=True, num_rows="fixed", placeholder="no limit",
                 width="stretch", disabled=["well_id", "district_id"],
                 column_config={
                     "well_id": st.column_config.TextColumn("Well doublet"),
                     "district_id": st.column_config.TextColumn("District"),
                     "permit_flow_m3_per_h": st.column_config.NumberColumn(
-                        "Permitted flow [m³/h]", min_value=0.0, format="%.1f"),
+                        "Flow permit [m³/h]", min_value=0.0, format="%.1f"),
                     "permit_annual_volume_m3": st.column_config.NumberColumn(
-                        "Permitted annual volume [m³/a]", min_value=0.0, format="%.0f",
+                        "Annual volume permit [m³/a]", min_value=0.0, format="%.0f",
                         help="Blank means no annual limit."),
                     "design_spread_k": st.column_config.NumberColumn(
                         "Design spread [K]", min_value=0.0, format="%.1f",
                         help="Temperature difference between extraction and reinjection."),
                     "groundwater_temp_c": st.column_config.NumberColumn(
-                        "Groundwater temperature [°C]", min_value=0.0, format="%.1f"),
+                        "Groundwater [°C]", min_value=0.0, format="%.1f",
+                        help="Mean groundwater temperature at the extraction well."),
                 },
             )
         else:
