@@ -381,7 +381,9 @@ def _dashboard(store: Path, log: Path):
     with open(log, "wb") as out:
         process = subprocess.Popen(
             [sys.executable, "-m", "streamlit", "run", "app.py", "--server.headless", "true", "--server.port",
-             str(port), "--server.address", "127.0.0.1", "--browser.gatherUsageStats", "false"],
+             str(port), "--server.address", "127.0.0.1", "--browser.gatherUsageStats", "false",
+             # a source file saved while the test runs must not reload the engine's modules under the sessions
+             "--server.fileWatcherType", "none"],
             cwd=ROOT, env=env, stdout=out, stderr=subprocess.STDOUT,
         )
     try:
