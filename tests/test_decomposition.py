@@ -105,23 +105,28 @@ def test_cap_solve_is_monolithic_and_matches_linprog(city, capped):
     assert result.co2_t_per_a == pytest.approx(cap, rel=1e-6)
 
 
-def test_co2_price_meets_cap_within_bounds_of_capped_optimum(city, capped):
+@pytest.fixture(scope="module")
+def priced(city, capped):
+    cap, _ = capped
+    return co2_price_for_cap(city, cap, rel_tol=1e-6, workers=1)
+
+
+def test_co2_price_meets_cap_within_bounds_of_capped_optimum(capped, priced):
     """Lagrangian relaxation of the cap (Everett 1963, Operations Research 11(3)): at the found CO2 price the
     districts solved apart meet the cap; LP duality puts the capped optimum between the Lagrangian bound and the
-    cost of the blended plan, and the search closes that gap to its tolerance (1e-5 relative)."""
+    cost of the blended plan, and the search closes that gap to its tolerance (1e-6 relative)."""
     cap, result = capped
-    found = co2_price_for_cap(city, cap, rel_tol=1e-5, workers=1)
-    assert found.converged
-    assert found.co2_t_per_a <= cap * (1 + 1e-7)
-    assert found.result.model_size["linear_programs"] == 6
+    assert priced.converged
+    assert priced.co2_t_per_a <= cap * (1 + 1e-7)
+    assert priced.result.model_size["linear_programs"] == 6
     optimum = result.total_cost_eur_per_a
-    assert found.cost_lower_eur_per_a <= optimum * (1 + 1e-7)
-    assert found.cost_upper_eur_per_a >= optimum * (1 - 1e-7)
-    assert found.relative_gap <= 1e-5
-    assert found.cost_estimate_eur_per_a == pytest.approx(optimum, rel=1e-5)
+    assert priced.cost_lower_eur_per_a <= optimum * (1 + 1e-7)
+    assert priced.cost_upper_eur_per_a >= optimum * (1 - 1e-7)
+    assert priced.relative_gap <= 1e-6
+    assert priced.cost_estimate_eur_per_a == pytest.approx(optimum, rel=1e-6)
 
 
-def test_co2_price_brackets_the_dual_of_the_cap(city, capped):
+def test_co2_price_brackets_the_dual_of_the_cap(city, capped, priced):
     """LP duality: the shadow price of the cap row in the city-wide LP is the CO2 surcharge at which the
     relaxed problem has the capped optimum (Everett 1963); it lies in the bracket the search ends with."""
     cap, _ = capped
@@ -129,8 +134,7 @@ def test_co2_price_brackets_the_dual_of_the_cap(city, capped):
     model = build_model(prepared)
     solution = model.lp.solve()
     shadow = abs(float(solution.row_dual[model.rows["co2_cap"]][0]))
-    found = co2_price_for_cap(city, cap, rel_tol=1e-6, workers=1)
-    history = found.history
+    history = priced.history
     below = max(h["surcharge_eur_per_t"] for h in history if h["co2_t_per_a"] > cap)
     above = min(h["surcharge_eur_per_t"] for h in history if h["co2_t_per_a"] <= cap)
     assert below - 1e-6 <= shadow <= above + 1e-6
