@@ -1084,6 +1084,20 @@ class _Districts:
         return sum(shape is None for shape in self.shapes)
 
 
+class _JsonObject(dict):
+    """A JSON object that remembers the keys it held more than once (plain json keeps the last silently)."""
+
+    repeated: tuple = ()
+
+    @classmethod
+    def from_pairs(cls, pairs: list) -> "_JsonObject":
+        obj = cls(pairs)
+        if len(obj) < len(pairs):
+            seen: set = set()
+            obj.repeated = tuple(dict.fromkeys(k for k, _ in pairs if k in seen or seen.add(k)))
+        return obj
+
+
 def _property_text(value: Any) -> str:
     if value is None:
         return ""
@@ -1145,6 +1159,13 @@ def _district_table(report: _Report, features: list) -> tuple[_Table, list[Any]]
                 "has no properties; each district needs district_id, heat_demand_mwh_per_a and supply_temp_c",
             )
             continue
+        for key in getattr(properties, "repeated", ()):
+            report(
+                DISTRICTS_FILE,
+                number,
+                key,
+                "appears more than once in this feature's properties (the last value would silently win); keep one",
+            )
         for key in properties:
             if key not in known and not str(key).lower().startswith("note"):
                 unknown_seen.setdefault(key, []).append(number)
@@ -1244,7 +1265,7 @@ def _load_districts(folder: Path, report: _Report) -> _Districts | None:
     if text is None:
         return None
     try:
-        data = json.loads(text)
+        data = json.loads(text, object_pairs_hook=_JsonObject.from_pairs)
     except (json.JSONDecodeError, RecursionError) as error:
         if isinstance(error, RecursionError):
             detail = "its objects are nested too deeply"
@@ -1269,6 +1290,12 @@ def _load_districts(folder: Path, report: _Report) -> _Districts | None:
     _check_district_ids(report, table, frame)
     _check_district_network(report, table, frame)
     _check_district_units(report, table, frame, geometries, shapes)
+    # Usable geometries keep only their type and coordinates, in that order, so that the same polygon written
+    # with its keys in another order (or with a bbox) gives the same scenario and the same input hash.
+    geometries = [
+        {"type": g["type"], "coordinates": g["coordinates"]} if shape is not None else g
+        for g, shape in zip(geometries, shapes)
+    ]
     frame["geometry"] = geometries
     return _Districts(table, frame, geometries, shapes)
 
