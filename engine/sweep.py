@@ -619,7 +619,14 @@ def main(argv=None) -> int:
     parser = argparse.ArgumentParser(prog="python -m engine.sweep")
     add_sweep_parser(parser.add_subparsers(dest="command", required=True))
     args = parser.parse_args(["sweep", *(sys.argv[1:] if argv is None else argv)])
-    return cmd_sweep(args)
+    try:
+        return cmd_sweep(args)
+    except KeyboardInterrupt:
+        print("Cancelled.", file=sys.stderr)
+        return 3
+    except Exception as error:  # the last guard: a plain message, never a traceback at the user
+        print(f"Unexpected error: {type(error).__name__}: {error}", file=sys.stderr)
+        return 3
 
 
 if __name__ == "__main__":
