@@ -23,6 +23,8 @@ PAGE_TITLES = {
     RESULTS_PAGE: ("Run results", ":material/map:"),
     COMPARE_PAGE: ("Compare runs", ":material/compare_arrows:"),
     SHARE_PAGE: ("Share", ":material/ios_share:"),
+    "pages/5_Groundwater.py": ("Groundwater check", ":material/water_drop:"),
+    "pages/6_Trade_offs_and_sweeps.py": ("Trade-offs and sweeps", ":material/ssid_chart:"),
 }
 HERE = Path(__file__).resolve().parent
 
