@@ -244,9 +244,9 @@ def load_curve_figure(
         )
     )
     fig.update_layout(
-        template=_FIGURE_TEMPLATE, title=_title(title, subtitle), height=460, hovermode="x unified",
-        legend={"orientation": "h", "yanchor": "top", "y": -0.18, "x": 0},
-        margin={"t": 90, "l": 70, "r": 20, "b": 40},
+        template=_FIGURE_TEMPLATE, title=_title(title, subtitle), height=500, hovermode="x unified",
+        legend={"orientation": "h", "yanchor": "top", "y": -0.24, "x": 0},
+        margin={"t": 90, "l": 70, "r": 20, "b": 60},
     )
     fig.update_xaxes(title_text=x_title)
     fig.update_yaxes(title_text=f"{quantity.capitalize()} [{unit}]", tickformat=",")
@@ -373,9 +373,9 @@ def cost_breakdown_figure(results: Mapping[str, RunResult], by: str = "run") -> 
         title = "Annual cost by part and district" + (", grouped by run" if len(solved) > 1 else "")
         x_title = "District" + (" and run" if len(solved) > 1 else "")
     fig.update_layout(
-        template=_FIGURE_TEMPLATE, barmode="relative", height=460, title=_title(title),
-        legend={"orientation": "h", "yanchor": "bottom", "y": 1.0, "x": 0},
-        margin={"t": 100, "l": 70, "r": 20, "b": 60},
+        template=_FIGURE_TEMPLATE, barmode="relative", height=500, title=_title(title),
+        legend={"orientation": "h", "yanchor": "top", "y": -0.22, "x": 0},
+        margin={"t": 80, "l": 70, "r": 20, "b": 60},
     )
     fig.update_xaxes(title_text=x_title)
     fig.update_yaxes(title_text=f"Annual cost [{unit}]", tickformat=",")

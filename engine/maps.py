@@ -400,7 +400,7 @@ def use_bundled_leaflet(fmap) -> None:
 
 def district_map(scenario, result: RunResult | None = None, measure: str = "main_supply",
                  baseline: RunResult | None = None, technologies=None, show_wells: bool = True,
-                 plume_polygons=None, tiles: bool = False):
+                 plume_polygons=None, tiles: bool = False, legend_open: bool = True):
     """Interactive map of the districts coloured by ``measure``, with wells and optional plume outlines.
 
     Parameters
@@ -422,6 +422,8 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
         ``{"well_id", "level_k", "coordinates": [(lon, lat), ...]}``, drawn dashed in the layer "Plumes".
     tiles : bool
         False (default) draws no background, so the map works offline; True adds OpenStreetMap tiles.
+    legend_open : bool
+        Whether the legend starts unfolded (fold it for small maps side by side).
 
     Returns
     -------
@@ -434,7 +436,7 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
     wells = well_values(scenario, result) if show_wells else well_values(scenario, None).iloc[0:0]
     plumes = _check_plumes(plume_polygons)
     west, south, east, north = _bounds(districts, wells)
-    fmap = folium.Map(location=[(south + north) / 2, (west + east) / 2], zoom_start=13, tiles=None,
+    fmap = folium.Map(location=[(south + north) / 2, (west + east) / 2], zoom_start=13, tiles=None, zoom_snap=0.25,
                       control_scale=True)
     use_bundled_leaflet(fmap)
     if tiles:
@@ -505,7 +507,10 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
                 var div = L.DomUtil.create('div', 'heatmosaic-legend');
                 div.style.cssText = 'background:rgba(255,255,255,0.92);padding:8px 10px;font:12px/1.45 sans-serif;'
                     + 'border:1px solid #999;border-radius:4px;max-width:260px';
-                div.innerHTML = {{ this.legend_json }};
+                div.innerHTML = '<details' + ({{ this.legend_open }} ? ' open' : '') + '>'
+                    + '<summary style="cursor:pointer;font-weight:600">Legend</summary>'
+                    + {{ this.legend_json }} + '</details>';
+                L.DomEvent.disableClickPropagation(div);
                 return div;
             };
             legend.addTo({{ this._parent.get_name() }});
@@ -513,6 +518,7 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
         {% endmacro %}
         """
     )
+    control.legend_open = "true" if legend_open else "false"
     control.legend_json = json.dumps(legend_html(legend, wells=bool(len(wells)), plumes=bool(plumes))).replace(
         "</", "<\\/"
     )

@@ -104,7 +104,8 @@ for column, run_id in zip(columns, picked):
             st.info("The scenario files of this run are not available.")
             continue
         base = results[baseline] if measure == "change_total_cost" else None
-        fmap = district_map(scenario, results[name], measure=measure, baseline=base, technologies=technologies)
+        fmap = district_map(scenario, results[name], measure=measure, baseline=base, technologies=technologies,
+                            legend_open=len(picked) < 2)
         st_folium(fmap, height=480, use_container_width=True, returned_objects=[], key=f"compare_map_{run_id}")
 st.caption(WELL_CAUTION)
 
