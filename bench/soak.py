@@ -23,7 +23,8 @@ What is printed
 After every fifth solve: the solve count, the resident set size of the process [MB] (psutil, after a full garbage
 collection), the mean wall time per solve of the last five [s] and the runs in the session's cache. Then the
 growth of the resident set from solve 10 to the last solve, which leaves out the first solves' imports and
-caches. The last line is ``rss_growth_mb=X``.
+caches, and the growth once the cache holds its full number of runs. The last line is ``rss_growth_mb=X``
+(solve 10 to the last solve).
 """
 
 from __future__ import annotations
@@ -134,6 +135,8 @@ class EngineSession:
 
 
 def main(argv=None) -> int:
+    from engine.workbench import SOLVE_CACHE_SIZE
+
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--solves", type=int, default=50, help="number of solves (default 50)")
     parser.add_argument("--engine", action="store_true", help="call the page's helpers instead of the page")
@@ -157,6 +160,7 @@ def main(argv=None) -> int:
         times: list[float] = []
         fresh = 0
         rss_at: dict[int, float] = {}
+        full_at = None  # the first report with the session's cache full
         snapshot = None
         for k in range(args.solves):
             cost_case, days = request(k)
@@ -166,6 +170,8 @@ def main(argv=None) -> int:
             done = k + 1
             if done % REPORT_EVERY == 0:
                 rss_at[done] = rss_mb()
+                if full_at is None and len(session.cache()) >= SOLVE_CACHE_SIZE:
+                    full_at = done
                 window = times[-REPORT_EVERY:]
                 print(f"{done:>6}  {rss_at[done]:>8.1f}  {statistics.mean(window):>8.2f}  {len(session.cache()):>6}"
                       f"  {fresh:>5}", flush=True)
@@ -177,6 +183,9 @@ def main(argv=None) -> int:
               f"max {max(times):.2f} s, first {times[0]:.2f} s; {fresh} of {len(times)} solved afresh")
         print(f"rss after solve {BASE_SOLVE}: {rss_at[BASE_SOLVE]:.1f} MB, after solve {last}: {rss_at[last]:.1f} MB, "
               f"growth {growth:+.1f} MB ({growth / (last - BASE_SOLVE):+.2f} MB per solve)")
+        if full_at is not None and full_at < last:
+            print(f"with the cache full ({SOLVE_CACHE_SIZE} runs) from solve {full_at}: rss {rss_at[full_at]:.1f} MB "
+                  f"-> {rss_at[last]:.1f} MB, growth {rss_at[last] - rss_at[full_at]:+.1f} MB")
         if args.trace and snapshot is not None:
             print("allocations that grew most from solve 10:")
             for stat in tracemalloc.take_snapshot().compare_to(snapshot, "traceback")[:8]:
