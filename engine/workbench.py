@@ -43,6 +43,7 @@ import dataclasses
 import hashlib
 import io
 import math
+import re
 import shutil
 import tempfile
 from collections.abc import Callable, Mapping, MutableMapping
@@ -753,6 +754,20 @@ def load_saved_run(store: ScenarioStore, cache: MutableMapping, run_id: int) -> 
     return cache[run_id]
 
 
+_MARKDOWN_ACTIVE = re.compile(r"[\\`*_{}\[\]()<>#+\-.!|~$:&=\"']")
+
+
+def markdown_literal(text) -> str:
+    """``text`` for Streamlit's Markdown (``st.markdown``, ``st.caption``, alerts, widget labels), shown as typed.
+
+    Every character Markdown or Streamlit's extensions could act on (links, images, emphasis, HTML, LaTeX ``$``,
+    ``:icon:`` and ``:color[...]`` directives, list and heading markers) becomes a numeric character reference,
+    which Markdown prints as that character and never reads as syntax. Names, notes and descriptions come from
+    the planner's files, so a ``![x](http://...)`` in a run name must not fetch an image.
+    """
+    return _MARKDOWN_ACTIVE.sub(lambda m: f"&#{ord(m.group())};", str(text))
+
+
 def describe_choices(result: RunResult) -> str:
     """One line (Markdown) with a run's cost case, objective, CO2 cap and time resolution."""
     choice = choices_of_run(result)
@@ -760,7 +775,7 @@ def describe_choices(result: RunResult) -> str:
     cap = choice["co2_cap_t_per_a"]
     days = choice["typical_days"]
     return (
-        f"Cost case **{choice['cost_case']}** · objective **{objective}** · CO2 cap "
+        f"Cost case **{markdown_literal(choice['cost_case'])}** · objective **{objective}** · CO2 cap "
         f"{f'{cap:,.0f} t/a' if cap else 'none'} · {f'{days} typical days' if days else 'full year'}"
     )
 
@@ -1016,6 +1031,7 @@ __all__ = [
     "bundle_bytes",
     "choices_of_run",
     "load_saved_run",
+    "markdown_literal",
     "resolve_saved_run",
     "check_edits",
     "cost_case_descriptions",

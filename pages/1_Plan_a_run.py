@@ -75,14 +75,14 @@ with st.container(border=True):
     with left:
         scenario = inputs.scenario
         if scenario is not None:
-            st.markdown(f"**{inputs.label}:** {scenario.settings.name}, target year {scenario.settings.target_year}")
+            st.markdown(f"**{wb.markdown_literal(inputs.label)}:** {wb.markdown_literal(scenario.settings.name)}, target year {scenario.settings.target_year}")
             st.caption(
                 f"{len(scenario.districts)} districts · {len(scenario.technologies)} technologies · "
                 f"{len(scenario.wells)} well doublets · {len(scenario.cost_cases)} cost cases · "
                 f"{scenario.districts['heat_demand_mwh_per_a'].sum():,.0f} MWh/a heat demand"
             )
         else:
-            st.markdown(f"**{inputs.label}** cannot be used:")
+            st.markdown(f"**{wb.markdown_literal(inputs.label)}** cannot be used:")
         if inputs.manifest:
             st.caption(
                 f"Bundle written by heatmosaic {inputs.manifest.get('heatmosaic_version', '?')} on "
@@ -120,7 +120,7 @@ with st.container(border=True):
     c1, c2, c3 = st.columns([2, 1.3, 1.5], gap="large")
     with c1:
         cost_case = st.selectbox("Cost case", list(descriptions), key="setup_cost_case")
-        st.caption(descriptions.get(cost_case, ""))
+        st.caption(wb.markdown_literal(descriptions.get(cost_case, "")))
     with c2:
         objective = st.radio("Objective", list(OBJECTIVES), format_func=OBJECTIVES.get, key="setup_objective")
         co2_cap = st.number_input(
@@ -281,6 +281,6 @@ if run is not None and run.result.solved:
                 try:
                     with ScenarioStore() as store:
                         run.saved_run_id = store.save_run(run.result, name, note, inputs=run.files)
-                    st.success(f"Saved as “{name.strip()}” (run #{run.saved_run_id}).")
+                    st.success(f"Saved as “{wb.markdown_literal(name.strip())}” (run #{run.saved_run_id}).")
                 except StoreError as error:
                     st.error(f"The run could not be saved: {error}")

@@ -82,7 +82,7 @@ technologies = scenario.technologies if scenario is not None else None
 
 st.markdown(wb.describe_choices(result))
 if info is not None:
-    note = f" · note: {info['note']}" if info["note"] else ""
+    note = f" · note: {wb.markdown_literal(info['note'])}" if info["note"] else ""
     saved = str(info["created_utc"])[:16].replace("T", " ")
     st.caption(f"Saved {saved} UTC{note} · input hash {result.input_hash[:12]}")
 
@@ -174,17 +174,17 @@ def show_manage() -> None:
         if st.button("Rename", key="results_rename_button"):
             try:
                 store.rename_run(run_id, new_name)
-                state["hm_flash"] = f"Renamed to “{new_name.strip()}”."
+                state["hm_flash"] = f"Renamed to “{wb.markdown_literal(new_name.strip())}”."
                 st.rerun()
             except StoreError as error:
                 st.error(str(error))
         st.markdown("**Delete**")
-        sure = st.checkbox(f"Yes, delete “{info['name']}” from the library", key=f"results_sure_{run_id}")
+        sure = st.checkbox(f"Yes, delete “{wb.markdown_literal(info['name'])}” from the library", key=f"results_sure_{run_id}")
         if st.button("Delete run", disabled=not sure, key="results_delete", icon=":material/delete:"):
             store.delete_run(run_id)
             loaded.pop(run_id, None)
             state.pop("results_run", None)
-            state["hm_flash"] = f"Deleted “{info['name']}”."
+            state["hm_flash"] = f"Deleted “{wb.markdown_literal(info['name'])}”."
             st.rerun()
     with right:
         st.markdown("**Re-open on the set-up page**")

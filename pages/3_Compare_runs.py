@@ -78,7 +78,7 @@ technologies = base_scenario.technologies if base_scenario is not None else None
 # ------------------------------------------------------------------------------------------------ tables
 st.subheader("Key figures")
 st.dataframe(format_table(kpi_table(results, technologies)), hide_index=True, width="stretch")
-st.subheader(f"Differences against the baseline “{baseline}”")
+st.subheader(f"Differences against the baseline “{wb.markdown_literal(baseline)}”")
 st.caption("Positive: more than in the baseline (higher cost, more CO2, more heat from that technology).")
 st.dataframe(format_table(difference_table(results, baseline, technologies)), hide_index=True, width="stretch")
 with st.expander("Districts whose main supply changed"):
@@ -86,7 +86,7 @@ with st.expander("Districts whose main supply changed"):
         if name == baseline:
             continue
         changes = main_supply_changes(result, results[baseline], technologies)
-        st.markdown(f"**{name}**: {len(changes)} district(s)")
+        st.markdown(f"**{wb.markdown_literal(name)}**: {len(changes)} district(s)")
         if not changes.empty:
             st.dataframe(changes, hide_index=True, width="stretch")
 
@@ -98,7 +98,7 @@ columns = st.columns(len(picked))
 for column, run_id in zip(columns, picked):
     with column:
         name = names[run_id]
-        st.markdown(f"**{name}**" + (" (baseline)" if run_id == baseline_id else ""))
+        st.markdown(f"**{wb.markdown_literal(name)}**" + (" (baseline)" if run_id == baseline_id else ""))
         scenario = run_scenarios[run_id]
         if scenario is None:
             st.info("The scenario files of this run are not available.")
@@ -130,7 +130,7 @@ if layout == "side":
     columns = st.columns(min(len(solved_runs), 2))
     for k, (name, result) in enumerate(solved_runs.items()):
         with columns[k % len(columns)]:
-            st.markdown(f"**{name}**")
+            st.markdown(f"**{wb.markdown_literal(name)}**")
             fig = load_curve_figure(result, technologies, district_id=district,
                                     week=None if week == "year" else int(week))
             st.plotly_chart(fig, width="stretch", config=FIGURE_CONFIG, key=f"compare_curve_{k}")

@@ -89,7 +89,7 @@ else:
                     with ScenarioStore(store.path) as own:
                         return wb.bundle_bytes(result, own.load_inputs(run_id))
 
-                st.download_button(f"Bundle of “{names[run_id]}”", data=bundle,
+                st.download_button(f"Bundle of “{wb.markdown_literal(names[run_id])}”", data=bundle,
                                    file_name=wb.safe_file_name(names[run_id], "_bundle.zip"), mime="application/zip",
                                    icon=":material/inventory_2:", key=f"share_bundle_{run_id}", on_click="ignore")
 

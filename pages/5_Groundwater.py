@@ -247,7 +247,7 @@ with tab_check:
         m[0].caption(f"{len(iterations)} solves in {info['seconds']:.0f} s")
         m[1].metric("Largest source shift [K]", f"{shifts.get(strongest, 0.0):+.2f}")
         if strongest is not None and abs(shifts[strongest]) > 0.005:
-            m[1].caption(f"at the extraction well of {strongest}")
+            m[1].caption(f"at the extraction well of {wb.markdown_literal(strongest)}")
         if baseline:
             m[2].metric("Total cost [M€/a]", f"{checked.total_cost_eur_per_a / 1e6:,.3f}",
                         f"{(checked.total_cost_eur_per_a - baseline['total_cost_eur_per_a']) / 1e3:+,.1f} k€/a "

@@ -56,7 +56,7 @@ def progress_bar():
     return lambda share, text: bar.progress(min(max(float(share), 0.0), 1.0), text=text)
 
 
-st.markdown(f"**{inputs.label}:** {scenario.settings.name} · {len(scenario.districts)} districts")
+st.markdown(f"**{wb.markdown_literal(inputs.label)}:** {wb.markdown_literal(scenario.settings.name)} · {len(scenario.districts)} districts")
 top = st.columns([2, 1, 1])
 cases = list(scenario.cost_cases)
 default_case = setup.get("cost_case", "reference")
@@ -178,7 +178,7 @@ with tab_sweep:
     if outcome is not None:
         failed = outcome.table[outcome.table["status"] != "optimal"]
         if len(failed):
-            st.warning(f"{len(failed)} run(s) did not solve: {', '.join(failed['name'])}")
+            st.warning(f"{len(failed)} run(s) did not solve: {wb.markdown_literal(', '.join(failed['name']))}")
         if mode == "tornado":
             tornado = tornado_table(outcome)
             st.plotly_chart(tornado_figure(tornado), key=f"tradeoffs_tornado_{sweep_key}", width="stretch")

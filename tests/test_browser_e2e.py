@@ -78,7 +78,7 @@ def server(tmp_path):
     with open(log, "wb") as out:
         process = subprocess.Popen(
             [sys.executable, "-m", "streamlit", "run", "app.py", "--server.headless", "true", "--server.port",
-             str(port), "--server.address", "127.0.0.1", "--browser.gatherUsageStats", "false"],
+             str(port), "--server.address", "127.0.0.1", "--browser.gatherUsageStats", "false", "--server.fileWatcherType", "none"],
             cwd=ROOT, env=env, stdout=out, stderr=subprocess.STDOUT,
         )
     try:

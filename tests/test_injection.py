@@ -460,9 +460,6 @@ def test_dashboard_pages_run_no_payload_of_saved_runs(dashboard_visit):
     assert "DROP TABLE run_tables" in seen["pages"]["Run_results"]["text"]
 
 
-@pytest.mark.xfail(strict=True, reason="the pages pass run names, notes and cost-case texts to st.markdown, "
-                                       "st.caption and st.success unescaped, so a Markdown image in a name is "
-                                       "fetched from outside")
 def test_dashboard_pages_fetch_nothing_a_name_points_to(dashboard_visit):
     """A Markdown image in a run's name or note is shown as text, not fetched (common practice: user text is
     displayed literally; the dashboard works offline)."""
