@@ -92,7 +92,6 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
     techs = scenario.technologies
     pot = _district_potential(prepared)
     n_t = prepared.n_steps
-    grid_elec = prepared.electricity_eur_per_mwh  # noqa: F841 (kept for readability of the factors below)
     rec = {k: [] for k in SupplyUnits.__dataclass_fields__}
     srec = {k: [] for k in StoreUnits.__dataclass_fields__}
     ones = np.ones(n_t)

@@ -7,11 +7,12 @@ import time
 from pathlib import Path
 
 import streamlit as st
-from streamlit.errors import StreamlitAPIException
+
 
 from engine import workbench as wb
 from engine.problems import problems_frame
 from engine.store import ScenarioStore, StoreError
+from pages._shell import route_through_app
 
 RESULTS_PAGE = "pages/2_Run_results.py"
 OBJECTIVES = {"cost": "Lowest annual cost", "co2": "Lowest CO2 emissions"}
@@ -24,14 +25,7 @@ WIDGETS = {  # widget key -> hm_setup entry it starts from
 }
 
 state = st.session_state
-if not state.get("hm_shell"):
-    # Opened by its address before app.py ever ran in this server, so Streamlit runs the file on its own: let
-    # app.py set up the navigation first and come back here.
-    state["hm_goto"] = "pages/1_Plan_a_run.py"
-    try:
-        st.switch_page("app.py")
-    except StreamlitAPIException:
-        pass  # run without app.py (a test of this page alone)
+route_through_app("pages/1_Plan_a_run.py")
 st.title("Plan a run")
 st.caption(wb.CAUTION_LINE)
 

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import streamlit as st
-from streamlit.errors import StreamlitAPIException
 from streamlit_folium import st_folium
 
 from engine import workbench as wb
@@ -15,7 +14,8 @@ from engine.figures import (
     load_duration_figure,
 )
 from engine.maps import MEASURES, WELL_CAUTION, district_map
-from engine.store import ScenarioStore, StoreError
+from engine.store import StoreError
+from pages._shell import open_store, route_through_app
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 CURRENT = "current"
@@ -29,14 +29,7 @@ TABS = ["Map", "Load curves", "Costs", "Tables", "Manage run"]
 
 
 state = st.session_state
-if not state.get("hm_shell"):
-    # Opened by its address before app.py ever ran in this server, so Streamlit runs the file on its own: let
-    # app.py set up the navigation first and come back here.
-    state["hm_goto"] = "pages/2_Run_results.py"
-    try:
-        st.switch_page("app.py")
-    except StreamlitAPIException:
-        pass  # run without app.py (a test of this page alone)
+route_through_app("pages/2_Run_results.py")
 st.title("Run results")
 st.caption(wb.CAUTION_LINE)
 solved = state.setdefault("hm_solved", {})
@@ -45,11 +38,7 @@ scenarios = state.setdefault("hm_scenarios", {})
 if state.get("hm_flash"):
     st.success(state.pop("hm_flash"))
 
-try:
-    store = ScenarioStore()
-except StoreError as error:
-    st.error(f"The library could not be opened: {error}")
-    st.stop()
+store = open_store()
 choices = wb.run_choices(store)
 current = solved.get(state.get("hm_current"))
 options = ([CURRENT] if current is not None else []) + list(choices)

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import streamlit as st
-from streamlit.errors import StreamlitAPIException
 from streamlit_folium import st_folium
 
 from engine import workbench as wb
@@ -19,7 +18,7 @@ from engine.figures import (
     supply_mix_figure,
 )
 from engine.maps import MEASURES, WELL_CAUTION, district_map
-from engine.store import ScenarioStore, StoreError
+from pages._shell import open_store, route_through_app
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 MEASURE_LABELS = {
@@ -30,24 +29,13 @@ MEASURE_LABELS = {
 }
 
 state = st.session_state
-if not state.get("hm_shell"):
-    # Opened by its address before app.py ever ran in this server, so Streamlit runs the file on its own: let
-    # app.py set up the navigation first and come back here.
-    state["hm_goto"] = "pages/3_Compare_runs.py"
-    try:
-        st.switch_page("app.py")
-    except StreamlitAPIException:
-        pass  # run without app.py (a test of this page alone)
+route_through_app("pages/3_Compare_runs.py")
 st.title("Compare runs")
 st.caption(wb.CAUTION_LINE)
 loaded = state.setdefault("hm_loaded", {})
 scenarios = state.setdefault("hm_scenarios", {})
 
-try:
-    store = ScenarioStore()
-except StoreError as error:
-    st.error(f"The library could not be opened: {error}")
-    st.stop()
+store = open_store()
 choices = wb.run_choices(store)
 if len(choices) < 2:
     st.info("Save at least two runs to compare them (for example the demo city under two cost cases).")

@@ -3,24 +3,18 @@
 from __future__ import annotations
 
 import streamlit as st
-from streamlit.errors import StreamlitAPIException
+
 
 from engine import workbench as wb
 from engine.export import tables_csv_zip, tables_xlsx
 from engine.report import html_report
-from engine.store import ScenarioStore, StoreError
+from engine.store import ScenarioStore
+from pages._shell import open_store, route_through_app
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 
 state = st.session_state
-if not state.get("hm_shell"):
-    # Opened by its address before app.py ever ran in this server, so Streamlit runs the file on its own: let
-    # app.py set up the navigation first and come back here.
-    state["hm_goto"] = "pages/4_Share.py"
-    try:
-        st.switch_page("app.py")
-    except StreamlitAPIException:
-        pass  # run without app.py (a test of this page alone)
+route_through_app("pages/4_Share.py")
 st.title("Share")
 st.caption(wb.CAUTION_LINE)
 loaded = state.setdefault("hm_loaded", {})
@@ -28,11 +22,7 @@ scenarios = state.setdefault("hm_scenarios", {})
 if state.get("hm_flash"):
     st.success(state.pop("hm_flash"))
 
-try:
-    store = ScenarioStore()
-except StoreError as error:
-    st.error(f"The library could not be opened: {error}")
-    st.stop()
+store = open_store()
 choices = wb.run_choices(store)
 
 if not choices:

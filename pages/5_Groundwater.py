@@ -17,7 +17,6 @@ import dataclasses
 
 import pandas as pd
 import streamlit as st
-from streamlit.errors import StreamlitAPIException
 from streamlit_folium import st_folium
 
 from engine import workbench as wb
@@ -34,7 +33,7 @@ from engine.groundwater import (
 )
 from engine.interference import interference_comparison, plume_outlines, plume_polygons, solve_with_interference
 from engine.maps import WELL_CAUTION, district_map
-from engine.store import ScenarioStore, StoreError
+from pages._shell import open_store, route_through_app
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 CURRENT = "current"
@@ -46,13 +45,7 @@ VIEW_AS_SOLVED = "as solved"
 VIEW_CHECKED = "with interference"
 
 state = st.session_state
-if not state.get("hm_shell"):
-    # opened by its address before app.py set up the navigation in this server: let app.py do that first
-    state["hm_goto"] = "pages/5_Groundwater.py"
-    try:
-        st.switch_page("app.py")
-    except StreamlitAPIException:
-        pass  # run without app.py (this page on its own)
+route_through_app("pages/5_Groundwater.py")
 st.title("Groundwater check")
 st.warning(PAGE_CAUTION + " " + wb.CAUTION_LINE, icon=":material/warning:")
 solved = state.setdefault("hm_solved", {})
@@ -61,11 +54,7 @@ scenarios = state.setdefault("hm_scenarios", {})
 checks = state.setdefault("hm_groundwater", {})
 plume_cache = state.setdefault("hm_plumes", {})
 
-try:
-    store = ScenarioStore()
-except StoreError as error:
-    st.error(f"The library could not be opened: {error}")
-    st.stop()
+store = open_store()
 choices = wb.run_choices(store)
 current = solved.get(state.get("hm_current"))
 options = ([CURRENT] if current is not None else []) + list(choices)

@@ -15,7 +15,7 @@ Widget keys start with ``tradeoffs_``.
 from __future__ import annotations
 
 import streamlit as st
-from streamlit.errors import StreamlitAPIException
+
 
 from engine import workbench as wb
 from engine.fidelity import DEFAULT_DAY_COUNTS, cached_fidelity, fidelity_key, fidelity_note, lookup_fidelity
@@ -26,14 +26,10 @@ from engine.sweep import (
     tornado_figure, tornado_table, tornado_tasks,
 )
 from engine.tradeoff import supply_mix_figure, tradeoff_curve_runs, tradeoff_figure
+from pages._shell import route_through_app
 
 state = st.session_state
-if not state.get("hm_shell"):
-    state["hm_goto"] = "pages/6_Trade_offs_and_sweeps.py"
-    try:
-        st.switch_page("app.py")
-    except StreamlitAPIException:
-        pass  # run without app.py (a test of this page alone)
+route_through_app("pages/6_Trade_offs_and_sweeps.py")
 
 st.title("Trade-offs and sweeps")
 st.caption(wb.CAUTION_LINE)
