@@ -768,6 +768,30 @@ def markdown_literal(text) -> str:
     return _MARKDOWN_ACTIVE.sub(lambda m: f"&#{ord(m.group())};", str(text))
 
 
+def resolution_note(scenario, result: RunResult) -> str:
+    """What the time resolution of ``result`` costs in accuracy, from the cached typical-day fidelity table.
+
+    The table is measured once per input set (Trade-offs and sweeps page, or ``python -m engine.fidelity``);
+    until then the note says where to measure it.
+    """
+    from .fidelity import fidelity_note, lookup_fidelity
+
+    days = int(result.settings.get("typical_days", 0) or 0)
+    if scenario is None:
+        return ""
+    if days == 0:
+        return fidelity_note(pd.DataFrame(), 0)
+    try:
+        table = lookup_fidelity(scenario, result.cost_case, result.objective)
+    except Exception:  # a damaged cache file only costs the note
+        table = None
+    note = fidelity_note(table, days) if table is not None else ""
+    return note or (
+        f"Solved with {days} typical days. Their error against the full year has not been measured for these "
+        "inputs yet: the Trade-offs and sweeps page measures it once (fidelity tab)."
+    )
+
+
 def describe_choices(result: RunResult) -> str:
     """One line (Markdown) with a run's cost case, objective, CO2 cap and time resolution."""
     choice = choices_of_run(result)

@@ -70,6 +70,9 @@ scenario = wb.scenario_for_files(scenarios, files)
 technologies = scenario.technologies if scenario is not None else None
 
 st.markdown(wb.describe_choices(result))
+resolution_note = wb.resolution_note(scenario, result)
+if resolution_note:
+    st.caption(resolution_note)
 if info is not None:
     note = f" · note: {wb.markdown_literal(info['note'])}" if info["note"] else ""
     saved = str(info["created_utc"])[:16].replace("T", " ")
