@@ -81,8 +81,20 @@ class DistrictModel:
 
 
 def _district_potential(prepared: PreparedRun) -> dict:
-    dt = prepared.scenario.district_technologies
-    return {(r.district_id, r.technology_id): (float(r.existing_kw), float(r.potential_kw)) for r in dt.itertuples()}
+    """(existing, potential) per (district, technology), read once per prepared run.
+
+    Decomposed runs build one LP per district from the same prepared run; walking the city's whole table for each
+    of them would make the build grow with the square of the number of districts.
+    """
+    cached = getattr(prepared, "_potential_cache", None)
+    if cached is None:
+        dt = prepared.scenario.district_technologies
+        cached = {
+            (d, t): (float(e), float(p))
+            for d, t, e, p in zip(dt["district_id"], dt["technology_id"], dt["existing_kw"], dt["potential_kw"])
+        }
+        prepared._potential_cache = cached
+    return cached
 
 
 def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUnits, StoreUnits]:
