@@ -6,8 +6,10 @@ input hash and settings, and ``kpi`` the key figures of :func:`engine.figures.kp
 
 Spreadsheet cells are written as typed values: numbers as numbers, text always as text (a name that starts with
 ``=`` is not turned into a formula), NaN as an empty cell and infinities as the text ``inf``. A table longer than
-a sheet allows (1 048 576 rows) continues on sheets ``<table> 2``, ``<table> 3`` ... The CSV files keep the values
-exactly as the result holds them, as :meth:`engine.results.RunResult.write` does.
+a sheet allows (1 048 576 rows) continues on sheets ``<table> 2``, ``<table> 3`` ... The CSV files keep numbers
+exactly as the result holds them; a text cell that a spreadsheet program would read as a formula (one starting with
+``=``, ``+``, ``-``, ``@``, a tab or a carriage return) gets a leading apostrophe, as the OWASP "CSV Injection"
+page advises. :meth:`engine.results.RunResult.write` keeps every value verbatim for machine reading.
 """
 
 from __future__ import annotations
@@ -148,6 +150,28 @@ def tables_xlsx(results: Mapping[str, RunResult]) -> bytes:
     return buffer.getvalue()
 
 
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
+def neutralise_formulas(frame: pd.DataFrame) -> pd.DataFrame:
+    """``frame`` with an apostrophe before every text cell (and header) that starts like a formula.
+
+    Only text is touched: numeric columns, and numbers that sit in a text column, stay as they are.
+    """
+
+    def guard(value):
+        if isinstance(value, str) and value.startswith(FORMULA_START):
+            return "'" + value
+        return value
+
+    out = frame.copy()
+    for column in out.columns:
+        if out[column].dtype == object or pd.api.types.is_string_dtype(out[column].dtype):
+            out[column] = out[column].map(guard)
+    out.columns = [guard(c) for c in out.columns]
+    return out
+
+
 def _file_name(name: str, used: set[str]) -> str:
     base = re.sub(r"[^A-Za-z0-9_.-]+", "_", str(name)).strip("._") or "table"
     candidate, k = base, 2
@@ -159,7 +183,10 @@ def _file_name(name: str, used: set[str]) -> str:
 
 
 def tables_csv_zip(results: Mapping[str, RunResult]) -> bytes:
-    """The runs' tables as a zip of UTF-8 CSV files: runs.csv, kpi.csv and one file per table kind."""
+    """The runs' tables as a zip of UTF-8 CSV files: runs.csv, kpi.csv and one file per table kind.
+
+    Text that would start a spreadsheet formula is prefixed with an apostrophe (:func:`neutralise_formulas`).
+    """
     from .figures import kpi_table
 
     buffer = io.BytesIO()
@@ -167,5 +194,5 @@ def tables_csv_zip(results: Mapping[str, RunResult]) -> bytes:
     with zipfile.ZipFile(buffer, "w", compression=zipfile.ZIP_DEFLATED) as archive:
         tables = {"runs": run_overview(results), "kpi": kpi_table(results), **combined_tables(results)}
         for name, frame in tables.items():
-            archive.writestr(_file_name(name, used), frame.to_csv(index=False))
+            archive.writestr(_file_name(name, used), neutralise_formulas(frame).to_csv(index=False))
     return buffer.getvalue()

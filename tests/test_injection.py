@@ -275,14 +275,29 @@ def test_spreadsheet_keeps_text_and_holds_no_formula(hostile):
     assert {c.value for c in names} >= set(DISTRICT_NAMES)
 
 
-def test_csv_files_keep_text_verbatim(hostile):
-    """The CSV zip gives back the names exactly (RFC 4180 quoting of the quotes and commas in them)."""
+def _defused(text: str) -> str:
+    """What the CSV export should hold for ``text``: an apostrophe before text that starts with = + - @ tab or CR
+    (OWASP, "CSV Injection": prefix such cells so a spreadsheet shows them as text)."""
+    return "'" + text if text[:1] in ("=", "+", "-", "@", "\t", "\r") else text
+
+
+def test_csv_files_keep_text_and_start_no_formula(hostile):
+    """The CSV zip gives back the names (RFC 4180 quoting of the quotes and commas in them), with formula-like
+    text defused: no cell of any file starts with '=', '+', '-' or '@' unless it is a number."""
     with zipfile.ZipFile(io.BytesIO(tables_csv_zip(hostile["results"]))) as archive:
         runs = pd.read_csv(io.BytesIO(archive.read("runs.csv")), keep_default_na=False)
         districts = pd.read_csv(io.BytesIO(archive.read("districts.csv")), keep_default_na=False)
-    assert list(runs["run"]) == list(RUN_NAMES)
-    assert list(runs["scenario"]) == [SCENARIO_NAME] * 2
-    assert set(districts["name"]) >= set(DISTRICT_NAMES)
+        texts = {name: archive.read(name).decode("utf-8") for name in archive.namelist()}
+    assert list(runs["run"]) == [_defused(n) for n in RUN_NAMES]
+    assert list(runs["run"])[1] == "'=1+2 '; DROP TABLE runs; --"
+    assert list(runs["scenario"]) == [_defused(SCENARIO_NAME)] * 2
+    assert set(districts["name"]) >= {_defused(n) for n in DISTRICT_NAMES}
+    assert f"'{FORMULA_NAME}" in set(districts["name"])
+    for name, text in texts.items():
+        for row in csv.reader(io.StringIO(text)):
+            for cell in row:
+                if cell[:1] in ("=", "+", "-", "@"):
+                    float(cell)  # only numbers such as -3.5 may start so; text raises here and fails the test
 
 
 # ---------------------------------------------------------------------------------------------------- HTML
