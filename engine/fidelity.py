@@ -113,6 +113,7 @@ def typical_day_fidelity(
     objective: str | None = None,
     workers: int | None = None,
     progress: Progress | None = None,
+    cancel: Callable[[], bool] | None = None,
 ) -> pd.DataFrame:
     """Solve ``scenario`` at each number of typical days and over the full year; compare (see :func:`fidelity_table`).
 
@@ -130,13 +131,15 @@ def typical_day_fidelity(
         Worker processes for the district solves.
     progress : callable, optional
         ``progress(share, text)`` after each run.
+    cancel : callable, optional
+        Checked before each run and passed to the solver; when it returns True the measurement stops.
 
     Raises
     ------
     ValueError
         If a day count is not a whole number in range.
     RuntimeError
-        If the full-year run fails (there is nothing to compare with).
+        If the full-year run fails (there is nothing to compare with), or ``cancel`` stopped the measurement.
     """
     n_days = scenario.n_hours // 24
     counts = []
@@ -151,8 +154,12 @@ def typical_day_fidelity(
     for k, days in enumerate(runs):
         label = "the full year" if days == 0 else f"{days} typical days"
         report(k / len(runs), f"Solving at {label}")
+        if cancel is not None and cancel():
+            raise RuntimeError("the fidelity measurement was cancelled")
         settings = run_settings(scenario, objective, None, days)
-        results[days] = solve_scenario(scenario, case, settings=settings, workers=workers)
+        results[days] = solve_scenario(scenario, case, settings=settings, workers=workers, cancel=cancel)
+        if cancel is not None and cancel():
+            raise RuntimeError("the fidelity measurement was cancelled")
         if days == 0 and not results[0].solved:
             raise RuntimeError(f"the full-year run failed, so there is nothing to compare with: {results[0].message}")
     report(1.0, "Fidelity measured")
@@ -214,6 +221,7 @@ def cached_fidelity(
     workers: int | None = None,
     progress: Progress | None = None,
     refresh: bool = False,
+    cancel: Callable[[], bool] | None = None,
 ) -> pd.DataFrame:
     """The fidelity table of these inputs: from the cache, or measured once and stored there.
 
@@ -227,7 +235,7 @@ def cached_fidelity(
     if found is not None:
         return found
     started = time.perf_counter()
-    table = typical_day_fidelity(scenario, cost_case, day_counts, objective, workers, progress)
+    table = typical_day_fidelity(scenario, cost_case, day_counts, objective, workers, progress, cancel)
     measured = datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
     entries = _read_cache(path)
     entries[fidelity_key(scenario, cost_case, objective)] = {

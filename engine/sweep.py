@@ -293,6 +293,10 @@ def _solve_on_cluster(scenario, payload, typical_days, objective, keep_result):
     return solve_task(scenario, _task(payload), typical_days, objective, keep_result)
 
 
+class SweepCancelled(RuntimeError):
+    """A sweep stopped by its ``cancel`` callable before every run finished."""
+
+
 def run_sweep(
     scenario: Scenario,
     tasks: list[SweepTask],
@@ -303,6 +307,7 @@ def run_sweep(
     keep_results: bool = False,
     progress: Progress | None = None,
     sweep_id: str | None = None,
+    cancel: Callable[[], bool] | None = None,
 ) -> SweepOutcome:
     """Solve every task and collect one record per run.
 
@@ -328,6 +333,9 @@ def run_sweep(
         ``progress(share, text)`` each time a run finishes.
     sweep_id : str, optional
         Identifier of the sweep (default: a new random one); saved runs carry it.
+    cancel : callable, optional
+        Checked each time a run finishes; when it returns True the runs not yet started are dropped and
+        :class:`SweepCancelled` is raised.
 
     Returns
     -------
@@ -346,6 +354,8 @@ def run_sweep(
     outputs: list = [None] * len(tasks)
     done = 0
 
+    stopped = cancel or (lambda: False)
+
     def finished(k: int, output) -> None:
         nonlocal done
         outputs[k] = output
@@ -354,6 +364,8 @@ def run_sweep(
         figure = (f"{record['total_cost_eur_per_a']:,.0f} EUR/a, {record['co2_t_per_a']:,.0f} t/a"
                   if record["status"] == "optimal" else record["status"])
         report(done / len(tasks), f"Run {done} of {len(tasks)} done: {tasks[k].name} ({figure})")
+        if stopped():
+            raise SweepCancelled(f"the sweep was cancelled after {done} of {len(tasks)} runs")
 
     if scheduler is not None:
         _run_on_cluster(scenario, tasks, typical_days, objective, keep_results, scheduler, finished)
@@ -362,6 +374,8 @@ def run_sweep(
             workers = min(len(tasks), os.cpu_count() or 1)
         if workers <= 1 or len(tasks) == 1:
             for k, task in enumerate(tasks):
+                if stopped():
+                    raise SweepCancelled(f"the sweep was cancelled after {done} of {len(tasks)} runs")
                 finished(k, solve_task(scenario, task, typical_days, objective, keep_results))
         else:
             with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(scenario,)) as pool:
@@ -369,8 +383,13 @@ def run_sweep(
                     pool.submit(_solve_in_worker, _payload(task), typical_days, objective, keep_results): k
                     for k, task in enumerate(tasks)
                 }
-                for future in as_completed(futures):
-                    finished(futures[future], future.result())
+                try:
+                    for future in as_completed(futures):
+                        finished(futures[future], future.result())
+                except SweepCancelled:
+                    for future in futures:
+                        future.cancel()
+                    raise
     return _outcome(sweep_id, outputs, keep_results)
 
 
@@ -389,8 +408,12 @@ def _run_on_cluster(scenario, tasks, typical_days, objective, keep_results, sche
             for task in tasks
         ]
         index = {f.key: k for k, f in enumerate(futures)}
-        for future in dask_as_completed(futures):
-            finished(index[future.key], future.result())
+        try:
+            for future in dask_as_completed(futures):
+                finished(index[future.key], future.result())
+        except SweepCancelled:
+            client.cancel(futures)
+            raise
     finally:
         if own_client:
             client.close()

@@ -738,12 +738,13 @@ def resolve_saved_run(
     result: RunResult,
     label: str,
     progress: Callable[[float, str], None] | None = None,
+    cancel: Callable[[], bool] | None = None,
 ) -> tuple[SolvedRun, bool]:
     """Solve a saved run again from its own files and choices (a reproducibility check)."""
     choices = choices_of_run(result)
     key = request_key(files_digest(files), None, None, choices["cost_case"], choices["objective"],
                       choices["co2_cap_t_per_a"], choices["typical_days"])
-    return solve_with_cache(cache, key, scenario, files, label, progress=progress, **choices)
+    return solve_with_cache(cache, key, scenario, files, label, progress=progress, cancel=cancel, **choices)
 
 
 def load_saved_run(store: ScenarioStore, cache: MutableMapping, run_id: int) -> RunResult:
@@ -1094,3 +1095,52 @@ __all__ = [
     "suggested_run_name",
     "unique_run_names",
 ]
+
+
+# ------------------------------------------------------------------------------------------ cancellable jobs
+class JobCancelled(RuntimeError):
+    """A long job (solve, trade-off curve, sweep, check) was stopped by the planner."""
+
+
+def run_cancellable(
+    job: Callable[[Callable[[float, str], None], Callable[[], bool]], object],
+    show: Callable[[float, str], None],
+    poll_s: float = 0.2,
+    stop_wait_s: float = 60.0,
+):
+    """Run ``job(progress, cancel)`` in a worker thread while this thread shows its progress every ``poll_s``.
+
+    ``show(share, text)`` is called from this thread only. If this thread is interrupted while it waits (any
+    exception raised by ``show``, such as the dashboard's rerun when the planner presses Cancel, or a
+    KeyboardInterrupt), the job's ``cancel()`` starts returning True, the worker is given up to ``stop_wait_s``
+    to stop (a HiGHS solve stops at its next interrupt callback), and the exception goes on. An exception raised
+    by the job is raised here. Returns the job's value.
+    """
+    import threading
+
+    stop = threading.Event()
+    latest = [0.0, "Starting"]
+    box: dict = {}
+
+    def progress(share: float, text: str) -> None:
+        latest[0], latest[1] = float(share), str(text)
+
+    def target() -> None:
+        try:
+            box["value"] = job(progress, stop.is_set)
+        except BaseException as error:  # handed to the waiting thread
+            box["error"] = error
+
+    worker = threading.Thread(target=target, name="heatmosaic-job", daemon=True)
+    worker.start()
+    try:
+        while worker.is_alive():
+            worker.join(poll_s)
+            show(latest[0], latest[1])
+    finally:
+        if worker.is_alive():
+            stop.set()
+            worker.join(stop_wait_s)
+    if "error" in box:
+        raise box["error"]
+    return box.get("value")

@@ -12,7 +12,7 @@ import streamlit as st
 from engine import workbench as wb
 from engine.problems import problems_frame
 from engine.store import ScenarioStore, StoreError
-from pages._shell import route_through_app
+from pages._shell import route_through_app, run_with_cancel, show_cancelled
 
 RESULTS_PAGE = "pages/2_Run_results.py"
 OBJECTIVES = {"cost": "Lowest annual cost", "co2": "Lowest CO2 emissions"}
@@ -216,20 +216,23 @@ with st.container(border=True):
                         key="setup_solve")
     earlier = key in solved and not clicked and state.get("setup_just_solved") != key
     run: wb.SolvedRun | None = solved.get(key)
+    show_cancelled("setup_job", "solve")
     if clicked:
-        bar = st.progress(0.0, text="Starting")
         started = time.perf_counter()
         edited, edit_problems = wb.apply_edits(scenario, technology_table, well_table)
         if edited is None:
             st.error("The edits cannot be used.")
             st.stop()
         files = wb.scenario_files_with_edits(inputs.files, technology_table, well_table, scenario)
-        run, from_cache = wb.solve_with_cache(
-            solved, key, edited, files, inputs.label, cost_case, objective, co2_cap, days,
-            progress=lambda share, text: bar.progress(min(max(float(share), 0.0), 1.0), text=text),
+        run, from_cache = run_with_cancel(
+            lambda progress, cancel: wb.solve_with_cache(
+                solved, key, edited, files, inputs.label, cost_case, objective, co2_cap, days,
+                progress=progress, cancel=cancel,
+            ),
+            key="setup_job",
         )
-        bar.progress(1.0, text=("Found in this session's runs" if from_cache else "Solved")
-                     + f" in {time.perf_counter() - started:.1f} s")
+        st.caption(("Found in this session's runs" if from_cache else "Solved")
+                   + f" in {time.perf_counter() - started:.1f} s")
         if run.result.solved:
             state["hm_current"] = key
             state["setup_just_solved"] = key
@@ -237,7 +240,8 @@ with st.container(border=True):
         state["hm_current"] = key
         st.caption("Solved earlier in this session with these very choices: shown straight away.")
     if run is None:
-        st.info("Press Solve to compute this run (the demo city takes a few seconds).")
+        st.info("Press Solve to compute this run (the demo city takes "
+                + ("several minutes for the full year; Cancel stops it)." if full_year else "a few seconds)."))
     else:
         result = run.result
         if not result.solved:

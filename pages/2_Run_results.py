@@ -15,7 +15,7 @@ from engine.figures import (
 )
 from engine.maps import MEASURES, WELL_CAUTION, district_map
 from engine.store import StoreError
-from pages._shell import open_store, route_through_app
+from pages._shell import open_store, route_through_app, run_with_cancel, show_cancelled
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 CURRENT = "current"
@@ -188,13 +188,14 @@ def show_manage() -> None:
             st.switch_page(PLAN_PAGE)
         st.markdown("**Re-solve**")
         st.caption("Solves the run again from its saved files; the result should match to solver precision.")
+        show_cancelled("results_job", "re-solve")
         if st.button("Re-solve", key="results_resolve", icon=":material/replay:", disabled=scenario is None):
-            bar = st.progress(0.0, text="Starting")
-            again, _ = wb.resolve_saved_run(
-                solved, scenario, files, result, f"re-solve of “{info['name']}”",
-                progress=lambda share, text: bar.progress(min(max(float(share), 0.0), 1.0), text=text),
+            again, _ = run_with_cancel(
+                lambda progress, cancel: wb.resolve_saved_run(
+                    solved, scenario, files, result, f"re-solve of “{info['name']}”", progress=progress, cancel=cancel,
+                ),
+                key="results_job",
             )
-            bar.empty()
             if again.result.solved:
                 delta = again.result.total_cost_eur_per_a - result.total_cost_eur_per_a
                 st.success(f"Re-solved: total cost {again.result.total_cost_eur_per_a:,.0f} €/a (saved "

@@ -33,7 +33,7 @@ from engine.groundwater import (
 )
 from engine.interference import interference_comparison, plume_outlines, plume_polygons, solve_with_interference
 from engine.maps import WELL_CAUTION, district_map
-from pages._shell import open_store, route_through_app
+from pages._shell import open_store, route_through_app, run_with_cancel, show_cancelled
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 CURRENT = "current"
@@ -120,16 +120,19 @@ if already_checked:
     st.caption("This run was solved with the interference check; its doublets are shown with interference.")
 elif choice["typical_days"] == 0:
     st.caption("A full-year run: the interference check takes several minutes.")
+show_cancelled("groundwater_job", "interference check")
 if run_check:
     settings = dataclasses.replace(scenario.settings, reinjection_min_temp_c=low, reinjection_max_temp_c=high)
-    bar = st.progress(0.0, text="Starting the interference check")
-    checks[check_key] = solve_with_interference(
-        dataclasses.replace(scenario, settings=settings), cost_case=choice["cost_case"],
-        objective=choice["objective"], co2_cap_t_per_a=choice["co2_cap_t_per_a"],
-        typical_days=choice["typical_days"], horizon_years=horizon, workers=1,
-        progress=lambda share, text: bar.progress(min(max(float(share), 0.0), 1.0), text=text),
+    checked_now = run_with_cancel(
+        lambda progress, cancel: solve_with_interference(
+            dataclasses.replace(scenario, settings=settings), cost_case=choice["cost_case"],
+            objective=choice["objective"], co2_cap_t_per_a=choice["co2_cap_t_per_a"],
+            typical_days=choice["typical_days"], horizon_years=horizon, workers=1,
+            progress=progress, cancel=cancel,
+        ),
+        key="groundwater_job", start_text="Starting the interference check",
     )
-    bar.empty()
+    checks[check_key] = checked_now
 checked = result if already_checked else checks.get(check_key)
 if window_edited and checked is not None and not already_checked:
     st.caption(f"The interference check below was solved with the window {low:g} to {high:g} °C.")

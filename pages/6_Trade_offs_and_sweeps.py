@@ -26,7 +26,7 @@ from engine.sweep import (
     tornado_figure, tornado_table, tornado_tasks,
 )
 from engine.tradeoff import supply_mix_figure, tradeoff_curve_runs, tradeoff_figure
-from pages._shell import route_through_app
+from pages._shell import route_through_app, run_with_cancel, show_cancelled
 
 state = st.session_state
 route_through_app("pages/6_Trade_offs_and_sweeps.py")
@@ -45,11 +45,6 @@ setup = state.get("hm_setup") or {}
 curves = state.setdefault("hm_tradeoff", {})
 sweeps = state.setdefault("hm_sweeps", {})
 fidelities = state.setdefault("hm_fidelity", {})
-
-
-def progress_bar():
-    bar = st.progress(0.0, text="Starting")
-    return lambda share, text: bar.progress(min(max(float(share), 0.0), 1.0), text=text)
 
 
 st.markdown(f"**{wb.markdown_literal(inputs.label)}:** {wb.markdown_literal(scenario.settings.name)} · {len(scenario.districts)} districts")
@@ -75,8 +70,13 @@ with tab_curve:
     )
     n_points = st.slider("Points on the curve", 2, 12, 6, key="tradeoffs_points")
     curve_key = f"{inputs.digest[:16]}|{cost_case}|{days}|{n_points}"
+    show_cancelled("tradeoffs_curve_job", "trade-off curve")
     if st.button("Compute the curve", type="primary", icon=":material/show_chart:", key="tradeoffs_run_curve"):
-        curves[curve_key] = tradeoff_curve_runs(scenario, cost_case, n_points, days, progress=progress_bar())
+        curves[curve_key] = run_with_cancel(
+            lambda progress, cancel: tradeoff_curve_runs(scenario, cost_case, n_points, days, progress=progress,
+                                                         cancel=cancel),
+            key="tradeoffs_curve_job",
+        )
     if curve_key not in curves:
         st.info("Each point is one solve of the whole city (the CO2 bound ties the districts together); "
                 "the demo city at 12 typical days takes a few seconds per point.")
@@ -151,6 +151,7 @@ with tab_sweep:
                                       "heatmosaic installed.").strip() or None
     keep = right.checkbox("Save every run to the library, tagged with the sweep id", key="tradeoffs_sweep_keep")
     sweep_key = f"{inputs.digest[:16]}|{cost_case}|{days}|{mode}|{','.join(names)}|{n_samples}|{seed}"
+    show_cancelled("tradeoffs_sweep_job", "sweep")
     if st.button("Run the sweep", type="primary", icon=":material/grid_view:", key="tradeoffs_run_sweep",
                  disabled=mode != "cases" and not names):
         if mode == "cases":
@@ -161,8 +162,11 @@ with tab_sweep:
             tasks = tasks_from_samples(scenario, random_samples(default_ranges(names), int(n_samples), int(seed)),
                                        cost_case)
         try:
-            outcome = run_sweep(scenario, tasks, typical_days=days, scheduler=scheduler, keep_results=keep,
-                                progress=progress_bar())
+            outcome = run_with_cancel(
+                lambda progress, cancel: run_sweep(scenario, tasks, typical_days=days, scheduler=scheduler,
+                                                   keep_results=keep, progress=progress, cancel=cancel),
+                key="tradeoffs_sweep_job",
+            )
             sweeps[sweep_key] = outcome
             if keep:
                 with ScenarioStore() as store:
@@ -203,10 +207,16 @@ with tab_fidelity:
         table = lookup_fidelity(scenario, cost_case)
         if table is not None:
             fidelities[key] = table
+    show_cancelled("tradeoffs_fidelity_job", "fidelity measurement")
     if st.button("Measure now" if table is None else "Measure again", key="tradeoffs_measure",
                  help="Solves the full year once: minutes for a city the size of the demo."):
         try:
-            table = cached_fidelity(scenario, cost_case, progress=progress_bar(), refresh=table is not None)
+            refresh = table is not None
+            table = run_with_cancel(
+                lambda progress, cancel: cached_fidelity(scenario, cost_case, progress=progress, refresh=refresh,
+                                                         cancel=cancel),
+                key="tradeoffs_fidelity_job",
+            )
             fidelities[key] = table
         except (RuntimeError, ValueError) as error:
             st.error(f"The fidelity could not be measured: {error}")

@@ -34,3 +34,47 @@ def open_store() -> ScenarioStore:
     except StoreError as error:
         st.error(f"The library could not be opened: {error}")
         st.stop()
+
+
+def run_with_cancel(job, key: str, start_text: str = "Starting"):
+    """Run ``job(progress, cancel)`` with a progress bar and a Cancel button; returns the job's value.
+
+    Pressing Cancel (or changing any widget) reruns the page, which stops the job at its next check; the next run
+    of the page shows :func:`show_cancelled` for ``key``.
+    """
+    from engine.workbench import run_cancellable
+
+    state = st.session_state
+    bar = st.progress(0.0, text=start_text)
+    slot = st.empty()
+    slot.button("Cancel", key=f"{key}_cancel", icon=":material/stop_circle:",
+                help="Stops the job; nothing is saved and earlier results stay as they were.")
+    state[f"{key}_running"] = True
+    interrupted = []
+
+    def show(share: float, text: str) -> None:
+        try:
+            bar.progress(min(max(float(share), 0.0), 1.0), text=text)
+        except BaseException:  # the page is being rerun (Cancel or another widget): the job is stopped
+            interrupted.append(True)
+            raise
+
+    try:
+        value = run_cancellable(job, show)
+    except BaseException:
+        if not interrupted:  # the job itself failed: no "stopped" notice, the page reports the error
+            state.pop(f"{key}_running", None)
+            slot.empty()
+            bar.empty()
+        raise
+    state.pop(f"{key}_running", None)
+    slot.empty()
+    bar.empty()
+    return value
+
+
+def show_cancelled(key: str, what: str) -> None:
+    """Say so when the job under ``key`` was stopped before it finished (by Cancel or by another widget)."""
+    if st.session_state.pop(f"{key}_running", False):
+        st.info(f"The {what} was stopped before it finished. Nothing was saved; earlier results are unchanged.",
+                icon=":material/stop_circle:")

@@ -177,3 +177,34 @@ def test_two_cost_cases_solved_saved_and_compared_in_chromium(server):
         finally:
             browser.close()
     assert refused == [], f"the dashboard asked the internet for {refused[:5]}"
+
+
+def test_cancel_stops_a_full_year_solve_in_chromium(server):
+    """In Chromium: a full-year solve of the demo (minutes of HiGHS) is stopped by its Cancel button. The page
+    says so well before the runner would give up waiting (60 s), which it can only do once the solver has
+    stopped; no run is offered for saving."""
+    sync_api = _require_browser()
+    ARTIFACTS.mkdir(exist_ok=True)
+    with sync_api.sync_playwright() as playwright:
+        browser = playwright.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
+        try:
+            page = browser.new_context(viewport={"width": 1400, "height": 1000}).new_page()
+            page.set_default_timeout(STEP_TIMEOUT_MS)
+            page.goto(f"{server}/Plan_a_run")
+            page.get_by_role("heading", name="Plan a run").wait_for()
+            _settled(page)
+            page.get_by_text("Full year (8760 hours)").click()
+            _settled(page)
+            page.get_by_role("button", name="Solve").click()
+            cancel = page.get_by_role("button", name="Cancel")
+            cancel.wait_for(timeout=STEP_TIMEOUT_MS)
+            page.wait_for_timeout(3000)  # well inside the solve: HiGHS is running
+            page.screenshot(path=str(ARTIFACTS / "plan_solving_with_cancel.png"), full_page=True)
+            cancel.click()
+            page.get_by_text("The solve was stopped before it finished").wait_for(timeout=40_000)
+            _settled(page)
+            page.screenshot(path=str(ARTIFACTS / "plan_after_cancel.png"), full_page=True)
+            assert page.get_by_text("5 · Save to the library").count() == 0
+            assert page.get_by_role("button", name="Cancel").count() == 0
+        finally:
+            browser.close()
