@@ -1,7 +1,7 @@
 """heatmosaic dashboard: plan, solve, save, compare and share heat-transition scenarios in the browser.
 
 Start with ``streamlit run app.py``. This file sets up the navigation and draws the overview page; the other
-pages live in ``pages/``. The session-state keys the pages share are documented in :mod:`engine.workbench`.
+pages live in ``pages/``. The session-state keys the pages share are documented in :mod:`pages._support.workbench`.
 """
 
 from __future__ import annotations
@@ -10,8 +10,8 @@ from pathlib import Path
 
 import streamlit as st
 
-from engine.store import ScenarioStore, StoreError
-from engine.workbench import CAUTION, library_table
+from engine.storage.store import ScenarioStore, StoreError
+from pages._support.workbench import CAUTION, library_table
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 RESULTS_PAGE = "pages/2_Run_results.py"

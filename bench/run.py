@@ -8,7 +8,7 @@ Usage::
 
 Each case runs in a fresh child process so that its peak memory is its own. Within the child:
 
-* ``total s`` is the wall time of :func:`engine.run.solve_scenario` (prepare, build, solve, extract, merge);
+* ``total s`` is the wall time of :func:`engine.model.solve.solve_scenario` (prepare, build, solve, extract, merge);
   ``build``, ``solve`` and ``extract`` are the sums over the case's linear programs as the run reports them
   (CPU seconds summed over the worker processes when the districts are solved in parallel).
 * ``peak MB`` is the resident set size of the child plus all its worker processes, summed and sampled every
@@ -123,7 +123,7 @@ def highs_alone(path: str) -> float:
 
 
 def _write_mps(prepared, districts, folder: str, tag: str) -> str:
-    from engine.model import build_model
+    from engine.model.formulation import build_model
 
     model = build_model(prepared, districts)
     path = os.path.join(folder, f"{tag}.mps")
@@ -141,7 +141,7 @@ def _highs_reference(prepared, parts, workers: int, sample: int, seed: int = 1) 
     if estimated:
         # a systematic sample over the districts ordered by LP size, so that the few large LPs (districts with
         # a heat store) are represented in proportion
-        from engine.model import build_model
+        from engine.model.formulation import build_model
 
         sizes = [build_model(prepared, p).lp.n_cols for p in parts]
         order = np.argsort(sizes, kind="stable")
@@ -169,8 +169,8 @@ def run_case(n_districts: int, typical_days: int, path: str, workers: int, sampl
     import gc
 
     from bench.synthetic_city import synthetic_city
-    from engine.prepare import prepare_run
-    from engine.run import run_settings, solve_scenario
+    from engine.model.prepare import prepare_run
+    from engine.model.solve import run_settings, solve_scenario
 
     scenario = synthetic_city(n_districts, typical_days=typical_days)
     decompose = path == "decomposed"
@@ -205,8 +205,8 @@ def run_case(n_districts: int, typical_days: int, path: str, workers: int, sampl
 
 def run_demo() -> dict:
     """Demo city end to end (read the folder and solve at 12 typical days), default workers and one worker."""
-    from engine.io import load_scenario, resolve_scenario_path
-    from engine.run import solve_scenario
+    from engine.scenario.reader import load_scenario, resolve_scenario_path
+    from engine.model.solve import solve_scenario
 
     out = {}
     for label, workers in (("default", None), ("one_worker", 1)):
@@ -291,7 +291,7 @@ def _profile(spec_text: str) -> None:
     import pstats
 
     from bench.synthetic_city import synthetic_city
-    from engine.run import solve_scenario
+    from engine.model.solve import solve_scenario
 
     n, days, path = spec_text.split(":")
     scenario = synthetic_city(int(n), typical_days=int(days))

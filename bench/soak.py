@@ -11,11 +11,11 @@ What one solve is
 The default drives ``pages/1_Plan_a_run.py`` as a planner does, inside one Streamlit session: the cost case
 select box alternates between ``reference`` and ``high_co2``, the typical-days box steps through 3 to 9, and the
 Solve button is pressed. Two cost cases times seven day counts repeat every 14 solves, more than the session's
-solve cache keeps (:data:`engine.workbench.SOLVE_CACHE_SIZE`), so every press is a real solve while the cache is
+solve cache keeps (:data:`pages._support.workbench.SOLVE_CACHE_SIZE`), so every press is a real solve while the cache is
 full and dropping its oldest run, which is the state a long working session ends up in.
 
 ``--engine`` makes the same requests without Streamlit, calling what the page calls: the request key, the edits
-applied to the scenario and written into its files, :func:`engine.workbench.solve_with_cache` with a dict in
+applied to the scenario and written into its files, :func:`pages._support.workbench.solve_with_cache` with a dict in
 place of ``st.session_state["hm_solved"]``, the key figures and the district table.
 
 What is printed
@@ -107,7 +107,7 @@ class EngineSession:
     """The same requests through the helpers the set-up page calls, with a dict as the session's cache."""
 
     def __init__(self):
-        from engine import workbench as wb
+        from pages._support import workbench as wb
 
         self.wb = wb
         self.inputs = wb.demo_input_set()
@@ -135,7 +135,7 @@ class EngineSession:
 
 
 def main(argv=None) -> int:
-    from engine.workbench import SOLVE_CACHE_SIZE
+    from pages._support.workbench import SOLVE_CACHE_SIZE
 
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--solves", type=int, default=50, help="number of solves (default 50)")

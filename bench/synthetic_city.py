@@ -1,6 +1,6 @@
 """Synthetic cities of any number of districts, for benchmarks and tests.
 
-:func:`synthetic_city` builds an :class:`engine.inputs.Scenario` in code from a seed: districts on a grid of
+:func:`synthetic_city` builds an :class:`engine.scenario.inputs.Scenario` in code from a seed: districts on a grid of
 square polygons, a small technology catalogue (gas boiler, air and groundwater heat pumps, network connection,
 electric boiler, heat store, chiller), doublets in about a third of the districts, room for a heat store in about
 a third, existing gas boilers in the older ones, and an
@@ -26,7 +26,7 @@ import pandas as pd
 if __package__ in (None, ""):
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from engine.inputs import Aquifer, CostCase, Prices, Scenario, Settings  # noqa: E402
+from engine.scenario.inputs import Aquifer, CostCase, Prices, Scenario, Settings  # noqa: E402
 
 _TECHNOLOGY_ROWS = [
     # id, kind, carrier, efficiency, grade, source approach, sink approach, invest, fixed O&M %, var O&M, life,
@@ -136,7 +136,7 @@ def synthetic_city(
 
     Returns
     -------
-    engine.inputs.Scenario
+    engine.scenario.inputs.Scenario
         With the cost cases ``reference``, ``high_co2``, ``cheap_network`` and ``heat_pump_subsidy``.
     """
     if int(n_districts) < 1:
@@ -254,7 +254,7 @@ def _toml_value(value) -> str:
 
 
 def write_scenario_folder(scenario: Scenario, folder: str | Path) -> Path:
-    """Write ``scenario`` as a scenario folder that :func:`engine.io.load_scenario` reads back.
+    """Write ``scenario`` as a scenario folder that :func:`engine.scenario.reader.load_scenario` reads back.
 
     Raises
     ------

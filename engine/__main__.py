@@ -34,8 +34,8 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--time-limit-s", type=float, default=None)
     p.add_argument("--quiet", action="store_true")
 
-    from .sweep import add_sweep_parser
-    from .tradeoff import add_tradeoff_parser
+    from engine.studies.sweep import add_sweep_parser
+    from engine.studies.tradeoff import add_tradeoff_parser
 
     add_tradeoff_parser(sub)
     add_sweep_parser(sub)
@@ -53,8 +53,8 @@ def _progress(quiet: bool):
 
 
 def _load(path_arg: str):
-    from .io import load_scenario, resolve_scenario_path
-    from .problems import InputError
+    from engine.scenario.reader import load_scenario, resolve_scenario_path
+    from engine.scenario.problems import InputError
 
     try:
         return load_scenario(resolve_scenario_path(path_arg)), None
@@ -69,7 +69,7 @@ def _print_problems(error) -> None:
 
 
 def cmd_solve(args) -> int:
-    from .run import solve_scenario
+    from engine.model.solve import solve_scenario
 
     scenario, error = _load(args.scenario)
     if error is not None:
@@ -95,7 +95,7 @@ def cmd_solve(args) -> int:
         time_limit_s=args.time_limit_s,
     )
     if args.interference:
-        from .interference import solve_with_interference
+        from engine.studies.interference import solve_with_interference
 
         if args.horizon_years <= 0:
             print("--horizon-years must be > 0", file=sys.stderr)
@@ -120,17 +120,17 @@ def main(argv=None) -> int:
     args = _parser().parse_args(argv)
     try:
         if args.command == "validate":
-            from .io import validate_command
+            from engine.scenario.reader import validate_command
 
             return validate_command(args.scenario)
         if args.command == "solve":
             return cmd_solve(args)
         if args.command == "tradeoff":
-            from .tradeoff import cmd_tradeoff
+            from engine.studies.tradeoff import cmd_tradeoff
 
             return cmd_tradeoff(args)
         if args.command == "sweep":
-            from .sweep import cmd_sweep
+            from engine.studies.sweep import cmd_sweep
 
             return cmd_sweep(args)
     except KeyboardInterrupt:

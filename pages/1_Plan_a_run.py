@@ -9,10 +9,10 @@ from pathlib import Path
 import streamlit as st
 
 
-from engine import workbench as wb
-from engine.problems import problems_frame
-from engine.store import ScenarioStore, StoreError
-from pages._shell import route_through_app, run_with_cancel, show_cancelled
+from pages._support import workbench as wb
+from engine.scenario.problems import problems_frame
+from engine.storage.store import ScenarioStore, StoreError
+from pages._support.shell import route_through_app, run_with_cancel, show_cancelled
 
 RESULTS_PAGE = "pages/2_Run_results.py"
 OBJECTIVES = {"cost": "Lowest annual cost", "co2": "Lowest CO2 emissions"}

@@ -5,17 +5,17 @@ from __future__ import annotations
 import streamlit as st
 from streamlit_folium import st_folium
 
-from engine import workbench as wb
-from engine.figures import (
+from pages._support import workbench as wb
+from engine.outputs.figures import (
     FIGURE_CONFIG,
     cost_breakdown_figure,
     district_supply_figure,
     load_curve_figure,
     load_duration_figure,
 )
-from engine.maps import MEASURES, WELL_CAUTION, district_map
-from engine.store import StoreError
-from pages._shell import open_store, route_through_app, run_with_cancel, show_cancelled
+from engine.outputs.maps import MEASURES, WELL_CAUTION, district_map
+from engine.storage.store import StoreError
+from pages._support.shell import open_store, route_through_app, run_with_cancel, show_cancelled
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 CURRENT = "current"

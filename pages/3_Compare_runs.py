@@ -5,8 +5,8 @@ from __future__ import annotations
 import streamlit as st
 from streamlit_folium import st_folium
 
-from engine import workbench as wb
-from engine.figures import (
+from pages._support import workbench as wb
+from engine.outputs.figures import (
     FIGURE_CONFIG,
     cost_breakdown_figure,
     difference_table,
@@ -17,8 +17,8 @@ from engine.figures import (
     main_supply_changes,
     supply_mix_figure,
 )
-from engine.maps import MEASURES, WELL_CAUTION, district_map
-from pages._shell import open_store, route_through_app
+from engine.outputs.maps import MEASURES, WELL_CAUTION, district_map
+from pages._support.shell import open_store, route_through_app
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 MEASURE_LABELS = {

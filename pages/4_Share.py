@@ -5,11 +5,11 @@ from __future__ import annotations
 import streamlit as st
 
 
-from engine import workbench as wb
-from engine.export import tables_csv_zip, tables_xlsx
-from engine.report import html_report
-from engine.store import ScenarioStore
-from pages._shell import open_store, route_through_app
+from pages._support import workbench as wb
+from engine.outputs.export import tables_csv_zip, tables_xlsx
+from engine.outputs.report import html_report
+from engine.storage.store import ScenarioStore
+from pages._support.shell import open_store, route_through_app
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 

@@ -1,6 +1,6 @@
 """Groundwater check: permit screening of every well doublet of a run, and the interference check.
 
-Session state, besides the keys documented in :mod:`engine.workbench`:
+Session state, besides the keys documented in :mod:`pages._support.workbench`:
 
 ``hm_groundwater``
     ``{check key: RunResult}``: interference checks solved in this session (the key holds the run's input hash,
@@ -19,9 +19,9 @@ import pandas as pd
 import streamlit as st
 from streamlit_folium import st_folium
 
-from engine import workbench as wb
-from engine.figures import FIGURE_CONFIG
-from engine.groundwater import (
+from pages._support import workbench as wb
+from engine.outputs.figures import FIGURE_CONFIG
+from engine.studies.permits import (
     STATUS_COLORS,
     STATUS_LABELS,
     groundwater_map_figure,
@@ -31,9 +31,9 @@ from engine.groundwater import (
     well_year_figure,
     well_year_profiles,
 )
-from engine.interference import interference_comparison, plume_outlines, plume_polygons, solve_with_interference
-from engine.maps import WELL_CAUTION, district_map
-from pages._shell import open_store, route_through_app, run_with_cancel, show_cancelled
+from engine.studies.interference import interference_comparison, plume_outlines, plume_polygons, solve_with_interference
+from engine.outputs.maps import WELL_CAUTION, district_map
+from pages._support.shell import open_store, route_through_app, run_with_cancel, show_cancelled
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 CURRENT = "current"

@@ -1,6 +1,6 @@
 """Trade-offs and sweeps: the cost-CO2 curve, price sweeps with a tornado chart, and typical-day fidelity.
 
-Session state, besides the keys documented in :mod:`engine.workbench`:
+Session state, besides the keys documented in :mod:`pages._support.workbench`:
 
 ``hm_tradeoff``
     ``{request key: (trade-off table, list of RunResult)}``: curves computed in this session.
@@ -17,16 +17,16 @@ from __future__ import annotations
 import streamlit as st
 
 
-from engine import workbench as wb
-from engine.fidelity import DEFAULT_DAY_COUNTS, cached_fidelity, fidelity_key, fidelity_note, lookup_fidelity
-from engine.fidelity import recommend_typical_days
-from engine.store import ScenarioStore, StoreError
-from engine.sweep import (
+from pages._support import workbench as wb
+from engine.studies.fidelity import DEFAULT_DAY_COUNTS, cached_fidelity, fidelity_key, fidelity_note, lookup_fidelity
+from engine.studies.fidelity import recommend_typical_days
+from engine.storage.store import ScenarioStore, StoreError
+from engine.studies.sweep import (
     PARAMETERS, default_ranges, random_samples, run_sweep, save_sweep, tasks_from_cost_cases, tasks_from_samples,
     tornado_figure, tornado_table, tornado_tasks,
 )
-from engine.tradeoff import supply_mix_figure, tradeoff_curve_runs, tradeoff_figure
-from pages._shell import route_through_app, run_with_cancel, show_cancelled
+from engine.studies.tradeoff import supply_mix_figure, tradeoff_curve_runs, tradeoff_figure
+from pages._support.shell import route_through_app, run_with_cancel, show_cancelled
 
 state = st.session_state
 route_through_app("pages/6_Trade_offs_and_sweeps.py")

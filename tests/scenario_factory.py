@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from engine.inputs import Aquifer, CostCase, Prices, Scenario, Settings
+from engine.scenario.inputs import Aquifer, CostCase, Prices, Scenario, Settings
 
 TECH_COLUMNS = dict(
     name="",

@@ -18,7 +18,7 @@ from pathlib import Path
 import pytest
 from streamlit.testing.v1 import AppTest
 
-from engine.store import ScenarioStore
+from engine.storage.store import ScenarioStore
 
 ROOT = Path(__file__).resolve().parents[1]
 APP = str(ROOT / "app.py")
@@ -194,9 +194,9 @@ def test_an_edited_cost_is_checked_solved_and_kept_in_the_run_files(session):
     """On the set-up page a negative investment is listed with table, row and column and blocks the solve; a
     valid edit is solved, and the run's files carry it: reading them again gives the run's input hash (the saved
     run keeps exactly the inputs it was solved with)."""
-    from engine.inputs import input_hash
-    from engine.run import run_settings
-    from engine.workbench import choices_of_run, scenario_from_files
+    from engine.scenario.inputs import input_hash
+    from engine.model.solve import run_settings
+    from pages._support.workbench import choices_of_run, scenario_from_files
 
     at = session["at"]
     at.switch_page(PLAN).run()

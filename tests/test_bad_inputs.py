@@ -19,12 +19,13 @@ from pathlib import Path
 
 import pytest
 
-from engine import io, workbench
+from engine.scenario import reader as io
+from pages._support import workbench
 from engine.__main__ import main
-from engine.bundle import BundleError, export_bundle
-from engine.problems import Problem
-from engine.results import RunResult
-from engine.store import read_scenario_files
+from engine.storage.bundle import BundleError, export_bundle
+from engine.scenario.problems import Problem
+from engine.model.results import RunResult
+from engine.storage.store import read_scenario_files
 
 ROOT = Path(__file__).resolve().parents[1]
 

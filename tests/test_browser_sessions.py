@@ -16,9 +16,9 @@ import sys
 
 import pytest
 
-from engine.io import DEMO_DIR, load_scenario
-from engine.run import run_settings, solve_scenario
-from engine.store import ScenarioStore
+from engine.scenario.reader import DEMO_DIR, load_scenario
+from engine.model.solve import run_settings, solve_scenario
+from engine.storage.store import ScenarioStore
 from test_browser_e2e import (
     CHROMIUM,
     CHROMIUM_ARGS,

@@ -1,4 +1,4 @@
-"""Tests of shareable bundles (engine.bundle).
+"""Tests of shareable bundles (engine.storage.bundle).
 
 The zip files, honest and malicious, are built here with the standard library's ``zipfile``; header fields are
 patched at the offsets the ZIP specification gives (PKWARE APPNOTE.TXT 6.3.x, sections 4.3.7 local file header
@@ -29,14 +29,14 @@ import pytest
 from pandas.testing import assert_frame_equal
 from test_store import INPUTS, synthetic_result
 
-from engine.bundle import (
+from engine.storage.bundle import (
     CAUTION,
     BundleError,
     BundleLimits,
     export_bundle,
     read_bundle,
 )
-from engine.results import RunResult
+from engine.model.results import RunResult
 
 
 def bundle_result() -> RunResult:

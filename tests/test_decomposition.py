@@ -12,10 +12,10 @@ import scipy.sparse as sp
 from scipy.optimize import linprog
 
 from bench.synthetic_city import synthetic_city
-from engine.model import build_model
-from engine.prepare import prepare_run
-from engine.run import run_settings, solve_scenario
-from engine.tradeoff import co2_price_for_cap
+from engine.model.formulation import build_model
+from engine.model.prepare import prepare_run
+from engine.model.solve import run_settings, solve_scenario
+from engine.studies.tradeoff import co2_price_for_cap
 
 
 @pytest.fixture(scope="module")

@@ -1,9 +1,9 @@
-"""Tests of engine.demand (degree-hour demand profiles)."""
+"""Tests of engine.physics.demand (degree-hour demand profiles)."""
 
 import numpy as np
 import pytest
 
-from engine.demand import cooling_demand_profile_kw, heat_demand_profile_kw, hot_water_daily_shape
+from engine.physics.demand import cooling_demand_profile_kw, heat_demand_profile_kw, hot_water_daily_shape
 
 
 def _synthetic_year(n_hours=8760):

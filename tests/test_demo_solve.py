@@ -14,8 +14,8 @@ import sys
 import numpy as np
 import pytest
 
-from engine.io import DEMO_DIR, load_scenario
-from engine.run import solve_scenario
+from engine.scenario.reader import DEMO_DIR, load_scenario
+from engine.model.solve import solve_scenario
 
 TYPICAL_DAYS = 8
 
@@ -85,9 +85,9 @@ def test_cost_parts_sum_to_total(reference):
 
 def test_objective_value_equals_reported_cost(demo):
     """The LP objective (plus the fixed O&M of existing plant, a constant) equals the reported total cost."""
-    from engine.model import build_model, solve_model
-    from engine.prepare import prepare_run
-    from engine.run import run_settings
+    from engine.model.formulation import build_model, solve_model
+    from engine.model.prepare import prepare_run
+    from engine.model.solve import run_settings
 
     settings = run_settings(demo, typical_days=TYPICAL_DAYS)
     prepared = prepare_run(demo, "reference", settings)

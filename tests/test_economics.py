@@ -1,11 +1,11 @@
-"""Tests of engine.economics (annuity method and levelised cost)."""
+"""Tests of engine.physics.economics (annuity method and levelised cost)."""
 
 import numpy as np
 import pytest
 
 npf = pytest.importorskip("numpy_financial")
 
-from engine.economics import annualised_investment_eur_per_a, annuity_factor, levelised_cost_eur_per_mwh
+from engine.physics.economics import annualised_investment_eur_per_a, annuity_factor, levelised_cost_eur_per_mwh
 
 
 def test_annuity_matches_numpy_financial_pmt_over_a_grid():

@@ -11,9 +11,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-import engine.fidelity as fidelity
+import engine.studies.fidelity as fidelity
 from bench.synthetic_city import synthetic_city
-from engine.fidelity import (
+from engine.studies.fidelity import (
     cached_fidelity, fidelity_key, fidelity_note, lookup_fidelity, recommend_typical_days, typical_day_fidelity,
 )
 

@@ -1,4 +1,4 @@
-"""Tests of engine.palette and engine.figures on a small result built by hand.
+"""Tests of engine.outputs.palette and engine.outputs.figures on a small result built by hand.
 
 :func:`synthetic_result` makes a two-district :class:`RunResult` with two typical days, four technologies (two fuel
 boilers, an air-source heat pump, a heat store) and some unserved heat, whose tables obey the heat balance of
@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from engine.figures import (
+from engine.outputs.figures import (
     cost_breakdown_figure,
     difference_table,
     district_supply_figure,
@@ -28,8 +28,8 @@ from engine.figures import (
     main_supply_changes,
     supply_mix_figure,
 )
-from engine.palette import TECHNOLOGY_KIND_COLORS, technology_colors
-from engine.results import COST_PARTS, RunResult
+from engine.outputs.palette import TECHNOLOGY_KIND_COLORS, technology_colors
+from engine.model.results import COST_PARTS, RunResult
 
 DISTRICTS = (("north", "North <b>Quarter</b>"), ("south", "<script>alert(1)</script>"))
 TECHNOLOGIES = pd.DataFrame(

@@ -6,11 +6,11 @@ cut at a random byte or with random bytes inserted; GeoJSON properties and coord
 Whatever the damage, exactly one of two things may happen (project rule: bad input gives a clear message, never a
 traceback):
 
-* :func:`engine.io.load_scenario` raises :class:`engine.problems.InputError` whose problems each name a file of
+* :func:`engine.scenario.reader.load_scenario` raises :class:`engine.scenario.problems.InputError` whose problems each name a file of
   the folder, a row inside that file (or none) and a non-empty message, and none of which is an exception caught
   by the reader's last-resort guard (those read "could not be read (SomeError: ...)");
-* or it returns a scenario, and :func:`engine.run.solve_scenario` with two typical days returns a
-  :class:`engine.results.RunResult` with a known status and a message, never an exception.
+* or it returns a scenario, and :func:`engine.model.solve.solve_scenario` with two typical days returns a
+  :class:`engine.model.results.RunResult` with a known status and a message, never an exception.
 
 The runs are derandomised, so CI sees the same examples every time. The two optional year-long series files are
 left out of the copy to keep each example fast (the corpus in ``tests/broken_inputs`` covers them).
@@ -32,10 +32,10 @@ from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 from hypothesis.errors import InvalidArgument
 
-from engine import io
-from engine.problems import InputError
-from engine.results import RunResult
-from engine.run import solve_scenario
+from engine.scenario import reader as io
+from engine.scenario.problems import InputError
+from engine.model.results import RunResult
+from engine.model.solve import solve_scenario
 
 TINY = Path(__file__).resolve().parent / "fixtures" / "tiny_city"
 LEFT_OUT = ("heat_demand_hourly.csv", "groundwater_temp_hourly.csv")
@@ -79,7 +79,7 @@ def _scenario_key(scenario) -> str:
     digest = hashlib.sha256()
     for name in ("technologies", "district_technologies", "wells", "hourly"):
         digest.update(pd.util.hash_pandas_object(getattr(scenario, name), index=False).to_numpy().tobytes())
-    # Key order matters here, as in engine.inputs.input_hash: the reader must hand over geometries in one form.
+    # Key order matters here, as in engine.scenario.inputs.input_hash: the reader must hand over geometries in one form.
     districts = scenario.districts.assign(geometry=scenario.districts["geometry"].map(json.dumps))
     digest.update(pd.util.hash_pandas_object(districts, index=False).to_numpy().tobytes())
     for part in (scenario.settings, scenario.prices, scenario.aquifer, scenario.cost_cases):

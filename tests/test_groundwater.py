@@ -1,4 +1,4 @@
-"""Tests of engine.groundwater: well power and volume against IAPWS-95, and the permit screening flags.
+"""Tests of engine.studies.permits: well power and volume against IAPWS-95, and the permit screening flags.
 
 Water properties come from the ``iapws`` package (IAPWS-95, Wagner and Pruss 2002, J. Phys. Chem. Ref. Data 31,
 387-535) at the groundwater temperature and 0.101325 MPa. The screening rules (a flow at 100 % of the permit is at
@@ -18,8 +18,8 @@ import pytest
 sys.path.insert(0, str(Path(__file__).parent))
 
 import scenario_factory as f  # noqa: E402
-from engine import plume  # noqa: E402
-from engine.groundwater import (  # noqa: E402
+from engine.physics import plume  # noqa: E402
+from engine.studies.permits import (  # noqa: E402
     STATUS_COLORS,
     add_well_status,
     groundwater_map_figure,
@@ -29,8 +29,8 @@ from engine.groundwater import (  # noqa: E402
     well_year_figure,
     well_year_profiles,
 )
-from engine.inputs import Aquifer, Prices, Settings  # noqa: E402
-from engine.run import solve_scenario  # noqa: E402
+from engine.scenario.inputs import Aquifer, Prices, Settings  # noqa: E402
+from engine.model.solve import solve_scenario  # noqa: E402
 
 iapws = pytest.importorskip("iapws")
 

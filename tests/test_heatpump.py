@@ -1,9 +1,9 @@
-"""Tests of engine.heatpump (Carnot COP and the quality-grade COP model)."""
+"""Tests of engine.physics.heatpump (Carnot COP and the quality-grade COP model)."""
 
 import numpy as np
 import pytest
 
-from engine.heatpump import carnot_cop_heating, heat_pump_cop
+from engine.physics.heatpump import carnot_cop_heating, heat_pump_cop
 
 
 def test_carnot_cop_35_over_10_c():

@@ -31,15 +31,15 @@ import openpyxl
 import pandas as pd
 import pytest
 
-from engine.export import tables_csv_zip, tables_xlsx
-from engine.figures import difference_table, format_table, kpi_table, main_supply_changes
-from engine.io import DEMO_DIR, load_scenario
-from engine.maps import district_map
-from engine.problems import InputError
-from engine.report import html_report
-from engine.run import run_settings, solve_scenario
-from engine.store import ScenarioStore, read_scenario_files
-from engine.workbench import district_results_table
+from engine.outputs.export import tables_csv_zip, tables_xlsx
+from engine.outputs.figures import difference_table, format_table, kpi_table, main_supply_changes
+from engine.scenario.reader import DEMO_DIR, load_scenario
+from engine.outputs.maps import district_map
+from engine.scenario.problems import InputError
+from engine.outputs.report import html_report
+from engine.model.solve import run_settings, solve_scenario
+from engine.storage.store import ScenarioStore, read_scenario_files
+from pages._support.workbench import district_results_table
 from test_browser_e2e import (
     CHROMIUM,
     CHROMIUM_ARGS,
@@ -227,7 +227,7 @@ def test_store_keeps_hostile_names_verbatim_and_its_tables(hostile, tmp_path):
 
 # ---------------------------------------------------------------------------------------------------- tables
 def test_kpi_and_difference_tables_keep_the_names_literally(hostile):
-    """The key-figure and difference tables hold the raw names (the renderer escapes, engine.figures says so):
+    """The key-figure and difference tables hold the raw names (the renderer escapes, engine.outputs.figures says so):
     run names, technology names in the column headers and the changed districts' names."""
     results, scenario = hostile["results"], hostile["scenario"]
     technologies = scenario.technologies

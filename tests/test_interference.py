@@ -1,4 +1,4 @@
-"""Tests of engine.interference: the plume superposition and the fixed-point loop over re-solves.
+"""Tests of engine.studies.interference: the plume superposition and the fixed-point loop over re-solves.
 
 The plume of a continuous line source in uniform flow is checked against direct numerical quadrature (scipy
 ``quad``) of its defining time integral of instantaneous Gaussian puffs (Kinzelbach 1987, Numerische Methoden
@@ -23,10 +23,10 @@ sys.path.insert(0, str(Path(__file__).parent))
 
 from test_groundwater import LAT, _lon, line_of_doublets  # noqa: E402
 
-from engine import plume  # noqa: E402
+from engine.physics import plume  # noqa: E402
 from engine.__main__ import main  # noqa: E402
-from engine.groundwater import net_injection  # noqa: E402
-from engine.interference import (  # noqa: E402
+from engine.studies.permits import net_injection  # noqa: E402
+from engine.studies.interference import (  # noqa: E402
     SECONDS_PER_YEAR,
     interference_comparison,
     interference_matrix_for,
@@ -34,8 +34,8 @@ from engine.interference import (  # noqa: E402
     solve_with_interference,
     superposed_shift_k,
 )
-from engine.io import load_scenario, resolve_scenario_path  # noqa: E402
-from engine.run import solve_scenario  # noqa: E402
+from engine.scenario.reader import load_scenario, resolve_scenario_path  # noqa: E402
+from engine.model.solve import solve_scenario  # noqa: E402
 
 TINY_CITY = Path(__file__).parent / "fixtures" / "tiny_city"
 DEMO_TYPICAL_DAYS = 6

@@ -1,4 +1,4 @@
-"""Tests of the scenario reader (engine.io), its problem records (engine.problems) and geometry (engine.geometry).
+"""Tests of the scenario reader (engine.scenario.reader), its problem records (engine.scenario.problems) and geometry (engine.scenario.geometry).
 
 The expected behaviour comes from the folder specification ``docs/input_format.md`` and the typed-input contract in
 ``engine/inputs.py``; geometric results are checked against textbook formulas (spherical zone area, haversine).
@@ -18,9 +18,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from engine import geometry, io
-from engine.inputs import CostCase
-from engine.problems import InputError, Problem, problems_frame
+from engine.scenario import geometry
+from engine.scenario import reader as io
+from engine.scenario.inputs import CostCase
+from engine.scenario.problems import InputError, Problem, problems_frame
 
 FIXTURES = Path(__file__).resolve().parent / "fixtures"
 TINY = FIXTURES / "tiny_city"

@@ -8,8 +8,8 @@ import shutil
 
 import pytest
 
-from engine.io import DEMO_DIR, load_scenario
-from engine.maps import district_map
+from engine.scenario.reader import DEMO_DIR, load_scenario
+from engine.outputs.maps import district_map
 
 CHROMIUM = "/usr/bin/chromium"
 

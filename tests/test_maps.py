@@ -1,4 +1,4 @@
-"""Tests of engine.maps: folium and SVG district maps of the hand-built two-district result."""
+"""Tests of engine.outputs.maps: folium and SVG district maps of the hand-built two-district result."""
 
 from __future__ import annotations
 
@@ -9,9 +9,9 @@ import pandas as pd
 import pytest
 from plotly.colors import sequential
 
-from engine.inputs import Aquifer, CostCase, Prices, Scenario, Settings
-from engine.maps import district_map, district_values, svg_district_map, well_values
-from engine.palette import WELL_LIMIT_BINDS_COLOR, technology_colors, to_hex
+from engine.scenario.inputs import Aquifer, CostCase, Prices, Scenario, Settings
+from engine.outputs.maps import district_map, district_values, svg_district_map, well_values
+from engine.outputs.palette import WELL_LIMIT_BINDS_COLOR, technology_colors, to_hex
 from test_figures import DISTRICTS, TECHNOLOGIES, synthetic_result, two_runs
 
 NORTH = {"type": "Polygon", "coordinates": [[[11.00, 48.01], [11.02, 48.01], [11.02, 48.02], [11.00, 48.02],

@@ -15,8 +15,8 @@ import scipy.sparse as sp
 from scipy.optimize import linprog
 
 import scenario_factory as f
-from engine.inputs import Prices, Settings
-from engine.run import solve_scenario
+from engine.scenario.inputs import Prices, Settings
+from engine.model.solve import solve_scenario
 
 HOURS = 8760
 

@@ -1,4 +1,4 @@
-"""Tests of engine.plume, the line-source thermal plume model of a reinjection well.
+"""Tests of engine.physics.plume, the line-source thermal plume model of a reinjection well.
 
 The aquifer used throughout is the default of docs/input_format.md ([aquifer]: Darcy velocity 0.5 m/d, 15 m
 saturated thickness, dispersivities 5 m and 0.5 m) with a doublet of 10 L/s reinjected 4 K colder.
@@ -13,8 +13,8 @@ import pytest
 import shapely
 from scipy import integrate, special
 
-from engine import plume
-from engine.inputs import Aquifer
+from engine.physics import plume
+from engine.scenario.inputs import Aquifer
 
 DAY = 86_400.0
 DARCY = 0.5 / DAY  # [m/s]

@@ -1,4 +1,4 @@
-"""Tests of engine.report (the offline HTML report) and engine.export (xlsx and zip of CSVs)."""
+"""Tests of engine.outputs.report (the offline HTML report) and engine.outputs.export (xlsx and zip of CSVs)."""
 
 from __future__ import annotations
 
@@ -13,10 +13,10 @@ import pandas as pd
 import pytest
 from plotly.offline import get_plotlyjs
 
-from engine.export import MAX_SHEET_NAME, tables_csv_zip, tables_xlsx
-from engine.figures import format_value, kpi_table
-from engine.report import CAUTION, html_report
-from engine.results import RunResult
+from engine.outputs.export import MAX_SHEET_NAME, tables_csv_zip, tables_xlsx
+from engine.outputs.figures import format_value, kpi_table
+from engine.outputs.report import CAUTION, html_report
+from engine.model.results import RunResult
 from test_figures import TECHNOLOGIES, synthetic_result, two_runs
 from test_maps import result_with_wells, synthetic_scenario
 
@@ -174,8 +174,8 @@ def solved_tiny_city():
     """The tiny fixture city solved by the engine under two cost cases (about 2 s)."""
     from pathlib import Path
 
-    from engine.io import load_scenario
-    from engine.run import solve_scenario
+    from engine.scenario.reader import load_scenario
+    from engine.model.solve import solve_scenario
 
     scenario = load_scenario(Path(__file__).parent / "fixtures" / "tiny_city")
     runs = {case: solve_scenario(scenario, cost_case=case) for case in ("reference", "high_co2")}
@@ -186,8 +186,8 @@ def solved_tiny_city():
 def test_engine_output_load_curve_balances_and_report_builds(solved_tiny_city):
     """On real engine output: the stacked technologies of every week equal demand - unserved at every hour
     (heat balance, design/model.md section 3 constraint 1), and the report, map and workbook build."""
-    from engine.figures import load_curve_figure
-    from engine.maps import district_map
+    from engine.outputs.figures import load_curve_figure
+    from engine.outputs.maps import district_map
 
     scenario, runs = solved_tiny_city
     result = runs["reference"]

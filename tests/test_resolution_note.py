@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-from engine import workbench as wb
-from engine.io import DEMO_DIR, load_scenario
-from engine.results import RunResult
+from pages._support import workbench as wb
+from engine.scenario.reader import DEMO_DIR, load_scenario
+from engine.model.results import RunResult
 
 
 def _result(days: int) -> RunResult:

@@ -7,8 +7,8 @@ import numpy as np
 import pandas as pd
 
 import scenario_factory as f
-from engine.inputs import Prices, Settings
-from engine.run import solve_scenario
+from engine.scenario.inputs import Prices, Settings
+from engine.model.solve import solve_scenario
 
 
 def _instance(allow_unserved=False, gas_potential=100.0, cap=0.0):

@@ -1,4 +1,4 @@
-"""Tests of the scenario store (engine.store).
+"""Tests of the scenario store (engine.storage.store).
 
 Equality of tables is judged by the reference implementation ``pandas.testing.assert_frame_equal`` (exact, with
 dtypes, index and column types); the database's health by SQLite's own ``PRAGMA integrity_check`` and
@@ -33,8 +33,8 @@ from hypothesis import strategies as st
 from hypothesis.extra import pandas as hpd
 from pandas.testing import assert_frame_equal
 
-from engine.results import RunResult
-from engine.store import (
+from engine.model.results import RunResult
+from engine.storage.store import (
     APPLICATION_ID,
     LIST_COLUMNS,
     SCENARIO_FILES,
@@ -570,8 +570,8 @@ KILLED_SAVE = textwrap.dedent(
     """
     import sys, time
     import pandas as pd
-    from engine.results import RunResult
-    from engine.store import ScenarioStore
+    from engine.model.results import RunResult
+    from engine.storage.store import ScenarioStore
 
     store = ScenarioStore(sys.argv[1])
 

@@ -10,9 +10,9 @@ import pandas as pd
 import pytest
 
 from bench.synthetic_city import synthetic_city
-from engine.inputs import apply_cost_case
-from engine.store import ScenarioStore
-from engine.sweep import (
+from engine.scenario.inputs import apply_cost_case
+from engine.storage.store import ScenarioStore
+from engine.studies.sweep import (
     PARAMETERS, case_from_prices, default_ranges, grid_samples, main, random_samples, run_sweep, save_sweep,
     tasks_from_cost_cases, tasks_from_samples, tornado_figure, tornado_table, tornado_tasks,
 )

@@ -1,11 +1,11 @@
-"""Tests of engine.timeseries (k-medoids clustering and the model's time grid)."""
+"""Tests of engine.physics.timeseries (k-medoids clustering and the model's time grid)."""
 
 import itertools
 
 import numpy as np
 import pytest
 
-from engine.timeseries import (
+from engine.physics.timeseries import (
     TimeGrid,
     clustering_cost,
     daily_features,

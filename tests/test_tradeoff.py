@@ -10,8 +10,8 @@ import pandas as pd
 import pytest
 
 from bench.synthetic_city import synthetic_city
-from engine.run import solve_scenario
-from engine.tradeoff import TRADEOFF_COLUMNS, main, point_scenario, tradeoff_curve, tradeoff_curve_runs
+from engine.model.solve import solve_scenario
+from engine.studies.tradeoff import TRADEOFF_COLUMNS, main, point_scenario, tradeoff_curve, tradeoff_curve_runs
 
 
 @pytest.fixture(scope="module")

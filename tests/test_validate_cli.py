@@ -1,4 +1,4 @@
-"""Tests of the ``validate`` command (engine.io.validate_command and ``python -m engine validate DIR``).
+"""Tests of the ``validate`` command (engine.scenario.reader.validate_command and ``python -m engine validate DIR``).
 
 What the command must print and return is the project's command-line contract: ``OK: <n> districts, <m> wells,
 <k> technologies, <h> hours`` and exit code 0, or one line per problem (``file, row R, column C: message``) and
@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pytest
 
-from engine import io
+from engine.scenario import reader as io
 
 ROOT = Path(__file__).resolve().parents[1]
 FIXTURES = Path(__file__).resolve().parent / "fixtures"

@@ -1,11 +1,11 @@
-"""Tests of engine.water against IAPWS-95 as implemented by the ``iapws`` package."""
+"""Tests of engine.physics.water against IAPWS-95 as implemented by the ``iapws`` package."""
 
 import numpy as np
 import pytest
 
 iapws = pytest.importorskip("iapws")
 
-from engine.water import water_density_kg_per_m3, water_specific_heat_j_per_kg_k
+from engine.physics.water import water_density_kg_per_m3, water_specific_heat_j_per_kg_k
 
 ATMOSPHERIC_PRESSURE_MPA = 0.101325
 RELATIVE_TOLERANCE = 1e-5

@@ -1,11 +1,11 @@
-"""Tests of engine.wells (thermal power, spreads and seasonal groundwater temperature of one doublet)."""
+"""Tests of engine.physics.wells (thermal power, spreads and seasonal groundwater temperature of one doublet)."""
 
 import numpy as np
 import pytest
 
 iapws = pytest.importorskip("iapws")
 
-from engine.wells import (
+from engine.physics.wells import (
     flow_m3_per_h_to_kg_s,
     groundwater_temp_series_c,
     usable_spread_cooling_k,

@@ -3,7 +3,7 @@
 Every :class:`Case` names a class of damage (the families a planner's files really suffer from: missing columns,
 unit slips, encodings, projected coordinates ...), a function that damages a fresh copy of the tiny city
 (``tests/fixtures/tiny_city``), and what the validator must say about it: for each expected problem the file,
-row and column as :class:`engine.problems.Problem` names them, words that say what is wrong and words that hint
+row and column as :class:`engine.scenario.problems.Problem` names them, words that say what is wrong and words that hint
 at the fix. A case without expected problems is a valid variant (Windows line endings, a byte-order mark, a leap
 year ...) that must load and solve.
 
@@ -40,7 +40,7 @@ SIZE_LIMIT_BYTES = 200 * 1024 * 1024
 class Expect:
     """One problem the validator must report.
 
-    ``row`` and ``column`` as :class:`engine.problems.Problem` holds them (None where the problem concerns the
+    ``row`` and ``column`` as :class:`engine.scenario.problems.Problem` holds them (None where the problem concerns the
     whole file or column); ``what`` are words that say what is wrong, ``hint`` words that point at the fix. All
     words are matched case-insensitively against the message.
     """

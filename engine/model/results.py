@@ -20,7 +20,7 @@ Tables (``result.tables[name]``):
     one row per doublet: well_id, district_id, heat_mwh_per_a, cooling_mwh_per_a, extracted_mwh_per_a,
     rejected_mwh_per_a, heat_pump_kw, peak_flow_share, annual_volume_m3, min_reinjection_temp_c,
     max_reinjection_temp_c, flow_limit_binds, volume_limit_binds, annual_volume_share, and from the permit
-    screening (:func:`engine.groundwater.add_well_status`) status ("ok", "at_limit" or "breach") and
+    screening (:func:`engine.studies.permits.add_well_status`) status ("ok", "at_limit" or "breach") and
     source_temp_shift_k (the shift of the groundwater temperature by neighbours' plumes; 0 without the
     interference check).
 ``dispatch``

@@ -47,8 +47,8 @@ import numpy as np
 import pandas as pd
 
 from engine import __version__
-from engine.results import RunResult
-from engine.store import REQUIRED_SCENARIO_FILES, SCENARIO_FILES, StoreError, check_scenario_files
+from engine.model.results import RunResult
+from engine.storage.store import REQUIRED_SCENARIO_FILES, SCENARIO_FILES, StoreError, check_scenario_files
 
 BUNDLE_FORMAT = "heatmosaic-bundle"
 BUNDLE_FORMAT_VERSION = 1
@@ -111,7 +111,7 @@ DEFAULT_LIMITS = BundleLimits()
 """Limits of :func:`read_bundle`."""
 
 LIBRARY_LIMITS = BundleLimits(max_entries=100_000, max_entry_bytes=512 * MIB, max_total_bytes=4096 * MIB)
-"""Limits of :meth:`engine.store.ScenarioStore.import_library` (a library holds many runs)."""
+"""Limits of :meth:`engine.storage.store.ScenarioStore.import_library` (a library holds many runs)."""
 
 
 # ====================================================================================== writing zips
@@ -602,7 +602,7 @@ def export_bundle(result: RunResult, inputs: Mapping[str, bytes] | None, path: s
     ----------
     result : RunResult
     inputs : dict of str to bytes
-        The scenario folder's files (see :func:`engine.store.read_scenario_files`).
+        The scenario folder's files (see :func:`engine.storage.store.read_scenario_files`).
     path : str or Path
         The zip file to write (its folder is created; an existing file is replaced).
 

@@ -1,13 +1,13 @@
-"""Read a solved district LP back into the tidy tables of :class:`engine.results.RunResult`."""
+"""Read a solved district LP back into the tidy tables of :class:`engine.model.results.RunResult`."""
 
 from __future__ import annotations
 
 import numpy as np
 import pandas as pd
 
-from .lp import LpSolution
-from .model import DistrictModel
-from .prepare import KWH_PER_MWH
+from engine.model.lp import LpSolution
+from engine.model.formulation import DistrictModel
+from engine.model.prepare import KWH_PER_MWH
 
 FLOW_BINDS_SHARE = 0.999
 """A well limit counts as binding when the flow reaches this share of the permit in some step."""

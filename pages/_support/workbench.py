@@ -10,7 +10,7 @@ The pages keep their state under these keys of ``st.session_state`` (plain Pytho
 
 ``hm_input``
     The input set the set-up page works on: an :class:`InputSet` (label, scenario files as bytes, the
-    validated :class:`~engine.inputs.Scenario` or None, the problems table, the bundle manifest).
+    validated :class:`~engine.scenario.inputs.Scenario` or None, the problems table, the bundle manifest).
 ``hm_setup``
     The set-up choices, kept while the planner visits other pages: ``cost_case``, ``objective``,
     ``co2_cap_t_per_a``, ``full_year``, ``typical_days``, ``technology_table``, ``well_table``
@@ -53,19 +53,19 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from engine import io as scenario_io
-from engine.bundle import CAUTION, BundleError, export_bundle, read_bundle
-from engine.inputs import Scenario, input_hash
-from engine.problems import InputError, Problem, problems_frame
-from engine.results import RunResult
-from engine.run import run_settings, solve_scenario
-from engine.store import ScenarioStore, StoreError, check_scenario_files, read_scenario_files
+from engine.scenario import reader as scenario_io
+from engine.storage.bundle import CAUTION, BundleError, export_bundle, read_bundle
+from engine.scenario.inputs import Scenario, input_hash
+from engine.scenario.problems import InputError, Problem, problems_frame
+from engine.model.results import RunResult
+from engine.model.solve import run_settings, solve_scenario
+from engine.storage.store import ScenarioStore, StoreError, check_scenario_files, read_scenario_files
 
 CAUTION_LINE = (
     "Screening results for early planning only. Well permits, aquifer temperatures and investments must be "
     "checked against local codes, with the water authority and by licensed engineers."
 )
-"""The one-line caution every page shows (the long form is :data:`engine.bundle.CAUTION`)."""
+"""The one-line caution every page shows (the long form is :data:`engine.storage.bundle.CAUTION`)."""
 
 TECHNOLOGY_TABLE = "technology table"
 WELL_TABLE = "well table"
@@ -142,7 +142,7 @@ def files_digest(files: Mapping[str, bytes]) -> str:
 
 
 def scenario_from_files(files: Mapping[str, bytes]) -> tuple[Scenario | None, list[Problem]]:
-    """Read scenario files (name -> bytes) through :func:`engine.io.load_scenario`.
+    """Read scenario files (name -> bytes) through :func:`engine.scenario.reader.load_scenario`.
 
     Returns the scenario and an empty list, or None and every problem found. Never raises for bad input.
     """
@@ -541,7 +541,7 @@ def scenario_files_with_edits(
     """The scenario files with the edits written back into ``technologies.csv`` and ``wells.csv``.
 
     Only cells whose value changed are rewritten (with the shortest text that reads back as the same float),
-    so reading the returned files gives a scenario with the same :func:`engine.inputs.input_hash` as
+    so reading the returned files gives a scenario with the same :func:`engine.scenario.inputs.input_hash` as
     :func:`apply_edits`, and a run saved with these files can be reproduced from them.
 
     ``scenario`` is the scenario read from ``files`` (read here when not given).
@@ -656,7 +656,7 @@ def request_key(
 
 
 def solve_options(objective: str, co2_cap_t_per_a: float, full_year: bool, typical_days: int) -> dict:
-    """Keyword arguments of :func:`engine.run.solve_scenario` for the set-up choices."""
+    """Keyword arguments of :func:`engine.model.solve.solve_scenario` for the set-up choices."""
     return {
         "objective": objective,
         "co2_cap_t_per_a": float(co2_cap_t_per_a or 0.0),
@@ -772,10 +772,10 @@ def markdown_literal(text) -> str:
 def resolution_note(scenario, result: RunResult) -> str:
     """What the time resolution of ``result`` costs in accuracy, from the cached typical-day fidelity table.
 
-    The table is measured once per input set (Trade-offs and sweeps page, or ``python -m engine.fidelity``);
+    The table is measured once per input set (Trade-offs and sweeps page, or ``python -m engine.studies.fidelity``);
     until then the note says where to measure it.
     """
-    from .fidelity import fidelity_note, lookup_fidelity
+    from engine.studies.fidelity import fidelity_note, lookup_fidelity
 
     days = int(result.settings.get("typical_days", 0) or 0)
     if scenario is None:
@@ -818,7 +818,7 @@ def suggested_run_name(result: RunResult) -> str:
 
 def run_kpis(result: RunResult) -> dict[str, float]:
     """City figures for the dashboard's metric tiles."""
-    from engine.figures import city_levelised_cost_eur_per_mwh
+    from engine.outputs.figures import city_levelised_cost_eur_per_mwh
 
     return {
         "total_cost_eur_per_a": result.total_cost_eur_per_a,
@@ -1018,7 +1018,7 @@ def scenario_for_files(cache: MutableMapping, files: Mapping[str, bytes]) -> Sce
 
 # ============================================================================================== sharing
 def bundle_bytes(result: RunResult, inputs: Mapping[str, bytes]) -> bytes:
-    """A bundle zip (:func:`engine.bundle.export_bundle`) as bytes, for a download button."""
+    """A bundle zip (:func:`engine.storage.bundle.export_bundle`) as bytes, for a download button."""
     with tempfile.TemporaryDirectory(prefix="heatmosaic-bundle-") as folder:
         path = export_bundle(result, dict(inputs), Path(folder) / "run.zip")
         return path.read_bytes()

@@ -16,14 +16,14 @@ References
    Verein Deutscher Ingenieure, Düsseldorf (design of groundwater heat pump systems).
 .. [2] Wagner, W. and Pruß, A. (2002). The IAPWS formulation 1995 for the thermodynamic properties of ordinary
    water substance for general and scientific use. Journal of Physical and Chemical Reference Data 31(2),
-   387-535 (water properties, see :mod:`engine.water`).
+   387-535 (water properties, see :mod:`engine.physics.water`).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from engine.water import water_density_kg_per_m3, water_specific_heat_j_per_kg_k
+from engine.physics.water import water_density_kg_per_m3, water_specific_heat_j_per_kg_k
 
 HOURS_PER_DAY = 24
 SECONDS_PER_HOUR = 3600.0

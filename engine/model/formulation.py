@@ -2,7 +2,7 @@
 
 The formulation is that of ``model.md`` section 3. Every quantity is a block of variables indexed by supply unit
 (a technology in a district, or a heat pump bound to one well) and model step; every constraint family is added in
-one bulk call (:mod:`engine.lp`). Power is in kW and one step is one hour, so a step's energy in kWh equals its
+one bulk call (:mod:`engine.model.lp`). Power is in kW and one step is one hour, so a step's energy in kWh equals its
 power; annual sums multiply by the step weights [h]. Prices are per MWh and per tonne, hence the factors 1/1000.
 
 Two refinements over the design document:
@@ -23,9 +23,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .inputs import COOLING_KINDS, FUELS, WELL_KINDS
-from .lp import INF, LinearProgram, LpSolution
-from .prepare import KWH_PER_MWH, PreparedRun
+from engine.scenario.inputs import COOLING_KINDS, FUELS, WELL_KINDS
+from engine.model.lp import INF, LinearProgram, LpSolution
+from engine.model.prepare import KWH_PER_MWH, PreparedRun
 
 UNSERVED_CO2_EQUIVALENT_T_PER_MWH = 10.0
 """Weight of unserved heat in the CO2 objective: far above any real supply (fuel oil emits 0.27 t/MWh)."""

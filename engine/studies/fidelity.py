@@ -1,6 +1,6 @@
 """How faithful typical days are: the same scenario solved at a few resolutions against the full hourly year.
 
-Typical days (k-medoids on daily profiles, :mod:`engine.timeseries`) shrink the model by an order of magnitude;
+Typical days (k-medoids on daily profiles, :mod:`engine.physics.timeseries`) shrink the model by an order of magnitude;
 :func:`typical_day_fidelity` measures what that costs in accuracy for one set of inputs: total cost, CO2 and the
 capacity of each technology at 4, 8, 12 and 24 typical days, each with its relative error against the full year.
 
@@ -24,9 +24,9 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 
-from .inputs import Scenario, input_hash
-from .results import RunResult
-from .run import run_settings, solve_scenario
+from engine.scenario.inputs import Scenario, input_hash
+from engine.model.results import RunResult
+from engine.model.solve import run_settings, solve_scenario
 
 Progress = Callable[[float, str], None]
 
@@ -169,7 +169,7 @@ def typical_day_fidelity(
 # ============================================================================================ cache
 def default_cache_path() -> Path:
     """The cache file beside the scenario store (``typical_day_fidelity.json``)."""
-    from .store import default_store_path
+    from engine.storage.store import default_store_path
 
     return default_store_path().parent / CACHE_FILE_NAME
 
@@ -279,13 +279,13 @@ def recommend_typical_days(table: pd.DataFrame, cost_tolerance_pct: float = 1.0,
 
 
 def main(argv=None) -> int:
-    """``python -m engine.fidelity DIR [--days 4,8,12,24] [--out FILE.csv]``: measure and print the table."""
+    """``python -m engine.studies.fidelity DIR [--days 4,8,12,24] [--out FILE.csv]``: measure and print the table."""
     import argparse
     import sys
 
-    from .tradeoff import _stderr_progress, load_for_command
+    from engine.studies.tradeoff import _stderr_progress, load_for_command
 
-    parser = argparse.ArgumentParser(prog="python -m engine.fidelity")
+    parser = argparse.ArgumentParser(prog="python -m engine.studies.fidelity")
     parser.add_argument("scenario")
     parser.add_argument("--days", default=",".join(map(str, DEFAULT_DAY_COUNTS)))
     parser.add_argument("--cost-case", default=None)

@@ -1,6 +1,6 @@
 """Typed inputs of a heatmosaic run.
 
-A :class:`Scenario` is what :func:`engine.io.load_scenario` makes of a scenario folder once every file has
+A :class:`Scenario` is what :func:`engine.scenario.reader.load_scenario` makes of a scenario folder once every file has
 passed validation (the folder layout is documented in ``docs/input_format.md``). Tables are pandas DataFrames
 whose column names carry their units; the loader guarantees the columns, dtypes and value ranges listed here,
 so that the physics and the model never re-check them.

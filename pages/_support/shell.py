@@ -8,7 +8,7 @@ from __future__ import annotations
 import streamlit as st
 from streamlit.errors import StreamlitAPIException
 
-from engine.store import ScenarioStore, StoreError
+from engine.storage.store import ScenarioStore, StoreError
 
 
 def route_through_app(page_path: str) -> None:
@@ -42,7 +42,7 @@ def run_with_cancel(job, key: str, start_text: str = "Starting"):
     Pressing Cancel (or changing any widget) reruns the page, which stops the job at its next check; the next run
     of the page shows :func:`show_cancelled` for ``key``.
     """
-    from engine.workbench import run_cancellable
+    from pages._support.workbench import run_cancellable
 
     state = st.session_state
     bar = st.progress(0.0, text=start_text)

@@ -2,14 +2,14 @@
 
 Each table kind (districts, supply, wells, dispatch, ...) becomes one sheet or one CSV holding every run, with the
 run's name in a first column ``run``. A sheet ``runs`` lists each run's status, message, cost case, objective,
-input hash and settings, and ``kpi`` the key figures of :func:`engine.figures.kpi_table`.
+input hash and settings, and ``kpi`` the key figures of :func:`engine.outputs.figures.kpi_table`.
 
 Spreadsheet cells are written as typed values: numbers as numbers, text always as text (a name that starts with
 ``=`` is not turned into a formula), NaN as an empty cell and infinities as the text ``inf``. A table longer than
 a sheet allows (1 048 576 rows) continues on sheets ``<table> 2``, ``<table> 3`` ... The CSV files keep numbers
 exactly as the result holds them; a text cell that a spreadsheet program would read as a formula (one starting with
 ``=``, ``+``, ``-``, ``@``, a tab or a carriage return) gets a leading apostrophe, as the OWASP "CSV Injection"
-page advises. :meth:`engine.results.RunResult.write` keeps every value verbatim for machine reading.
+page advises. :meth:`engine.model.results.RunResult.write` keeps every value verbatim for machine reading.
 """
 
 from __future__ import annotations
@@ -24,7 +24,7 @@ from collections.abc import Mapping
 import numpy as np
 import pandas as pd
 
-from .results import RunResult
+from engine.model.results import RunResult
 
 TABLE_ORDER = ("districts", "supply", "wells", "dispatch", "demand", "well_steps", "steps", "day_map")
 MAX_SHEET_NAME = 31
@@ -137,7 +137,7 @@ def tables_xlsx(results: Mapping[str, RunResult]) -> bytes:
     """The runs' tables as an xlsx workbook: sheets ``runs``, ``kpi``, then one per table kind."""
     from openpyxl import Workbook
 
-    from .figures import kpi_table
+    from engine.outputs.figures import kpi_table
 
     book = Workbook(write_only=True)
     used: set[str] = set()
@@ -187,7 +187,7 @@ def tables_csv_zip(results: Mapping[str, RunResult]) -> bytes:
 
     Text that would start a spreadsheet formula is prefixed with an apostrophe (:func:`neutralise_formulas`).
     """
-    from .figures import kpi_table
+    from engine.outputs.figures import kpi_table
 
     buffer = io.BytesIO()
     used: set[str] = set()

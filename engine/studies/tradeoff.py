@@ -3,7 +3,7 @@
 :func:`tradeoff_curve` traces the cost-CO2 frontier by the epsilon-constraint method: its two end points are the
 least-cost run and the least-CO2 run, and every interior point minimises the cost with the city's CO2 held below
 a bound taken evenly between the two. A bound couples the districts, so those points are solved as one linear
-program (that is what :func:`engine.run.solve_scenario` does whenever a city-wide cap is set).
+program (that is what :func:`engine.model.solve.solve_scenario` does whenever a city-wide cap is set).
 
 :func:`co2_price_for_cap` reaches the same capped optimum the other way round: it searches the CO2 price at
 which the districts, each solved on its own, together stay within the cap (Lagrangian relaxation of the cap).
@@ -23,9 +23,9 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 
-from .inputs import CostCase, Scenario
-from .results import RunResult
-from .run import run_settings, solve_scenario
+from engine.scenario.inputs import CostCase, Scenario
+from engine.model.results import RunResult
+from engine.model.solve import run_settings, solve_scenario
 
 Progress = Callable[[float, str], None]
 
@@ -254,7 +254,7 @@ def supply_mix_figure(table: pd.DataFrame, technologies: pd.DataFrame | None = N
     """Heat supplied by each technology at every point of the curve, as stacked bars [GWh/a] (plotly Figure)."""
     import plotly.graph_objects as go
 
-    from .palette import technology_colors
+    from engine.outputs.palette import technology_colors
 
     colors = technology_colors(technologies) if technologies is not None else {}
     names = {}
@@ -367,7 +367,7 @@ def co2_price_for_cap(
     first_step_eur_per_t, max_surcharge_eur_per_t : float
         First trial surcharge, and the largest one tried before the cap is declared out of reach. [€/t]
     workers : int, optional
-        Worker processes for the district solves (see :func:`engine.run.solve_scenario`).
+        Worker processes for the district solves (see :func:`engine.model.solve.solve_scenario`).
     progress : callable, optional
         ``progress(share, text)`` after each solve.
 
@@ -489,8 +489,8 @@ def _stderr_progress(quiet: bool):
 
 def load_for_command(path_arg: str):
     """The scenario of a command-line argument, or None after printing its problems on stderr."""
-    from .io import load_scenario, resolve_scenario_path
-    from .problems import InputError
+    from engine.scenario.reader import load_scenario, resolve_scenario_path
+    from engine.scenario.problems import InputError
 
     try:
         return load_scenario(resolve_scenario_path(path_arg))
@@ -536,7 +536,7 @@ def cmd_tradeoff(args) -> int:
 def main(argv=None) -> int:
     import argparse
 
-    parser = argparse.ArgumentParser(prog="python -m engine.tradeoff")
+    parser = argparse.ArgumentParser(prog="python -m engine.studies.tradeoff")
     add_tradeoff_parser(parser.add_subparsers(dest="command", required=True))
     args = parser.parse_args(["tradeoff", *(sys.argv[1:] if argv is None else argv)])
     try:

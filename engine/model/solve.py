@@ -16,11 +16,11 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 
-from .extract import extract_tables
-from .inputs import Scenario, Settings, input_hash
-from .model import build_model, solve_model, supply_units
-from .prepare import prepare_run
-from .results import RunResult
+from engine.model.extract import extract_tables
+from engine.scenario.inputs import Scenario, Settings, input_hash
+from engine.model.formulation import build_model, solve_model, supply_units
+from engine.model.prepare import prepare_run
+from engine.model.results import RunResult
 
 Progress = Callable[[float, str], None]
 
@@ -101,7 +101,7 @@ def failure_message(status: str, message: str, where: str) -> str:
 
 def district_supply_limits(prepared, district: int) -> list[str]:
     """Plain reasons why one district cannot meet its demand with the supply it is allowed (empty if none found)."""
-    from .model import supply_units
+    from engine.model.formulation import supply_units
 
     units, stores = supply_units(prepared, np.array([district]))
     reasons = []
@@ -245,7 +245,7 @@ def solve_scenario(
     else:
         result.tables = merge_tables([done[k][2] for k in range(len(parts))])
         result.status = "optimal"
-        from .groundwater import add_well_status
+        from engine.studies.permits import add_well_status
 
         add_well_status(result, scenario)
         unserved = result.unserved_heat_mwh_per_a

@@ -4,7 +4,7 @@
 districts, colours and wells as plain inline SVG, which needs no script library and no tiles, so the exported
 report opens offline (folium loads Leaflet from a CDN; the installed folium and branca do not ship it).
 
-Both read the colours from :mod:`engine.palette` and the district figures from one helper,
+Both read the colours from :mod:`engine.outputs.palette` and the district figures from one helper,
 :func:`district_values`, so the two maps agree. Every name that comes from the user (scenario, district, well,
 technology) is HTML-escaped, and additionally ``$`` and the backtick, because folium puts popups and tooltips into
 JavaScript template literals.
@@ -26,7 +26,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .palette import (
+from engine.outputs.palette import (
     DIVERGING_SCALE,
     NO_DATA_COLOR,
     SEQUENTIAL_SCALE,
@@ -37,7 +37,7 @@ from .palette import (
     sequential_colors,
     technology_colors,
 )
-from .results import RunResult
+from engine.model.results import RunResult
 
 MEASURES = {
     "main_supply": ("Main heat supply", ""),
@@ -84,7 +84,7 @@ def _truthy(value) -> bool:
 
 # ---------------------------------------------------------------------------------------------------- values
 def _catalogue(scenario, technologies) -> pd.DataFrame:
-    from .figures import technology_catalogue
+    from engine.outputs.figures import technology_catalogue
 
     if technologies is None:
         technologies = getattr(scenario, "technologies", None)
@@ -359,7 +359,7 @@ def _rings_points(geometry):
 
 
 # ---------------------------------------------------------------------------------------------------- folium
-LEAFLET_DIR = Path(__file__).resolve().parent / "assets" / "leaflet"
+LEAFLET_DIR = Path(__file__).resolve().parents[1] / "assets" / "leaflet"
 """Leaflet 1.9.4 (BSD 2-Clause licence, see LICENSE there), shipped so that maps draw without internet."""
 
 

@@ -6,10 +6,10 @@ reinjection window leaves it. The plume in turn depends on how the doublets run,
 :func:`solve_with_interference` iterates:
 
 1. solve the scenario with source temperature shifts ``s_k`` (zero at first) in ``wells.source_temp_shift_k``,
-   which :func:`engine.prepare.groundwater_year_c` adds to every well's groundwater temperature;
-2. from the run, each doublet's annual net injection (:func:`engine.groundwater.net_injection`);
+   which :func:`engine.model.prepare.groundwater_year_c` adds to every well's groundwater temperature;
+2. from the run, each doublet's annual net injection (:func:`engine.studies.permits.net_injection`);
 3. the temperature change ``F(s_k)`` that all other doublets' plumes cause at each extraction well, by the
-   transient line-source model (:mod:`engine.plume`) after ``horizon_years`` of operation;
+   transient line-source model (:mod:`engine.physics.plume`) after ``horizon_years`` of operation;
 4. stop when ``max |F(s_k) - s_k| < tolerance_k``; else ``s_{k+1} = s_k + r (F(s_k) - s_k)`` with the
    relaxation ``r``, halved whenever the largest change grows (a sign of oscillation), and repeat.
 
@@ -63,11 +63,11 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 
-from . import plume
-from .groundwater import add_well_status, net_injection
-from .inputs import Scenario
-from .results import RunResult
-from .run import solve_scenario
+from engine.physics import plume
+from engine.studies.permits import add_well_status, net_injection
+from engine.scenario.inputs import Scenario
+from engine.model.results import RunResult
+from engine.model.solve import solve_scenario
 
 SECONDS_PER_YEAR = 365.25 * plume.SECONDS_PER_DAY
 
@@ -91,7 +91,7 @@ def superposed_shift_k(interference_matrix, injection_rate_m3_per_s, injection_t
     ``shift_j = clip(sum_{i != j} sign(dT_i) min(M[i, j] Q_i |dT_i|, |dT_i|), lo_j, hi_j)``. Each term is the
     line-source plume of reinjection well ``i`` at extraction well ``j`` (linear superposition, Kinzelbach 1987),
     clipped to the injected temperature change as the near-well clipping of
-    :func:`engine.plume.plume_temperature_change_k` does. ``lo_j``/``hi_j`` span zero and ``offset_i + dT_i``
+    :func:`engine.physics.plume.plume_temperature_change_k` does. ``lo_j``/``hi_j`` span zero and ``offset_i + dT_i``
     of the doublets that reach ``j`` by more than :data:`CONTRIBUTION_FLOOR_K`: no mix of their waters is
     colder or warmer than the coldest or warmest water they reinject (relative to the undisturbed aquifer).
     The diagonal (own recirculation) is ignored.
@@ -99,7 +99,7 @@ def superposed_shift_k(interference_matrix, injection_rate_m3_per_s, injection_t
     Parameters
     ----------
     interference_matrix : array_like, shape (n, n)
-        ``M[i, j]`` from :func:`engine.plume.interference_matrix_k_per_unit`. [K / (m³/s K)] Not negative.
+        ``M[i, j]`` from :func:`engine.physics.plume.interference_matrix_k_per_unit`. [K / (m³/s K)] Not negative.
     injection_rate_m3_per_s : array_like, shape (n,)
         Mean reinjected volume flow of each doublet. [m³/s] Not negative.
     injection_temp_change_k : array_like, shape (n,)
@@ -181,7 +181,7 @@ def interference_matrix_for(scenario: Scenario, horizon_years: float = 1.0) -> n
     """Unit plume response of every reinjection well at every extraction well of ``scenario`` [s/m³].
 
     The transient line source after ``horizon_years`` of operation, with the scenario's ``[aquifer]``
-    (:func:`engine.plume.interference_matrix_k_per_unit`); rows are reinjection wells, columns extraction wells,
+    (:func:`engine.physics.plume.interference_matrix_k_per_unit`); rows are reinjection wells, columns extraction wells,
     both in the order of ``scenario.wells``.
     """
     wells = scenario.wells
@@ -218,7 +218,7 @@ def plume_outlines(scenario: Scenario, result: RunResult, levels_k=DEFAULT_PLUME
                    ray_count: int = 49, workers: int | None = None) -> pd.DataFrame:
     """Isotherms of every doublet's reinjection plume after ``horizon_years``, from a run's net injection.
 
-    Each outline takes a fraction of a second (:func:`engine.plume.isotherm_polygon_lonlat` bisects along every
+    Each outline takes a fraction of a second (:func:`engine.physics.plume.isotherm_polygon_lonlat` bisects along every
     ray), so more than a handful are drawn in parallel processes (``workers``, default: the CPU count, at most 4).
 
     Returns
@@ -256,7 +256,7 @@ def plume_outlines(scenario: Scenario, result: RunResult, levels_k=DEFAULT_PLUME
 
 def plume_polygons(result: RunResult) -> list[dict]:
     """The ``plumes`` table of a run as ``[{well_id, level_k, sign, coordinates: [(lon, lat), ...]}, ...]``
-    (the form :func:`engine.maps.district_map` takes as ``plume_polygons``)."""
+    (the form :func:`engine.outputs.maps.district_map` takes as ``plume_polygons``)."""
     table = result.tables.get("plumes")
     if table is None or table.empty:
         return []
@@ -385,7 +385,7 @@ def solve_with_interference(
     scenario : Scenario
         Validated inputs; any ``wells.source_temp_shift_k`` column is replaced by the computed shifts.
     cost_case, objective, co2_cap_t_per_a, typical_days, time_limit_s
-        As in :func:`engine.run.solve_scenario` (the time limit applies to each solve).
+        As in :func:`engine.model.solve.solve_scenario` (the time limit applies to each solve).
     progress : callable, optional
         ``progress(share, text)`` with share in [0, 1]; called once or twice per iteration.
     max_iterations : int, default 10
@@ -402,7 +402,7 @@ def solve_with_interference(
     cancel : callable, optional
         Returns True to stop after the current solve (the last solved run is returned, not converged).
     workers : int, optional
-        Processes for the district solves and the isotherms; None lets :func:`engine.run.solve_scenario`
+        Processes for the district solves and the isotherms; None lets :func:`engine.model.solve.solve_scenario`
         choose. Pass 1 inside a threaded server (a dashboard), where forking a process pool is unsafe.
 
     Returns

@@ -53,7 +53,7 @@ import numpy as np
 import pandas as pd
 
 from engine import __version__
-from engine.results import RunResult
+from engine.model.results import RunResult
 
 SCENARIO_FILES = (
     "scenario.toml",
@@ -988,7 +988,7 @@ class ScenarioStore:
         ``runs/<n>/tables/<table>.json`` (typed, read back by :meth:`import_library`),
         ``runs/<n>/tables/<table>.csv`` (for spreadsheets, when ``include_csv``) and ``runs/<n>/inputs/<file>``.
         """
-        from engine import bundle as _bundle
+        from engine.storage import bundle as _bundle
 
         with self._read() as conn:
             return _bundle.write_checked_zip(path, self._library_entries(conn, include_csv), _bundle.LIBRARY_LIMITS)
@@ -1054,9 +1054,9 @@ class ScenarioStore:
         ------
         StoreError
             If the file is not a heatmosaic library, is damaged or breaks the safety limits of a zip file
-            (see :class:`engine.bundle.BundleLimits`).
+            (see :class:`engine.storage.bundle.BundleLimits`).
         """
-        from engine import bundle as _bundle
+        from engine.storage import bundle as _bundle
 
         def allowed(name: str) -> bool:
             return bool(_LIBRARY_ENTRY.fullmatch(name))

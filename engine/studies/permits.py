@@ -9,7 +9,7 @@ the solve (a lowered permit, a narrower window) or against source temperatures s
 :func:`screen_wells` gives one row per doublet with the figures a planner takes to the permit discussion,
 :func:`well_year_profiles` the hourly flow share and reinjection temperature rebuilt to the calendar year,
 :func:`net_injection` each doublet's annual net injection (the input of the plume model in
-:mod:`engine.interference`), and :func:`add_well_status` writes ``status`` and ``source_temp_shift_k`` into a
+:mod:`engine.studies.interference`), and :func:`add_well_status` writes ``status`` and ``source_temp_shift_k`` into a
 result's ``wells`` table. :func:`screening_display_table`, :func:`well_year_figure`, :func:`groundwater_map_figure` and
 :func:`well_status_layer` turn the screening into a table, plotly figures and a folium map layer for the dashboard.
 
@@ -22,9 +22,9 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from . import water
-from .inputs import Scenario
-from .results import RunResult
+from engine.physics import water
+from engine.scenario.inputs import Scenario
+from engine.model.results import RunResult
 
 SECONDS_PER_HOUR = 3600.0
 KWH_PER_MWH = 1000.0
@@ -646,7 +646,7 @@ def groundwater_map_figure(scenario: Scenario, screening: pd.DataFrame, plume_po
     """Map of the districts, every doublet's two wells in their status colour and the plume isotherms (plotly).
 
     Needs no map library from the internet. Longitude and latitude are drawn to scale about the map's mid
-    latitude (equirectangular, as :func:`engine.plume.lonlat_to_local_m`): true to shape at the size of a city.
+    latitude (equirectangular, as :func:`engine.physics.plume.lonlat_to_local_m`): true to shape at the size of a city.
     Extraction wells are filled circles (area proportional to the annual heat), reinjection wells open
     circles, joined by a thin line; isotherms are dashed (cold plumes blue, warm plumes purple).
 
@@ -780,7 +780,7 @@ def groundwater_map_figure(scenario: Scenario, screening: pd.DataFrame, plume_po
 def well_status_layer(scenario: Scenario, screening: pd.DataFrame, name: str = "Permit status"):
     """A folium layer with a ring in the status colour around both wells of every screened doublet.
 
-    Add it to a map from :func:`engine.maps.district_map` (``layer.add_to(fmap)``); the ring's tooltip gives the
+    Add it to a map from :func:`engine.outputs.maps.district_map` (``layer.add_to(fmap)``); the ring's tooltip gives the
     status and the binding limits.
     """
     import folium

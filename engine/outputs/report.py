@@ -1,9 +1,9 @@
 """One self-contained HTML report of one or several runs, to share or archive.
 
-The report holds the same figures and tables the dashboard shows (from :mod:`engine.figures` and
-:mod:`engine.maps`), the assumptions each run was made under, and the cautions. It is one file that opens offline
+The report holds the same figures and tables the dashboard shows (from :mod:`engine.outputs.figures` and
+:mod:`engine.outputs.maps`), the assumptions each run was made under, and the cautions. It is one file that opens offline
 in any browser: plotly.js is embedded once, inline; the maps are inline SVG drawn by
-:func:`engine.maps.svg_district_map` (the folium map of the dashboard would load Leaflet from a CDN, and the
+:func:`engine.outputs.maps.svg_district_map` (the folium map of the dashboard would load Leaflet from a CDN, and the
 installed folium and branca do not ship it). No address outside the file is loaded when it opens.
 
 Every text that comes from the user (scenario, run, district, technology and cost-case names, descriptions) is
@@ -18,7 +18,7 @@ from collections.abc import Mapping
 
 import pandas as pd
 
-from .figures import (
+from engine.outputs.figures import (
     FIGURE_CONFIG,
     cost_breakdown_figure,
     difference_table,
@@ -31,8 +31,8 @@ from .figures import (
     main_supply_changes,
     supply_mix_figure,
 )
-from .maps import WELL_CAUTION, svg_district_map
-from .results import RunResult
+from engine.outputs.maps import WELL_CAUTION, svg_district_map
+from engine.model.results import RunResult
 
 CAUTION = (
     "Screening-level results. Heat-plan decisions, well permits and designs defer to local codes, the water "

@@ -535,7 +535,7 @@ def plume_parameters_from_aquifer(aquifer, thermal_conductivity_w_per_m_k=DEFAUL
     Parameters
     ----------
     aquifer : object
-        Anything with the attributes of :class:`engine.inputs.Aquifer`: ``flow_direction_deg`` [°],
+        Anything with the attributes of :class:`engine.scenario.inputs.Aquifer`: ``flow_direction_deg`` [°],
         ``darcy_velocity_m_per_d`` [m/d], ``saturated_thickness_m`` [m], ``longitudinal_dispersivity_m`` and
         ``transverse_dispersivity_m`` [m], ``aquifer_heat_capacity_mj_per_m3_k`` and
         ``water_heat_capacity_mj_per_m3_k`` [MJ/(m³ K)].

@@ -1,13 +1,13 @@
-"""Figures and tables of one or several runs, as pure functions of :class:`engine.results.RunResult` objects.
+"""Figures and tables of one or several runs, as pure functions of :class:`engine.model.results.RunResult` objects.
 
 The dashboard shows these figures and the exported report embeds the very same ones, so what a planner shares is
 what they saw. Every function takes results (a dict ``run name -> RunResult`` where runs are compared), returns a
 plotly ``go.Figure`` or a pandas DataFrame, and reads nothing else: no files, no session state.
 
-Colours come from :mod:`engine.palette` (one hue per technology kind, colour-blind safe). Names that come from the
+Colours come from :mod:`engine.outputs.palette` (one hue per technology kind, colour-blind safe). Names that come from the
 user (runs, districts, technologies) are HTML-escaped before they reach a figure, because plotly renders a subset of
 HTML in legends, titles and axis labels. Tables keep the raw names; whoever renders a table as HTML escapes it
-(see :func:`engine.report.html_report`).
+(see :func:`engine.outputs.report.html_report`).
 
 Runs that did not solve (no tables) are left out of the figures and kept, with their status, in the tables.
 """
@@ -22,7 +22,7 @@ import numpy as np
 import pandas as pd
 import plotly.graph_objects as go
 
-from .palette import (
+from engine.outputs.palette import (
     COST_PART_COLORS,
     COST_PART_LABELS,
     DEMAND_LINE_DASH,
@@ -30,7 +30,7 @@ from .palette import (
     TECHNOLOGY_KIND_COLORS,
     technology_colors,
 )
-from .results import COST_PARTS, RunResult
+from engine.model.results import COST_PARTS, RunResult
 
 STACK_ORDER = (
     "groundwater_heat_pump",

@@ -1,7 +1,7 @@
-"""Read a scenario folder into a validated :class:`engine.inputs.Scenario`.
+"""Read a scenario folder into a validated :class:`engine.scenario.inputs.Scenario`.
 
 The folder layout is documented in ``docs/input_format.md``. :func:`load_scenario` reads every file, checks
-it, and either returns a :class:`~engine.inputs.Scenario` or raises one :class:`~engine.problems.InputError`
+it, and either returns a :class:`~engine.scenario.inputs.Scenario` or raises one :class:`~engine.scenario.problems.InputError`
 that lists every problem found in every file (it never stops at the first one). :func:`validate_scenario`
 returns the same list without raising, and :func:`validate_command` is the ``python -m engine validate DIR``
 command.
@@ -49,8 +49,8 @@ from typing import Any, Callable, Iterator
 import numpy as np
 import pandas as pd
 
-from engine import geometry
-from engine.inputs import (
+from engine.scenario import geometry
+from engine.scenario.inputs import (
     CARRIERS,
     COOLING_KINDS,
     DEFAULT_CO2_KG_PER_MWH,
@@ -63,9 +63,9 @@ from engine.inputs import (
     Scenario,
     Settings,
 )
-from engine.problems import InputError, Problem
+from engine.scenario.problems import InputError, Problem
 
-REPO_ROOT = Path(__file__).resolve().parents[1]
+REPO_ROOT = Path(__file__).resolve().parents[2]
 DEMO_DIR = REPO_ROOT / "demo_data"
 """The demo scenario shipped with the project; the word ``demo`` stands for it on the command line."""
 
@@ -2110,11 +2110,11 @@ def load_scenario(path: str | Path) -> Scenario:
 
     Returns
     -------
-    engine.inputs.Scenario
+    engine.scenario.inputs.Scenario
 
     Raises
     ------
-    engine.problems.InputError
+    engine.scenario.problems.InputError
         Listing every problem found in every file.
     """
     scenario, problems = _read_folder(resolve_scenario_path(path))

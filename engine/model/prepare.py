@@ -13,10 +13,13 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from . import demand as demand_mod
-from . import economics, heatpump, water, wells as wells_mod
-from .inputs import COOLING_KINDS, HEAT_KINDS, WELL_KINDS, EffectivePrices, Scenario, Settings, apply_cost_case
-from .timeseries import TimeGrid, daily_features, full_year_grid, typical_day_grid
+from engine.physics import demand as demand_mod
+from engine.physics import economics
+from engine.physics import heatpump
+from engine.physics import water
+from engine.physics import wells as wells_mod
+from engine.scenario.inputs import COOLING_KINDS, HEAT_KINDS, WELL_KINDS, EffectivePrices, Scenario, Settings, apply_cost_case
+from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, typical_day_grid
 
 KWH_PER_MWH = 1000.0
 

@@ -1,6 +1,6 @@
 """Sweeps over prices: many cost cases solved in parallel, on local processes or a Dask cluster.
 
-A sweep is a list of :class:`SweepTask` (a name and a :class:`engine.inputs.CostCase`). Tasks come from the
+A sweep is a list of :class:`SweepTask` (a name and a :class:`engine.scenario.inputs.CostCase`). Tasks come from the
 scenario's own cost cases (:func:`tasks_from_cost_cases`) or from price multipliers around a base case, on a grid
 (:func:`grid_samples`) or drawn by Latin hypercube or plain uniform sampling (:func:`random_samples`), turned into
 cases by :func:`tasks_from_samples`. :func:`run_sweep` solves every task (each one a new cost case added to a copy of
@@ -33,9 +33,9 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 
-from .inputs import CostCase, Scenario
-from .results import RunResult
-from .run import run_settings, solve_scenario
+from engine.scenario.inputs import CostCase, Scenario
+from engine.model.results import RunResult
+from engine.model.solve import run_settings, solve_scenario
 
 Progress = Callable[[float, str], None]
 
@@ -433,7 +433,7 @@ def _outcome(sweep_id: str, outputs: list, keep_results: bool) -> SweepOutcome:
 
 
 def save_sweep(outcome: SweepOutcome, store, name_prefix: str = "Sweep", inputs=None, tags="sweep") -> list[int]:
-    """Save every kept run of a sweep to a :class:`engine.store.ScenarioStore`, tagged with its sweep id.
+    """Save every kept run of a sweep to a :class:`engine.storage.store.ScenarioStore`, tagged with its sweep id.
 
     Raises
     ------
@@ -576,7 +576,7 @@ def cmd_sweep(args) -> int:
 
     Exit codes: 0 every run solved, 2 input error, 3 some run failed (sweep.csv is written all the same).
     """
-    from .tradeoff import _stderr_progress, load_for_command
+    from engine.studies.tradeoff import _stderr_progress, load_for_command
 
     typical_days = 0 if args.full_year else args.typical_days
     if typical_days is not None and typical_days < 0:
@@ -639,7 +639,7 @@ def cmd_sweep(args) -> int:
 def main(argv=None) -> int:
     import argparse
 
-    parser = argparse.ArgumentParser(prog="python -m engine.sweep")
+    parser = argparse.ArgumentParser(prog="python -m engine.studies.sweep")
     add_sweep_parser(parser.add_subparsers(dest="command", required=True))
     args = parser.parse_args(["sweep", *(sys.argv[1:] if argv is None else argv)])
     try:
