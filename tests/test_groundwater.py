@@ -32,7 +32,7 @@ from engine.studies.permits import (  # noqa: E402
 from engine.scenario.inputs import Aquifer, Prices, Settings  # noqa: E402
 from engine.model.solve import solve_scenario  # noqa: E402
 
-iapws = pytest.importorskip("iapws")
+import iapws
 
 ATMOSPHERIC_PRESSURE_MPA = 0.101325
 LAT = 50.005

@@ -97,10 +97,11 @@ def test_sweep_records_in_task_order(serial, tasks):
     assert serial.main_supply.shape == (3, 3)
 
 
+@pytest.mark.slow
 def test_dask_local_cluster_gives_the_serial_results(city, tasks, serial):
     """The same LPs solved by HiGHS on Dask workers (a LocalCluster of 2 processes) give the same numbers as the
     serial sweep; HiGHS is deterministic for a given model and options (common practice)."""
-    distributed = pytest.importorskip("distributed")
+    import distributed  # imported here: the Dask scheduler is heavy to load and only this test needs it
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
                                   dashboard_address=None) as cluster, distributed.Client(cluster) as client:
         seen = []
