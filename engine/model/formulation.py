@@ -469,3 +469,41 @@ def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None
     stage2 = lp.solve(time_limit_s=time_limit_s, cancel=cancel)
     stage2.solve_s += stage1.solve_s
     return stage2
+
+
+@dataclass
+class CapacityColumns:
+    """The new-capacity columns of a built model and what one unit of each costs.
+
+    Units first (kW), then stores (kWh), in the order of ``model.units`` and ``model.stores``. For every column
+    ``model.money[cols] == annuity * investment_eur + fixed_om_eur_per_a``.
+    """
+
+    cols: np.ndarray
+    store: np.ndarray  # bool
+    technology_id: list
+    investment_eur: np.ndarray  # overnight, net of subsidies, per kW (kWh for stores)
+    annuity: np.ndarray  # 1/a
+    fixed_om_eur_per_a: np.ndarray  # per kW (kWh) and year
+    existing: np.ndarray  # kW (kWh)
+    max_new: np.ndarray
+
+
+def capacity_columns(model: DistrictModel) -> CapacityColumns:
+    """Read the new-capacity columns of ``model`` and their cost parts (for multi-period models)."""
+    prepared, units, stores = model.prepared, model.units, model.stores
+    prices = prepared.prices
+    techs = prepared.scenario.technologies.set_index("technology_id")
+    tech_ids = list(units.technology_id) + list(stores.technology_id)
+    fom = techs.loc[tech_ids, "fixed_om_pct_per_a"].to_numpy(float) / 100.0 if tech_ids else np.zeros(0)
+    gross = np.array([prices.gross_investment_eur_per_kw[t] for t in tech_ids], float)
+    return CapacityColumns(
+        cols=np.concatenate([model.cols["new"], model.cols["store_new"]]).astype(int),
+        store=np.r_[np.zeros(len(units.technology_id), bool), np.ones(len(stores.technology_id), bool)],
+        technology_id=tech_ids,
+        investment_eur=np.array([prices.investment_eur_per_kw[t] for t in tech_ids], float),
+        annuity=np.array([prepared.annuity[t] for t in tech_ids], float),
+        fixed_om_eur_per_a=fom * gross,
+        existing=np.r_[units.existing_kw, stores.existing_kwh],
+        max_new=np.r_[units.max_new_kw, stores.max_new_kwh],
+    )

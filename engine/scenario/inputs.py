@@ -133,6 +133,9 @@ class Scenario:
         optional DataFrame, one column per district id, n rows, or None.
     ``groundwater_temp_hourly_c``
         optional DataFrame, one column per well id, n rows, or None.
+
+    ``pathway`` holds the milestone years of ``[pathway]`` and ``pathway.csv`` when the folder has them; a plain
+    single-year solve never reads it.
     """
 
     settings: Settings
@@ -147,6 +150,8 @@ class Scenario:
     heat_demand_hourly_kw: pd.DataFrame | None = None
     groundwater_temp_hourly_c: pd.DataFrame | None = None
     source: str = ""
+    pathway: Any = None
+    """Milestone years and trajectories (:class:`engine.scenario.pathway_inputs.PathwayInputs`), or None."""
 
     @property
     def n_hours(self) -> int:
