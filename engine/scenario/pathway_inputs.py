@@ -45,16 +45,18 @@ CITY_COLUMNS = (
 )
 """Trajectory columns of a city-wide row (blank district_id)."""
 
-DISTRICT_COLUMNS = ("heat_demand_factor", "network_from_year")
+DISTRICT_COLUMNS = ("heat_demand_factor", "network_from_year", "network_connection_limit_kw")
 """Trajectory columns a district row may fill."""
 
-ALL_COLUMNS = ("year", "district_id") + CITY_COLUMNS + ("network_from_year",)
+ALL_COLUMNS = ("year", "district_id") + CITY_COLUMNS + ("network_from_year", "network_connection_limit_kw")
 UPPER = {"co2_eur_per_t": 10_000.0, "gas_eur_per_mwh": 10_000.0, "oil_eur_per_mwh": 10_000.0,
          "biomass_eur_per_mwh": 10_000.0}
 MAX_FACTOR = 100.0
 YEAR_RANGE = (1900, 2200)
 
 PATHWAY_KEYS = ("years", "base_year", "last_period_a")
+PATHWAY_SECTIONS = ("pathway", "designation")
+"""scenario.toml tables read here and in :mod:`engine.studies.designation`, not by the scenario reader."""
 
 
 @dataclass
@@ -64,7 +66,7 @@ class PathwayInputs:
     ``city`` has one row per milestone year (index ``year``) and the columns of :data:`CITY_COLUMNS`, NaN where
     the scenario's own value applies. ``district`` has one row per (year, district_id) given in the file with
     ``heat_demand_factor`` (NaN = the city-wide factor). ``network_from_year`` maps district ids to the first year
-    the network reaches them; ``retirement_year`` maps (district_id, technology_id) to the first year without that
+    the network reaches them and ``network_connection_limit_kw`` to the connection limit from then on; ``retirement_year`` maps (district_id, technology_id) to the first year without that
     row's existing plant.
     """
 
@@ -75,6 +77,7 @@ class PathwayInputs:
     district: pd.DataFrame
     network_from_year: dict = field(default_factory=dict)
     retirement_year: dict = field(default_factory=dict)
+    network_connection_limit_kw: dict = field(default_factory=dict)
 
     def period_years(self) -> list[int]:
         """Number of calendar years each milestone year stands for."""
@@ -86,8 +89,8 @@ class PathwayInputs:
         city = self.city.reindex(years)
         district = self.district[self.district["year"].isin(years)].reset_index(drop=True)
         base = min(self.base_year, years[0])
-        return PathwayInputs(list(years), base, self.last_period_a, city, district,
-                             dict(self.network_from_year), dict(self.retirement_year))
+        return PathwayInputs(list(years), base, self.last_period_a, city, district, dict(self.network_from_year),
+                             dict(self.retirement_year), dict(self.network_connection_limit_kw))
 
 
 def _toml_line(text: str, key: str) -> int | None:
@@ -180,13 +183,16 @@ def _number(cell: str, file: str, row: int, column: str, problems: list[Problem]
     return value
 
 
-def _read_csv(folder: Path, name: str, problems: list[Problem]) -> pd.DataFrame | None:
+def _read_csv(folder: Path, name: str, problems: list[Problem], quiet: bool = False) -> pd.DataFrame | None:
+    """The file as text cells; ``quiet`` leaves an unreadable file to the scenario reader to report."""
     path = folder / name
     if not path.exists():
         return None
     try:
         frame = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
     except (OSError, UnicodeDecodeError, pd.errors.ParserError, pd.errors.EmptyDataError) as error:
+        if quiet:
+            return None
         problems.append(Problem(name, None, None, f"could not be read as CSV ({type(error).__name__})"))
         return None
     frame.columns = [str(c).strip() for c in frame.columns]
@@ -195,16 +201,16 @@ def _read_csv(folder: Path, name: str, problems: list[Problem]) -> pd.DataFrame 
 
 def _trajectories(folder: Path, years: list[int], district_ids, problems: list[Problem]):
     city = pd.DataFrame(np.nan, index=pd.Index(years, name="year"), columns=list(CITY_COLUMNS))
-    district_rows, network_from = [], {}
+    district_rows, network_from, connection_limit = [], {}, {}
     frame = _read_csv(folder, PATHWAY_FILE, problems)
     if frame is None:
-        return city, pd.DataFrame(columns=["year", "district_id", "heat_demand_factor"]), network_from
+        return city, pd.DataFrame(columns=["year", "district_id", "heat_demand_factor"]), network_from, {}
     for column in frame.columns:
         if column not in ALL_COLUMNS and not column.lower().startswith("note"):
             problems.append(Problem(PATHWAY_FILE, 1, column, "unknown column; known columns: " + ", ".join(ALL_COLUMNS)))
     if "year" not in frame.columns:
         problems.append(Problem(PATHWAY_FILE, 1, "year", "required column is missing"))
-        return city, pd.DataFrame(columns=["year", "district_id", "heat_demand_factor"]), network_from
+        return city, pd.DataFrame(columns=["year", "district_id", "heat_demand_factor"]), network_from, {}
     known = set(district_ids) if district_ids is not None else None
     seen = {}
     for k, record in enumerate(frame.to_dict(orient="records")):
@@ -239,7 +245,7 @@ def _trajectories(folder: Path, years: list[int], district_ids, problems: list[P
                 continue
             if column == "network_from_year":
                 values[column] = _number(record[column], PATHWAY_FILE, row, column, problems, *YEAR_RANGE, whole=True)
-            elif column == "co2_cap_t_per_a":
+            elif column in ("co2_cap_t_per_a", "network_connection_limit_kw"):
                 values[column] = _number(record[column], PATHWAY_FILE, row, column, problems, 0.0, 1e12)
             else:
                 values[column] = _number(record[column], PATHWAY_FILE, row, column, problems, 0.0,
@@ -251,6 +257,8 @@ def _trajectories(folder: Path, years: list[int], district_ids, problems: list[P
                 earlier = network_from.get(did)
                 network_from[did] = int(values["network_from_year"]) if earlier is None else min(
                     earlier, int(values["network_from_year"]))
+            if not math.isnan(values.get("network_connection_limit_kw", math.nan)):
+                connection_limit[did] = values["network_connection_limit_kw"]
         else:
             for column, value in values.items():
                 city.loc[year, column] = value
@@ -260,11 +268,11 @@ def _trajectories(folder: Path, years: list[int], district_ids, problems: list[P
             problems.append(Problem(PATHWAY_FILE, seen.get((int(year), "")), f"{fuel}_eur_per_mwh",
                                     f"year {year} gives both {fuel}_price_factor and {fuel}_eur_per_mwh; keep one"))
     district = pd.DataFrame(district_rows, columns=["year", "district_id", "heat_demand_factor"])
-    return city, district, network_from
+    return city, district, network_from, connection_limit
 
 
 def _retirements(folder: Path, base_year: int | None, problems: list[Problem]) -> dict:
-    frame = _read_csv(folder, DISTRICT_TECHNOLOGIES_FILE, problems)
+    frame = _read_csv(folder, DISTRICT_TECHNOLOGIES_FILE, problems, quiet=True)
     if frame is None or RETIREMENT_COLUMN not in frame.columns:
         return {}
     out = {}
@@ -329,11 +337,11 @@ def read_pathway_inputs(folder: str | Path, district_ids=None, years_override=No
     years = [int(y) for y in years]
     base = int(base_year) if base_year is not None else years[0]
     last = table["last_period_a"] or (years[-1] - years[-2] if len(years) > 1 else 1)
-    city, district, network_from = _trajectories(folder, years, district_ids, problems)
+    city, district, network_from, connection_limit = _trajectories(folder, years, district_ids, problems)
     retirement = _retirements(folder, base, problems)
     if problems:
         return None, problems
-    return PathwayInputs(years, base, int(last), city, district, network_from, retirement), []
+    return PathwayInputs(years, base, int(last), city, district, network_from, retirement, connection_limit), []
 
 
 def load_pathway(folder: str | Path, district_ids=None, years_override=None) -> PathwayInputs | None:

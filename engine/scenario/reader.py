@@ -64,6 +64,8 @@ from engine.scenario.inputs import (
     Settings,
 )
 from engine.scenario.problems import InputError, Problem
+from engine.scenario.pathway_inputs import PATHWAY_FILE, PATHWAY_SECTIONS, RETIREMENT_COLUMN, read_pathway_inputs
+# pathway.csv is read (and its problems reported) by engine.scenario.pathway_inputs
 
 REPO_ROOT = Path(__file__).resolve().parents[2]
 DEMO_DIR = REPO_ROOT / "demo_data"
@@ -972,7 +974,7 @@ def _load_settings(folder: Path, report: _Report) -> tuple[Settings, Prices, Aqu
     lines = _toml_key_lines(text)
     before = len(report.problems)
     for key in data:
-        if key not in SCENARIO_SECTIONS:
+        if key not in SCENARIO_SECTIONS and key not in PATHWAY_SECTIONS:
             report(
                 SCENARIO_FILE,
                 _toml_line(lines, (key,)),
@@ -1463,6 +1465,7 @@ DISTRICT_TECHNOLOGY_COLUMNS = (
     _Col("technology_id", "text"),
     _Col("existing_kw", in_header=False, default=0.0, low=0),
     _Col("potential_kw", in_header=False, default=math.inf, low=0, allow_inf=True),
+    _Col(RETIREMENT_COLUMN, "text", in_header=False, default=""),  # checked in engine.scenario.pathway_inputs
 )
 
 
@@ -2057,14 +2060,20 @@ def _read_folder(folder: Path) -> tuple[Scenario | None, list[Problem]]:
         cost_cases = _load_cost_cases(folder, report, set(technology_ids) if technology_ids is not None else None)
     with report.guard(str(folder)):
         _check_capacity_units(report, districts, buildings, heat_series, technologies, overrides)
+    pathway = None
+    with report.guard(PATHWAY_FILE):
+        pathway, pathway_problems = read_pathway_inputs(folder, district_ids)
+        report.problems.extend(pathway_problems)
 
     if report.problems:
         return None, report.problems
     with report.guard(str(folder)):
-        return _assemble(
+        scenario = _assemble(
             folder, settings, districts, technologies[1], hourly, wells, overrides[1] if overrides else None,
             buildings, heat_series, temp_series, cost_cases,
-        ), []
+        )
+        scenario.pathway = pathway
+        return scenario, []
     return None, report.problems
 
 

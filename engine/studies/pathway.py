@@ -108,6 +108,8 @@ def year_scenario(scenario: Scenario, pathway: PathwayInputs, year: int) -> tupl
         mask = districts["district_id"] == d
         reached = year >= first
         districts.loc[mask, "network_available"] = reached
+        if reached and d in pathway.network_connection_limit_kw:
+            districts.loc[mask, "network_connection_limit_kw"] = pathway.network_connection_limit_kw[d]
         if reached and float(districts.loc[mask, "network_connection_limit_kw"].iloc[0]) <= 0:
             notes.append(f"{year}: the network reaches {d} but its network_connection_limit_kw is 0, so it cannot "
                          "connect")
