@@ -67,17 +67,19 @@ CITY_MAP = (
 # District characters. density: gross heat density [MWh/(ha a)]; connection: network connection limit as a share
 # of the estimated peak; cooling: annual cooling as a share of annual heat; buildings: (count, share of the heat
 # demand held by buildings.csv). existing: existing capacity as a share of the estimated peak. potential: the
-# largest total capacity as a share of the peak, or "existing" (no new units), or 0 (ruled out).
+# largest total capacity as a share of the peak, or "existing" (no new units), or 0 (ruled out). Pathway only:
+# retire: the year existing plant of a technology is gone; network_from: (year the network arrives, connection
+# limit as a share of the peak); neither changes the single-year scenario.
 DISTRICTS = {
     "C": dict(
         district_id="old_town", name="Old Kelmsvoort", density=550.0, supply_temp_c=78.0, hot_water_share=0.15,
-        network=True, connection=1.0, cooling=0.0,
+        network=True, connection=1.0, cooling=0.0, retire={"gas_boiler": 2040, "oil_boiler": 2035},
         existing={"gas_boiler": 0.45, "oil_boiler": 0.05},
         potential={"air_hp": 0.08, "biomass_boiler": 0.0, "oil_boiler": "existing", "heat_store_kwh": 20_000.0},
     ),
     "S": dict(
         district_id="station_quarter", name="Station Quarter", density=380.0, supply_temp_c=75.0,
-        hot_water_share=0.10, network=True, connection=1.0, cooling=0.06,
+        hot_water_share=0.10, network=True, connection=1.0, cooling=0.06, retire={"gas_boiler": 2035},
         existing={"gas_boiler": 0.40, "chiller": 0.30},
         potential={"air_hp": 0.12, "biomass_boiler": 0.0, "oil_boiler": 0.0},
     ),
@@ -89,7 +91,7 @@ DISTRICTS = {
     ),
     "N": dict(
         district_id="larkmoss", name="Larkmoss Gardens", density=110.0, supply_temp_c=55.0, hot_water_share=0.18,
-        network=False, connection=0.0, cooling=0.0,
+        network=False, connection=0.0, cooling=0.0, network_from=(2035, 0.6), retire={"gas_boiler": 2035},
         existing={"gas_boiler": 0.50},
         potential={"biomass_boiler": 0.10, "oil_boiler": 0.0},
     ),
@@ -101,13 +103,13 @@ DISTRICTS = {
     ),
     "E": dict(
         district_id="ember_lanes", name="Ember Lanes", density=100.0, supply_temp_c=60.0, hot_water_share=0.18,
-        network=False, connection=0.0, cooling=0.0,
+        network=False, connection=0.0, cooling=0.0, network_from=(2035, 0.6), retire={"gas_boiler": 2040},
         existing={"gas_boiler": 0.45},
         potential={"biomass_boiler": 0.10, "oil_boiler": 0.0},
     ),
     "V": dict(
         district_id="corvane_villas", name="Corvane Villas", density=90.0, supply_temp_c=70.0, hot_water_share=0.12,
-        network=False, connection=0.0, cooling=0.0,
+        network=False, connection=0.0, cooling=0.0, retire={"oil_boiler": 2035},
         existing={"oil_boiler": 0.30, "gas_boiler": 0.20},
         potential={"biomass_boiler": 0.15, "oil_boiler": "existing"},
     ),
@@ -253,6 +255,22 @@ biomass_kg_per_mwh = 0.0
 
 [aquifer]
 {aquifer}
+"""
+
+PATHWAY_CITY_COLUMNS = ("heat_demand_factor", "gas_price_factor", "grid_co2_factor", "co2_eur_per_t",
+                        "co2_cap_t_per_a")
+PATHWAY_CITY = (
+    # refurbishment lowers demand towards the target year; the grid decarbonises; the city's CO2 cap falls
+    (2030, ["1.10", "0.90", "1.60", "60", "80000"]),
+    (2035, ["1.05", "0.95", "1.25", "80", "55000"]),
+    (2040, ["", "", "", "", "32000"]),
+)
+
+PATHWAY_TOML = """
+[pathway]
+# milestone years of the heat plan; each stands for the five years until the next (pathway.csv: trajectories)
+years = [2030, 2035, 2040]
+last_period_a = 5
 """
 
 COST_CASES_TOML = """\
@@ -597,18 +615,33 @@ def build(out_dir: Path) -> list[Path]:
                 potential_kw[tech_id] = existing_kw.get(tech_id, 0.0)
             else:
                 potential_kw[tech_id] = _round_to(value * peak, 10.0)
-        if not spec["network"]:
+        if not spec["network"] and "network_from" not in spec:
             potential_kw["network"] = 0.0
+        retire = spec.get("retire", {})
         for tech in TECHNOLOGIES:
             tech_id = tech[0]
             if tech_id not in existing_kw and tech_id not in potential_kw:
                 continue
             rows.append([
                 spec["district_id"], tech_id, _fmt(existing_kw.get(tech_id, 0.0), 1),
-                _fmt(potential_kw.get(tech_id), 1),
+                _fmt(potential_kw.get(tech_id), 1), str(retire[tech_id]) if tech_id in retire else "",
             ])
     path = out_dir / "district_technologies.csv"
-    _write_csv(path, ["district_id", "technology_id", "existing_kw", "potential_kw"], rows)
+    _write_csv(path, ["district_id", "technology_id", "existing_kw", "potential_kw", "retirement_year"], rows)
+    written.append(path)
+
+    # -- pathway.csv: the road to the target year (the target year itself keeps the scenario's figures)
+    rows = [[str(year), ""] + values for year, values in PATHWAY_CITY]
+    for letter, spec in DISTRICTS.items():
+        if "network_from" in spec:
+            year, share = spec["network_from"]
+            limit = _round_to(share * records[letter]["peak_kw"], 100.0)
+            rows.append([str(year), spec["district_id"]] + [""] * len(PATHWAY_CITY_COLUMNS) + [str(year),
+                                                                                                   _fmt(limit, 1)])
+    path = out_dir / "pathway.csv"
+    _write_csv(path, ["year", "district_id"] + list(PATHWAY_CITY_COLUMNS)
+               + ["network_from_year", "network_connection_limit_kw"],
+               [r + [""] * (2 + len(PATHWAY_CITY_COLUMNS) + 2 - len(r)) for r in rows])
     written.append(path)
 
     # -- wells.csv
@@ -662,7 +695,8 @@ def build(out_dir: Path) -> list[Path]:
     # -- scenario.toml and cost_cases.toml
     aquifer = "\n".join(f"{key} = {value!r}" for key, value in AQUIFER.items())
     path = out_dir / "scenario.toml"
-    path.write_text(SCENARIO_TOML.format(name=CITY_NAME, aquifer=aquifer), encoding="utf-8", newline="\n")
+    path.write_text(SCENARIO_TOML.format(name=CITY_NAME, aquifer=aquifer) + PATHWAY_TOML, encoding="utf-8",
+                    newline="\n")
     written.append(path)
     path = out_dir / "cost_cases.toml"
     path.write_text(COST_CASES_TOML, encoding="utf-8", newline="\n")
