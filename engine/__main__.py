@@ -1,4 +1,4 @@
-"""Command line: ``python -m engine validate|solve|tradeoff|sweep ...``.
+"""Command line: ``python -m engine validate|solve|tradeoff|sweep|pathway|designate ...``.
 
 Exit codes: 0 solved (or valid), 2 input errors (printed, no traceback), 3 the solver failed.
 """
@@ -34,11 +34,15 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--time-limit-s", type=float, default=None)
     p.add_argument("--quiet", action="store_true")
 
+    from engine.studies.designation import add_designate_parser
+    from engine.studies.pathway import add_pathway_parser
     from engine.studies.sweep import add_sweep_parser
     from engine.studies.tradeoff import add_tradeoff_parser
 
     add_tradeoff_parser(sub)
     add_sweep_parser(sub)
+    add_pathway_parser(sub)
+    add_designate_parser(sub)
     return parser
 
 
@@ -133,6 +137,8 @@ def main(argv=None) -> int:
             from engine.studies.sweep import cmd_sweep
 
             return cmd_sweep(args)
+        if args.command in ("pathway", "designate"):
+            return args.run(args)
     except KeyboardInterrupt:
         print("Cancelled.", file=sys.stderr)
         return EXIT_SOLVER

@@ -199,7 +199,7 @@ def _read_csv(folder: Path, name: str, problems: list[Problem], quiet: bool = Fa
     return frame.apply(lambda col: col.str.strip())
 
 
-def _trajectories(folder: Path, years: list[int], district_ids, problems: list[Problem]):
+def _trajectories(folder: Path, years: list[int], district_ids, problems: list[Problem], other_years_ok=False):
     city = pd.DataFrame(np.nan, index=pd.Index(years, name="year"), columns=list(CITY_COLUMNS))
     district_rows, network_from, connection_limit = [], {}, {}
     frame = _read_csv(folder, PATHWAY_FILE, problems)
@@ -222,6 +222,8 @@ def _trajectories(folder: Path, years: list[int], district_ids, problems: list[P
             continue
         year = int(year)
         if year not in years:
+            if other_years_ok:
+                continue
             problems.append(Problem(PATHWAY_FILE, row, "year", f"year {year} is not a milestone year of the pathway "
                                     f"({', '.join(str(y) for y in years)}); add it to [pathway] years or drop the row"))
             continue
@@ -305,7 +307,9 @@ def read_pathway_inputs(folder: str | Path, district_ids=None, years_override=No
         Known district ids (checked against ``pathway.csv``); None skips the check.
     years_override : list of int, optional
         Milestone years given on the command line; they replace ``[pathway] years`` (problems then name the file
-        ``--years``). With an override a folder without ``[pathway]`` still has a pathway.
+        ``--years``) and trajectory rows for other years are left out. The base year stays that of ``[pathway]``
+        (its ``base_year``, else its first year) unless an override year comes earlier. With an override a folder
+        without ``[pathway]`` still has a pathway.
 
     Returns
     -------
@@ -323,6 +327,12 @@ def read_pathway_inputs(folder: str | Path, district_ids=None, years_override=No
         return None, problems
     table = table or {"years": None, "base_year": None, "last_period_a": None, "text": ""}
     base_year = table["base_year"]
+    if years_override is not None and base_year is None:
+        own = table["years"]
+        own_first = own[0] if isinstance(own, list) and own and isinstance(own[0], int) else None
+        first = years_override[0] if years_override and isinstance(years_override[0], int) else None
+        if first is not None:
+            base_year = min(first, own_first) if own_first is not None else first
     if years_override is not None:
         years, file, row, column = years_override, "--years", None, None
     else:
@@ -337,7 +347,8 @@ def read_pathway_inputs(folder: str | Path, district_ids=None, years_override=No
     years = [int(y) for y in years]
     base = int(base_year) if base_year is not None else years[0]
     last = table["last_period_a"] or (years[-1] - years[-2] if len(years) > 1 else 1)
-    city, district, network_from, connection_limit = _trajectories(folder, years, district_ids, problems)
+    city, district, network_from, connection_limit = _trajectories(folder, years, district_ids, problems,
+                                                                   other_years_ok=years_override is not None)
     retirement = _retirements(folder, base, problems)
     if problems:
         return None, problems

@@ -354,6 +354,7 @@ def add_pathway_parser(sub) -> None:
     p.add_argument("--out", default="out")
     p.add_argument("--time-limit-s", type=float, default=None)
     p.add_argument("--quiet", action="store_true")
+    p.set_defaults(run=cmd_pathway)
 
 
 def _parse_years(text: str):
