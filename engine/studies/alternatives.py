@@ -1,0 +1,261 @@
+"""Near-optimal alternatives: how far each district's supply can move at almost the least cost.
+
+Modelling to generate alternatives (DeCarolis 2011, "Using modeling to generate alternatives (MGA) to expand our
+thinking on energy futures", Energy Economics 33(2), 145-152): once the least cost ``C*`` is known, the cost is
+bounded by ``(1 + slack) C*`` and other objectives are minimised and maximised within that bound. Here they are
+
+* the network share of each district that the network can reach (heat from its network connection over its heat
+  demand), and the share of every heat technology in each district, with that *district's* cost within the
+  slack: the range of that district's own choice;
+* the city-wide share of each heat technology. Without a city-wide constraint the districts are independent and
+  the slack is applied per district (every district within ``(1 + slack)`` of its own least cost, which keeps the
+  city within the slack too); the plans allowed then form a product set, so the city-wide extremes are exactly
+  the sums of the district extremes, and many small LPs replace a few large ones.
+
+Districts that a city-wide constraint (CO2 cap, network plant limit) couples are solved as one LP with the
+city's cost within the slack.
+Each group of objectives is one task: the LP is built and solved once for ``C*``, the cost row is added, and
+every objective is then solved from the previous basis (HiGHS warm start). Tasks run in parallel on local
+processes or on a Dask cluster, as the sweeps do (:mod:`engine.studies.sweep`).
+
+Ranges are screening figures: a range says a choice is free *within this model*, not that either end is buildable.
+"""
+
+from __future__ import annotations
+
+import os
+import uuid
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from dataclasses import dataclass, field
+from typing import Callable
+
+import highspy
+import numpy as np
+import pandas as pd
+
+from engine.model.formulation import build_model
+from engine.model.lp import new_highs
+from engine.model.prepare import prepare_run
+from engine.model.solve import run_settings
+from engine.scenario.inputs import HEAT_KINDS, Scenario
+
+DEFAULT_SLACK_PCT = 5.0
+RANGE_COLUMNS = ("scope", "subject", "quantity", "optimum", "minimum", "maximum", "slack_pct", "status")
+
+
+@dataclass
+class AlternativeTask:
+    """One LP (``districts``) and the shares to minimise and maximise in it.
+
+    ``targets`` are ``(scope, subject, quantity)``: ``("district", district_id, "network_share")``,
+    ``("district", "district_id/technology_id", "technology_share")`` or ``("city", technology_id,
+    "technology_share")``.
+    """
+
+    name: str
+    districts: list
+    targets: list
+
+
+@dataclass
+class NearOptimalRanges:
+    cost_case: str
+    slack_pct: float
+    ranges: pd.DataFrame = field(default_factory=pd.DataFrame)
+    """One row per target, the columns of :data:`RANGE_COLUMNS` (shares 0..1)."""
+
+    def district_network(self) -> pd.DataFrame:
+        """network_share_min and network_share_max per district id (only districts the network reaches)."""
+        d = self.ranges[self.ranges["quantity"] == "network_share"].set_index("subject")
+        return pd.DataFrame({"network_share_min": d["minimum"], "network_share_max": d["maximum"]})
+
+
+def _coupled(settings) -> bool:
+    return bool((settings.co2_cap_t_per_a or 0) > 0 or (settings.network_plant_limit_kw or 0) > 0)
+
+
+def plan_tasks(scenario: Scenario, prepared) -> list[AlternativeTask]:
+    """Tasks for the district network shares and the city-wide technology shares."""
+    model = build_model(prepared)  # only read: which units exist where
+    ids = prepared.district_ids
+    kinds = np.array(model.units.kind)
+    net = sorted({int(i) for i in model.units.district[kinds == "network_connection"]})
+    heat_techs = sorted({t for t, k in zip(model.units.technology_id, kinds) if k in HEAT_KINDS})
+    city = [("city", t, "technology_share") for t in heat_techs]
+    all_d = list(range(len(ids)))
+    if _coupled(prepared.settings):
+        targets = [("district", ids[i], "network_share") for i in net] + city
+        return [AlternativeTask("city", all_d, targets)]
+    tasks = []
+    for i in all_d:
+        here = sorted({t for t, k, d in zip(model.units.technology_id, kinds, model.units.district)
+                       if k in HEAT_KINDS and d == i})
+        # a district's network share is the share of its network technology: no target of its own
+        targets = [("district", f"{ids[i]}/{t}", "technology_share") for t in here]
+        if targets:
+            tasks.append(AlternativeTask(f"district {ids[i]}", [i], targets))
+    return tasks
+
+
+def _share_coefficients(model, target) -> tuple[np.ndarray, np.ndarray, float]:
+    """Columns, weights [h] and denominator [kWh/a] of a share target in ``model``."""
+    scope, subject, _ = target
+    prepared, units = model.prepared, model.units
+    w = prepared.grid.weight_h
+    if scope == "district" and "/" in subject:
+        did, tech = subject.split("/", 1)
+        i = prepared.district_ids.index(did)
+        chosen = np.flatnonzero((units.district == i) & (np.array(units.technology_id) == tech))
+        demand = float((prepared.heat_demand_kw[i] * w).sum())
+    elif scope == "district":
+        i = prepared.district_ids.index(subject)
+        chosen = np.flatnonzero((units.district == i) & (np.array(units.kind) == "network_connection"))
+        demand = float((prepared.heat_demand_kw[i] * w).sum())
+    else:
+        chosen = np.flatnonzero((np.array(units.technology_id) == subject) & ~units.serves_cooling)
+        demand = float((prepared.heat_demand_kw[model.districts] * w[None, :]).sum())
+    cols = model.cols["out"][chosen].ravel()
+    weights = np.broadcast_to(w, (len(chosen), len(w))).ravel()
+    return cols, weights, max(demand, 1e-9)
+
+
+def solve_task(prepared, task: AlternativeTask, slack_pct: float) -> list[dict]:
+    """Least cost, then the minimum and maximum of every target within the cost slack (warm started)."""
+    model = build_model(prepared, np.array(task.districts))
+    lp = model.lp
+    h = lp.to_highs()
+    h.run()
+    rows = []
+    if h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
+        return [dict(zip(RANGE_COLUMNS, (*t, np.nan, np.nan, np.nan, slack_pct, "infeasible"))) for t in task.targets]
+    x = np.asarray(h.getSolution().col_value)
+    money = model.money
+    constant = float(model.constant_fixed_om.sum())
+    best = float(money @ x) + constant
+    limit = best * (1 + slack_pct / 100.0) - constant
+    nz = np.flatnonzero(money)
+    h.addRow(-highspy.kHighsInf, float(limit), len(nz), nz.astype(np.int32), money[nz])
+    # from the least-cost basis every new objective starts primal feasible: primal simplex, no new presolve
+    h.setOptionValue("presolve", "off")
+    h.setOptionValue("simplex_strategy", 4)
+    n = lp.n_cols
+    zero = np.zeros(n)
+    all_cols = np.arange(n, dtype=np.int32)
+    for target in task.targets:
+        cols, weights, demand = _share_coefficients(model, target)
+        optimum = float(weights @ x[cols]) / demand
+        found = []
+        for sign in (1.0, -1.0):
+            cost = zero.copy()
+            cost[cols] = sign * weights / max(float(weights.max()), 1e-12)  # O(1) costs: tolerances stay meaningful
+            h.changeColsCost(n, all_cols, cost)
+            h.run()
+            ok = h.getModelStatus() == highspy.HighsModelStatus.kOptimal
+            found.append(float(np.asarray(h.getSolution().col_value)[cols] @ weights) / demand if ok else np.nan)
+        low, high = min(found[0], optimum), max(found[1], optimum)
+        rows.append(dict(zip(RANGE_COLUMNS, (*target, optimum, max(low, 0.0), min(high, 1.0), slack_pct,
+                                             "optimal"))))
+    return rows
+
+
+_WORKER: dict = {}
+
+
+def _init(prepared):
+    _WORKER["prepared"] = prepared
+    new_highs()  # the banner once per process, silenced
+
+
+def _in_worker(task, slack_pct):
+    return solve_task(_WORKER["prepared"], task, slack_pct)
+
+
+def _on_cluster(prepared, task, slack_pct):
+    return solve_task(prepared, task, slack_pct)
+
+
+def near_optimal_ranges(
+    scenario: Scenario,
+    cost_case: str | None = None,
+    slack_pct: float = DEFAULT_SLACK_PCT,
+    typical_days: int | None = None,
+    workers: int | None = None,
+    scheduler=None,
+    progress: Callable[[float, str], None] | None = None,
+) -> NearOptimalRanges:
+    """Minimum and maximum of each district's network share and each technology's city-wide share.
+
+    ``workers`` local processes (default: the cores, at most the tasks; 1 = in this process), or ``scheduler``
+    (a Dask scheduler address or client) to run the tasks on a cluster.
+    """
+    if slack_pct < 0:
+        raise ValueError("slack_pct must be >= 0")
+    report = progress or (lambda share, text: None)
+    cost_case = cost_case or ("reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases)))
+    settings = run_settings(scenario, typical_days=typical_days)
+    prepared = prepare_run(scenario, cost_case, settings)
+    if workers is None:
+        workers = os.cpu_count() or 1
+    tasks = plan_tasks(scenario, prepared)
+    rows: list = []
+    if scheduler is not None:
+        from distributed import Client, as_completed as dask_as_completed  # optional dependency, only for clusters
+
+        own = not isinstance(scheduler, Client)
+        client = Client(scheduler) if own else scheduler
+        try:
+            shared = client.scatter(prepared, broadcast=True)
+            futures = [client.submit(_on_cluster, shared, t, slack_pct, pure=False,
+                                     key=f"heatmosaic-mga-{uuid.uuid4().hex[:8]}") for t in tasks]
+            for k, future in enumerate(dask_as_completed(futures)):
+                rows += future.result()
+                report((k + 1) / len(tasks), f"Alternatives: {k + 1} of {len(tasks)} groups")
+        finally:
+            if own:
+                client.close()
+    elif workers <= 1 or len(tasks) == 1:
+        for k, task in enumerate(tasks):
+            rows += solve_task(prepared, task, slack_pct)
+            report((k + 1) / len(tasks), f"Alternatives: {k + 1} of {len(tasks)} groups")
+    else:
+        with ProcessPoolExecutor(max_workers=min(workers, len(tasks)), initializer=_init,
+                                 initargs=(prepared,)) as pool:
+            futures = [pool.submit(_in_worker, t, slack_pct) for t in tasks]
+            for k, future in enumerate(as_completed(futures)):
+                rows += future.result()
+                report((k + 1) / len(tasks), f"Alternatives: {k + 1} of {len(tasks)} groups")
+    table = pd.DataFrame(rows, columns=list(RANGE_COLUMNS))
+    techs = scenario.technologies
+    network_ids = set(techs.loc[techs["kind"] == "network_connection", "technology_id"])
+    if not (table["quantity"] == "network_share").any():
+        own = table[table["subject"].map(lambda s: "/" in s and s.split("/", 1)[1] in network_ids)].copy()
+        own["subject"] = own["subject"].str.split("/", n=1).str[0]
+        own["quantity"] = "network_share"
+        own = own.groupby(["scope", "subject", "quantity"], as_index=False).agg(
+            optimum=("optimum", "sum"), minimum=("minimum", "sum"), maximum=("maximum", "sum"),
+            slack_pct=("slack_pct", "first"), status=("status", "first"))
+        table = pd.concat([table, own[list(RANGE_COLUMNS)]], ignore_index=True)
+    if not (table["scope"] == "city").any():
+        table = pd.concat([table, _city_from_districts(table, prepared, slack_pct)], ignore_index=True)
+    table = table.sort_values(["scope", "quantity", "subject"], ignore_index=True)
+    return NearOptimalRanges(cost_case, float(slack_pct), table)
+
+
+def _city_from_districts(table: pd.DataFrame, prepared, slack_pct: float) -> pd.DataFrame:
+    """City-wide technology shares as demand-weighted sums of the district extremes (independent districts)."""
+    w = prepared.grid.weight_h
+    demand = dict(zip(prepared.district_ids, (prepared.heat_demand_kw * w[None, :]).sum(axis=1)))
+    total = max(sum(demand.values()), 1e-9)
+    parts = table[table["quantity"] == "technology_share"].copy()
+    if parts.empty:
+        return pd.DataFrame(columns=list(RANGE_COLUMNS))
+    split = parts["subject"].str.split("/", n=1, expand=True)
+    parts["district"], parts["technology"] = split[0], split[1]
+    parts["weight"] = parts["district"].map(demand) / total
+    rows = []
+    for tech, group in parts.groupby("technology"):
+        status = "optimal" if (group["status"] == "optimal").all() else "incomplete"
+        rows.append(dict(zip(RANGE_COLUMNS, ("city", tech, "technology_share",
+                                             *(float((group[c] * group["weight"]).sum()) for c in
+                                               ("optimum", "minimum", "maximum")), slack_pct, status))))
+    return pd.DataFrame(rows, columns=list(RANGE_COLUMNS))
