@@ -33,8 +33,9 @@ from engine.model.results import RunResult
 from engine.model.solve import diagnose_failure, failure_message, merge_tables, run_settings
 from engine.model.formulation import build_model, solve_model
 from engine.scenario.inputs import FUELS, Scenario
-from engine.scenario.pathway_inputs import PathwayInputs, load_pathway
+from engine.scenario.pathway_inputs import PathwayInputs, check_years, load_pathway
 from engine.scenario.problems import InputError, Problem
+from engine.scenario.reader import load_scenario, resolve_scenario_path
 
 Progress = Callable[[float, str], None]
 SUMMARY_COLUMNS = ("year", "total_cost_eur_per_a", "co2_t_per_a", "investment_eur", "heat_demand_mwh_per_a",
@@ -202,8 +203,6 @@ def resolve_pathway(scenario: Scenario, years=None) -> PathwayInputs:
     if years is not None:
         if folder is not None and folder.is_dir():
             return load_pathway(folder, district_ids, years_override=list(years))
-        from engine.scenario.pathway_inputs import check_years
-
         problems = check_years(list(years), None, "--years", None, None)
         if problems:
             raise InputError(problems)
@@ -365,8 +364,6 @@ def _parse_years(text: str):
 
 
 def cmd_pathway(args) -> int:
-    from engine.scenario.reader import load_scenario, resolve_scenario_path
-
     years = None
     if args.years is not None:
         years, error = _parse_years(args.years)
