@@ -44,11 +44,11 @@ def pulp_available() -> list[str]:
 
 def solver_choices() -> dict[str, str]:
     """Every solver name that works here -> a label for people, the default first."""
-    choices = {DIRECT: "HiGHS (direct, default)"}
+    choices = {DIRECT: "HiGHS direct, the default"}
     short = {v: k for k, v in ALIASES.items()}
     for name in pulp_available():
         key = short.get(name, PULP_PREFIX + name)
-        choices[key] = f"{name} via pulp"
+        choices[key] = f"{'CBC' if name == ALIASES['cbc'] else name} via pulp"
     return choices
 
 
@@ -66,7 +66,7 @@ def resolve_solver(name: str | None) -> str:
     pulp_name = text[len(PULP_PREFIX):] if text.lower().startswith(PULP_PREFIX) else ALIASES.get(text.lower(), text)
     known = {n.lower(): n for n in pulp.listSolvers()}
     available = pulp_available()
-    listing = ", ".join(solver_choices())
+    listing = "; ".join(f"{key} = {label}" for key, label in solver_choices().items())
     if pulp_name.lower() not in known:
         raise SolverChoiceError(f"Unknown solver '{text}'. Solvers available here: {listing}.")
     pulp_name = known[pulp_name.lower()]
