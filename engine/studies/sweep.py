@@ -8,8 +8,8 @@ the scenario) and returns one compact record per run: the prices, total cost, CO
 supply of each district; the full :class:`RunResult` too when asked, for the scenario store.
 
 :func:`tornado_analysis` varies one price at a time to its low and high value around the reference and reports the
-change in total cost and how many districts change their main supply; :func:`engine.outputs.study_figures.tornado_figure`
-draws it.
+change in total cost and how many districts change their main supply;
+:func:`engine.outputs.study_figures.tornado_figure` draws it.
 
 Price multipliers (:data:`PARAMETERS`): ``co2_price_factor`` multiplies the base case's CO2 price,
 ``gas_price_factor``, ``electricity_price_factor`` and ``network_price_factor`` multiply those prices (on top of the
