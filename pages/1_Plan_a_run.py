@@ -132,10 +132,13 @@ with st.container(border=True):
             st.caption("The full year solves every hour: minutes instead of seconds for a city the size of the demo.")
     with st.expander("Advanced"):
         solvers = solver_choices()
+        if state.get("setup_solver") not in solvers:  # kept in hm_setup across pages, like the other choices
+            state["setup_solver"] = setup.get("solver") if setup.get("solver") in solvers else DIRECT
         solver = st.selectbox("Solver", list(solvers), format_func=solvers.get, key="setup_solver",
                               help="HiGHS direct is the fast path. Solvers through pulp (CBC always, others where "
                                    "installed and licensed) build the model one row at a time: for cross-checks "
                                    "and small runs; a pulp solve cannot be cancelled half way.")
+        setup["solver"] = solver
 for widget, name in WIDGETS.items():
     setup[name] = state[widget]
 

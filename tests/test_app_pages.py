@@ -235,7 +235,7 @@ def test_an_edited_cost_is_checked_solved_and_kept_in_the_run_files(session):
 def test_the_solver_setting_solves_through_pulp(tmp_path, monkeypatch):
     """The Plan a run page's advanced Solver setting (``setup_solver``) offers HiGHS direct first and CBC; a solve
     with CBC gives the direct HiGHS total cost of the same inputs within 1e-6 relative (CBC is a solver independent
-    of HiGHS), and is kept as its own run beside the HiGHS one."""
+    of HiGHS), and is kept as its own run beside the HiGHS one; the choice stays when the planner comes back."""
     tiny = ROOT / "tests" / "fixtures" / "tiny_city"
     monkeypatch.setenv("HEATMOSAIC_STORE", str(tmp_path / "store.sqlite"))
     at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
@@ -253,6 +253,9 @@ def test_the_solver_setting_solves_through_pulp(tmp_path, monkeypatch):
         assert run.result.solved, run.result.message
         totals[run.result.model_size["solver"]] = run.result.total_cost_eur_per_a
         days = run.result.settings["typical_days"]
+        at.switch_page(RESULTS).run()
+        at.switch_page(PLAN).run()
+        assert at.selectbox(key="setup_solver").value == solver, "the choice is kept across pages"
     assert set(totals) == {"pulp:PULP_CBC_CMD", "highs"}
     reference = solve_scenario(load_scenario(tiny), typical_days=days).total_cost_eur_per_a
     assert totals["pulp:PULP_CBC_CMD"] == pytest.approx(reference, rel=1e-6)

@@ -101,8 +101,8 @@ def solve_with_pulp(lp: LinearProgram, solver: str, time_limit_s: float | None =
     if time_limit_s:
         options["timeLimit"] = float(time_limit_s)
     engine = pulp.getSolver(pulp_name, **options)
+    started = time.perf_counter()  # the solve time includes building the pulp problem: it is this path's cost
     prob, variables, row_names = lp.to_pulp(with_row_names=True)
-    started = time.perf_counter()
     try:
         prob.solve(engine)
     except pulp.PulpSolverError as error:
