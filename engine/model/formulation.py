@@ -26,6 +26,7 @@ import numpy as np
 from engine.scenario.inputs import COOLING_KINDS, FUELS, WELL_KINDS
 from engine.model.lp import INF, LinearProgram, LpSolution
 from engine.model.prepare import KWH_PER_MWH, PreparedRun
+from engine.model.solvers import DIRECT, solve_lp
 
 UNSERVED_CO2_EQUIVALENT_T_PER_MWH = 10.0
 """Weight of unserved heat in the CO2 objective: far above any real supply (fuel oil emits 0.27 t/MWh)."""
@@ -435,14 +436,9 @@ def build_model(
     return model
 
 
-def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None, cancel=None) -> LpSolution:
-    """Solve for least cost, or for least CO2 and then least cost at that CO2 (lexicographic)."""
-    lp = model.lp
-    if objective == "cost":
-        lp.set_objective(model.money)
-        return lp.solve(time_limit_s=time_limit_s, cancel=cancel)
-    if objective != "co2":
-        raise ValueError(f"objective must be 'cost' or 'co2', got {objective!r}")
+def co2_stage_objective(model: DistrictModel) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The first stage of the CO2 objective: emissions with unserved heat and cooling counted at
+    :data:`UNSERVED_CO2_EQUIVALENT_T_PER_MWH`; returns (objective, unserved columns, their weights [h])."""
     w = model.prepared.grid.weight_h
     first = model.emissions.copy()
     unserved_cols = np.concatenate([model.cols["unserved_heat"].ravel(), model.cols["unserved_cooling"].ravel()])
@@ -452,9 +448,25 @@ def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None
          np.broadcast_to(w, model.cols["unserved_cooling"].shape).ravel()]
     )
     first[unserved_cols] += unserved_weight * penalty
+    return first, unserved_cols, unserved_weight
+
+
+def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None, cancel=None,
+                solver: str = DIRECT) -> LpSolution:
+    """Solve for least cost, or for least CO2 and then least cost at that CO2 (lexicographic).
+
+    ``solver`` names the solver (:mod:`engine.model.solvers`; HiGHS directly by default).
+    """
+    lp = model.lp
+    if objective == "cost":
+        lp.set_objective(model.money)
+        return solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
+    if objective != "co2":
+        raise ValueError(f"objective must be 'cost' or 'co2', got {objective!r}")
+    first, unserved_cols, unserved_weight = co2_stage_objective(model)
     # a small cost term keeps the first stage well posed where emissions are flat (e.g. zero-carbon supplies)
     lp.set_objective(first)
-    stage1 = lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+    stage1 = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
     if stage1.status != "optimal":
         return stage1
     x = stage1.x
@@ -466,6 +478,6 @@ def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None
     lp.add_rows_coo("unserved_optimum", 1, np.zeros(len(unserved_cols)), unserved_cols, unserved_weight,
                     upper=np.array([unserved_opt * (1 + 1e-7) + 1e-3]))
     lp.set_objective(model.money)
-    stage2 = lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+    stage2 = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
     stage2.solve_s += stage1.solve_s
     return stage2
