@@ -254,7 +254,7 @@ def _toml_value(value) -> str:
 
 
 def write_scenario_folder(scenario: Scenario, folder: str | Path) -> Path:
-    """Write ``scenario`` as a scenario folder that :func:`engine.scenario.reader.load_scenario` reads back.
+    """Write ``scenario`` as a scenario folder that :func:`engine.scenario.load_scenario` reads back.
 
     Raises
     ------

@@ -53,7 +53,7 @@ def _progress(quiet: bool):
 
 
 def _load(path_arg: str):
-    from engine.scenario.reader import load_scenario, resolve_scenario_path
+    from engine.scenario import load_scenario, resolve_scenario_path
     from engine.scenario.problems import InputError
 
     try:
@@ -120,7 +120,7 @@ def main(argv=None) -> int:
     args = _parser().parse_args(argv)
     try:
         if args.command == "validate":
-            from engine.scenario.reader import validate_command
+            from engine.scenario import validate_command
 
             return validate_command(args.scenario)
         if args.command == "solve":

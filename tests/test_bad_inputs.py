@@ -19,7 +19,8 @@ from pathlib import Path
 
 import pytest
 
-from engine.scenario import reader as io
+from engine.scenario import folder as io
+from engine.scenario import tables
 from pages._support import workbench
 from engine.__main__ import main
 from engine.storage.bundle import BundleError, export_bundle
@@ -203,7 +204,7 @@ def test_size_limit_is_checked_before_reading(tmp_path, monkeypatch):
     a big file gives a message rather than exhausting memory). Here the limit is lowered to 1 kB with monkeypatch
     so that a plain small file is above it."""
     folder = corpus.build(corpus.case_named("header_only_wells"), tmp_path / "small_limit")
-    monkeypatch.setattr(io, "MAX_FILE_BYTES", 1024)
+    monkeypatch.setattr(tables, "MAX_FILE_BYTES", 1024)
     read = []
     original = Path.read_bytes
 

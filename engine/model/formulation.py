@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from engine.scenario.inputs import COOLING_KINDS, FUELS, WELL_KINDS
+from engine.scenario.kinds import COOLING_KINDS, FUELS, WELL_KINDS
 from engine.model.lp import INF, LinearProgram, LpSolution
 from engine.model.prepare import KWH_PER_MWH, PreparedRun
 

@@ -18,7 +18,7 @@ from engine.physics import economics
 from engine.physics import heatpump
 from engine.physics import water
 from engine.physics import wells as wells_mod
-from engine.scenario.inputs import COOLING_KINDS, HEAT_KINDS, WELL_KINDS, EffectivePrices, Scenario, Settings, apply_cost_case
+from engine.scenario.inputs import EffectivePrices, Scenario, Settings, apply_cost_case
 from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, typical_day_grid
 
 KWH_PER_MWH = 1000.0
@@ -208,4 +208,4 @@ def with_settings(settings: Settings, **changes) -> Settings:
     return dataclasses.replace(settings, **changes)
 
 
-__all__ = ["PreparedRun", "prepare_run", "with_settings", "HEAT_KINDS", "COOLING_KINDS", "WELL_KINDS"]
+__all__ = ["PreparedRun", "prepare_run", "with_settings"]

@@ -1,6 +1,6 @@
 """Typed inputs of a heatmosaic run.
 
-A :class:`Scenario` is what :func:`engine.scenario.reader.load_scenario` makes of a scenario folder once every file has
+A :class:`Scenario` is what :func:`engine.scenario.load_scenario` makes of a scenario folder once every file has
 passed validation (the folder layout is documented in ``docs/input_format.md``). Tables are pandas DataFrames
 whose column names carry their units; the loader guarantees the columns, dtypes and value ranges listed here,
 so that the physics and the model never re-check them.
@@ -22,23 +22,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-TECHNOLOGY_KINDS = (
-    "fuel_boiler",
-    "electric_boiler",
-    "air_heat_pump",
-    "groundwater_heat_pump",
-    "network_connection",
-    "heat_store",
-    "chiller",
-    "groundwater_cooling",
-)
-"""Kinds of technology the model knows. Heat is supplied by all but ``chiller`` and ``groundwater_cooling``."""
-
-HEAT_KINDS = ("fuel_boiler", "electric_boiler", "air_heat_pump", "groundwater_heat_pump", "network_connection")
-COOLING_KINDS = ("chiller", "groundwater_cooling")
-WELL_KINDS = ("groundwater_heat_pump", "groundwater_cooling")
-CARRIERS = ("gas", "oil", "biomass", "electricity", "network", "none")
-FUELS = ("gas", "oil", "biomass")
+from engine.scenario.kinds import FUELS
 
 # IPCC 2006 Guidelines for National Greenhouse Gas Inventories, vol. 2, ch. 2, table 2.2 (default CO2 emission
 # factors for stationary combustion): natural gas 56 100 kg/TJ, gas/diesel oil 74 100 kg/TJ. 1 MWh = 3.6e-3 TJ.

@@ -1,6 +1,6 @@
 """Problems found in a scenario folder, and the error that carries them.
 
-The reader in :mod:`engine.scenario.reader` never stops at the first bad cell: it gathers every :class:`Problem` across all
+The reader (:mod:`engine.scenario.folder`) never stops at the first bad cell: it gathers every :class:`Problem` across all
 files and raises one :class:`InputError` holding them, so that a planner can fix a folder in one pass.
 
 Each problem names the file, the place in it and what is wrong. The place is counted the way a person opening

@@ -34,12 +34,11 @@ import numpy as np
 import pandas as pd
 
 from engine.scenario.inputs import CostCase, Scenario
+from engine.scenario.kinds import HEAT_PUMP_KINDS
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
 
 Progress = Callable[[float, str], None]
-
-HEAT_PUMP_KINDS = ("air_heat_pump", "groundwater_heat_pump")
 
 
 @dataclass(frozen=True)

@@ -489,7 +489,7 @@ def _stderr_progress(quiet: bool):
 
 def load_for_command(path_arg: str):
     """The scenario of a command-line argument, or None after printing its problems on stderr."""
-    from engine.scenario.reader import load_scenario, resolve_scenario_path
+    from engine.scenario import load_scenario, resolve_scenario_path
     from engine.scenario.problems import InputError
 
     try:
