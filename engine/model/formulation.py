@@ -25,7 +25,8 @@ import numpy as np
 
 from engine.scenario.kinds import COOLING_KINDS, FUELS, WELL_KINDS
 from engine.model.lp import INF, LinearProgram, LpSolution
-from engine.model.prepare import KWH_PER_MWH, PreparedRun
+from engine.model.prepare import PreparedRun
+from engine.units import KG_PER_T, KWH_PER_MWH, SECONDS_PER_HOUR
 
 UNSERVED_CO2_EQUIVALENT_T_PER_MWH = 10.0
 """Weight of unserved heat in the CO2 objective: far above any real supply (fuel oil emits 0.27 t/MWh)."""
@@ -361,7 +362,7 @@ def build_model(
         volume = prepared.well_annual_volume_m3[wells_here]
         limited = np.flatnonzero(np.isfinite(volume))
         if len(limited):
-            m3_per_kg = 3600.0 / prepared.well_density_kg_per_m3  # m³ per (kg/s · h)
+            m3_per_kg = SECONDS_PER_HOUR / prepared.well_density_kg_per_m3  # m³ per (kg/s · h)
             sel = np.isin(wrow, limited)
             vpos = {int(p): k for k, p in enumerate(limited)}
             vrow = np.array([vpos[int(p)] for p in wrow[sel]])
@@ -392,7 +393,7 @@ def build_model(
         units.fuel * fuel_co2[:, None]
         + units.electricity * prepared.grid_co2_kg_per_mwh[None, :]
         + units.network * prepared.network_co2_kg_per_mwh[None, :]
-    ) / KWH_PER_MWH / 1000.0
+    ) / KWH_PER_MWH / KG_PER_T
     unit_energy_eur = (
         units.fuel * fuel_price[:, None]
         + units.electricity * prepared.electricity_eur_per_mwh[None, :]

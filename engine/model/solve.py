@@ -17,7 +17,7 @@ import numpy as np
 import pandas as pd
 
 from engine.model.extract import extract_tables
-from engine.scenario.inputs import Scenario, Settings, input_hash
+from engine.scenario.inputs import Scenario, Settings, default_cost_case, input_hash
 from engine.model.formulation import build_model, solve_model, supply_units
 from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
@@ -179,7 +179,7 @@ def solve_scenario(
     """Solve ``scenario`` under ``cost_case`` and return the result (never raises for solver failures)."""
     started = time.perf_counter()
     report = progress or (lambda share, text: None)
-    cost_case = cost_case or ("reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases)))
+    cost_case = cost_case or default_cost_case(scenario.cost_cases)
     settings = settings or run_settings(scenario, objective, co2_cap_t_per_a, typical_days)
     if settings.objective not in ("cost", "co2"):
         raise ValueError(f"objective must be 'cost' or 'co2', got {settings.objective!r}")

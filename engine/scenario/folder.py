@@ -50,6 +50,7 @@ from engine.scenario.problems import InputError, Problem
 from engine.scenario.settings import load_cost_cases, load_settings
 from engine.scenario.tables import Report, Table, close_names
 from engine.scenario.well_table import load_wells, place_reinjection
+from engine.units import HOURS_PER_COMMON_YEAR, KWH_PER_MWH
 
 REPO_ROOT = Path(__file__).resolve().parents[2]
 DEMO_DIR = REPO_ROOT / "demo_data"
@@ -75,12 +76,12 @@ def _mean_demand_kw(
             inside = buildings[buildings["district_index"] >= 0]
             sums = inside.groupby("district_index")[column].sum()
             np.add.at(total, sums.index.to_numpy(dtype=int), np.nan_to_num(sums.to_numpy(dtype=float)))
-    heat_kw = heat * 1000.0 / 8760.0
+    heat_kw = heat * KWH_PER_MWH / HOURS_PER_COMMON_YEAR
     if heat_series is not None:
         for i, district_id in enumerate(districts.ids):
             if district_id in heat_series.columns:
                 heat_kw[i] = float(np.nanmean(heat_series[district_id].to_numpy(dtype=float)))
-    return heat_kw, cooling * 1000.0 / 8760.0
+    return heat_kw, cooling * KWH_PER_MWH / HOURS_PER_COMMON_YEAR
 
 
 def check_capacity_units(

@@ -25,6 +25,7 @@ from engine.scenario.cells import (
 from engine.scenario.districts import Districts
 from engine.scenario.files import HOURLY_FILE
 from engine.scenario.tables import Report, Table, read_csv
+from engine.units import KWH_PER_MWH
 
 HOURS_PER_YEAR = (8760, 8784)
 """Rows of a year of hourly data: a common year and a leap year."""
@@ -178,7 +179,7 @@ def check_series_units(
             if shape is not None:
                 areas[district_id] = geometry.area_km2(geometry_dict)
     for column in frame.columns:
-        annual_mwh = float(np.nansum(frame[column].to_numpy(dtype=float))) / 1000.0
+        annual_mwh = float(np.nansum(frame[column].to_numpy(dtype=float))) / KWH_PER_MWH
         area = areas.get(column, math.nan)
         density = annual_mwh / area if area > 0 else math.nan
         if annual_mwh > MAX_DISTRICT_DEMAND_MWH_PER_A:

@@ -24,6 +24,30 @@ import pandas as pd
 
 from engine.scenario.kinds import FUELS
 
+DEFAULT_COST_CASE = "reference"
+"""Name of the cost case a scenario without ``cost_cases.toml`` has (prices as in ``scenario.toml``)."""
+
+
+def default_cost_case(case_names) -> str:
+    """The cost case a run takes when none is named: :data:`DEFAULT_COST_CASE` when the scenario has it,
+    otherwise the first case listed (the file's order).
+
+    Parameters
+    ----------
+    case_names : iterable of str
+        The scenario's cost case names (a ``Scenario.cost_cases`` dict will do).
+
+    Raises
+    ------
+    ValueError
+        If there is no cost case at all.
+    """
+    names = list(case_names)
+    if not names:
+        raise ValueError("the scenario defines no cost case")
+    return DEFAULT_COST_CASE if DEFAULT_COST_CASE in names else names[0]
+
+
 # IPCC 2006 Guidelines for National Greenhouse Gas Inventories, vol. 2, ch. 2, table 2.2 (default CO2 emission
 # factors for stationary combustion): natural gas 56 100 kg/TJ, gas/diesel oil 74 100 kg/TJ. 1 MWh = 3.6e-3 TJ.
 DEFAULT_CO2_KG_PER_MWH = {"gas": 56_100 * 3.6e-3, "oil": 74_100 * 3.6e-3, "biomass": 0.0}
@@ -81,7 +105,7 @@ class Aquifer:
 class CostCase:
     """A named set of overrides (``cost_cases.toml``)."""
 
-    name: str = "reference"
+    name: str = DEFAULT_COST_CASE
     description: str = "Prices as given in the scenario"
     co2_eur_per_t: float | None = None
     gas_price_factor: float = 1.0

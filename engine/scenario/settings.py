@@ -20,7 +20,7 @@ from engine.scenario.cells import (
     range_hint,
 )
 from engine.scenario.files import COST_CASES_FILE, SCENARIO_FILE
-from engine.scenario.inputs import DEFAULT_CO2_KG_PER_MWH, Aquifer, CostCase, Prices, Settings
+from engine.scenario.inputs import DEFAULT_CO2_KG_PER_MWH, DEFAULT_COST_CASE, Aquifer, CostCase, Prices, Settings
 from engine.scenario.kinds import FUELS
 from engine.scenario.tables import Report, close_names, read_toml, toml_key_lines, toml_line
 
@@ -243,7 +243,7 @@ def _case_overrides(
 
 def load_cost_cases(folder: Path, report: Report, technology_ids: set | None) -> dict[str, CostCase] | None:
     if not (folder / COST_CASES_FILE).exists():
-        return {"reference": CostCase()}
+        return {DEFAULT_COST_CASE: CostCase(name=DEFAULT_COST_CASE)}
     parsed = read_toml(folder, COST_CASES_FILE, report, required=False)
     if parsed is None:
         return None

@@ -23,7 +23,7 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 
-from engine.scenario.inputs import CostCase, Scenario
+from engine.scenario.inputs import CostCase, Scenario, default_cost_case
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
 
@@ -42,7 +42,7 @@ def _default_case(scenario: Scenario, cost_case: str | None) -> str:
             known = ", ".join(sorted(scenario.cost_cases))
             raise ValueError(f"cost_case '{cost_case}' is not a cost case of the scenario (known: {known})")
         return cost_case
-    return "reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases))
+    return default_cost_case(scenario.cost_cases)
 
 
 def _row(point: int, kind: str, bound: float, result: RunResult) -> dict:

@@ -58,7 +58,7 @@ from engine.scenario import DEMO_DIR, load_scenario
 from engine.scenario.catalogue import TECHNOLOGY_COLUMNS
 from engine.scenario.cells import MAX_WELL_FLOW_M3_PER_H
 from engine.scenario.files import REQUIRED_FILES, TECHNOLOGIES_FILE, WELLS_FILE
-from engine.scenario.inputs import Scenario, input_hash
+from engine.scenario.inputs import Scenario, default_cost_case, input_hash
 from engine.scenario.kinds import BOILER_KINDS, EFFICIENCY_KINDS, HEAT_PUMP_KINDS
 from engine.scenario.well_table import WELL_COLUMNS
 from engine.scenario.problems import InputError, Problem, problems_frame
@@ -230,7 +230,7 @@ def initial_setup(
     chosen = {**base, **dict(settings or {})}
     cases = list(scenario.cost_cases) if scenario is not None else []
     if cost_case not in cases:
-        cost_case = "reference" if "reference" in cases else (cases[0] if cases else "")
+        cost_case = default_cost_case(cases) if cases else ""
     days = int(chosen.get("typical_days", 12) or 0)
     return {
         "digest": inputs.digest,
