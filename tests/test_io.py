@@ -130,12 +130,12 @@ def test_tiny_city_counts(scenario):
 
 def test_district_defaults_filled(scenario):
     """Blank district properties take the documented defaults: hot_water_share 0.15, network_available false,
-    connection limit 0, name = id (docs/input_format.md, districts.geojson table)."""
+    connection limit blank = no limit (inf), name = id (docs/input_format.md, table "Defaults")."""
     districts = scenario.districts.set_index("district_id")
     assert districts.loc["old_town", "hot_water_share"] == pytest.approx(0.15)  # null in the file
     assert districts.loc["riverside", "hot_water_share"] == pytest.approx(0.2)  # given
     assert not districts.loc["riverside", "network_available"]
-    assert districts.loc["riverside", "network_connection_limit_kw"] == 0.0
+    assert districts.loc["riverside", "network_connection_limit_kw"] == math.inf
     assert districts.loc["riverside", "name"] == "riverside"
     assert districts.loc["old_town", "name"] == "Old town"
     assert districts["network_available"].dtype == bool

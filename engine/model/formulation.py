@@ -215,22 +215,16 @@ def previous_step(period: np.ndarray) -> np.ndarray:
     return prev
 
 
-def build_model(
-    prepared: PreparedRun,
-    districts=None,
-    co2_cap_t_per_a: float | None = None,
-    network_plant_limit_kw: float | None = None,
-) -> DistrictModel:
-    """Build the LP for ``districts`` (indices; all by default). City-wide limits apply to those districts."""
+def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
+    """Build the LP for ``districts`` (indices; all by default). The city-wide limits of the settings (None for
+    no limit) apply to those districts."""
     started = time.perf_counter()
     settings = prepared.settings
     if districts is None:
         districts = np.arange(len(prepared.district_ids))
     districts = np.asarray(districts, dtype=int)
-    if co2_cap_t_per_a is None:
-        co2_cap_t_per_a = settings.co2_cap_t_per_a
-    if network_plant_limit_kw is None:
-        network_plant_limit_kw = settings.network_plant_limit_kw
+    co2_cap_t_per_a = settings.co2_cap_t_per_a
+    network_plant_limit_kw = settings.network_plant_limit_kw
     prices = prepared.prices
     techs = prepared.scenario.technologies.set_index("technology_id")
     units, stores = supply_units(prepared, districts)
@@ -375,7 +369,7 @@ def build_model(
 
     # ---------------------------------------------------------------- city-wide network plant limit
     net_units = np.flatnonzero(np.array(units.kind) == "network_connection")
-    if network_plant_limit_kw and network_plant_limit_kw > 0 and len(net_units):
+    if network_plant_limit_kw is not None and len(net_units):
         rows["network_plant"] = lp.add_rows_coo(
             "network_plant", n_t, np.tile(t_idx, len(net_units)), cols["out"][net_units].ravel(),
             np.ones(len(net_units) * n_t), upper=np.full(n_t, float(network_plant_limit_kw)),
@@ -424,7 +418,7 @@ def build_model(
     # a negligible cost on store charging removes simultaneous charge and discharge without changing the optimum
     money[cols["charge"]] += w[None, :] * 1e-6
 
-    if co2_cap_t_per_a and co2_cap_t_per_a > 0:
+    if co2_cap_t_per_a is not None:
         nz = np.flatnonzero(emis)
         rows["co2_cap"] = lp.add_rows_coo(
             "co2_cap", 1, np.zeros(len(nz)), nz, emis[nz], upper=np.array([float(co2_cap_t_per_a)])

@@ -17,6 +17,7 @@ import numpy as np
 import pandas as pd
 
 from engine.model.extract import extract_tables
+from engine.scenario.defaults import limit_from_entry
 from engine.scenario.inputs import Scenario, Settings, default_cost_case, input_hash
 from engine.model.formulation import build_model, solve_model, supply_units
 from engine.model.prepare import prepare_run
@@ -26,21 +27,23 @@ Progress = Callable[[float, str], None]
 
 
 def run_settings(scenario: Scenario, objective=None, co2_cap_t_per_a=None, typical_days=None, **changes) -> Settings:
-    """The scenario's settings with the given overrides (None keeps the scenario's value)."""
+    """The scenario's settings with the given overrides (None keeps the scenario's value).
+
+    ``co2_cap_t_per_a`` is entered as on the command line and in the dashboard: 0 removes the scenario's cap
+    (the settings then hold None, no limit; :func:`engine.scenario.defaults.limit_from_entry`).
+    """
     updates = dict(changes)
     if objective is not None:
         updates["objective"] = objective
     if co2_cap_t_per_a is not None:
-        updates["co2_cap_t_per_a"] = float(co2_cap_t_per_a)
+        updates["co2_cap_t_per_a"] = limit_from_entry(co2_cap_t_per_a)
     if typical_days is not None:
         updates["typical_days"] = int(typical_days)
     return dataclasses.replace(scenario.settings, **updates)
 
 
 def _has_coupling(settings: Settings) -> bool:
-    return bool(settings.co2_cap_t_per_a and settings.co2_cap_t_per_a > 0) or bool(
-        settings.network_plant_limit_kw and settings.network_plant_limit_kw > 0
-    )
+    return settings.co2_cap_t_per_a is not None or settings.network_plant_limit_kw is not None
 
 
 def _solve_part(prepared, districts, objective, time_limit_s, cancel=None):
@@ -150,9 +153,9 @@ def diagnose_failure(prepared, settings: Settings, status: str, districts: list[
     if reasons:
         return "; ".join(reasons) + "."
     coupling = []
-    if settings.co2_cap_t_per_a and settings.co2_cap_t_per_a > 0:
+    if settings.co2_cap_t_per_a is not None:
         coupling.append(f"the city-wide CO2 cap of {settings.co2_cap_t_per_a:,.0f} t/a")
-    if settings.network_plant_limit_kw and settings.network_plant_limit_kw > 0:
+    if settings.network_plant_limit_kw is not None:
         coupling.append(f"the network plant limit of {settings.network_plant_limit_kw:,.0f} kW")
     if coupling:
         return ("Every district can be supplied on its own, so " + " and ".join(coupling)

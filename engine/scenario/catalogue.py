@@ -3,7 +3,6 @@
 
 from __future__ import annotations
 
-import math
 from pathlib import Path
 
 import numpy as np
@@ -20,9 +19,21 @@ from engine.scenario.cells import (
     read_checked_table,
     report_rows,
 )
+from engine.scenario.defaults import cell_default
 from engine.scenario.files import DISTRICT_TECHNOLOGIES_FILE, TECHNOLOGIES_FILE
 from engine.scenario.kinds import BOILER_KINDS, CARRIERS, EER_KINDS, KIND_CARRIERS, TECHNOLOGY_KINDS
 from engine.scenario.tables import Report, Table
+
+
+def _tech_default(field: str):
+    """The default of a blank cell of ``field`` in technologies.csv (engine.scenario.defaults)."""
+    return cell_default(TECHNOLOGIES_FILE, field)
+
+
+def _capacity_default(field: str):
+    """The default of a blank cell of ``field`` in district_technologies.csv (engine.scenario.defaults)."""
+    return cell_default(DISTRICT_TECHNOLOGIES_FILE, field)
+
 
 # ============================================================================= technologies.csv
 TECHNOLOGY_COLUMNS = (
@@ -31,15 +42,34 @@ TECHNOLOGY_COLUMNS = (
     Column("kind", "text"),
     Column("carrier", "text"),
     Column("efficiency", in_header=False, default=KEEP, low=0, low_open=True),
-    Column("cop_quality_grade", in_header=False, default=0.5, low=0, high=1, low_open=True),
-    Column("source_approach_k", in_header=False, default=5.0, low=0, high=30),
-    Column("sink_approach_k", in_header=False, default=3.0, low=0, high=30),
+    Column(
+        "cop_quality_grade",
+        in_header=False,
+        default=_tech_default("cop_quality_grade"),
+        low=0,
+        high=1,
+        low_open=True,
+    ),
+    Column("source_approach_k", in_header=False, default=_tech_default("source_approach_k"), low=0, high=30),
+    Column("sink_approach_k", in_header=False, default=_tech_default("sink_approach_k"), low=0, high=30),
     Column("investment_eur_per_kw", low=0, high=MAX_INVESTMENT_EUR_PER_KW),
-    Column("fixed_om_pct_per_a", default=0.0, low=0, high=100),
-    Column("variable_om_eur_per_mwh", default=0.0, low=0, high=MAX_FUEL_PRICE_EUR_PER_MWH),
+    Column("fixed_om_pct_per_a", default=_tech_default("fixed_om_pct_per_a"), low=0, high=100),
+    Column(
+        "variable_om_eur_per_mwh",
+        default=_tech_default("variable_om_eur_per_mwh"),
+        low=0,
+        high=MAX_FUEL_PRICE_EUR_PER_MWH,
+    ),
     Column("lifetime_a", low=0, high=100, low_open=True),
-    Column("store_loss_pct_per_h", in_header=False, default=0.0, low=0, high=100),
-    Column("store_efficiency", in_header=False, default=1.0, low=0, high=1, low_open=True),
+    Column("store_loss_pct_per_h", in_header=False, default=_tech_default("store_loss_pct_per_h"), low=0, high=100),
+    Column(
+        "store_efficiency",
+        in_header=False,
+        default=_tech_default("store_efficiency"),
+        low=0,
+        high=1,
+        low_open=True,
+    ),
     Column("store_hours", in_header=False, default=KEEP, low=0, high=8784, low_open=True),
 )
 
@@ -102,6 +132,14 @@ def _check_technology_parameters(report: Report, table: Table, frame: pd.DataFra
         eer & blank_cells(table, "efficiency"),
         lambda i: f"is blank; the EER (> 0 and <= 50) of a {kinds[i]} is required",
     )
+    report_rows(
+        report,
+        table,
+        "efficiency",
+        boiler & blank_cells(table, "efficiency"),
+        lambda i: f"is blank; the thermal efficiency (> 0 and <= 1.2, e.g. 0.95) of a {kinds[i]} is required "
+        "(no default exists: docs/input_format.md)",
+    )
     store = kinds == "heat_store"
     hours = frame["store_hours"].to_numpy(dtype=float)
     hours_blank = blank_cells(table, "store_hours")
@@ -113,7 +151,8 @@ def _check_technology_parameters(report: Report, table: Table, frame: pd.DataFra
         lambda i: "is blank; a heat_store needs its hours to charge at full power (> 0)",
     )
     _check_technology_minimums(report, table, frame, boiler, eer, store)
-    frame["efficiency"] = np.where(np.isnan(efficiency) & ~eer, 1.0, efficiency)
+    # Kinds that do not use the column get a neutral 1 (and stores' hours 0 elsewhere): not defaults, fillers.
+    frame["efficiency"] = np.where(np.isnan(efficiency) & ~eer & ~boiler, 1.0, efficiency)
     frame["store_hours"] = np.where(np.isnan(hours) & ~store, 0.0, hours)
 
 
@@ -165,8 +204,8 @@ def load_technologies(folder: Path, report: Report) -> tuple[Table, pd.DataFrame
 DISTRICT_TECHNOLOGY_COLUMNS = (
     Column("district_id", "text"),
     Column("technology_id", "text"),
-    Column("existing_kw", in_header=False, default=0.0, low=0),
-    Column("potential_kw", in_header=False, default=math.inf, low=0, allow_inf=True),
+    Column("existing_kw", in_header=False, default=_capacity_default("existing_kw"), low=0),
+    Column("potential_kw", in_header=False, default=_capacity_default("potential_kw"), low=0, allow_inf=True),
 )
 
 
@@ -201,7 +240,8 @@ def full_district_technologies(
 ) -> pd.DataFrame:
     """One row per district and technology, defaults where the file has no row."""
     index = pd.MultiIndex.from_product([district_ids, technology_ids], names=["district_id", "technology_id"])
-    full = pd.DataFrame({"existing_kw": 0.0, "potential_kw": math.inf}, index=index)
+    defaults = {column: _capacity_default(column) for column in ("existing_kw", "potential_kw")}
+    full = pd.DataFrame(defaults, index=index)
     if overrides is not None and len(overrides):
         given = overrides.set_index(["district_id", "technology_id"])[["existing_kw", "potential_kw"]]
         full.loc[given.index, ["existing_kw", "potential_kw"]] = given.to_numpy(dtype=float)

@@ -83,7 +83,12 @@ class Column:
 
 
 def report_rows(
-    report: Report, table: Table, column: str, mask: np.ndarray, message: Callable[[int], str]
+    report: Report,
+    table: Table,
+    column: str,
+    mask: np.ndarray,
+    message: Callable[[int], str],
+    severity: str = "error",
 ) -> None:
     """Report the first few flagged cells of a column and sum up the rest in one line."""
     positions = np.flatnonzero(mask)
@@ -91,13 +96,14 @@ def report_rows(
         positions = np.array([i for i in positions if int(i) not in table.skipped], dtype=int)
     for index in positions[:CELL_REPORT_LIMIT]:
         row, prefix = table.place(int(index))
-        report(table.file, row, column, prefix + message(int(index)))
+        report(table.file, row, column, prefix + message(int(index)), severity)
     if len(positions) > CELL_REPORT_LIMIT:
         report(
             table.file,
             None,
             column,
             f"... and {len(positions) - CELL_REPORT_LIMIT} more {table.item_word} with the same kind of problem",
+            severity,
         )
 
 

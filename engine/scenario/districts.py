@@ -25,8 +25,20 @@ from engine.scenario.cells import (
     read_checked_table,
     report_rows,
 )
+from engine.scenario.defaults import cell_default
 from engine.scenario.files import DISTRICTS_FILE, BUILDINGS_FILE
 from engine.scenario.tables import Report, Table, printable, read_text
+
+
+def _district_default(field: str):
+    """The default of a blank cell of ``field`` in districts.geojson (engine.scenario.defaults)."""
+    return cell_default(DISTRICTS_FILE, field)
+
+
+def _building_default(field: str):
+    """The default of a blank cell of ``field`` in buildings.csv (engine.scenario.defaults)."""
+    return cell_default(BUILDINGS_FILE, field)
+
 
 DISTRICT_ID_PATTERN = re.compile(r"^[A-Za-z0-9_-]+$")
 
@@ -35,11 +47,17 @@ DISTRICT_PROPERTIES = (
     Column("district_id", "text", in_header=False),
     Column("name", "text", in_header=False, default=KEEP),
     Column("heat_demand_mwh_per_a", in_header=False, low=0),
-    Column("cooling_demand_mwh_per_a", in_header=False, default=0.0, low=0),
+    Column("cooling_demand_mwh_per_a", in_header=False, default=_district_default("cooling_demand_mwh_per_a"), low=0),
     Column("supply_temp_c", in_header=False, low=25, high=130),
-    Column("hot_water_share", in_header=False, default=0.15, low=0, high=1),
-    Column("network_available", "bool", in_header=False, default=False),
-    Column("network_connection_limit_kw", in_header=False, default=0.0, low=0),
+    Column("hot_water_share", in_header=False, default=_district_default("hot_water_share"), low=0, high=1),
+    Column("network_available", "bool", in_header=False, default=_district_default("network_available")),
+    Column(
+        "network_connection_limit_kw",
+        in_header=False,
+        default=_district_default("network_connection_limit_kw"),
+        low=0,
+        allow_inf=True,
+    ),
 )
 DISTRICT_COLUMNS = tuple(spec.name for spec in DISTRICT_PROPERTIES) + ("geometry",)
 _WGS84_NAMES = ("crs84", "4326")
@@ -198,8 +216,23 @@ def _check_district_ids(report: Report, table: Table, frame: pd.DataFrame) -> No
 
 
 def _check_district_network(report: Report, table: Table, frame: pd.DataFrame) -> None:
+    """A connection limit without a network is an error; a network with a limit of 0 kW cannot be used (warning).
+    A blank limit means no limit (engine.scenario.defaults)."""
     limit = frame["network_connection_limit_kw"].to_numpy(dtype=float)
-    conflict = (limit > 0) & ~frame["network_available"].to_numpy(dtype=bool)
+    available = frame["network_available"].to_numpy(dtype=bool)
+    with np.errstate(invalid="ignore"):
+        stated = np.isfinite(limit) & (limit > 0)
+        unusable = available & (limit == 0)
+    conflict = stated & ~available
+    report_rows(
+        report,
+        table,
+        "network_connection_limit_kw",
+        unusable,
+        lambda i: "is 0 kW while network_available is true, so the district cannot draw from the network; "
+        "state the limit, leave it blank for no limit, or set network_available to false",
+        "warning",
+    )
     report_rows(
         report,
         table,
@@ -323,7 +356,7 @@ BUILDING_COLUMNS = (
     Column("lon"),
     Column("lat"),
     Column("heat_demand_mwh_per_a", low=0),
-    Column("cooling_demand_mwh_per_a", in_header=False, default=0.0, low=0),
+    Column("cooling_demand_mwh_per_a", in_header=False, default=_building_default("cooling_demand_mwh_per_a"), low=0),
 )
 
 

@@ -99,7 +99,8 @@ def check_capacity_units(
 
     def implausible(capacity: np.ndarray, mean: np.ndarray) -> np.ndarray:
         with np.errstate(invalid="ignore"):
-            return (mean > 0) & (capacity > CAPACITY_SLIP_FLOOR_KW) & (capacity > CAPACITY_SLIP_RATIO * mean)
+            finite = np.isfinite(capacity)  # inf: no limit
+            return finite & (mean > 0) & (capacity > CAPACITY_SLIP_FLOOR_KW) & (capacity > CAPACITY_SLIP_RATIO * mean)
 
     limit = districts.frame["network_connection_limit_kw"].to_numpy(dtype=float)
     report_rows(
@@ -160,7 +161,8 @@ def _check_folder(folder: Path, report: Report) -> bool:
 
 
 def _read_folder(folder: Path) -> tuple[Scenario | None, list[Problem]]:
-    """Read and check everything; the scenario is None whenever a problem was found."""
+    """Read and check everything; the scenario is None whenever an error was found. The problems returned with a
+    scenario are warnings; it carries them too (``Scenario.warnings``)."""
     report = Report()
     if not _check_folder(folder, report):
         return None, report.problems
@@ -199,13 +201,15 @@ def _read_folder(folder: Path) -> tuple[Scenario | None, list[Problem]]:
     with report.guard(str(folder)):
         check_capacity_units(report, districts, buildings, heat_series, technologies, overrides)
 
-    if report.problems:
+    if report.errors:
         return None, report.problems
     with report.guard(str(folder)):
-        return _assemble(
+        scenario = _assemble(
             folder, settings, districts, technologies[1], hourly, wells, overrides[1] if overrides else None,
             buildings, heat_series, temp_series, cost_cases,
-        ), []
+        )
+        scenario.warnings = list(report.problems)
+        return scenario, list(report.problems)
     return None, report.problems
 
 
@@ -256,16 +260,17 @@ def load_scenario(path: str | Path) -> Scenario:
     Raises
     ------
     engine.scenario.problems.InputError
-        Listing every problem found in every file.
+        Listing every problem found in every file. Warnings alone do not raise; the scenario carries them
+        (``Scenario.warnings``).
     """
     scenario, problems = _read_folder(resolve_scenario_path(path))
-    if problems or scenario is None:
+    if scenario is None:
         raise InputError(problems or [Problem(str(path), None, None, "could not be read")])
     return scenario
 
 
 def validate_scenario(path: str | Path) -> list[Problem]:
-    """Every problem of a scenario folder; an empty list when it loads."""
+    """Every problem of a scenario folder, errors and warnings; an empty list when it loads without a warning."""
     folder = resolve_scenario_path(path)
     try:
         return _read_folder(folder)[1]
@@ -274,13 +279,16 @@ def validate_scenario(path: str | Path) -> list[Problem]:
 
 
 def validate_command(path: str | Path) -> int:
-    """``python -m engine validate DIR``: print OK and a summary (exit code 0) or every problem (exit code 2)."""
+    """``python -m engine validate DIR``: print any warnings, then OK and a summary (exit code 0), or every problem
+    (exit code 2)."""
     folder = resolve_scenario_path(path)
     try:
         scenario, problems = _read_folder(folder)
     except Exception as error:
         scenario, problems = None, [_unexpected(folder, error)]
-    if scenario is not None and not problems:
+    if scenario is not None:
+        for problem in problems:
+            print(problem)
         print(
             f"OK: {len(scenario.districts)} districts, {len(scenario.wells)} wells, "
             f"{len(scenario.technologies)} technologies, {scenario.n_hours} hours"

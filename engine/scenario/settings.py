@@ -20,25 +20,34 @@ from engine.scenario.cells import (
     range_hint,
 )
 from engine.scenario.files import COST_CASES_FILE, SCENARIO_FILE
-from engine.scenario.inputs import DEFAULT_CO2_KG_PER_MWH, DEFAULT_COST_CASE, Aquifer, CostCase, Prices, Settings
+from engine.scenario.defaults import limit_from_entry, section_defaults
+from engine.scenario.inputs import DEFAULT_COST_CASE, Aquifer, CostCase, Prices, Settings
 from engine.scenario.kinds import FUELS
 from engine.scenario.tables import Report, close_names, read_toml, toml_key_lines, toml_line
 
 # ============================================================================= scenario.toml
+_RUN = section_defaults("run")
+_CO2_FACTORS = section_defaults("co2_factors")
+_AQUIFER = section_defaults("aquifer")
 RUN_KEYS = (
-    Column("name", "text", default="Unnamed city"),
-    Column("target_year", "integer", default=2040, low=2000, high=2200),
-    Column("objective", "text", default="cost"),
-    Column("discount_rate", default=0.05, low=-0.05, high=0.3),
-    Column("typical_days", "integer", default=12, low=0, high=366),
-    Column("value_of_unserved_heat_eur_per_mwh", default=5000.0, low=0, high=MAX_PRICE_EUR_PER_MWH * 10),
-    Column("allow_unserved_heat", "bool", default=True),
-    Column("co2_cap_t_per_a", default=0.0, low=0),
-    Column("network_plant_limit_kw", default=0.0, low=0),
-    Column("heating_base_temp_c", default=15.0, low=-10, high=30),
-    Column("cooling_base_temp_c", default=20.0, low=0, high=40),
-    Column("reinjection_min_temp_c", default=4.5, low=0, high=40),
-    Column("reinjection_max_temp_c", default=20.0, low=0, high=40),
+    Column("name", "text", default=_RUN["name"]),
+    Column("target_year", "integer", default=_RUN["target_year"], low=2000, high=2200),
+    Column("objective", "text", default=_RUN["objective"]),
+    Column("discount_rate", default=_RUN["discount_rate"], low=-0.05, high=0.3),
+    Column("typical_days", "integer", default=_RUN["typical_days"], low=0, high=366),
+    Column(
+        "value_of_unserved_heat_eur_per_mwh",
+        default=_RUN["value_of_unserved_heat_eur_per_mwh"],
+        low=0,
+        high=MAX_PRICE_EUR_PER_MWH * 10,
+    ),
+    Column("allow_unserved_heat", "bool", default=_RUN["allow_unserved_heat"]),
+    Column("co2_cap_t_per_a", default=_RUN["co2_cap_t_per_a"], low=0),
+    Column("network_plant_limit_kw", default=_RUN["network_plant_limit_kw"], low=0),
+    Column("heating_base_temp_c", default=_RUN["heating_base_temp_c"], low=-10, high=30),
+    Column("cooling_base_temp_c", default=_RUN["cooling_base_temp_c"], low=0, high=40),
+    Column("reinjection_min_temp_c", default=_RUN["reinjection_min_temp_c"], low=0, high=40),
+    Column("reinjection_max_temp_c", default=_RUN["reinjection_max_temp_c"], low=0, high=40),
 )
 PRICE_KEYS = (
     Column("gas_eur_per_mwh", low=0, high=MAX_FUEL_PRICE_EUR_PER_MWH),
@@ -47,18 +56,30 @@ PRICE_KEYS = (
     Column("co2_eur_per_t", low=0, high=MAX_CO2_PRICE_EUR_PER_T),
 )
 CO2_FACTOR_KEYS = tuple(
-    Column(f"{fuel}_kg_per_mwh", default=DEFAULT_CO2_KG_PER_MWH[fuel], low=0, high=2000) for fuel in FUELS
+    Column(f"{fuel}_kg_per_mwh", default=_CO2_FACTORS[f"{fuel}_kg_per_mwh"], low=0, high=2000) for fuel in FUELS
 )
 AQUIFER_KEYS = (
-    Column("flow_direction_deg", default=90.0, low=0, high=360),
-    Column("darcy_velocity_m_per_d", default=0.5, low=0, high=100),
-    Column("effective_porosity", default=0.2, low=0, high=1, low_open=True),
-    Column("saturated_thickness_m", default=15.0, low=0, high=1000, low_open=True),
-    Column("longitudinal_dispersivity_m", default=5.0, low=0, high=10_000),
-    Column("transverse_dispersivity_m", default=0.5, low=0, high=10_000),
-    Column("aquifer_heat_capacity_mj_per_m3_k", default=2.8, low=0, high=10, low_open=True),
-    Column("water_heat_capacity_mj_per_m3_k", default=4.18, low=0, high=10, low_open=True),
-    Column("reinjection_offset_m", default=100.0, low=0, high=10_000, low_open=True),
+    Column("flow_direction_deg", default=_AQUIFER["flow_direction_deg"], low=0, high=360),
+    Column("darcy_velocity_m_per_d", default=_AQUIFER["darcy_velocity_m_per_d"], low=0, high=100),
+    Column("effective_porosity", default=_AQUIFER["effective_porosity"], low=0, high=1, low_open=True),
+    Column("saturated_thickness_m", default=_AQUIFER["saturated_thickness_m"], low=0, high=1000, low_open=True),
+    Column("longitudinal_dispersivity_m", default=_AQUIFER["longitudinal_dispersivity_m"], low=0, high=10_000),
+    Column("transverse_dispersivity_m", default=_AQUIFER["transverse_dispersivity_m"], low=0, high=10_000),
+    Column(
+        "aquifer_heat_capacity_mj_per_m3_k",
+        default=_AQUIFER["aquifer_heat_capacity_mj_per_m3_k"],
+        low=0,
+        high=10,
+        low_open=True,
+    ),
+    Column(
+        "water_heat_capacity_mj_per_m3_k",
+        default=_AQUIFER["water_heat_capacity_mj_per_m3_k"],
+        low=0,
+        high=10,
+        low_open=True,
+    ),
+    Column("reinjection_offset_m", default=_AQUIFER["reinjection_offset_m"], low=0, high=10_000, low_open=True),
 )
 SCENARIO_SECTIONS = {"run": RUN_KEYS, "prices": PRICE_KEYS, "co2_factors": CO2_FACTOR_KEYS, "aquifer": AQUIFER_KEYS}
 REQUIRED_SECTIONS = ("run", "prices")
@@ -171,7 +192,7 @@ def load_settings(folder: Path, report: Report) -> tuple[Settings, Prices, Aquif
         return None
     data, text = parsed
     lines = toml_key_lines(text)
-    before = len(report.problems)
+    before = len(report.errors)
     for key in data:
         if key not in SCENARIO_SECTIONS:
             report(
@@ -190,11 +211,15 @@ def load_settings(folder: Path, report: Report) -> tuple[Settings, Prices, Aquif
     }
     _check_run_settings(report, SCENARIO_FILE, lines, values.get("run", {}))
     _check_price_units(report, SCENARIO_FILE, lines, values.get("prices", {}))
-    if len(report.problems) > before:
+    if len(report.errors) > before:
         return None
     factors = values["co2_factors"]
     prices = Prices(**values["prices"], co2_kg_per_mwh={fuel: factors[f"{fuel}_kg_per_mwh"] for fuel in FUELS})
-    return Settings(**values["run"]), prices, Aquifer(**values["aquifer"])
+    run = values["run"]
+    # The city-wide limits: absent or 0 in the file means no limit, None in the code (engine.scenario.defaults).
+    for key in ("co2_cap_t_per_a", "network_plant_limit_kw"):
+        run[key] = limit_from_entry(run[key])
+    return Settings(**run), prices, Aquifer(**values["aquifer"])
 
 
 # ============================================================================= cost_cases.toml
@@ -249,7 +274,7 @@ def load_cost_cases(folder: Path, report: Report, technology_ids: set | None) ->
         return None
     data, text = parsed
     lines = toml_key_lines(text)
-    before = len(report.problems)
+    before = len(report.errors)
     for key in data:
         if key != "cases":
             report(COST_CASES_FILE, toml_line(lines, (key,)), key, "unknown key; cases go in [cases.<name>] tables")
@@ -271,4 +296,4 @@ def load_cost_cases(folder: Path, report: Report, technology_ids: set | None) ->
             if key in body
         }
         cases[name] = CostCase(name=name, **values, **overrides)
-    return cases if len(report.problems) == before else None
+    return cases if len(report.errors) == before else None

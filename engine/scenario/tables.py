@@ -48,8 +48,13 @@ class Report:
     def __init__(self) -> None:
         self.problems: list[Problem] = []
 
-    def __call__(self, file: str, row: int | None, column: str | None, message: str) -> None:
-        self.problems.append(Problem(file, None if row is None else int(row), column, message))
+    def __call__(self, file: str, row: int | None, column: str | None, message: str, severity: str = "error") -> None:
+        self.problems.append(Problem(file, None if row is None else int(row), column, message, severity))
+
+    @property
+    def errors(self) -> list[Problem]:
+        """The problems that stop a load (warnings left out)."""
+        return [problem for problem in self.problems if problem.is_error]
 
     @contextmanager
     def guard(self, file: str) -> Iterator[None]:

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import math
 from pathlib import Path
 
 import numpy as np
@@ -20,9 +19,16 @@ from engine.scenario.cells import (
     report_rows,
 )
 from engine.scenario.districts import Districts, check_points, outside_note, swapped_hints
+from engine.scenario.defaults import cell_default, default
 from engine.scenario.files import WELLS_FILE
 from engine.scenario.inputs import Aquifer
 from engine.scenario.tables import Report, Table
+
+
+def _well_default(field: str):
+    """The default of a blank cell of ``field`` in wells.csv (engine.scenario.defaults)."""
+    return cell_default(WELLS_FILE, field)
+
 
 # ----------------------------------------------------------------------------- wells.csv
 WELL_COLUMNS = (
@@ -33,10 +39,22 @@ WELL_COLUMNS = (
     Column("reinjection_lon", in_header=False, default=KEEP),
     Column("reinjection_lat", in_header=False, default=KEEP),
     Column("permit_flow_m3_per_h", low=0),
-    Column("permit_annual_volume_m3", in_header=False, default=math.inf, low=0, allow_inf=True),
+    Column(
+        "permit_annual_volume_m3",
+        in_header=False,
+        default=_well_default("permit_annual_volume_m3"),
+        low=0,
+        allow_inf=True,
+    ),
     Column("design_spread_k", low=0, high=30, low_open=True),
     Column("groundwater_temp_c", low=0, high=40),
-    Column("groundwater_temp_amplitude_k", in_header=False, default=0.0, low=0, high=20),
+    Column(
+        "groundwater_temp_amplitude_k",
+        in_header=False,
+        default=_well_default("groundwater_temp_amplitude_k"),
+        low=0,
+        high=20,
+    ),
     Column("coldest_day_of_year", "integer", in_header=False, default=KEEP, low=1, high=366),
 )
 
@@ -66,7 +84,7 @@ def _check_well_values(report: Report, table: Table, frame: pd.DataFrame) -> Non
         (amplitude > 0) & day_blank,
         lambda i: "is blank; with a seasonal amplitude > 0 the coldest day (1-366) is required",
     )
-    frame["coldest_day_of_year"] = np.where(np.isnan(day), 1.0, day)
+    frame["coldest_day_of_year"] = np.where(np.isnan(day), float(default(WELLS_FILE, "coldest_day_of_year")), day)
     flow = frame["permit_flow_m3_per_h"].to_numpy(dtype=float)
     with np.errstate(invalid="ignore"):
         huge = flow > MAX_WELL_FLOW_M3_PER_H

@@ -204,11 +204,11 @@ def point_scenario(scenario: Scenario, table: pd.DataFrame, point: int) -> Scena
     row = rows.iloc[0]
     settings = scenario.settings
     if row["kind"] == "co2_optimal":
-        settings = dataclasses.replace(settings, objective="co2", co2_cap_t_per_a=0.0)
+        settings = dataclasses.replace(settings, objective="co2", co2_cap_t_per_a=None)
     elif row["kind"] == "co2_bounded":
         settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=float(row["co2_bound_t_per_a"]))
     else:
-        settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=0.0)
+        settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=None)
     return dataclasses.replace(scenario, settings=settings)
 
 
@@ -393,7 +393,7 @@ def co2_price_for_cap(
     """
     if not (isinstance(cap_t_per_a, (int, float, np.floating)) and math.isfinite(cap_t_per_a) and cap_t_per_a > 0):
         raise ValueError(f"cap_t_per_a must be a number > 0, got {cap_t_per_a!r}")
-    if scenario.settings.network_plant_limit_kw and scenario.settings.network_plant_limit_kw > 0:
+    if scenario.settings.network_plant_limit_kw is not None:
         raise ValueError("co2_price_for_cap: the scenario has a network plant limit, which also couples the "
                          "districts; remove it or solve the capped LP in one piece")
     cap = float(cap_t_per_a)
