@@ -47,7 +47,7 @@ BROKEN = [case for case in CASES if not case.valid]
 VALID = [case for case in CASES if case.valid]
 
 UNEXPECTED = ("Traceback", "Unexpected error", "could not be read (")
-"""Text that only appears when an exception escaped a check (the last-resort guards of engine/io.py and
+"""Text that only appears when an exception escaped a check (the last-resort guards of engine/scenario/tables.py and
 engine/__main__.py)."""
 
 
