@@ -22,6 +22,7 @@ from engine.studies.fidelity import DEFAULT_DAY_COUNTS, cached_fidelity, fidelit
 from engine.studies.fidelity import recommend_typical_days
 from engine.storage.store import ScenarioStore, StoreError
 from engine.outputs.study_figures import tornado_figure, tradeoff_figure, tradeoff_mix_figure
+from engine.scenario.inputs import default_cost_case
 from engine.studies.sweep import (
     PARAMETERS, default_ranges, random_samples, run_sweep, save_sweep, tasks_from_cost_cases, tasks_from_samples,
     tornado_table, tornado_tasks,
@@ -51,7 +52,7 @@ fidelities = state.setdefault("hm_fidelity", {})
 st.markdown(f"**{wb.markdown_literal(inputs.label)}:** {wb.markdown_literal(scenario.settings.name)} · {len(scenario.districts)} districts")
 top = st.columns([2, 1, 1])
 cases = list(scenario.cost_cases)
-default_case = setup.get("cost_case", "reference")
+default_case = setup.get("cost_case") or default_cost_case(cases)
 cost_case = top[0].selectbox("Cost case", cases, index=cases.index(default_case) if default_case in cases else 0,
                              key="tradeoffs_cost_case")
 full_year = top[1].toggle("Full year", value=bool(setup.get("full_year", False)), key="tradeoffs_full_year",

@@ -19,7 +19,7 @@ import pytest
 from streamlit.testing.v1 import AppTest
 
 from engine.model.solve import solve_scenario
-from engine.scenario.reader import load_scenario
+from engine.scenario import load_scenario
 from engine.storage.store import ScenarioStore, read_scenario_files
 from pages._support.workbench import input_set_from_files
 

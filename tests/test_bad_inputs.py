@@ -19,7 +19,8 @@ from pathlib import Path
 
 import pytest
 
-from engine.scenario import reader as io
+from engine.scenario import folder as io
+from engine.scenario import tables
 from pages._support import workbench
 from engine.cli import main
 from engine.storage.bundle import BundleError, export_bundle
@@ -46,7 +47,7 @@ BROKEN = [case for case in CASES if not case.valid]
 VALID = [case for case in CASES if case.valid]
 
 UNEXPECTED = ("Traceback", "Unexpected error", "could not be read (")
-"""Text that only appears when an exception escaped a check (the last-resort guards of engine/io.py and
+"""Text that only appears when an exception escaped a check (the last-resort guards of engine/scenario/tables.py and
 engine/cli)."""
 
 
@@ -203,7 +204,7 @@ def test_size_limit_is_checked_before_reading(tmp_path, monkeypatch):
     a big file gives a message rather than exhausting memory). Here the limit is lowered to 1 kB with monkeypatch
     so that a plain small file is above it."""
     folder = corpus.build(corpus.case_named("header_only_wells"), tmp_path / "small_limit")
-    monkeypatch.setattr(io, "MAX_FILE_BYTES", 1024)
+    monkeypatch.setattr(tables, "MAX_FILE_BYTES", 1024)
     read = []
     original = Path.read_bytes
 

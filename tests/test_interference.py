@@ -34,7 +34,7 @@ from engine.studies.interference import (  # noqa: E402
     solve_with_interference,
     superposed_shift_k,
 )
-from engine.scenario.reader import load_scenario, resolve_scenario_path  # noqa: E402
+from engine.scenario import load_scenario, resolve_scenario_path  # noqa: E402
 from engine.model.solve import solve_scenario  # noqa: E402
 
 TINY_CITY = Path(__file__).parent / "fixtures" / "tiny_city"

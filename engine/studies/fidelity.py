@@ -23,9 +23,9 @@ from typing import Callable
 
 import pandas as pd
 
-from engine.scenario.inputs import Scenario, input_hash
+from engine.scenario.inputs import Scenario, default_cost_case, input_hash
 from engine.model.results import RunResult
-from engine.model.solve import default_cost_case, run_settings, solve_scenario
+from engine.model.solve import run_settings, solve_scenario
 from engine.model.solvers import DIRECT
 from engine.storage.store import default_store_path
 
@@ -152,7 +152,7 @@ def typical_day_fidelity(
             raise ValueError(f"day_counts: {d!r} is not a whole number from 1 to {n_days - 1}")
         counts.append(int(d))
     report = progress or (lambda share, text: None)
-    case = cost_case or default_cost_case(scenario)
+    case = cost_case or default_cost_case(scenario.cost_cases)
     results = {}
     runs = sorted(set(counts)) + [0]
     for k, days in enumerate(runs):
@@ -179,7 +179,7 @@ def default_cache_path() -> Path:
 
 def fidelity_key(scenario: Scenario, cost_case: str | None = None, objective: str | None = None) -> str:
     """Hash of the inputs the fidelity depends on: everything but the time resolution."""
-    case = cost_case or default_cost_case(scenario)
+    case = cost_case or default_cost_case(scenario.cost_cases)
     settings = run_settings(scenario, objective, None, 0)
     return input_hash(scenario, case, dataclasses.replace(settings, typical_days=0))
 

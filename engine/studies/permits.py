@@ -25,9 +25,8 @@ import pandas as pd
 from engine.physics import water
 from engine.scenario.inputs import Scenario
 from engine.model.results import RunResult
+from engine.units import KWH_PER_MWH, SECONDS_PER_HOUR
 
-SECONDS_PER_HOUR = 3600.0
-KWH_PER_MWH = 1000.0
 
 FLOW_LIMIT_SHARE = 0.999
 """A step counts as *at the permitted flow* from this share of the permit on (the LP's optimum sits exactly on

@@ -33,14 +33,13 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 
-from engine.scenario.inputs import CostCase, Scenario
+from engine.scenario.inputs import CostCase, Scenario, default_cost_case
+from engine.scenario.kinds import HEAT_PUMP_KINDS
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
 from engine.model.solvers import DIRECT
 
 Progress = Callable[[float, str], None]
-
-HEAT_PUMP_KINDS = ("air_heat_pump", "groundwater_heat_pump")
 
 
 @dataclass(frozen=True)
@@ -98,7 +97,7 @@ def _check_parameter(name: str) -> Parameter:
 
 
 def _base_case(scenario: Scenario, base_case: str | None) -> CostCase:
-    name = base_case or ("reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases)))
+    name = base_case or default_cost_case(scenario.cost_cases)
     if name not in scenario.cost_cases:
         known = ", ".join(sorted(scenario.cost_cases))
         raise ValueError(f"base_case '{name}' is not a cost case of the scenario (known: {known})")

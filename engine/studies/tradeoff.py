@@ -21,7 +21,7 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 
-from engine.scenario.inputs import CostCase, Scenario
+from engine.scenario.inputs import CostCase, Scenario, default_cost_case
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
 from engine.model.solvers import DIRECT
@@ -41,7 +41,7 @@ def _default_case(scenario: Scenario, cost_case: str | None) -> str:
             known = ", ".join(sorted(scenario.cost_cases))
             raise ValueError(f"cost_case '{cost_case}' is not a cost case of the scenario (known: {known})")
         return cost_case
-    return "reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases))
+    return default_cost_case(scenario.cost_cases)
 
 
 def _row(point: int, kind: str, bound: float, result: RunResult) -> dict:
@@ -208,11 +208,11 @@ def point_scenario(scenario: Scenario, table: pd.DataFrame, point: int) -> Scena
     row = rows.iloc[0]
     settings = scenario.settings
     if row["kind"] == "co2_optimal":
-        settings = dataclasses.replace(settings, objective="co2", co2_cap_t_per_a=0.0)
+        settings = dataclasses.replace(settings, objective="co2", co2_cap_t_per_a=None)
     elif row["kind"] == "co2_bounded":
         settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=float(row["co2_bound_t_per_a"]))
     else:
-        settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=0.0)
+        settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=None)
     return dataclasses.replace(scenario, settings=settings)
 
 
@@ -331,7 +331,7 @@ def co2_price_for_cap(
     """
     if not (isinstance(cap_t_per_a, (int, float, np.floating)) and math.isfinite(cap_t_per_a) and cap_t_per_a > 0):
         raise ValueError(f"cap_t_per_a must be a number > 0, got {cap_t_per_a!r}")
-    if scenario.settings.network_plant_limit_kw and scenario.settings.network_plant_limit_kw > 0:
+    if scenario.settings.network_plant_limit_kw is not None:
         raise ValueError("co2_price_for_cap: the scenario has a network plant limit, which also couples the "
                          "districts; remove it or solve the capped LP in one piece")
     cap = float(cap_t_per_a)
