@@ -22,7 +22,7 @@ if str(ROOT) not in sys.path:  # run as a script from anywhere, like bench/run.p
     sys.path.insert(0, str(ROOT))
 
 from engine.model.solve import solve_scenario  # noqa: E402
-from engine.scenario.reader import load_scenario  # noqa: E402
+from engine.scenario.folder import load_scenario  # noqa: E402
 from engine.studies.designation import designate  # noqa: E402
 from engine.studies.pathway import solve_pathway  # noqa: E402
 

@@ -264,10 +264,16 @@ def test_network_substations_ruled_out_where_no_network():
         for r in _rows("district_technologies.csv")
         if kinds[r["technology_id"]] == "network_connection" and r["potential_kw"] == "0.0"
     }
+    # the pathway (pathway.csv, network_from_year) brings the network to more districts later: those keep a
+    # network row that is not ruled out, and get their connection limit there
+    arriving = {r["district_id"] for r in _rows("pathway.csv") if r["network_from_year"]}
+    assert arriving, "the demo pathway extends the network"
     for feature in _features():
         p = feature["properties"]
         if p["network_available"]:
             assert p["network_connection_limit_kw"] > 0
+            assert p["district_id"] not in ruled_out
+        elif p["district_id"] in arriving:
             assert p["district_id"] not in ruled_out
         else:
             assert p["district_id"] in ruled_out
@@ -413,9 +419,9 @@ def test_hourly_weather_and_prices_have_the_intended_shape():
 
 # ------------------------------------------------------------------------------------------ the project loader
 def test_demo_loads_without_problems():
-    """The demo passes the project's own validation (engine.scenario.reader.load_scenario) with every district, well and cost
+    """The demo passes the project's own validation (engine.scenario.load_scenario) with every district, well and cost
     case it declares."""
-    io = pytest.importorskip("engine.scenario.reader")
+    io = pytest.importorskip("engine.scenario")
     scenario = io.load_scenario(DEMO)
     assert len(scenario.districts) == len(_features())
     assert len(scenario.wells) == len(_rows("wells.csv"))

@@ -16,7 +16,7 @@ import pytest
 
 import scenario_factory as f
 from engine.scenario.inputs import CostCase, Prices, Settings
-from engine.scenario.reader import load_scenario
+from engine.scenario.folder import load_scenario
 from engine.studies.alternatives import near_optimal_ranges
 from engine.studies.designation import AREAS, Evidence, GradeThresholds, designate, grade_of
 

@@ -23,7 +23,7 @@ from engine.model.multiperiod import build_charge, discount_sum, year_weights
 from engine.model.solve import solve_scenario
 from engine.scenario.inputs import Prices, Settings
 from engine.scenario.pathway_inputs import CITY_COLUMNS, PathwayInputs, read_pathway_inputs
-from engine.scenario.reader import DEMO_DIR
+from engine.scenario.folder import DEMO_DIR
 from engine.studies.pathway import solve_pathway
 
 P_KW = 1000.0  # flat heat demand

@@ -6,8 +6,8 @@ import shutil
 
 import pandas as pd
 
-from engine.__main__ import main
-from engine.scenario.reader import DEMO_DIR
+from engine.cli import main
+from engine.scenario.folder import DEMO_DIR
 
 
 def test_pathway_writes_both_tables(tmp_path, capsys):

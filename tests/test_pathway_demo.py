@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 
 from engine.model.solve import solve_scenario
-from engine.scenario.reader import load_scenario
+from engine.scenario.folder import load_scenario
 from engine.studies.pathway import resolve_pathway, solve_pathway, year_scenario
 
 TYPICAL_DAYS = 4

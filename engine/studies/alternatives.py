@@ -37,7 +37,8 @@ from engine.model.formulation import build_model
 from engine.model.lp import new_highs
 from engine.model.prepare import prepare_run
 from engine.model.solve import run_settings
-from engine.scenario.inputs import HEAT_KINDS, Scenario
+from engine.scenario.inputs import Scenario
+from engine.scenario.kinds import HEAT_KINDS
 
 DEFAULT_SLACK_PCT = 5.0
 RANGE_COLUMNS = ("scope", "subject", "quantity", "optimum", "minimum", "maximum", "slack_pct", "status")

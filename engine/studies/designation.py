@@ -52,7 +52,7 @@ from engine.model.solve import run_settings
 from engine.scenario.inputs import Scenario
 from engine.scenario.problems import InputError, Problem
 from engine.studies.alternatives import DEFAULT_SLACK_PCT, near_optimal_ranges
-from engine.scenario.reader import load_scenario, resolve_scenario_path
+from engine.scenario.folder import load_scenario, resolve_scenario_path
 from engine.studies.pathway import resolve_pathway, year_scenario
 from engine.studies.sweep import run_sweep, tasks_from_cost_cases
 

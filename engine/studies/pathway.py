@@ -32,10 +32,11 @@ from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
 from engine.model.solve import diagnose_failure, failure_message, merge_tables, run_settings
 from engine.model.formulation import build_model, solve_model
-from engine.scenario.inputs import FUELS, Scenario
+from engine.scenario.inputs import Scenario
+from engine.scenario.kinds import FUELS
 from engine.scenario.pathway_inputs import PathwayInputs, check_years, load_pathway
 from engine.scenario.problems import InputError, Problem
-from engine.scenario.reader import load_scenario, resolve_scenario_path
+from engine.scenario.folder import load_scenario, resolve_scenario_path
 
 Progress = Callable[[float, str], None]
 SUMMARY_COLUMNS = ("year", "total_cost_eur_per_a", "co2_t_per_a", "investment_eur", "heat_demand_mwh_per_a",
