@@ -41,11 +41,11 @@ from engine.storage.store import (
     SCHEMA_VERSION,
     ScenarioStore,
     StoreError,
-    decode_table,
     default_store_path,
-    encode_table,
     read_scenario_files,
 )
+from engine.storage.library import export_library, import_library
+from engine.storage.tablecodec import decode_table, encode_table
 
 REPO = Path(__file__).resolve().parents[1]
 
@@ -659,7 +659,7 @@ def test_library_export_and_import_round_trip(tmp_path, store_path):
         ids = [store.save_run(results[k], f"run {k}", note=f"note {k}", inputs=INPUTS if k != 1 else None,
                               tags="lib", sweep_id="s" if k else None) for k in results]
         store.delete_run(ids[0])
-        library = store.export_library(tmp_path / "out" / "library.zip")
+        library = export_library(store, tmp_path / "out" / "library.zip")
         exported = store.list_runs()
     with zipfile.ZipFile(library) as archive:
         names = archive.namelist()
@@ -673,7 +673,7 @@ def test_library_export_and_import_round_trip(tmp_path, store_path):
     other = tmp_path / "other.sqlite"
     with ScenarioStore(other) as target:
         existing = target.save_run(synthetic_result(8), "already there")
-        new_ids = target.import_library(library)
+        new_ids = import_library(target, library)
         assert len(new_ids) == 2 and existing not in new_ids
         imported = target.list_runs().set_index("name")
         for k in (1, 2):
@@ -689,16 +689,16 @@ def test_import_refuses_a_tampered_library(tmp_path, store_path):
     """A library zip with a path that climbs out ('..') is refused with StoreError; nothing is imported."""
     with ScenarioStore(store_path) as store:
         store.save_run(synthetic_result(0), "a")
-        library = store.export_library(tmp_path / "library.zip")
+        library = export_library(store, tmp_path / "library.zip")
     with zipfile.ZipFile(library, "a") as archive:
         archive.writestr("runs/00001/../../evil.json", "{}")
     with ScenarioStore(tmp_path / "target.sqlite") as target:
         with pytest.raises(StoreError, match=r"\.\."):
-            target.import_library(library)
+            import_library(target, library)
         assert target.list_runs().empty
     not_a_library = tmp_path / "plain.zip"
     with zipfile.ZipFile(not_a_library, "w") as archive:
         archive.writestr("library.json", '{"format": "something else"}')
     with ScenarioStore(tmp_path / "target.sqlite") as target:
         with pytest.raises(StoreError, match="not a heatmosaic library"):
-            target.import_library(not_a_library)
+            import_library(target, not_a_library)

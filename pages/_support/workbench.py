@@ -60,6 +60,7 @@ from engine.scenario.problems import InputError, Problem, problems_frame
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
 from engine.storage.store import ScenarioStore, StoreError, check_scenario_files, read_scenario_files
+from engine.storage.library import export_library, import_library
 
 CAUTION_LINE = (
     "Screening results for early planning only. Well permits, aquifer temperatures and investments must be "
@@ -1025,9 +1026,9 @@ def bundle_bytes(result: RunResult, inputs: Mapping[str, bytes]) -> bytes:
 
 
 def library_bytes(store: ScenarioStore) -> bytes:
-    """The whole library (:meth:`ScenarioStore.export_library`) as zip bytes."""
+    """The whole library (:func:`engine.storage.library.export_library`) as zip bytes."""
     with tempfile.TemporaryDirectory(prefix="heatmosaic-library-") as folder:
-        return store.export_library(Path(folder) / "library.zip").read_bytes()
+        return export_library(store, Path(folder) / "library.zip").read_bytes()
 
 
 def import_library_bytes(store: ScenarioStore, data: bytes) -> tuple[list[int], str | None]:
@@ -1036,7 +1037,7 @@ def import_library_bytes(store: ScenarioStore, data: bytes) -> tuple[list[int], 
         path = Path(folder) / "upload.zip"
         path.write_bytes(bytes(data))
         try:
-            return store.import_library(path), None
+            return import_library(store, path), None
         except StoreError as exc:
             return [], str(exc)
 
