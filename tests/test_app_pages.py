@@ -196,7 +196,8 @@ def test_an_edited_cost_is_checked_solved_and_kept_in_the_run_files(session):
     run keeps exactly the inputs it was solved with)."""
     from engine.scenario.inputs import input_hash
     from engine.model.solve import run_settings
-    from pages._support.workbench import choices_of_run, scenario_from_files
+    from pages._support.inputs import scenario_from_files
+    from pages._support.cache import choices_of_run
 
     at = session["at"]
     at.switch_page(PLAN).run()

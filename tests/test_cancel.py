@@ -1,6 +1,6 @@
 """Long jobs stop when the planner cancels them: the worker-thread runner, a solve, a sweep, the fidelity measure.
 
-The dashboard runs each long job in a worker thread (:func:`pages._support.workbench.run_cancellable`) while the page
+The dashboard runs each long job in a worker thread (:func:`pages._support.jobs.run_cancellable`) while the page
 thread shows progress; pressing Cancel reruns the page, which raises in the page thread. These tests raise there
 the same way and check that the job itself saw the cancel and stopped (the solver reports "interrupted"), rather
 than running on in the background. No timing is asserted.
@@ -16,7 +16,7 @@ from bench.synthetic_city import synthetic_city
 from engine.studies.fidelity import typical_day_fidelity
 from engine.model.solve import solve_scenario
 from engine.studies.sweep import SweepCancelled, default_ranges, random_samples, run_sweep, tasks_from_samples
-from pages._support.workbench import run_cancellable
+from pages._support.jobs import run_cancellable
 
 
 class PageRerun(Exception):
