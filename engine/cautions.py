@@ -21,6 +21,9 @@ RESULTS_LINE = (
 WELLS = "Wells and plumes: screening estimate. Permits defer to the water authority."
 """The short caution beside well markers, plume outlines and well tables."""
 
+WELL_POPUP = "Screening estimate; permits and designs defer to the water authority and licensed engineers."
+"""The last line of a well's popup on the map."""
+
 GROUNDWATER = (
     "Screening estimate: not a substitute for the numerical groundwater model and the permit procedure the "
     "water authority requires. Defer to the water authority, local codes and licensed engineers."

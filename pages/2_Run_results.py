@@ -19,7 +19,7 @@ from engine.outputs.figures import (
     load_curve_figure,
     load_duration_figure,
 )
-from engine.outputs.maps import MEASURES, WELL_CAUTION, district_map
+from engine.outputs.maps import MEASURES, district_map
 from engine.storage.store import StoreError
 from pages._support.shell import open_store, route_through_app, run_with_cancel, show_cancelled
 
@@ -108,7 +108,7 @@ def show_map() -> None:
     else:
         fmap = district_map(scenario, result, measure=measure, baseline=baseline, technologies=technologies)
         st_folium(fmap, height=560, use_container_width=True, returned_objects=[], key="results_map")
-        st.caption(WELL_CAUTION + " Click a district or a well for its figures.")
+        st.caption(cautions.WELLS + " Click a district or a well for its figures.")
     st.plotly_chart(district_supply_figure(result, technologies), width="stretch", config=FIGURE_CONFIG)
 
 
@@ -157,7 +157,7 @@ def show_tables() -> None:
         return
     st.dataframe(wells, hide_index=True, width="stretch", height=table_height(wells),
                  column_config=numbers(wells, 2, 10))
-    st.caption(WELL_CAUTION + " A binding limit means the permit, not the heat pump, sets the well's output.")
+    st.caption(cautions.WELLS + " A binding limit means the permit, not the heat pump, sets the well's output.")
 
 
 def show_manage() -> None:

@@ -20,7 +20,7 @@ from engine.outputs.figures import (
     main_supply_changes,
     supply_mix_figure,
 )
-from engine.outputs.maps import MEASURES, WELL_CAUTION, district_map
+from engine.outputs.maps import MEASURES, district_map
 from pages._support.shell import open_store, route_through_app
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
@@ -98,7 +98,7 @@ for column, run_id in zip(columns, picked):
         fmap = district_map(scenario, results[name], measure=measure, baseline=base, technologies=technologies,
                             legend_open=len(picked) < 2)
         st_folium(fmap, height=480, use_container_width=True, returned_objects=[], key=f"compare_map_{run_id}")
-st.caption(WELL_CAUTION)
+st.caption(cautions.WELLS)
 
 # ------------------------------------------------------------------------------------------------ load curves
 st.subheader("Load curves")

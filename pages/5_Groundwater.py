@@ -36,22 +36,18 @@ from engine.studies.permits import (
     well_year_profiles,
 )
 from engine.studies.interference import interference_comparison, plume_outlines, plume_polygons, solve_with_interference
-from engine.outputs.maps import WELL_CAUTION, district_map
+from engine.outputs.maps import district_map
 from pages._support.shell import open_store, route_through_app, run_with_cancel, show_cancelled
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 CURRENT = "current"
-PAGE_CAUTION = (
-    "Screening estimate from an analytic plume model: not a substitute for the numerical groundwater model and "
-    "the permit procedure the water authority requires."
-)
 VIEW_AS_SOLVED = "as solved"
 VIEW_CHECKED = "with interference"
 
 state = st.session_state
 route_through_app("pages/5_Groundwater.py")
 st.title("Groundwater check")
-st.warning(PAGE_CAUTION + " " + cautions.RESULTS_LINE, icon=":material/warning:")
+st.warning(cautions.GROUNDWATER + " " + cautions.RESULTS_LINE, icon=":material/warning:")
 solved = state.setdefault("hm_solved", {})
 loaded = state.setdefault("hm_loaded", {})
 scenarios = state.setdefault("hm_scenarios", {})
@@ -178,7 +174,7 @@ st.dataframe(
 )
 st.caption("“At a limit”: the permit or the window, not the heat pump, sets the doublet's output somewhere in the "
            "year; the optimum uses what the permit allows. A breach shows only against inputs changed after "
-           "solving or shifted source temperatures. " + WELL_CAUTION)
+           "solving or shifted source temperatures. " + cautions.WELLS)
 
 tab_year, tab_map, tab_check = st.tabs(["Over the year", "Map", "Interference check"])
 with tab_year:
@@ -227,7 +223,7 @@ with tab_map:
             "library: choose the plain map.",
             unsafe_allow_html=True,
         )
-    st.caption(PAGE_CAUTION)
+    st.caption(cautions.GROUNDWATER)
 
 with tab_check:
     if checked is None:
@@ -293,4 +289,4 @@ with tab_check:
             )
             for note in info["notes"]:
                 st.markdown(f"- {note}")
-        st.caption(PAGE_CAUTION)
+        st.caption(cautions.GROUNDWATER)

@@ -30,13 +30,13 @@ from pandas.testing import assert_frame_equal
 from test_store import INPUTS, synthetic_result
 
 from engine.storage.bundle import (
-    CAUTION,
     BundleError,
     export_bundle,
     read_bundle,
 )
 from engine.model.results import RunResult
 from engine.storage.safezip import ZipLimits
+from engine import cautions
 
 
 def bundle_result() -> RunResult:
@@ -121,7 +121,7 @@ def test_round_trip_gives_the_same_files_and_tables(honest, tmp_path):
         assert manifest[key] == getattr(result, key)
     assert manifest["settings"]["co2_cap_t_per_a"] is None  # inf is not JSON (RFC 8259 section 6)
     assert manifest["summary"]["total_cost_eur_per_a"] == pytest.approx(result.total_cost_eur_per_a)
-    assert manifest["caution"] == CAUTION
+    assert manifest["caution"] == cautions.RESULTS
     assert contents.summary["total_cost_eur_per_a"] == pytest.approx(result.summary()["total_cost_eur_per_a"])
     back = contents.to_result()
     assert back.input_hash == result.input_hash and back.total_cost_eur_per_a == result.total_cost_eur_per_a

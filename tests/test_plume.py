@@ -13,6 +13,7 @@ import pytest
 import shapely
 from scipy import integrate, special
 
+from engine import cautions
 from engine.physics import plume
 from engine.scenario.inputs import Aquifer
 
@@ -384,7 +385,7 @@ def test_validity_notes_warn_about_slow_flow_and_the_near_well_zone():
     near-well zone is the width Q / (b q) of the injected water's stream tube (mass balance: 0.01 m³/s over
     15 m at 0.5 m/d is 115 m)."""
     slow = plume.validity_notes(0.005)
-    assert slow[0] == plume.SCREENING_CAUTION
+    assert slow[0] == cautions.PLUME
     assert any("conduction" in note for note in slow)
     fast = plume.validity_notes(0.5, injection_rate_m3_per_s=RATE, saturated_thickness_m=THICKNESS, distance_m=80.0)
     assert not any("conduction" in note and "below about 0.01" in note for note in fast)

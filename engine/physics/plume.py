@@ -90,6 +90,8 @@ from __future__ import annotations
 import numpy as np
 from scipy import special
 
+from engine import cautions
+
 EARTH_RADIUS_M = 6_371_008.8
 """Mean Earth radius R1 of GRS 80 [m] (Moritz 2000, Journal of Geodesy 74, 128-133)."""
 
@@ -98,12 +100,6 @@ SECONDS_PER_DAY = 86_400.0
 DEFAULT_THERMAL_CONDUCTIVITY_W_PER_M_K = 2.0
 """Thermal conductivity of a water-saturated sand or gravel aquifer [W/(m K)]; a typical handbook value,
 quoted from memory (saturated unconsolidated sediments lie roughly between 1.5 and 2.5 W/(m K))."""
-
-SCREENING_CAUTION = (
-    "Screening estimate only: an analytic plume model in a uniform, homogeneous aquifer. It does not replace "
-    "the numerical groundwater model a well permit requires; defer to the water authority, local codes and "
-    "licensed engineers."
-)
 
 _QUADRATURE_NODES, _QUADRATURE_WEIGHTS = np.polynomial.legendre.leggauss(128)
 _INTEGRAND_CUTOFF = 50.0  # the transient integrand is cut where it falls below exp(-50) of its peak
@@ -953,7 +949,7 @@ def validity_notes(
     q_per_day = _scalar(darcy_velocity_m_per_d, "darcy_velocity_m_per_d", minimum=0.0)
     c_a = _scalar(aquifer_heat_capacity_j_per_m3_k, "aquifer_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
     c_w = _scalar(water_heat_capacity_j_per_m3_k, "water_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
-    notes = [SCREENING_CAUTION]
+    notes = [cautions.PLUME]
     if q_per_day < 0.01:
         notes.append(
             f"Darcy velocity {q_per_day:g} m/d is below about 0.01 m/d (rule of thumb, from memory): heat spreads "

@@ -19,7 +19,7 @@ streaming, so a header that lies does not help. Text must be UTF-8 and the manif
 only below the destination folder (checked after resolving every path), first into a hidden staging folder that
 is removed when anything is refused. Nothing is ever unpickled or executed.
 
-The results are screening-level: the manifest carries :data:`CAUTION`.
+The results are screening-level: the manifest carries :data:`engine.cautions.RESULTS`.
 """
 
 from __future__ import annotations
@@ -40,19 +40,13 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from engine import __version__
+from engine import __version__, cautions
 from engine.model.results import RunResult
 from engine.storage.safezip import DEFAULT_LIMITS, MIB, CheckedZip, ZipLimits, ZipRefused, write_checked_zip
 from engine.storage.store import REQUIRED_SCENARIO_FILES, SCENARIO_FILES, StoreError, check_scenario_files
 
 BUNDLE_FORMAT = "heatmosaic-bundle"
 BUNDLE_FORMAT_VERSION = 1
-
-CAUTION = (
-    "Screening-level results for early planning. Well yields, aquifer temperatures, permits and investment "
-    "figures must be confirmed against local codes, by the water authority and by licensed engineers before "
-    "any decision."
-)
 
 TABLE_NAME_PATTERN = r"[a-z][a-z0-9_]{0,62}"
 """Result table names a bundle may carry (lower-case letters, digits and ``_``)."""
@@ -327,7 +321,7 @@ def export_bundle(result: RunResult, inputs: Mapping[str, bytes] | None, path: s
         },
         "missing_required_inputs": [f for f in REQUIRED_SCENARIO_FILES if f not in files],
         "tables": table_specs,
-        "caution": CAUTION,
+        "caution": cautions.RESULTS,
     }
     entries.insert(0, ("manifest.json", json.dumps(manifest, indent=2, allow_nan=False).encode()))
     total = 0

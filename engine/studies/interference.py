@@ -63,6 +63,7 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 
+from engine import cautions
 from engine.physics import plume
 from engine.studies.permits import add_well_status, net_injection
 from engine.scenario.inputs import Scenario
@@ -303,7 +304,7 @@ def _notes(scenario: Scenario, matrix: np.ndarray, rate: np.ndarray, delta: np.n
             water_heat_capacity_j_per_m3_k=aquifer.water_heat_capacity_mj_per_m3_k * 1e6,
         )
         for text in pair:
-            if text in notes or text.startswith("Assumes") or text == plume.SCREENING_CAUTION:
+            if text in notes or text.startswith("Assumes") or text == cautions.PLUME:
                 continue
             if "point of interest" in text or "distance (" in text or "thermal front" in text:
                 notes.append(f"{ids[i]} -> {ids[j]}: {text}")
@@ -495,7 +496,7 @@ def solve_with_interference(
         "max_iterations": max_iterations,
         "method": "fixed-point iteration with under-relaxation; transient line-source plumes of each doublet's "
                   "annual net injection; own recirculation excluded",
-        "notes": _notes(scenario, matrix, rate, delta, shift, horizon_years) if n else [plume.SCREENING_CAUTION],
+        "notes": _notes(scenario, matrix, rate, delta, shift, horizon_years) if n else [cautions.PLUME],
         "wells": _wells_detail(scenario, rate, delta, shift, matrix) if n else [],
         "baseline": baseline,
         "seconds": 0.0,

@@ -44,11 +44,6 @@ BREACH_TOLERANCE_K = 0.01
 
 STATUSES = ("ok", "at_limit", "breach")
 
-SCREENING_CAUTION = (
-    "Screening estimate: not a substitute for the numerical groundwater model and the permit procedure the "
-    "water authority requires. Defer to the water authority, local codes and licensed engineers."
-)
-
 _SEASONS = {12: "winter", 1: "winter", 2: "winter", 3: "spring", 4: "spring", 5: "spring", 6: "summer",
             7: "summer", 8: "summer", 9: "autumn", 10: "autumn", 11: "autumn"}
 _SEASON_ORDER = ("winter", "spring", "summer", "autumn")
@@ -806,7 +801,6 @@ def well_status_layer(scenario: Scenario, screening: pd.DataFrame, name: str = "
 
 __all__ = [
     "FLOW_LIMIT_SHARE",
-    "SCREENING_CAUTION",
     "SCREENING_COLUMNS",
     "STATUSES",
     "STATUS_COLORS",
