@@ -64,7 +64,7 @@ import numpy as np
 import pandas as pd
 
 from engine import cautions
-from engine.physics import plume
+from engine.physics import coords, plume, plume_field
 from engine.studies.permits import add_well_status, net_injection
 from engine.scenario.inputs import Scenario
 from engine.model.results import RunResult
@@ -100,7 +100,7 @@ def superposed_shift_k(interference_matrix, injection_rate_m3_per_s, injection_t
     Parameters
     ----------
     interference_matrix : array_like, shape (n, n)
-        ``M[i, j]`` from :func:`engine.physics.plume.interference_matrix_k_per_unit`. [K / (m³/s K)] Not negative.
+        ``M[i, j]`` from :func:`engine.physics.plume_field.interference_matrix_k_per_unit`. [K / (m³/s K)] Not negative.
     injection_rate_m3_per_s : array_like, shape (n,)
         Mean reinjected volume flow of each doublet. [m³/s] Not negative.
     injection_temp_change_k : array_like, shape (n,)
@@ -182,12 +182,12 @@ def interference_matrix_for(scenario: Scenario, horizon_years: float = 1.0) -> n
     """Unit plume response of every reinjection well at every extraction well of ``scenario`` [s/m³].
 
     The transient line source after ``horizon_years`` of operation, with the scenario's ``[aquifer]``
-    (:func:`engine.physics.plume.interference_matrix_k_per_unit`); rows are reinjection wells, columns extraction wells,
+    (:func:`engine.physics.plume_field.interference_matrix_k_per_unit`); rows are reinjection wells, columns extraction wells,
     both in the order of ``scenario.wells``.
     """
     wells = scenario.wells
     params = plume.plume_parameters_from_aquifer(scenario.aquifer)
-    return plume.interference_matrix_k_per_unit(
+    return plume_field.interference_matrix_k_per_unit(
         wells["reinjection_lon"].to_numpy(float),
         wells["reinjection_lat"].to_numpy(float),
         wells["lon"].to_numpy(float),
@@ -212,14 +212,14 @@ def _with_shift(scenario: Scenario, shift_k: np.ndarray) -> Scenario:
 
 def _isotherm_job(job: tuple) -> list:
     level, lon, lat, rate, delta, params, time_s, ray_count = job
-    return plume.isotherm_polygon_lonlat(level, lon, lat, rate, delta, time_s=time_s, ray_count=ray_count, **params)
+    return plume_field.isotherm_polygon_lonlat(level, lon, lat, rate, delta, time_s=time_s, ray_count=ray_count, **params)
 
 
 def plume_outlines(scenario: Scenario, result: RunResult, levels_k=DEFAULT_PLUME_LEVELS_K, horizon_years=1.0,
                    ray_count: int = 49, workers: int | None = None) -> pd.DataFrame:
     """Isotherms of every doublet's reinjection plume after ``horizon_years``, from a run's net injection.
 
-    Each outline takes a fraction of a second (:func:`engine.physics.plume.isotherm_polygon_lonlat` bisects along every
+    Each outline takes a fraction of a second (:func:`engine.physics.plume_field.isotherm_polygon_lonlat` bisects along every
     ray), so more than a handful are drawn in parallel processes (``workers``, default: the CPU count, at most 4).
 
     Returns
@@ -285,7 +285,7 @@ def _notes(scenario: Scenario, matrix: np.ndarray, rate: np.ndarray, delta: np.n
     strength = rate * np.abs(delta)
     reach = np.where(strength[:, None] > 0, np.minimum(matrix * strength[:, None], np.abs(delta)[:, None]), 0.0)
     np.fill_diagonal(reach, 0.0)
-    east, north = plume.lonlat_to_local_m(
+    east, north = coords.lonlat_to_local_m(
         np.concatenate([wells["reinjection_lon"].to_numpy(float), wells["lon"].to_numpy(float)]),
         np.concatenate([wells["reinjection_lat"].to_numpy(float), wells["lat"].to_numpy(float)]),
         float(wells["lon"].mean()), float(wells["lat"].mean()),
