@@ -41,6 +41,7 @@ import numpy as np
 import pandas as pd
 
 from engine import __version__, cautions
+from engine.jsonsafe import json_value
 from engine.model.results import RunResult
 from engine.storage.safezip import DEFAULT_LIMITS, MIB, CheckedZip, ZipLimits, ZipRefused, write_checked_zip
 from engine.storage.store import REQUIRED_SCENARIO_FILES, SCENARIO_FILES, StoreError, check_scenario_files
@@ -230,23 +231,11 @@ def _table_from_csv(path: Path, spec: dict, table: str) -> pd.DataFrame:
 
 # ====================================================================================== export and read
 def _json_safe(value, where: str):
-    """Plain JSON values; NaN and inf become null."""
-    if isinstance(value, dict):
-        return {str(k): _json_safe(v, where) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_json_safe(v, where) for v in value]
-    if isinstance(value, np.ndarray):
-        return [_json_safe(v, where) for v in value.tolist()]
-    if isinstance(value, (bool, np.bool_)):
-        return bool(value)
-    if isinstance(value, (int, np.integer)):
-        return int(value)
-    if isinstance(value, (float, np.floating)):
-        value = float(value)
-        return value if math.isfinite(value) else None
-    if value is None or isinstance(value, str):
-        return value
-    raise BundleError(f"{where} holds a value of type {type(value).__name__} that a bundle cannot carry")
+    """Plain JSON values (:func:`engine.jsonsafe.json_value`); NaN and inf become null."""
+    try:
+        return json_value(value, where=where)
+    except TypeError as exc:
+        raise BundleError(f"{exc}; a bundle cannot carry it") from None
 
 
 def _figure(result: RunResult, name: str):

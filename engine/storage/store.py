@@ -47,6 +47,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from engine.jsonsafe import json_value
 from engine.model.results import RunResult
 from engine.storage.errors import StoreError
 from engine.storage.tablecodec import decode_table, encode_table
@@ -165,24 +166,12 @@ def check_scenario_files(files: Mapping[str, bytes], where: str = "inputs") -> d
 
 
 # ====================================================================================== run metadata
-def _json_default(value):
-    if isinstance(value, np.bool_):
-        return bool(value)
-    if isinstance(value, np.integer):
-        return int(value)
-    if isinstance(value, np.floating):
-        return float(value)
-    if isinstance(value, np.ndarray):
-        return value.tolist()
-    raise TypeError(f"values of type {type(value).__name__} cannot be written as JSON")
-
-
 def _dump_meta(value, field_name: str) -> str:
     """Metadata dicts as JSON text; NaN and inf kept (written as Python's json writes them)."""
     if not isinstance(value, dict):
         raise StoreError(f"the run's {field_name} must be a dict, not {type(value).__name__}")
     try:
-        return json.dumps(value, default=_json_default, allow_nan=True, sort_keys=False)
+        return json.dumps(json_value(value, keep_non_finite=True, where=f"the {field_name}"), allow_nan=True)
     except (TypeError, ValueError) as exc:
         raise StoreError(f"the run's {field_name} holds a value the store cannot keep: {exc}") from None
 
