@@ -11,7 +11,6 @@ import dataclasses
 import os
 import time
 from concurrent.futures import ProcessPoolExecutor, as_completed
-from typing import Callable
 
 import numpy as np
 import pandas as pd
@@ -21,8 +20,7 @@ from engine.scenario.inputs import Scenario, Settings, input_hash
 from engine.model.formulation import build_model, solve_model, supply_units
 from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
-
-Progress = Callable[[float, str], None]
+from engine.progress import Cancel, Progress, no_progress
 
 
 def run_settings(scenario: Scenario, objective=None, co2_cap_t_per_a=None, typical_days=None, **changes) -> Settings:
@@ -172,13 +170,13 @@ def solve_scenario(
     decompose: bool | str = "auto",
     workers: int | None = None,
     progress: Progress | None = None,
-    cancel: Callable[[], bool] | None = None,
+    cancel: Cancel | None = None,
     time_limit_s: float | None = None,
     settings: Settings | None = None,
 ) -> RunResult:
     """Solve ``scenario`` under ``cost_case`` and return the result (never raises for solver failures)."""
     started = time.perf_counter()
-    report = progress or (lambda share, text: None)
+    report = progress or no_progress
     cost_case = cost_case or ("reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases)))
     settings = settings or run_settings(scenario, objective, co2_cap_t_per_a, typical_days)
     if settings.objective not in ("cost", "co2"):

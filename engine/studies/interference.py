@@ -58,7 +58,6 @@ import json
 import os
 import time
 from concurrent.futures import ProcessPoolExecutor
-from typing import Callable
 
 import numpy as np
 import pandas as pd
@@ -69,6 +68,7 @@ from engine.studies.permits import add_well_status, net_injection
 from engine.scenario.inputs import Scenario
 from engine.model.results import RunResult
 from engine.model.solve import solve_scenario
+from engine.progress import Cancel, Progress, no_progress
 
 SECONDS_PER_YEAR = 365.25 * plume.SECONDS_PER_DAY
 
@@ -80,9 +80,6 @@ MIN_RELAXATION = 1.0 / 16.0
 """Under-relaxation is halved on oscillation, but not below this factor."""
 
 DEFAULT_PLUME_LEVELS_K = (1.0, 3.0)
-
-Progress = Callable[[float, str], None]
-
 
 # ----------------------------------------------------------------------------- physics
 def superposed_shift_k(interference_matrix, injection_rate_m3_per_s, injection_temp_change_k,
@@ -374,7 +371,7 @@ def solve_with_interference(
     relaxation: float = 1.0,
     horizon_years: float = 1.0,
     plume_levels_k=DEFAULT_PLUME_LEVELS_K,
-    cancel: Callable[[], bool] | None = None,
+    cancel: Cancel | None = None,
     workers: int | None = None,
 ) -> RunResult:
     """Solve ``scenario`` again and again with the source temperature shifts neighbouring plumes cause.
@@ -429,7 +426,7 @@ def solve_with_interference(
     levels = [float(level) for level in plume_levels_k]
     if any(not np.isfinite(level) or level <= 0 for level in levels):
         raise ValueError(f"plume_levels_k must hold positive numbers [K]; got {plume_levels_k!r}")
-    report = progress or (lambda share, text: None)
+    report = progress or no_progress
     started = time.perf_counter()
     ids = scenario.wells["well_id"].tolist()
     n = len(ids)

@@ -28,7 +28,6 @@ import uuid
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable
 
 import numpy as np
 import pandas as pd
@@ -36,8 +35,7 @@ import pandas as pd
 from engine.scenario.inputs import CostCase, Scenario
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
-
-Progress = Callable[[float, str], None]
+from engine.progress import Cancel, Progress, SweepCancelled, no_progress
 
 HEAT_PUMP_KINDS = ("air_heat_pump", "groundwater_heat_pump")
 
@@ -293,10 +291,6 @@ def _solve_on_cluster(scenario, payload, typical_days, objective, keep_result):
     return solve_task(scenario, _task(payload), typical_days, objective, keep_result)
 
 
-class SweepCancelled(RuntimeError):
-    """A sweep stopped by its ``cancel`` callable before every run finished."""
-
-
 def run_sweep(
     scenario: Scenario,
     tasks: list[SweepTask],
@@ -307,7 +301,7 @@ def run_sweep(
     keep_results: bool = False,
     progress: Progress | None = None,
     sweep_id: str | None = None,
-    cancel: Callable[[], bool] | None = None,
+    cancel: Cancel | None = None,
 ) -> SweepOutcome:
     """Solve every task and collect one record per run.
 
@@ -349,7 +343,7 @@ def run_sweep(
     names = [t.name for t in tasks]
     if len(set(names)) != len(names):
         raise ValueError("tasks must have distinct names")
-    report = progress or (lambda share, text: None)
+    report = progress or no_progress
     sweep_id = sweep_id or f"sweep-{uuid.uuid4().hex[:12]}"
     outputs: list = [None] * len(tasks)
     done = 0

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import dataclasses
 import hashlib
-from collections.abc import Callable, Mapping, MutableMapping
+from collections.abc import Mapping, MutableMapping
 from dataclasses import dataclass
 
 import pandas as pd
@@ -17,6 +17,7 @@ import pandas as pd
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
 from engine.scenario.inputs import Scenario, input_hash
+from engine.progress import Cancel, Progress
 from engine.storage.store import ScenarioStore
 from pages._support.edits import table_digest
 from pages._support.inputs import files_digest, scenario_from_files
@@ -74,8 +75,8 @@ def solve_with_cache(
     objective: str,
     co2_cap_t_per_a: float,
     typical_days: int,
-    progress: Callable[[float, str], None] | None = None,
-    cancel: Callable[[], bool] | None = None,
+    progress: Progress | None = None,
+    cancel: Cancel | None = None,
 ) -> tuple[SolvedRun, bool]:
     """Solve (or find in ``cache``) one request; returns the run and whether it came from the cache.
 
@@ -126,8 +127,8 @@ def resolve_saved_run(
     files: Mapping[str, bytes],
     result: RunResult,
     label: str,
-    progress: Callable[[float, str], None] | None = None,
-    cancel: Callable[[], bool] | None = None,
+    progress: Progress | None = None,
+    cancel: Cancel | None = None,
 ) -> tuple[SolvedRun, bool]:
     """Solve a saved run again from its own files and choices (a reproducibility check)."""
     choices = choices_of_run(result)

@@ -5,10 +5,12 @@ from __future__ import annotations
 import threading
 from collections.abc import Callable
 
+from engine.progress import Cancel, Progress
+
 
 def run_cancellable(
-    job: Callable[[Callable[[float, str], None], Callable[[], bool]], object],
-    show: Callable[[float, str], None],
+    job: Callable[[Progress, Cancel], object],
+    show: Progress,
     poll_s: float = 0.2,
     stop_wait_s: float = 60.0,
 ):
