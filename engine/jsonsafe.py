@@ -43,6 +43,8 @@ def json_value(value, *, keep_non_finite: bool = False, where: str = "the value"
     if isinstance(value, (float, np.floating)):
         value = float(value)
         return value if keep_non_finite or math.isfinite(value) else None
-    if value is None or isinstance(value, str):
-        return value
+    if isinstance(value, str):
+        return str(value)  # also text kinds with extra attributes, such as a plume validity note
+    if value is None:
+        return None
     raise TypeError(f"{where} holds a value of type {type(value).__name__} that cannot be written as JSON")

@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 
 from engine.jsonsafe import json_value
+from engine.physics.plume import validity_notes
 
 
 def test_numpy_values_round_trip_through_strict_json():
@@ -26,6 +27,13 @@ def test_numpy_values_round_trip_through_strict_json():
     assert back == {"int": -7, "uint": 200, "float": 0.5, "bool": True, "array": [[1.5, 2.0], [3.0, -0.25]],
                     "tuple": [3, "text", None], "4": "int key"}
     assert type(back["bool"]) is bool and type(back["int"]) is int
+
+
+def test_text_with_attributes_becomes_plain_text():
+    """A str subclass (a plume validity note with its code) is written as its text and comes back as plain str."""
+    notes = json_value({"notes": validity_notes(0.5)})["notes"]
+    assert all(type(note) is str for note in notes)
+    assert notes == [str(note) for note in validity_notes(0.5)]
 
 
 def test_non_finite_numbers_become_null_unless_kept():

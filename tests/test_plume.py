@@ -7,6 +7,7 @@ saturated thickness, dispersivities 5 m and 0.5 m) with a doublet of 10 L/s rein
 from __future__ import annotations
 
 import math
+import pickle
 
 import numpy as np
 import pytest
@@ -385,12 +386,19 @@ def test_validity_notes_warn_about_slow_flow_and_the_near_well_zone():
     near-well zone is the width Q / (b q) of the injected water's stream tube (mass balance: 0.01 m³/s over
     15 m at 0.5 m/d is 115 m)."""
     slow = plume.validity_notes(0.005)
-    assert slow[0] == cautions.PLUME
+    assert slow[0] == cautions.PLUME and slow[0].code is plume.NoteCode.CAUTION
     assert any("conduction" in note for note in slow)
+    assert [note.code for note in slow if "conduction" in note] == [plume.NoteCode.CONDUCTION_ONLY]
     fast = plume.validity_notes(0.5, injection_rate_m3_per_s=RATE, saturated_thickness_m=THICKNESS, distance_m=80.0)
     assert not any("conduction" in note and "below about 0.01" in note for note in fast)
     assert any("115 m" in note for note in fast)
     assert any("inside the near-well zone" in note for note in fast)
+    codes = [note.code for note in fast]
+    assert plume.NoteCode.CONDUCTION_ONLY not in codes
+    assert plume.NoteCode.NEAR_WELL_ZONE in codes and plume.NoteCode.POINT_IN_NEAR_ZONE in codes
+    assert codes[-1] is plume.NoteCode.ASSUMPTIONS
+    # a note survives a process boundary with its code (the interference check runs on worker processes)
+    assert [note.code for note in pickle.loads(pickle.dumps(fast))] == codes
 
 
 def test_validity_notes_for_an_early_time():
@@ -398,6 +406,7 @@ def test_validity_notes_for_an_early_time():
     0.5 m/d Darcy velocity takes about 300 / (0.5 * 4.18 / 2.8) = 402 days."""
     notes = plume.validity_notes(0.5, distance_m=300.0, time_s=100 * DAY)
     assert any("402 days" in note for note in notes)
+    assert [note.code for note in notes if "402 days" in note] == [plume.NoteCode.FRONT_NOT_ARRIVED]
 
 
 @pytest.mark.parametrize(

@@ -88,6 +88,8 @@ References
 
 from __future__ import annotations
 
+import enum
+
 import numpy as np
 from scipy import special
 
@@ -404,6 +406,57 @@ def plume_parameters_from_aquifer(aquifer, thermal_conductivity_w_per_m_k=DEFAUL
 
 
 # ----------------------------------------------------------------------------- validity
+class NoteCode(str, enum.Enum):
+    """What a validity note of :func:`validity_notes` is about; code compares these, never the words."""
+
+    CAUTION = "caution"
+    """The screening caution (:data:`engine.cautions.PLUME`), always first."""
+    CONDUCTION_ONLY = "conduction_only"
+    """Flow too slow for the advective model at all."""
+    SLOW_FLOW = "slow_flow"
+    """Slow flow: the steady line source overstates the reach."""
+    SLOW_SEEPAGE = "slow_seepage"
+    """Seepage velocity below the range where the analytic model matches numerical ones."""
+    NEAR_WELL_ZONE = "near_well_zone"
+    """The zone around the reinjection well where the model is not valid."""
+    POINT_IN_NEAR_ZONE = "point_in_near_zone"
+    """The point of interest lies inside that zone."""
+    POINT_IN_NEAR_FIELD = "point_in_near_field"
+    """The point of interest is closer than ten longitudinal dispersivities."""
+    FRONT_TRAVEL = "front_travel"
+    """The steady state assumes a far longer operation than the thermal front needs to reach the point."""
+    FRONT_NOT_ARRIVED = "front_not_arrived"
+    """The thermal front has not reached the point of interest in the operating time."""
+    STEADY_STATE = "steady_state"
+    """What the steady state overstates."""
+    ASSUMPTIONS = "assumptions"
+    """The model's assumptions, always last."""
+
+
+POINT_NOTES = frozenset({
+    NoteCode.POINT_IN_NEAR_ZONE, NoteCode.POINT_IN_NEAR_FIELD, NoteCode.FRONT_TRAVEL, NoteCode.FRONT_NOT_ARRIVED,
+})
+"""Codes of the notes about one point of interest (a neighbour's well), as opposed to the aquifer as a whole."""
+
+
+class ValidityNote(str):
+    """The text of a validity note, with its :class:`NoteCode` as ``code``.
+
+    A note is a ``str`` (shown, stored and written as JSON as its text); code that must tell notes apart reads
+    ``note.code``.
+    """
+
+    code: NoteCode
+
+    def __new__(cls, code: NoteCode, text: str) -> "ValidityNote":
+        note = super().__new__(cls, text)
+        note.code = NoteCode(code)
+        return note
+
+    def __getnewargs__(self):
+        return (self.code, str(self))
+
+
 def validity_notes(
     darcy_velocity_m_per_d,
     *,
@@ -446,8 +499,8 @@ def validity_notes(
 
     Returns
     -------
-    list of str
-        Warnings, most important first.
+    list of ValidityNote
+        Warnings, most important first: text (``str``) with a :class:`NoteCode` as ``code``.
 
     Raises
     ------
@@ -461,81 +514,91 @@ def validity_notes(
     q_per_day = finite_scalar(darcy_velocity_m_per_d, "darcy_velocity_m_per_d", minimum=0.0)
     c_a = finite_scalar(aquifer_heat_capacity_j_per_m3_k, "aquifer_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
     c_w = finite_scalar(water_heat_capacity_j_per_m3_k, "water_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
-    notes = [cautions.PLUME]
+    notes = [ValidityNote(NoteCode.CAUTION, cautions.PLUME)]
     if q_per_day < 0.01:
-        notes.append(
+        notes.append(ValidityNote(
+            NoteCode.CONDUCTION_ONLY,
             f"Darcy velocity {q_per_day:g} m/d is below about 0.01 m/d (rule of thumb, from memory): heat spreads "
             "mainly by conduction around the well, the advective line-source model does not apply, and its "
             "steady state does not exist without flow. Use a radial or numerical model."
-        )
+        ))
     elif q_per_day < 0.1:
-        notes.append(
+        notes.append(ValidityNote(
+            NoteCode.SLOW_FLOW,
             f"Darcy velocity {q_per_day:g} m/d is low (below about 0.1 m/d, rule of thumb, from memory): "
             "conduction matters and the steady line-source model, which has no heat loss to the confining layers, "
             "overstates how far the plume reaches (Pophillat et al. 2020 discuss the validity range)."
-        )
+        ))
     if effective_porosity is not None:
         porosity = finite_scalar(effective_porosity, "effective_porosity", minimum=0.0, strictly=True)
         if porosity > 1.0:
             raise ValueError(f"effective_porosity must be at most 1; got {porosity:g}")
         seepage = q_per_day / porosity
         if seepage < 1.0:
-            notes.append(
+            notes.append(ValidityNote(
+                NoteCode.SLOW_SEEPAGE,
                 f"Seepage velocity {seepage:.3g} m/d is below about 1 m/d; Pophillat et al. (2020) found the "
                 "analytic line-source model to deviate from numerical models at slow flow (threshold recalled "
                 "from memory)."
-            )
+            ))
     near_zone_m = None
     if injection_rate_m3_per_s is not None and saturated_thickness_m is not None and q_per_day > 0.0:
         rate = finite_scalar(injection_rate_m3_per_s, "injection_rate_m3_per_s", minimum=0.0)
         thickness = finite_scalar(saturated_thickness_m, "saturated_thickness_m", minimum=0.0, strictly=True)
         near_zone_m = rate / (thickness * q_per_day / SECONDS_PER_DAY)
-        notes.append(
+        notes.append(ValidityNote(
+            NoteCode.NEAR_WELL_ZONE,
             f"Within about {near_zone_m:.0f} m of the reinjection well (the width Q/(b q) of the injected water's "
             "stream tube) the injected water pushes the groundwater aside; the line source ignores this and is "
             "not valid there. Values at the well are clipped to the injection temperature difference."
-        )
+        ))
     if distance_m is not None:
         distance = finite_scalar(distance_m, "distance_m", minimum=0.0)
         if near_zone_m is not None and distance < near_zone_m:
-            notes.append(
+            notes.append(ValidityNote(
+                NoteCode.POINT_IN_NEAR_ZONE,
                 f"The point of interest ({distance:.0f} m away) lies inside the near-well zone: treat the estimate "
                 "as an order of magnitude at best."
-            )
+            ))
         if longitudinal_dispersivity_m is not None:
             alpha_l = finite_scalar(longitudinal_dispersivity_m, "longitudinal_dispersivity_m", minimum=0.0)
             if alpha_l > 0.0 and distance < 10.0 * alpha_l:
-                notes.append(
+                notes.append(ValidityNote(
+                    NoteCode.POINT_IN_NEAR_FIELD,
                     f"The distance ({distance:.0f} m) is less than ten longitudinal dispersivities; dispersivities "
                     "depend on scale and the near field is poorly described by constant values (common practice)."
-                )
+                ))
         thermal_velocity = q_per_day * c_w / c_a
         if thermal_velocity > 0.0:
             arrival_s = distance / thermal_velocity * SECONDS_PER_DAY
             if time_s is None:
-                notes.append(
+                notes.append(ValidityNote(
+                    NoteCode.FRONT_TRAVEL,
                     f"The steady state assumes continuous, constant injection for much longer than the thermal "
                     f"front needs to travel {distance:.0f} m (about {arrival_s / (365.25 * SECONDS_PER_DAY):.2g} "
                     "years); seasonal operation (heating in winter, cooling in summer) gives smaller plumes."
-                )
+                ))
             else:
                 operating = finite_scalar(time_s, "time_s", minimum=0.0, strictly=True)
                 if operating < arrival_s:
-                    notes.append(
+                    notes.append(ValidityNote(
+                        NoteCode.FRONT_NOT_ARRIVED,
                         f"After {operating / SECONDS_PER_DAY:.0f} days the thermal front has not yet reached "
                         f"{distance:.0f} m (it needs about {arrival_s / SECONDS_PER_DAY:.0f} days); the estimate "
                         "there is mostly dispersion ahead of the front and sensitive to the dispersivity."
-                    )
+                    ))
     if time_s is None:
-        notes.append(
+        notes.append(ValidityNote(
+            NoteCode.STEADY_STATE,
             "Steady state: the plume of years of continuous, constant injection with no heat loss to the layers "
             "above and below. Its isotherms can stretch for kilometres down-gradient and overstate real plumes, "
             "which seasonal operation and vertical heat exchange keep shorter; prefer the transient estimate for "
             "the operating period or use the annual net heat."
-        )
-    notes.append(
+        ))
+    notes.append(ValidityNote(
+        NoteCode.ASSUMPTIONS,
         "Assumes a homogeneous confined aquifer of constant thickness, uniform flow in one direction, fully "
         "penetrating wells, constant injection, no heat exchange with the layers above and below, and no "
         "change of the flow field by pumping (the pull of extraction wells is ignored)."
-    )
+    ))
     return notes

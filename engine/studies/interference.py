@@ -300,11 +300,9 @@ def _notes(scenario: Scenario, matrix: np.ndarray, rate: np.ndarray, delta: np.n
             aquifer_heat_capacity_j_per_m3_k=aquifer.aquifer_heat_capacity_mj_per_m3_k * 1e6,
             water_heat_capacity_j_per_m3_k=aquifer.water_heat_capacity_mj_per_m3_k * 1e6,
         )
-        for text in pair:
-            if text in notes or text.startswith("Assumes") or text == cautions.PLUME:
-                continue
-            if "point of interest" in text or "distance (" in text or "thermal front" in text:
-                notes.append(f"{ids[i]} -> {ids[j]}: {text}")
+        for note in pair:
+            if note.code in plume.POINT_NOTES:  # the aquifer-wide notes are already in the list
+                notes.append(plume.ValidityNote(note.code, f"{ids[i]} -> {ids[j]}: {note}"))
     with np.errstate(invalid="ignore"):
         clipped = (strength[:, None] > 0) & (matrix * strength[:, None] >= np.abs(delta)[:, None])
     np.fill_diagonal(clipped, False)
@@ -493,7 +491,7 @@ def solve_with_interference(
         "max_iterations": max_iterations,
         "method": "fixed-point iteration with under-relaxation; transient line-source plumes of each doublet's "
                   "annual net injection; own recirculation excluded",
-        "notes": _notes(scenario, matrix, rate, delta, shift, horizon_years) if n else [cautions.PLUME],
+        "notes": _notes(scenario, matrix, rate, delta, shift, horizon_years) if n else [plume.ValidityNote(plume.NoteCode.CAUTION, cautions.PLUME)],
         "wells": _wells_detail(scenario, rate, delta, shift, matrix) if n else [],
         "baseline": baseline,
         "seconds": 0.0,
