@@ -137,8 +137,9 @@ def synthetic_result(seed: int = 0, n_steps: int = 24) -> RunResult:
         cost_case="high_co2",
         input_hash=f"{seed:064x}",
         scenario_name="Example city",
-        settings={"typical_days": 12, "discount_rate": 0.05, "co2_cap_t_per_a": math.inf, "label": "reference"},
-        timings_s={"build": 0.25, "solve": 1.5},
+        settings={"typical_days": 12, "discount_rate": 0.05, "co2_cap_t_per_a": math.inf, "label": "reference",
+                  "min_share": -0.0, "floor_temp_c": -math.inf},
+        timings_s={"build": 0.25, "solve": 1.5, "extract": math.nan},
         model_size={"variables": 1234, "constraints": 987},
         tables={
             "districts": districts,
@@ -173,10 +174,27 @@ def assert_same_result(actual: RunResult, expected: RunResult) -> None:
                            check_index_type=True, check_categorical=True, check_freq=False)
     for field in ("status", "message", "objective", "cost_case", "input_hash", "scenario_name"):
         assert getattr(actual, field) == getattr(expected, field), field
-    assert json.dumps(actual.settings) == json.dumps(expected.settings)
-    assert actual.timings_s == expected.timings_s
-    assert actual.model_size == expected.model_size
-    assert actual.extras == expected.extras
+    for field in ("settings", "timings_s", "model_size", "extras"):
+        assert_same_value(getattr(actual, field), getattr(expected, field), field)
+
+
+def assert_same_value(actual, expected, where: str) -> None:
+    """Equal JSON-like values, numbers compared as IEEE 754 values: NaN matches only NaN, +-inf and the sign of
+    zero must agree, and a number keeps its kind (int or float)."""
+    if isinstance(expected, dict):
+        assert isinstance(actual, dict) and list(actual) == list(expected), where
+        for key in expected:
+            assert_same_value(actual[key], expected[key], f"{where}.{key}")
+    elif isinstance(expected, (list, tuple)):
+        assert isinstance(actual, list) and len(actual) == len(expected), where
+        for k, (a, e) in enumerate(zip(actual, expected)):
+            assert_same_value(a, e, f"{where}[{k}]")
+    elif isinstance(expected, float):
+        assert type(actual) is float, (where, actual)
+        assert (math.isnan(actual) and math.isnan(expected)) or (
+            actual == expected and math.copysign(1.0, actual) == math.copysign(1.0, expected)), (where, actual)
+    else:
+        assert type(actual) is type(expected) and actual == expected, (where, actual, expected)
 
 
 @pytest.fixture
@@ -309,8 +327,9 @@ def test_unknown_run_ids_give_store_errors(store_path):
     """Every call with an unknown run id raises StoreError with a plain message (common practice)."""
     with ScenarioStore(store_path) as store:
         store.save_run(synthetic_result(0), "only")
-        for call in (store.load_run, store.load_inputs, store.delete_run,
-                     lambda i: store.rename_run(i, "x"), lambda i: store.set_note(i, "x")):
+        for call in (store.load_run, store.load_inputs, store.delete_run, store.run_info,
+                     lambda i: store.rename_run(i, "x"), lambda i: store.set_note(i, "x"),
+                     lambda i: store.set_tags(i, "x"), lambda i: store.materialise_inputs(i, store_path.parent)):
             with pytest.raises(StoreError, match="no run 999"):
                 call(999)
         with pytest.raises(StoreError, match="whole number"):
@@ -392,8 +411,9 @@ def test_inputs_are_whitelisted_and_materialised(tmp_path, store_path):
 def test_default_path_follows_environment(monkeypatch, tmp_path):
     """$HEATMOSAIC_STORE wins; otherwise $XDG_DATA_HOME, else ~/.local/share (XDG Base Directory Spec 0.8)."""
     monkeypatch.setattr(sys, "platform", "linux")
+    monkeypatch.setenv("XDG_DATA_HOME", str(tmp_path / "xdg"))
     monkeypatch.setenv("HEATMOSAIC_STORE", str(tmp_path / "custom" / "my.sqlite"))
-    assert default_store_path() == tmp_path / "custom" / "my.sqlite"
+    assert default_store_path() == tmp_path / "custom" / "my.sqlite"  # wins over XDG_DATA_HOME, set as well
     monkeypatch.delenv("HEATMOSAIC_STORE")
     monkeypatch.setenv("XDG_DATA_HOME", str(tmp_path / "xdg"))
     assert default_store_path() == tmp_path / "xdg" / "heatmosaic" / "scenarios.sqlite"
