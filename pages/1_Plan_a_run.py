@@ -10,8 +10,13 @@ import streamlit as st
 
 
 from engine import cautions
-from pages._support.inputs import InputSet, cost_case_descriptions, demo_input_set, input_set_from_bundle, problems_for_display
-from pages._support.edits import apply_edits, check_edits, editable_technology_table, editable_well_table, edited_cells, initial_setup, scenario_files_with_edits
+from pages._support.inputs import (
+    InputSet, cost_case_descriptions, demo_input_set, input_set_from_bundle, problems_for_display,
+)
+from pages._support.edits import (
+    apply_edits, check_edits, editable_technology_table, editable_well_table, edited_cells, initial_setup,
+    scenario_files_with_edits,
+)
 from pages._support.cache import SolvedRun, request_key, solve_with_cache
 from pages._support.describe import markdown_literal, run_kpis, suggested_run_name
 from pages._support.tables import district_results_table, table_height

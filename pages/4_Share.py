@@ -8,7 +8,9 @@ import streamlit as st
 from engine import cautions
 from pages._support.cache import load_saved_run, scenario_for_files
 from pages._support.describe import markdown_literal
-from pages._support.library import bundle_bytes, import_library_bytes, library_bytes, run_choices, safe_file_name, unique_run_names
+from pages._support.library import (
+    bundle_bytes, import_library_bytes, library_bytes, run_choices, safe_file_name, unique_run_names,
+)
 from engine.outputs.export import tables_csv_zip, tables_xlsx
 from engine.outputs.report import html_report
 from engine.storage.store import ScenarioStore

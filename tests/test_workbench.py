@@ -18,12 +18,22 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from pages._support.inputs import InputSet, demo_input_set, input_set_from_bundle, input_set_from_files, scenario_from_files
-from pages._support.edits import TECHNOLOGY_EDIT_COLUMNS, WELL_EDIT_COLUMNS, apply_edits, check_edits, editable_technology_table, editable_well_table, edited_cells, initial_setup, scenario_files_with_edits
-from pages._support.cache import choices_of_run, remember, request_key, resolve_saved_run, scenario_for_files, solve_with_cache
+from pages._support.inputs import (
+    InputSet, demo_input_set, input_set_from_bundle, input_set_from_files, scenario_from_files,
+)
+from pages._support.edits import (
+    TECHNOLOGY_EDIT_COLUMNS, WELL_EDIT_COLUMNS, apply_edits, check_edits, editable_technology_table,
+    editable_well_table, edited_cells, initial_setup, scenario_files_with_edits,
+)
+from pages._support.cache import (
+    choices_of_run, remember, request_key, resolve_saved_run, scenario_for_files, solve_with_cache,
+)
 from pages._support.describe import describe_choices, suggested_run_name
-from pages._support.tables import district_results_table, supply_results_table, svg_map_height, table_height, well_results_table
-from pages._support.library import default_baseline, import_library_bytes, library_bytes, library_table, run_choices, safe_file_name, unique_run_names
+from pages._support.tables import district_results_table, supply_results_table, table_height, well_results_table
+from pages._support.library import (
+    default_baseline, import_library_bytes, library_bytes, library_table, run_choices, safe_file_name,
+    unique_run_names,
+)
 from engine.storage.bundle import export_bundle
 from engine.scenario.inputs import input_hash
 from engine.scenario.problems import InputError
@@ -353,8 +363,6 @@ def test_names_and_labels():
     """Small display helpers (common practice)."""
     assert unique_run_names({1: "a", 2: "b", 3: "a"}) == {1: "a (#1)", 2: "b", 3: "a (#3)"}
     assert safe_file_name("High CO2 / 2040 ", ".zip") == "High_CO2___2040.zip"
-    assert svg_map_height("<div><svg width='640' height='523.4' viewBox='0 0 1 1'>") == 524
-    assert svg_map_height("<div>no map</div>", default=300) == 300
     runs = {3: RunResult("optimal", "", cost_case="high_co2"), 5: RunResult("optimal", "", cost_case="reference"),
             7: RunResult("optimal", "", cost_case="reference")}
     assert default_baseline(runs) == 5

@@ -11,16 +11,18 @@ Session state of the dashboard
 The pages keep their state under these keys of ``st.session_state`` (plain Python values, no widgets):
 
 ``hm_input``
-    The input set the set-up page works on: an :class:`InputSet` (label, scenario files as bytes, the
-    validated :class:`~engine.scenario.inputs.Scenario` or None, the problems table, the bundle manifest).
+    The input set the set-up page works on: an :class:`~pages._support.inputs.InputSet` (label, scenario
+    files as bytes, the validated :class:`~engine.scenario.inputs.Scenario` or None, the problems table, the
+    bundle manifest).
 ``hm_setup``
     The set-up choices, kept while the planner visits other pages: ``cost_case``, ``objective``,
     ``co2_cap_t_per_a``, ``full_year``, ``typical_days``, ``technology_table``, ``well_table``
     (the edited tables as DataFrames) and ``technology_base``, ``well_base`` (the data the table editors were
     started from; it stays fixed while an editor lives, so the browser keeps the edits).
 ``hm_solved``
-    The session's solve cache, ``{request key: SolvedRun}`` (see :func:`request_key` and
-    :func:`solve_with_cache`), so that going back to a cost case already solved is instant.
+    The session's solve cache, ``{request key: SolvedRun}`` (see :func:`~pages._support.cache.request_key`
+    and :func:`~pages._support.cache.solve_with_cache`), so that going back to a cost case already solved is
+    instant.
 ``hm_current``
     The request key of the newest solve: the "current run", shown on the results page until it is saved.
 ``hm_scenarios``

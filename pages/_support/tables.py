@@ -1,9 +1,6 @@
-"""Result tables for reading: the planner's headers and units, rounded; sizes of tables and maps on a page."""
+"""Result tables for reading: the planner's headers and units, rounded; the height a table needs on a page."""
 
 from __future__ import annotations
-
-import math
-import re
 
 import numpy as np
 import pandas as pd
@@ -110,11 +107,7 @@ def _rounded(frame: pd.DataFrame) -> pd.DataFrame:
         out[column] = out[column].round(1 if fine else 0)
     return out
 
+
 def table_height(frame: pd.DataFrame, max_rows: int = 25) -> int:
     """Pixel height that shows ``frame`` without an inner scroll bar, up to ``max_rows`` rows."""
     return 38 + 35 * min(len(frame), max_rows)
-
-def svg_map_height(svg_html: str, default: int = 600) -> int:
-    """The pixel height of the first ``<svg>`` of an inline map (for the frame that shows it)."""
-    found = re.search(r"<svg[^>]*\bheight=['\"]([0-9.]+)", svg_html)
-    return int(math.ceil(float(found.group(1)))) if found else default
