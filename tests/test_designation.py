@@ -8,7 +8,6 @@ re-derives the points from that text rather than calling the engine's function.
 
 from __future__ import annotations
 
-import dataclasses
 
 import numpy as np
 import pandas as pd

@@ -26,14 +26,13 @@ import numpy as np
 import pandas as pd
 
 from engine.model.extract import extract_tables
-from engine.model.lp import LpSolution
 from engine.model.multiperiod import build_charge, build_multiperiod, builds, year_solution, year_weights
 from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
 from engine.model.solve import diagnose_failure, failure_message, merge_tables, run_settings
 from engine.model.formulation import build_model, solve_model
 from engine.scenario.inputs import Scenario
-from engine.scenario.kinds import FUELS
+from engine.scenario.kinds import COOLING_KINDS, FUELS
 from engine.scenario.pathway_inputs import PathwayInputs, check_years, load_pathway
 from engine.scenario.problems import InputError, Problem
 from engine.scenario.folder import load_scenario, resolve_scenario_path
@@ -336,7 +335,9 @@ def _tables(result, scenario, scenarios, prepared_years, built) -> None:
             result.notes.append(f"{year}: {run.unserved_heat_mwh_per_a:,.0f} MWh/a of heat is left unserved"
                                 + (f" (the CO2 cap of {cap_t:,.0f} t/a may force it)." if cap_t else "."))
     summary = pd.DataFrame(summary_rows)
-    heat_cols = sorted(c for c in summary.columns if c.startswith("heat_") and c != "heat_demand_mwh_per_a")
+    cooling = {f"heat_{t}_mwh_per_a" for t, k in zip(techs.index, techs["kind"]) if k in COOLING_KINDS}
+    heat_cols = sorted(c for c in summary.columns if c.startswith("heat_") and c != "heat_demand_mwh_per_a"
+                       and c not in cooling)
     summary[heat_cols] = summary[heat_cols].fillna(0.0)
     result.summary = summary[list(SUMMARY_COLUMNS) + heat_cols + ["co2_cap_t_per_a", "discounted_years"]]
     result.capacity = pd.DataFrame(rows, columns=list(CAPACITY_COLUMNS))
