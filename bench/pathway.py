@@ -24,7 +24,7 @@ if str(ROOT) not in sys.path:  # run as a script from anywhere, like bench/run.p
 from engine.model.solve import solve_scenario  # noqa: E402
 from engine.scenario.folder import load_scenario  # noqa: E402
 from engine.studies.designation import designate  # noqa: E402
-from engine.studies.pathway import solve_pathway  # noqa: E402
+from engine.studies.pathway import resolve_pathway, solve_pathway  # noqa: E402
 
 YEARS = [2030, 2035, 2040, 2045]
 
@@ -40,6 +40,14 @@ def bench_pathway(scenario, typical_days):
     print(f"four-year pathway: {pathway_s:.2f} s ({pathway.status}; {len(YEARS)} years, caps in "
           f"{sorted(pathway.co2_caps)}; solve {pathway.timings_s.get('solve', float('nan')):.2f} s)")
     print(f"pathway_over_single={pathway_s / single_s:.2f}")
+    # the same years without the city-wide caps: one LP per district over all years, as the single year
+    free = resolve_pathway(scenario, YEARS)
+    free.city["co2_cap_t_per_a"] = float("nan")
+    started = time.perf_counter()
+    uncapped = solve_pathway(scenario, free, typical_days=typical_days)
+    free_s = time.perf_counter() - started
+    print(f"four-year pathway without caps (per-district LPs): {free_s:.2f} s ({uncapped.status}); "
+          f"uncapped_over_single={free_s / single_s:.2f}")
 
 
 def bench_designation(scenario, typical_days, workers):

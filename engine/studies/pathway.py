@@ -16,8 +16,10 @@ from __future__ import annotations
 
 import argparse
 import dataclasses
+import os
 import sys
 import time
+from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable
@@ -193,6 +195,19 @@ def _solve_part(prepared_years, years, base_year, horizon_end, districts, myopic
     return "optimal", "", tables, built, solve_s
 
 
+_WORKER: dict = {}
+
+
+def _worker_init(prepared_years):
+    _WORKER["prepared_years"] = prepared_years
+
+
+def _worker_solve(payload):
+    years, base_year, horizon_end, part, myopic, time_limit_s = payload
+    return _solve_part(_WORKER["prepared_years"], years, base_year, horizon_end, np.array(part), myopic,
+                       time_limit_s, None)
+
+
 def resolve_pathway(scenario: Scenario, years=None) -> PathwayInputs:
     """The scenario's pathway, with ``years`` (a list) replacing its milestone years; InputError if unusable."""
     folder = Path(scenario.source) if scenario.source else None
@@ -226,11 +241,13 @@ def solve_pathway(
     progress: Progress | None = None,
     cancel: Callable[[], bool] | None = None,
     time_limit_s: float | None = None,
+    workers: int | None = None,
 ) -> PathwayResult:
     """Solve the pathway of ``scenario`` (its own, or ``pathway``; ``years`` overrides the milestone years).
 
     Never raises for solver failures: an infeasible pathway comes back with ``status`` and a ``message`` naming the
-    year and the reason. Raises :class:`InputError` when the pathway inputs themselves are wrong.
+    year and the reason. Without a city-wide constraint each district is its own LP over all years; more than four
+    of them are solved on ``workers`` local processes (default: the cores), as :func:`solve_scenario` does. Raises :class:`InputError` when the pathway inputs themselves are wrong.
     """
     started = time.perf_counter()
     report = progress or (lambda share, text: None)
@@ -257,12 +274,31 @@ def solve_pathway(
     prepare_s = time.perf_counter() - started
     n_d = len(scenario.districts)
     parts = [list(range(n_d))] if _coupled([p.settings for p in prepared_years]) else [[i] for i in range(n_d)]
+    if workers is None:
+        workers = min(len(parts), os.cpu_count() or 1) if len(parts) > 4 else 1
+    args = (years, pathway.base_year, horizon_end)
+    done: dict = {}
+    if workers > 1 and len(parts) > 1:
+        with ProcessPoolExecutor(max_workers=workers, initializer=_worker_init, initargs=(prepared_years,)) as pool:
+            futures = {pool.submit(_worker_solve, (*args, part, myopic, time_limit_s)): k
+                       for k, part in enumerate(parts)}
+            for future in as_completed(futures):
+                done[futures[future]] = future.result()
+                report(0.05 + 0.9 * len(done) / len(parts), f"Solved {len(done)} of {len(parts)} linear program(s)")
+                if cancel is not None and cancel():
+                    for f in futures:
+                        f.cancel()
+                    break
+    else:
+        for k, part in enumerate(parts):
+            done[k] = _solve_part(prepared_years, *args, np.array(part), myopic, time_limit_s, cancel)
+            report(0.05 + 0.9 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)} linear program(s)")
+            if done[k][0] != "optimal":
+                break
     outcomes, solve_s = [], 0.0
     for k, part in enumerate(parts):
-        outcome = _solve_part(prepared_years, years, pathway.base_year, horizon_end, np.array(part), myopic,
-                              time_limit_s, cancel)
+        outcome = done.get(k, ("interrupted", "The solve was cancelled.", None, None, 0.0))
         solve_s += outcome[4]
-        report(0.05 + 0.9 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)} linear program(s)")
         if outcome[0] != "optimal":
             result.status = outcome[0]
             where = "" if len(parts) == 1 else " (district " + scenario.districts["district_id"].iloc[part[0]] + ")"
