@@ -8,6 +8,8 @@ re-derives the points from that text rather than calling the engine's function.
 
 from __future__ import annotations
 
+import dataclasses
+
 
 import numpy as np
 import pandas as pd
@@ -110,3 +112,11 @@ def test_a_cost_case_that_flips_a_district_lowers_its_grade(demo):
         d, "reference"]]
     for d in same:
         assert after.loc[d, "grade"] == before.loc[d, "grade"]
+
+
+def test_near_optimal_share_with_a_city_wide_cap_solves_one_lp():
+    # a cap far above the emissions couples the districts without binding: the city-wide LP gives the same bound
+    scenario = _two_boilers()
+    scenario.settings = dataclasses.replace(scenario.settings, co2_cap_t_per_a=1e9)
+    ranges = near_optimal_ranges(scenario, slack_pct=5.0, workers=1).ranges.set_index(["scope", "subject"])
+    assert ranges.loc[("city", "eboiler"), "maximum"] == pytest.approx(0.5, abs=1e-6)
