@@ -1,4 +1,4 @@
-"""Command line: ``python -m engine validate|solve|tradeoff|sweep ...``.
+"""Command line: ``python -m engine validate|solve|tradeoff|sweep|init ...``.
 
 Exit codes: 0 solved (or valid), 2 input errors (printed, no traceback), 3 the solver failed.
 """
@@ -34,11 +34,13 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--time-limit-s", type=float, default=None)
     p.add_argument("--quiet", action="store_true")
 
+    from engine.scenario.init_cli import add_init_parser
     from engine.studies.sweep import add_sweep_parser
     from engine.studies.tradeoff import add_tradeoff_parser
 
     add_tradeoff_parser(sub)
     add_sweep_parser(sub)
+    add_init_parser(sub)
     return parser
 
 
@@ -133,6 +135,10 @@ def main(argv=None) -> int:
             from engine.studies.sweep import cmd_sweep
 
             return cmd_sweep(args)
+        if args.command == "init":
+            from engine.scenario.init_cli import cmd_init
+
+            return cmd_init(args)
     except KeyboardInterrupt:
         print("Cancelled.", file=sys.stderr)
         return EXIT_SOLVER

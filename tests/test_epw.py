@@ -10,50 +10,12 @@ precipitable water, aerosol optical depth, snow, albedo and liquid precipitation
 
 from __future__ import annotations
 
-import calendar
 
 import numpy as np
 import pytest
 
 from engine.scenario import epw
-
-HEADER = [
-    "LOCATION,Examplestadt,XX,Nowhere,invented test station,999999,48.14,11.58,1.0,520.0",
-    "DESIGN CONDITIONS,0",
-    "TYPICAL/EXTREME PERIODS,0",
-    "GROUND TEMPERATURES,0",
-    "HOLIDAYS/DAYLIGHT SAVINGS,No,0,0,0",
-    "COMMENTS 1,written by the test",
-    "COMMENTS 2,",
-    "DATA PERIODS,1,1,Data,Sunday, 1/ 1,12/31",
-]
-FLAGS = "A7A7A7A7*0?9?9?9?9?9?9?9A7A7A7A7A7A7*0E8*0*0"
-# Fields 8-35 after the dry bulb, in the data dictionary's order (dew point ... liquid precipitation quantity).
-REST = "-5.0,86,99100,0,1415,265,0,0,0,0,0,0,0,270,2.1,10,10,16.1,300,9,999999999,6,0.0680,0,88,0.160,0.0,1.0"
-
-
-def temperatures(n: int) -> np.ndarray:
-    hours = np.arange(n)
-    return np.round(8.0 - 10.0 * np.cos(2 * np.pi * hours / n) + 4.0 * np.sin(2 * np.pi * hours / 24), 1)
-
-
-def epw_text(year: int = 2019, temps: np.ndarray | None = None, drop: int = 0, years_by_month=None) -> str:
-    days = 366 if calendar.isleap(year) else 365
-    n = days * 24
-    temps = temperatures(n) if temps is None else temps
-    lines = list(HEADER)
-    index = 0
-    for month in range(1, 13):
-        row_year = years_by_month[month - 1] if years_by_month else year
-        for day in range(1, calendar.monthrange(year, month)[1] + 1):
-            for hour in range(1, 25):
-                lines.append(f"{row_year},{month},{day},{hour},60,{FLAGS},{temps[index]:.1f},{REST}")
-                index += 1
-    assert index == n and len(lines[-1].split(",")) == epw.FIELDS_PER_ROW
-    if drop:
-        lines = lines[:-drop]
-    return "\n".join(lines) + "\n"
-
+from layer_files import FLAGS, epw_text, temperatures
 
 def test_normal_year_reads_the_dry_bulb_in_row_order():
     """8760 rows; the dry bulb is field 7; the LOCATION line gives station, latitude, longitude, zone, elevation."""

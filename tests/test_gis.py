@@ -15,66 +15,21 @@ pyproj below agree to their printed precision, which is what makes the quotation
 
 from __future__ import annotations
 
-import json
 import zipfile
-from pathlib import Path
 
 import numpy as np
-import pyogrio.raw
 import pyproj
 import pytest
 import shapely
 from shapely.geometry import Point, Polygon
 
 from engine.scenario import gis
+from layer_files import square_utm, write_geojson, write_layer, zip_shapefile
 
 GN72_LON_LAT = (0.5, 50.5)
 GN72_EN = (577274.99, 69740.49)
 SNYDER_LON_LAT = (-73.5, 40.5)
 SNYDER_EN = (627106.5, 4484124.4)
-
-
-def square_utm(x0: float, y0: float, size: float = 500.0) -> Polygon:
-    return Polygon([(x0, y0), (x0 + size, y0), (x0 + size, y0 + size), (x0, y0 + size)])
-
-
-def write_geojson(path: Path, shapes, props, crs_name: str | None = None) -> Path:
-    data = {
-        "type": "FeatureCollection",
-        "features": [
-            {"type": "Feature", "properties": p, "geometry": shapely.geometry.mapping(s)} for s, p in zip(shapes, props)
-        ],
-    }
-    if crs_name is not None:
-        data["crs"] = {"type": "name", "properties": {"name": crs_name}}
-    path.write_text(json.dumps(data))
-    return path
-
-
-def write_layer(path: Path, shapes, props, crs: str | None, driver: str) -> Path:
-    names = list(props[0])
-    fields = [np.array([p[n] for p in props], dtype=object if isinstance(props[0][n], str) else float) for n in names]
-    kinds = {s.geom_type for s in shapes}
-    geometry_type = "Point" if kinds == {"Point"} else "MultiPolygon" if "MultiPolygon" in kinds else "Polygon"
-    pyogrio.raw.write(
-        str(path), np.array(shapely.to_wkb(list(shapes)), dtype=object), fields, fields=names,
-        geometry_type=geometry_type, crs=crs, driver=driver,
-    )
-    return path
-
-
-def zip_shapefile(folder: Path, stem: str, shapes, props, crs: str | None) -> Path:
-    shp = write_layer(folder / f"{stem}.shp", shapes, props, crs, "ESRI Shapefile")
-    archive = folder / f"{stem}.zip"
-    with zipfile.ZipFile(archive, "w") as z:
-        for part in folder.glob(f"{stem}.*"):
-            if part.suffix != ".zip":
-                z.write(part, part.name)
-    for part in folder.glob(f"{stem}.*"):
-        if part.suffix != ".zip":
-            part.unlink()
-    assert not shp.exists()
-    return archive
 
 
 # ----------------------------------------------------------------------------- published reference coordinates
