@@ -225,3 +225,13 @@ def test_parse_crs_accepts_common_spellings_and_refuses_others():
     assert gis.parse_crs("EPSG:0")[0] is None
     assert gis.parse_crs("")[0] is None
     assert gis.crs_label(reference) == "EPSG:25832 (ETRS89 / UTM zone 32N)"
+
+
+def test_scenario_crs_does_not_turn_a_wgs84_geojson_into_metres(tmp_path):
+    """RFC 7946: a GeoJSON file without the crs member is WGS 84; the scenario's declared CRS applies only to a
+    file whose coordinates are plainly not degrees."""
+    shape = Polygon([(11.0, 48.0), (11.01, 48.0), (11.01, 48.01), (11.0, 48.01)])
+    path = write_geojson(tmp_path / "districts.geojson", [shape], [{"district_id": "a"}])
+    layer, problems = gis.read_layer(path, fallback_crs="EPSG:25832")
+    assert problems == [] and layer.crs.startswith("EPSG:4326")
+    assert layer.geometries[0]["coordinates"][0][1] == [11.01, 48.0]

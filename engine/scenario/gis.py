@@ -17,7 +17,8 @@ A coordinate system is never guessed. The rules, in order:
 1. The layer declares a CRS (the ``crs`` member, the GeoPackage's spatial reference, the Shapefile's ``.prj``):
    it is used. A declared CRS that pyproj does not know is refused.
 2. The layer declares none, and the caller gives a fallback (``[gis] crs`` in scenario.toml or ``--crs`` of
-   ``python -m engine init``): the fallback is used.
+   ``python -m engine init``): the fallback is used, except for a GeoJSON file whose coordinates are plausible
+   longitude/latitude, which is WGS 84 as RFC 7946 says.
 3. Neither: coordinates that are plausible longitude/latitude (|x| <= 180, |y| <= 90) are taken as WGS 84, and
    the layer says so in its notes; anything else is refused with a message that asks for the CRS.
 
@@ -308,6 +309,10 @@ def _source_crs(
             ))
             return None
         return declared_crs
+    if has_member is False and suffix in (".geojson", ".json") and plausible_lon_lat(xs, ys):
+        # RFC 7946: a GeoJSON file without the member is WGS 84; the scenario's CRS is for files in metres
+        notes.append(f"{file}: no crs member and longitude/latitude coordinates: read as WGS 84 (RFC 7946)")
+        return pyproj.CRS.from_user_input(WGS84)
     if fallback:
         crs, why = parse_crs(fallback)
         if crs is None:
