@@ -82,6 +82,8 @@ class Layer:
     geometries: list[dict]
     rows: list[int]
     notes: list[str] = field(default_factory=list)
+    source_is_wgs84: bool = False
+    """True when the coordinates were WGS 84 longitude/latitude already (nothing was reprojected)."""
 
     def __len__(self) -> int:
         return len(self.rows)
@@ -180,7 +182,7 @@ def _ask_for_crs(file: str, x: np.ndarray, y: np.ndarray, declared: str) -> str:
 
 
 # ============================================================================= opening a layer
-def _geojson_crs_member(path: Path) -> tuple[bool, Any]:
+def geojson_crs_member(path: Path) -> tuple[bool, Any]:
     """Whether a GeoJSON file has a top-level ``crs`` member, and its value.
 
     GDAL reads the member itself but silently falls back to WGS 84 when it does not know the system, so the
@@ -284,7 +286,7 @@ def _source_crs(
     suffix = path.suffix.lower()
     has_member = False
     if suffix in (".geojson", ".json"):
-        has_member, member = _geojson_crs_member(path)
+        has_member, member = geojson_crs_member(path)
         if has_member:
             text = _crs_member_text(member)
             crs, why = parse_crs(text) if text else (None, f"the crs member {json.dumps(member)[:80]} names no system")
@@ -428,6 +430,7 @@ def read_layer(
         geometries=[_plain_mapping(shape) for shape in shapes],
         rows=list(range(1, count + 1)),
         notes=notes,
+        source_is_wgs84=is_wgs84(crs),
     )
     return layer, []
 
