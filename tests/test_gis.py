@@ -235,3 +235,12 @@ def test_scenario_crs_does_not_turn_a_wgs84_geojson_into_metres(tmp_path):
     layer, problems = gis.read_layer(path, fallback_crs="EPSG:25832")
     assert problems == [] and layer.crs.startswith("EPSG:4326")
     assert layer.geometries[0]["coordinates"][0][1] == [11.01, 48.0]
+
+
+def test_boolean_and_integer_fields_with_nulls_keep_their_type(tmp_path):
+    """GDAL gives a boolean or integer field with nulls back as floats; the layer returns true/false and 3."""
+    shapes = [Point(11.0, 48.0), Point(11.1, 48.1)]
+    props = [{"flag": True, "count": 3}, {"flag": None, "count": None}]
+    layer, problems = gis.read_layer(write_geojson(tmp_path / "wells.geojson", shapes, props), kind="point")
+    assert problems == []
+    assert layer.properties == [{"flag": True, "count": 3}, {"flag": None, "count": None}]

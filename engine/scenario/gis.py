@@ -278,6 +278,16 @@ def _python_value(value: Any) -> Any:
     return str(value)
 
 
+def _typed(value: Any, kind: str) -> Any:
+    if value is None or not isinstance(value, float):
+        return value
+    if kind == "bool":
+        return bool(value)
+    if kind.startswith("int") and value.is_integer():
+        return int(value)
+    return value
+
+
 def _source_crs(
     path: Path, file: str, declared: str | None, fallback: str | None, xs: np.ndarray, ys: np.ndarray,
     problems: list[Problem], notes: list[str],
@@ -419,8 +429,10 @@ def read_layer(
             ))
     if problems:
         return None, problems
+    # A boolean or integer field with nulls comes back as floats (1.0, NaN): give back the field's own type
+    kinds = [str(kind) for kind in meta.get("dtypes", ["object"] * len(names))]
     properties = [
-        {name: _python_value(field_data[j][i]) for j, name in enumerate(names)} for i in range(count)
+        {name: _typed(_python_value(field_data[j][i]), kinds[j]) for j, name in enumerate(names)} for i in range(count)
     ]
     layer = Layer(
         file=file,
