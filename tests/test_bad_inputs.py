@@ -19,9 +19,10 @@ from pathlib import Path
 
 import pytest
 
-from engine.scenario import reader as io
+from engine.scenario import folder as io
+from engine.scenario import tables
 from pages._support import workbench
-from engine.__main__ import main
+from engine.cli import main
 from engine.storage.bundle import BundleError, export_bundle
 from engine.scenario.problems import Problem
 from engine.model.results import RunResult
@@ -46,8 +47,8 @@ BROKEN = [case for case in CASES if not case.valid]
 VALID = [case for case in CASES if case.valid]
 
 UNEXPECTED = ("Traceback", "Unexpected error", "could not be read (")
-"""Text that only appears when an exception escaped a check (the last-resort guards of engine/io.py and
-engine/__main__.py)."""
+"""Text that only appears when an exception escaped a check (the last-resort guards of engine/scenario/tables.py and
+engine/cli)."""
 
 
 def _problem_lines(text: str, expected) -> list[str]:
@@ -138,7 +139,7 @@ def test_valid_variants_validate(case, tmp_path, capsys):
 @pytest.mark.parametrize("case", BROKEN, ids=[case.name for case in BROKEN])
 def test_solve_refuses_broken_inputs(case, tmp_path, capsys):
     """``python -m engine solve DIR`` returns 2 for bad input, lists the same problems on stderr, writes no
-    result and solves nothing (engine/__main__.py exit codes: 2 = input errors)."""
+    result and solves nothing (engine/cli exit codes: 2 = input errors)."""
     folder = corpus.build(case, tmp_path / case.name)
     out = tmp_path / "out"
     code = main(["solve", str(folder), "--typical-days", "2", "--out", str(out), "--quiet"])
@@ -153,7 +154,7 @@ def test_solve_refuses_broken_inputs(case, tmp_path, capsys):
 @pytest.mark.parametrize("case", VALID, ids=[case.name for case in VALID])
 def test_valid_variants_solve(case, tmp_path, capsys):
     """The valid variants solve to optimality with two typical days; a leap year's 8784 hours reach the summary
-    (engine/__main__.py: exit code 0 = solved; docs/input_format.md allows 8784 rows)."""
+    (engine/cli: exit code 0 = solved; docs/input_format.md allows 8784 rows)."""
     folder = corpus.build(case, tmp_path / case.name)
     out = tmp_path / "out"
     code = main(["solve", str(folder), "--typical-days", "2", "--out", str(out), "--quiet"])
@@ -203,7 +204,7 @@ def test_size_limit_is_checked_before_reading(tmp_path, monkeypatch):
     a big file gives a message rather than exhausting memory). Here the limit is lowered to 1 kB with monkeypatch
     so that a plain small file is above it."""
     folder = corpus.build(corpus.case_named("header_only_wells"), tmp_path / "small_limit")
-    monkeypatch.setattr(io, "MAX_FILE_BYTES", 1024)
+    monkeypatch.setattr(tables, "MAX_FILE_BYTES", 1024)
     read = []
     original = Path.read_bytes
 

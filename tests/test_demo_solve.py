@@ -14,7 +14,7 @@ import sys
 import numpy as np
 import pytest
 
-from engine.scenario.reader import DEMO_DIR, load_scenario
+from engine.scenario import DEMO_DIR, load_scenario
 from engine.model.solve import solve_scenario
 
 TYPICAL_DAYS = 8

@@ -20,7 +20,7 @@ from shapely.geometry import Point, Polygon
 from engine.__main__ import main
 from engine.physics import typology
 from engine.scenario.init_folder import DEFAULT_SUPPLY_TEMP_C, init_scenario_folder
-from engine.scenario.reader import load_scenario
+from engine.scenario import load_scenario
 from layer_files import epw_text, temperatures, write_geojson, write_layer
 
 TO_UTM = pyproj.Transformer.from_crs("EPSG:4326", "EPSG:25832", always_xy=True)

@@ -33,7 +33,7 @@ import pytest
 
 from engine.outputs.export import tables_csv_zip, tables_xlsx
 from engine.outputs.figures import difference_table, format_table, kpi_table, main_supply_changes
-from engine.scenario.reader import DEMO_DIR, load_scenario
+from engine.scenario import DEMO_DIR, load_scenario
 from engine.outputs.maps import district_map
 from engine.scenario.problems import InputError
 from engine.outputs.report import html_report

@@ -24,7 +24,7 @@ sys.path.insert(0, str(Path(__file__).parent))
 from test_groundwater import LAT, _lon, line_of_doublets  # noqa: E402
 
 from engine.physics import plume  # noqa: E402
-from engine.__main__ import main  # noqa: E402
+from engine.cli import main  # noqa: E402
 from engine.studies.permits import net_injection  # noqa: E402
 from engine.studies.interference import (  # noqa: E402
     SECONDS_PER_YEAR,
@@ -34,7 +34,7 @@ from engine.studies.interference import (  # noqa: E402
     solve_with_interference,
     superposed_shift_k,
 )
-from engine.scenario.reader import load_scenario, resolve_scenario_path  # noqa: E402
+from engine.scenario import load_scenario, resolve_scenario_path  # noqa: E402
 from engine.model.solve import solve_scenario  # noqa: E402
 
 TINY_CITY = Path(__file__).parent / "fixtures" / "tiny_city"

@@ -174,7 +174,7 @@ def solved_tiny_city():
     """The tiny fixture city solved by the engine under two cost cases (about 2 s)."""
     from pathlib import Path
 
-    from engine.scenario.reader import load_scenario
+    from engine.scenario import load_scenario
     from engine.model.solve import solve_scenario
 
     scenario = load_scenario(Path(__file__).parent / "fixtures" / "tiny_city")

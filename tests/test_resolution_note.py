@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from pages._support import workbench as wb
-from engine.scenario.reader import DEMO_DIR, load_scenario
+from engine.scenario import DEMO_DIR, load_scenario
 from engine.model.results import RunResult
 
 

@@ -34,10 +34,10 @@ from hypothesis.extra import pandas as hpd
 from pandas.testing import assert_frame_equal
 
 from engine.model.results import RunResult
+from engine.scenario.files import SCENARIO_FILES
 from engine.storage.store import (
     APPLICATION_ID,
     LIST_COLUMNS,
-    SCENARIO_FILES,
     SCHEMA_VERSION,
     ScenarioStore,
     StoreError,

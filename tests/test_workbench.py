@@ -1,7 +1,7 @@
 """Tests of pages._support.workbench: the plain helpers behind the dashboard pages.
 
 Reference points outside the module: the scenario files themselves, read with Python's own ``csv`` module; the
-project's reader (:func:`engine.scenario.reader.load_scenario`) and fingerprint (:func:`engine.scenario.inputs.input_hash`) as the
+project's reader (:func:`engine.scenario.load_scenario`) and fingerprint (:func:`engine.scenario.inputs.input_hash`) as the
 judges of "the same inputs"; ``zipfile`` for bundles. Behaviour with no published source (what a planner may
 type into a table, how a table names a bad cell) is marked "common practice".
 """
@@ -158,7 +158,7 @@ def test_edits_written_to_the_files_reproduce_the_edited_scenario(demo):
 )
 def test_bad_cells_are_named_by_table_row_and_column(demo, table, item, column, value, words):
     """A bad cell gives one problem naming the table, its row (first row = 1) and column, and no exception.
-    Ranges as the reader applies them to technologies.csv and wells.csv (engine.scenario.reader column specs; the unit-slip
+    Ranges as the reader applies them to technologies.csv and wells.csv (engine.scenario.catalogue and engine.scenario.well_table column specs; the unit-slip
     limit of 5000 m³/h per well is the reader's); the rest is common practice."""
     tech = wb.editable_technology_table(demo.scenario).astype({c: object for c in wb.TECHNOLOGY_EDIT_COLUMNS})
     wells = wb.editable_well_table(demo.scenario).astype({c: object for c in wb.WELL_EDIT_COLUMNS})

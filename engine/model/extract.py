@@ -7,7 +7,7 @@ import pandas as pd
 
 from engine.model.lp import LpSolution
 from engine.model.formulation import DistrictModel
-from engine.model.prepare import KWH_PER_MWH
+from engine.units import KG_PER_T, KWH_PER_MWH, SECONDS_PER_HOUR
 
 FLOW_BINDS_SHARE = 0.999
 """A well limit counts as binding when the flow reaches this share of the permit in some step."""
@@ -203,7 +203,7 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
                 "total_cost_eur_per_a": total,
                 "co2_t_per_a": float(a["co2_t_per_a"]),
                 "levelised_cost_eur_per_mwh": total / served if served > 0 else float("nan"),
-                "co2_kg_per_mwh": 1000.0 * float(a["co2_t_per_a"]) / served if served > 0 else float("nan"),
+                "co2_kg_per_mwh": KG_PER_T * float(a["co2_t_per_a"]) / served if served > 0 else float("nan"),
                 "main_supply": str(main.get(did, "unserved" if unserved_heat_mwh[k] > 0 else "none")),
             }
         )
@@ -305,7 +305,7 @@ def well_table(model: DistrictModel, out: np.ndarray, capacity_kw: np.ndarray) -
         s = steps[steps["well_id"] == wid]
         hp_units = [u for u in np.flatnonzero(units.well == j) if not units.serves_cooling[u]]
         rho = prepared.well_density_kg_per_m3[j]
-        volume = float((s["flow_kg_s"].to_numpy() * 3600.0 / rho * w).sum())
+        volume = float((s["flow_kg_s"].to_numpy() * SECONDS_PER_HOUR / rho * w).sum())
         limit = prepared.well_annual_volume_m3[j]
         peak = float(s["flow_share"].max()) if len(s) else 0.0
         rows.append(

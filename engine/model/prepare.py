@@ -18,10 +18,9 @@ from engine.physics import economics
 from engine.physics import heatpump
 from engine.physics import water
 from engine.physics import wells as wells_mod
-from engine.scenario.inputs import COOLING_KINDS, HEAT_KINDS, WELL_KINDS, EffectivePrices, Scenario, Settings, apply_cost_case
+from engine.scenario.inputs import EffectivePrices, Scenario, Settings, apply_cost_case
 from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, typical_day_grid
-
-KWH_PER_MWH = 1000.0
+from engine.units import SECONDS_PER_HOUR, W_PER_KW
 
 
 @dataclass
@@ -157,11 +156,11 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
     rho = water.water_density_kg_per_m3(np.clip(gw, 0.5, 99.0)) if len(wells) else np.zeros_like(gw)
     with np.errstate(divide="ignore"):
         # kg/s needed per kW exchanged at the largest spread the window allows
-        flow_h = np.where(spread_h > 1e-9, 1000.0 / (cp * np.maximum(spread_h, 1e-9)), np.inf)
-        flow_c = np.where(spread_c > 1e-9, 1000.0 / (cp * np.maximum(spread_c, 1e-9)), np.inf)
+        flow_h = np.where(spread_h > 1e-9, W_PER_KW / (cp * np.maximum(spread_h, 1e-9)), np.inf)
+        flow_c = np.where(spread_c > 1e-9, W_PER_KW / (cp * np.maximum(spread_c, 1e-9)), np.inf)
     if len(wells):
         rho_mean = water.water_density_kg_per_m3(np.clip(wells["groundwater_temp_c"].to_numpy(float), 0.5, 99))
-        permit_kg_s = wells["permit_flow_m3_per_h"].to_numpy(float) * rho_mean / 3600.0
+        permit_kg_s = wells["permit_flow_m3_per_h"].to_numpy(float) * rho_mean / SECONDS_PER_HOUR
         volume = wells["permit_annual_volume_m3"].to_numpy(float)
         volume = np.where(np.isnan(volume), np.inf, volume)
     else:
@@ -208,4 +207,4 @@ def with_settings(settings: Settings, **changes) -> Settings:
     return dataclasses.replace(settings, **changes)
 
 
-__all__ = ["PreparedRun", "prepare_run", "with_settings", "HEAT_KINDS", "COOLING_KINDS", "WELL_KINDS"]
+__all__ = ["PreparedRun", "prepare_run", "with_settings"]

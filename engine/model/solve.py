@@ -3,6 +3,9 @@
 Without a city-wide constraint (CO2 cap, network plant limit) districts do not interact, so
 :func:`solve_scenario` may solve each district as its own LP, in parallel processes, and merge the tables
 (``decompose``). With a city-wide constraint the LP is solved in one piece.
+
+``solver`` picks the solver of every LP (:mod:`engine.model.solvers`): HiGHS directly by default, or any solver
+pulp drives. :func:`build_programs` builds the same LPs without solving them, for writing them to a file.
 """
 
 from __future__ import annotations
@@ -11,46 +14,67 @@ import dataclasses
 import os
 import time
 from concurrent.futures import ProcessPoolExecutor, as_completed
+from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
 import pandas as pd
 
 from engine.model.extract import extract_tables
-from engine.scenario.inputs import Scenario, Settings, input_hash
-from engine.model.formulation import build_model, solve_model, supply_units
+from engine.scenario.defaults import limit_from_entry
+from engine.scenario.inputs import Scenario, Settings, default_cost_case, input_hash
+from engine.model.formulation import DistrictModel, build_model, co2_stage_objective, solve_model, supply_units
 from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
+from engine.model.solvers import DIRECT, resolve_solver
+from engine.studies.permits import add_well_status
 
 Progress = Callable[[float, str], None]
 
 
 def run_settings(scenario: Scenario, objective=None, co2_cap_t_per_a=None, typical_days=None, **changes) -> Settings:
-    """The scenario's settings with the given overrides (None keeps the scenario's value)."""
+    """The scenario's settings with the given overrides (None keeps the scenario's value).
+
+    ``co2_cap_t_per_a`` is entered as on the command line and in the dashboard: 0 removes the scenario's cap
+    (the settings then hold None, no limit; :func:`engine.scenario.defaults.limit_from_entry`).
+    """
     updates = dict(changes)
     if objective is not None:
         updates["objective"] = objective
     if co2_cap_t_per_a is not None:
-        updates["co2_cap_t_per_a"] = float(co2_cap_t_per_a)
+        updates["co2_cap_t_per_a"] = limit_from_entry(co2_cap_t_per_a)
     if typical_days is not None:
         updates["typical_days"] = int(typical_days)
     return dataclasses.replace(scenario.settings, **updates)
 
 
 def _has_coupling(settings: Settings) -> bool:
-    return bool(settings.co2_cap_t_per_a and settings.co2_cap_t_per_a > 0) or bool(
-        settings.network_plant_limit_kw and settings.network_plant_limit_kw > 0
-    )
+    return settings.co2_cap_t_per_a is not None or settings.network_plant_limit_kw is not None
 
 
-def _solve_part(prepared, districts, objective, time_limit_s, cancel=None):
+@dataclass
+class PartOutcome:
+    """What solving one part (one district, or the whole city in one LP) gives."""
+
+    status: str
+    message: str
+    tables: dict | None = None
+    """The result tables of the part; None unless the status is ``optimal``."""
+    build_s: float = 0.0
+    solve_s: float = 0.0
+    extract_s: float = 0.0
+    size: dict | None = None
+    """``variables``, ``constraints`` and ``nonzeros`` of the part's LP."""
+
+
+def _solve_part(prepared, districts, objective, time_limit_s, cancel=None, solver=DIRECT) -> PartOutcome:
     model = build_model(prepared, districts)
-    solution = solve_model(model, objective, time_limit_s=time_limit_s, cancel=cancel)
+    solution = solve_model(model, objective, time_limit_s=time_limit_s, cancel=cancel, solver=solver)
     started = time.perf_counter()
     tables = extract_tables(model, solution) if solution.status == "optimal" else None
     extract_s = time.perf_counter() - started
     size = {"variables": model.lp.n_cols, "constraints": model.lp.n_rows, "nonzeros": model.lp.n_nonzeros}
-    return solution.status, solution.message, tables, model.build_s, solution.solve_s, extract_s, size
+    return PartOutcome(solution.status, solution.message, tables, model.build_s, solution.solve_s, extract_s, size)
 
 
 def part_work(prepared, districts) -> float:
@@ -71,8 +95,8 @@ def _worker_init(prepared):
 
 
 def _worker_solve(args):
-    districts, objective, time_limit_s = args
-    return _solve_part(_WORKER_STATE["prepared"], districts, objective, time_limit_s)
+    districts, objective, time_limit_s, solver = args
+    return _solve_part(_WORKER_STATE["prepared"], districts, objective, time_limit_s, solver=solver)
 
 
 def merge_tables(parts: list[dict]) -> dict[str, pd.DataFrame]:
@@ -101,8 +125,6 @@ def failure_message(status: str, message: str, where: str) -> str:
 
 def district_supply_limits(prepared, district: int) -> list[str]:
     """Plain reasons why one district cannot meet its demand with the supply it is allowed (empty if none found)."""
-    from engine.model.formulation import supply_units
-
     units, stores = supply_units(prepared, np.array([district]))
     reasons = []
     did = prepared.district_ids[district]
@@ -150,9 +172,9 @@ def diagnose_failure(prepared, settings: Settings, status: str, districts: list[
     if reasons:
         return "; ".join(reasons) + "."
     coupling = []
-    if settings.co2_cap_t_per_a and settings.co2_cap_t_per_a > 0:
+    if settings.co2_cap_t_per_a is not None:
         coupling.append(f"the city-wide CO2 cap of {settings.co2_cap_t_per_a:,.0f} t/a")
-    if settings.network_plant_limit_kw and settings.network_plant_limit_kw > 0:
+    if settings.network_plant_limit_kw is not None:
         coupling.append(f"the network plant limit of {settings.network_plant_limit_kw:,.0f} kW")
     if coupling:
         return ("Every district can be supplied on its own, so " + " and ".join(coupling)
@@ -161,6 +183,44 @@ def diagnose_failure(prepared, settings: Settings, status: str, districts: list[
         return "With unserved heat switched off, some hour of some district cannot be supplied (check well permits " \
                "and the reinjection window, which can leave a well unusable in winter)."
     return "Check the inputs for contradictions."
+
+
+def plan_parts(prepared, settings: Settings, decompose: bool | str = "auto") -> tuple[bool, list[list[int]]]:
+    """Whether the run is decomposed, and the district indices of each LP (one per district, or one for all)."""
+    n_d = len(prepared.district_ids)
+    if decompose == "auto":
+        decompose = n_d > 1 and not _has_coupling(settings)
+    if decompose and _has_coupling(settings):
+        raise ValueError("a city-wide CO2 cap or network plant limit couples the districts: solve without decompose")
+    return bool(decompose), ([[i] for i in range(n_d)] if decompose else [list(range(n_d))])
+
+
+def build_programs(
+    scenario: Scenario,
+    cost_case: str | None = None,
+    settings: Settings | None = None,
+    decompose: bool | str = "auto",
+) -> list[tuple[str, DistrictModel]]:
+    """The LPs :func:`solve_scenario` would solve, built but not solved, each with its objective set.
+
+    Returns ``(label, model)`` pairs: the label is the district's id when the run is decomposed (one LP per
+    district), else ``"city"``. A cost objective is set as is; a CO2 objective is solved in two stages, and the
+    program returned carries the first (least CO2, unserved demand counted at its CO2 equivalent).
+    """
+    cost_case = cost_case or default_cost_case(scenario.cost_cases)
+    settings = settings or scenario.settings
+    prepared = prepare_run(scenario, cost_case, settings)
+    decomposed, parts = plan_parts(prepared, settings, decompose)
+    programs = []
+    for part in parts:
+        model = build_model(prepared, part)
+        if settings.objective == "co2":
+            model.lp.set_objective(co2_stage_objective(model)[0])
+        else:
+            model.lp.set_objective(model.money)
+        label = str(prepared.district_ids[part[0]]) if decomposed else "city"
+        programs.append((label, model))
+    return programs
 
 
 def solve_scenario(
@@ -175,11 +235,18 @@ def solve_scenario(
     cancel: Callable[[], bool] | None = None,
     time_limit_s: float | None = None,
     settings: Settings | None = None,
+    solver: str = DIRECT,
 ) -> RunResult:
-    """Solve ``scenario`` under ``cost_case`` and return the result (never raises for solver failures)."""
+    """Solve ``scenario`` under ``cost_case`` and return the result (never raises for solver failures).
+
+    ``solver`` is ``"highs"`` (HiGHS directly, the default) or a pulp solver (``"cbc"``, ``"pulp:NAME"``; see
+    :mod:`engine.model.solvers`); an unknown or unavailable name raises
+    :class:`engine.model.solvers.SolverChoiceError` before anything is solved. ``model_size["solver"]`` records it.
+    """
     started = time.perf_counter()
+    solver = resolve_solver(solver)
     report = progress or (lambda share, text: None)
-    cost_case = cost_case or ("reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases)))
+    cost_case = cost_case or default_cost_case(scenario.cost_cases)
     settings = settings or run_settings(scenario, objective, co2_cap_t_per_a, typical_days)
     if settings.objective not in ("cost", "co2"):
         raise ValueError(f"objective must be 'cost' or 'co2', got {settings.objective!r}")
@@ -195,21 +262,17 @@ def solve_scenario(
     report(0.02, "Preparing demand, COPs and the time grid")
     prepared = prepare_run(scenario, cost_case, settings)
     prepare_s = time.perf_counter() - started
-    n_d = len(prepared.district_ids)
-    if decompose == "auto":
-        decompose = n_d > 1 and not _has_coupling(settings)
-    if decompose and _has_coupling(settings):
-        raise ValueError("a city-wide CO2 cap or network plant limit couples the districts: solve without decompose")
-    parts = [[i] for i in range(n_d)] if decompose else [list(range(n_d))]
+    decompose, parts = plan_parts(prepared, settings, decompose)
     if workers is None:
         workers = min(len(parts), os.cpu_count() or 1) if len(parts) > 4 else 1
     report(0.1, f"Building and solving {len(parts)} linear program(s)")
-    done: dict[int, tuple] = {}  # part index -> outcome
+    done: dict[int, PartOutcome] = {}  # part index -> outcome
     if workers > 1 and len(parts) > 1:
         # largest first, so that no worker is left with a long store LP while the other idles at the end
         order = sorted(range(len(parts)), key=lambda k: -part_work(prepared, parts[k]))
         with ProcessPoolExecutor(max_workers=workers, initializer=_worker_init, initargs=(prepared,)) as pool:
-            futures = {pool.submit(_worker_solve, (parts[k], settings.objective, time_limit_s)): k for k in order}
+            futures = {pool.submit(_worker_solve, (parts[k], settings.objective, time_limit_s, solver)): k
+                       for k in order}
             for future in as_completed(futures):
                 done[futures[future]] = future.result()
                 report(0.1 + 0.85 * len(done) / len(parts), f"Solved {len(done)} of {len(parts)}")
@@ -219,34 +282,33 @@ def solve_scenario(
                     break
     else:
         for k, p in enumerate(parts):
-            done[k] = _solve_part(prepared, p, settings.objective, time_limit_s, cancel)
+            done[k] = _solve_part(prepared, p, settings.objective, time_limit_s, cancel, solver)
             report(0.1 + 0.85 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)}")
-            if done[k][0] != "optimal":
+            if done[k].status != "optimal":
                 break
     outcomes = [done[k] for k in sorted(done)]
-    build_s = sum(o[3] for o in outcomes)
-    solve_s = sum(o[4] for o in outcomes)
-    extract_s = sum(o[5] for o in outcomes)
-    size = {key: int(sum(o[6][key] for o in outcomes)) for key in ("variables", "constraints", "nonzeros")}
+    build_s = sum(o.build_s for o in outcomes)
+    solve_s = sum(o.solve_s for o in outcomes)
+    extract_s = sum(o.extract_s for o in outcomes)
+    size = {key: int(sum(o.size[key] for o in outcomes)) for key in ("variables", "constraints", "nonzeros")}
     size["linear_programs"] = len(parts)
+    size["solver"] = solver
     result.model_size = size
-    failed = [(k, done[k]) for k in sorted(done) if done[k][0] != "optimal"]
+    failed = [(k, done[k]) for k in sorted(done) if done[k].status != "optimal"]
     if len(done) < len(parts) and not failed:
         missing = min(k for k in range(len(parts)) if k not in done)
-        failed = [(missing, ("interrupted", "cancelled", None))]
+        failed = [(missing, PartOutcome("interrupted", "cancelled"))]
     if failed:
         k, o = failed[0]
-        where = diagnose_failure(prepared, settings, o[0], parts[k])
+        where = diagnose_failure(prepared, settings, o.status, parts[k])
         if not where:
             where = ("In district " + ", ".join(prepared.district_ids[i] for i in parts[k]) + "."
                      if decompose else "In the city-wide model.")
-        result.status = o[0]
-        result.message = failure_message(o[0], o[1], where)
+        result.status = o.status
+        result.message = failure_message(o.status, o.message, where)
     else:
-        result.tables = merge_tables([done[k][2] for k in range(len(parts))])
+        result.tables = merge_tables([done[k].tables for k in range(len(parts))])
         result.status = "optimal"
-        from engine.studies.permits import add_well_status
-
         add_well_status(result, scenario)
         unserved = result.unserved_heat_mwh_per_a
         result.message = "Optimal solution found." + (

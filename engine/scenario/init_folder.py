@@ -14,7 +14,7 @@
 * ``scenario.toml``, ``technologies.csv`` and ``cost_cases.toml`` copied from the template.
 
 Every default it takes is listed in :attr:`InitResult.assumptions` and printed, so the planner sees what to
-replace. The folder is then checked with :func:`engine.scenario.reader.validate_scenario`. The template's
+replace. The folder is then checked with :func:`engine.scenario.folder.validate_scenario`. The template's
 prices, costs and technologies are those of the invented demo city unless another template folder is named:
 they are placeholders to replace before any decision is drawn from the results.
 """
@@ -34,7 +34,7 @@ import pandas as pd
 from engine.physics import typology
 from engine.scenario import epw, geometry, gis
 from engine.scenario.problems import Problem
-from engine.scenario.reader import resolve_scenario_path, validate_scenario
+from engine.scenario.folder import resolve_scenario_path, validate_scenario
 
 DEFAULT_SUPPLY_TEMP_C = 70.0
 """Space-heating supply temperature given to districts without one [°C]; common practice for an existing stock of

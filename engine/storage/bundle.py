@@ -48,7 +48,8 @@ import pandas as pd
 
 from engine import __version__
 from engine.model.results import RunResult
-from engine.storage.store import REQUIRED_SCENARIO_FILES, SCENARIO_FILES, StoreError, check_scenario_files
+from engine.scenario.files import REQUIRED_FILES, SCENARIO_FILES
+from engine.storage.store import StoreError, check_scenario_files
 
 BUNDLE_FORMAT = "heatmosaic-bundle"
 BUNDLE_FORMAT_VERSION = 1
@@ -657,7 +658,7 @@ def export_bundle(result: RunResult, inputs: Mapping[str, bytes] | None, path: s
             filename: {"bytes": len(content), "sha256": hashlib.sha256(content).hexdigest()}
             for filename, content in files.items()
         },
-        "missing_required_inputs": [f for f in REQUIRED_SCENARIO_FILES if f not in files],
+        "missing_required_inputs": [f for f in REQUIRED_FILES if f not in files],
         "tables": table_specs,
         "caution": CAUTION,
     }

@@ -54,22 +54,7 @@ import pandas as pd
 
 from engine import __version__
 from engine.model.results import RunResult
-
-SCENARIO_FILES = (
-    "scenario.toml",
-    "districts.geojson",
-    "technologies.csv",
-    "hourly.csv",
-    "wells.csv",
-    "district_technologies.csv",
-    "buildings.csv",
-    "heat_demand_hourly.csv",
-    "groundwater_temp_hourly.csv",
-    "cost_cases.toml",
-)
-"""The file names a scenario folder may hold (``docs/input_format.md``); nothing else is read or written."""
-
-REQUIRED_SCENARIO_FILES = ("scenario.toml", "districts.geojson", "technologies.csv", "hourly.csv")
+from engine.scenario.files import SCENARIO_FILES
 
 SCHEMA_VERSION = 2
 """Schema version written by this release."""

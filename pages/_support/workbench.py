@@ -53,12 +53,18 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from engine.scenario import reader as scenario_io
 from engine.storage.bundle import CAUTION, BundleError, export_bundle, read_bundle
-from engine.scenario.inputs import Scenario, input_hash
+from engine.scenario import DEMO_DIR, load_scenario
+from engine.scenario.catalogue import TECHNOLOGY_COLUMNS
+from engine.scenario.cells import MAX_WELL_FLOW_M3_PER_H
+from engine.scenario.files import REQUIRED_FILES, TECHNOLOGIES_FILE, WELLS_FILE
+from engine.scenario.inputs import Scenario, default_cost_case, input_hash
+from engine.scenario.kinds import BOILER_KINDS, EFFICIENCY_KINDS, HEAT_PUMP_KINDS
+from engine.scenario.well_table import WELL_COLUMNS
 from engine.scenario.problems import InputError, Problem, problems_frame
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
+from engine.model.solvers import DIRECT, resolve_solver
 from engine.storage.store import ScenarioStore, StoreError, check_scenario_files, read_scenario_files
 
 CAUTION_LINE = (
@@ -86,8 +92,6 @@ WELL_EDIT_COLUMNS = ("permit_flow_m3_per_h", "permit_annual_volume_m3", "design_
 
 WELL_TABLE_COLUMNS = ("well_id", "district_id") + WELL_EDIT_COLUMNS
 
-HEAT_PUMP_KINDS = ("air_heat_pump", "groundwater_heat_pump")
-EFFICIENCY_KINDS = ("fuel_boiler", "electric_boiler", "chiller", "groundwater_cooling")
 """Kinds whose ``efficiency`` column is edited as "efficiency or grade" (boilers: efficiency, coolers: EER)."""
 
 MAX_BOILER_EFFICIENCY = 1.2
@@ -142,7 +146,7 @@ def files_digest(files: Mapping[str, bytes]) -> str:
 
 
 def scenario_from_files(files: Mapping[str, bytes]) -> tuple[Scenario | None, list[Problem]]:
-    """Read scenario files (name -> bytes) through :func:`engine.scenario.reader.load_scenario`.
+    """Read scenario files (name -> bytes) through :func:`engine.scenario.load_scenario`.
 
     Returns the scenario and an empty list, or None and every problem found. Never raises for bad input.
     """
@@ -154,7 +158,7 @@ def scenario_from_files(files: Mapping[str, bytes]) -> tuple[Scenario | None, li
         for name, content in files.items():
             (Path(folder) / name).write_bytes(content)
         try:
-            return scenario_io.load_scenario(folder), []
+            return load_scenario(folder), []
         except InputError as error:
             return None, list(error.problems)
 
@@ -168,7 +172,7 @@ def input_set_from_files(files: Mapping[str, bytes], label: str, manifest: dict 
 
 def demo_input_set() -> InputSet:
     """The demo city shipped with heatmosaic (``demo_data/``)."""
-    files = read_scenario_files(scenario_io.DEMO_DIR)
+    files = read_scenario_files(DEMO_DIR)
     return input_set_from_files(files, "Demo city")
 
 
@@ -187,7 +191,7 @@ def input_set_from_bundle(data: bytes, workdir: str | Path, label: str = "upload
         return InputSet(label, {}, None, problems_frame([Problem(label, None, None, message)]), {})
     finally:
         shutil.rmtree(dest, ignore_errors=True)  # the files are in memory now
-    missing = [name for name in scenario_io.REQUIRED_FILES if name not in files]
+    missing = [name for name in REQUIRED_FILES if name not in files]
     if missing:
         problems = [
             Problem(name, None, None, "is missing from the bundle's inputs/ folder; the bundle cannot be re-solved")
@@ -227,7 +231,7 @@ def initial_setup(
     chosen = {**base, **dict(settings or {})}
     cases = list(scenario.cost_cases) if scenario is not None else []
     if cost_case not in cases:
-        cost_case = "reference" if "reference" in cases else (cases[0] if cases else "")
+        cost_case = default_cost_case(cases) if cases else ""
     days = int(chosen.get("typical_days", 12) or 0)
     return {
         "digest": inputs.digest,
@@ -396,7 +400,7 @@ def _parse_edits(scenario, technology_table, well_table):
         technology_table, TECHNOLOGY_TABLE, TECHNOLOGY_TABLE_COLUMNS, "technology_id", tech_ids
     )
     problems += frame_problems
-    specs = scenario_io.TECHNOLOGY_COLUMNS
+    specs = TECHNOLOGY_COLUMNS
     if not frame_problems:
         for column in ("investment_eur_per_kw", "fixed_om_pct_per_a", "variable_om_eur_per_mwh", "lifetime_a"):
             parsed[column] = _check_column(
@@ -419,7 +423,7 @@ def _parse_edits(scenario, technology_table, well_table):
                 spec, high = _spec(specs, "cop_quality_grade"), None
             else:
                 spec = _spec(specs, "efficiency")
-                high = MAX_BOILER_EFFICIENCY if kind in ("fuel_boiler", "electric_boiler") else MAX_EER
+                high = MAX_BOILER_EFFICIENCY if kind in BOILER_KINDS else MAX_EER
             one_row = technology_table.iloc[[position]]
             before = len(problems)
             value = _check_column(one_row, TECHNOLOGY_TABLE, "technology_id", "efficiency_or_grade", spec, problems,
@@ -434,13 +438,13 @@ def _parse_edits(scenario, technology_table, well_table):
     frame_problems = _check_frame(well_table, WELL_TABLE, WELL_TABLE_COLUMNS, "well_id", well_ids)
     problems += frame_problems
     if not frame_problems:
-        specs = scenario_io.WELL_COLUMNS
+        specs = WELL_COLUMNS
         for column in WELL_EDIT_COLUMNS:
             spec = _spec(specs, column)
             values = _check_column(
                 well_table, WELL_TABLE, "well_id", column, spec, problems,
                 blank_ok=column == "permit_annual_volume_m3",
-                high=scenario_io.MAX_WELL_FLOW_M3_PER_H if column == "permit_flow_m3_per_h" else None,
+                high=MAX_WELL_FLOW_M3_PER_H if column == "permit_flow_m3_per_h" else None,
             )
             if column == "permit_annual_volume_m3":
                 values = np.where(np.isnan(values), np.inf, values)
@@ -569,12 +573,12 @@ def scenario_files_with_edits(
             target = column if column != "efficiency_or_grade" else _grade_column(str(before.at[position, "kind"]))
             changes.setdefault(tech_id, {})[target] = _number_text(new)
     if changes:
-        content = files[scenario_io.TECHNOLOGIES_FILE]
+        content = files[TECHNOLOGIES_FILE]
         for cells in changes.values():
             for column in cells:
                 content = _ensure_column(content, column)
-        files[scenario_io.TECHNOLOGIES_FILE] = _rewrite_csv(content, "technology_id", changes)
-    if len(scenario.wells) and scenario_io.WELLS_FILE in files:
+        files[TECHNOLOGIES_FILE] = _rewrite_csv(content, "technology_id", changes)
+    if len(scenario.wells) and WELLS_FILE in files:
         before = scenario.wells
         changes = {}
         for position, well_id in enumerate(before["well_id"]):
@@ -583,11 +587,11 @@ def scenario_files_with_edits(
                 if not _same(old, new):
                     changes.setdefault(str(well_id), {})[column] = _number_text(new)
         if changes:
-            content = files[scenario_io.WELLS_FILE]
+            content = files[WELLS_FILE]
             for cells in changes.values():
                 for column in cells:
                     content = _ensure_column(content, column)
-            files[scenario_io.WELLS_FILE] = _rewrite_csv(content, "well_id", changes)
+            files[WELLS_FILE] = _rewrite_csv(content, "well_id", changes)
     return files
 
 
@@ -685,8 +689,12 @@ def solve_with_cache(
     typical_days: int,
     progress: Callable[[float, str], None] | None = None,
     cancel: Callable[[], bool] | None = None,
+    solver: str = DIRECT,
 ) -> tuple[SolvedRun, bool]:
     """Solve (or find in ``cache``) one request; returns the run and whether it came from the cache.
+
+    ``solver`` as in :func:`engine.model.solve.solve_scenario`; a run found by its input hash is reused only when
+    it was solved by the same solver (the point of choosing another solver is to see its answer).
 
     The cache is looked up by ``key`` first and then by the input hash, so that two requests that differ only in
     ways the model ignores share one solve. Districts are solved one after the other in this process
@@ -698,14 +706,17 @@ def solve_with_cache(
         return cache[key], True
     settings = run_settings(scenario, objective, co2_cap_t_per_a, typical_days)
     hash_ = input_hash(scenario, cost_case, settings)
+    solver = resolve_solver(solver)
     for solved in list(cache.values()):
-        if solved.input_hash == hash_ and solved.result.solved:
+        if (solved.input_hash == hash_ and solved.result.solved
+                and solved.result.model_size.get("solver", DIRECT) == solver):
             run = dataclasses.replace(solved, label=label)
             remember(cache, key, run)
             return run, True
     try:
         result = solve_scenario(
-            scenario, cost_case=cost_case, settings=settings, progress=progress, cancel=cancel, workers=1
+            scenario, cost_case=cost_case, settings=settings, progress=progress, cancel=cancel, workers=1,
+            solver=solver,
         )
     except Exception as exc:  # a planner sees a message, never a traceback; a failed solve is not cached
         result = RunResult(
