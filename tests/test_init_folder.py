@@ -17,7 +17,7 @@ import pytest
 import shapely
 from shapely.geometry import Point, Polygon
 
-from engine.__main__ import main
+from engine.cli import main
 from engine.physics import typology
 from engine.scenario.init_folder import DEFAULT_SUPPLY_TEMP_C, init_scenario_folder
 from engine.scenario import load_scenario
