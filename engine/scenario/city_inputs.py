@@ -13,11 +13,13 @@ points inside districts) run unchanged on what they return:
 * :func:`project_xy_cells`: CSV columns ``x``, ``y`` (and ``reinjection_x``, ``reinjection_y``) in the
   declared CRS turned into ``lon``, ``lat`` (and ``reinjection_lon``, ``reinjection_lat``);
 * :func:`weather_temperature`: ``outdoor_temp_c`` from ``weather.epw`` when hourly.csv omits it;
-* :func:`typology_demand_for`: annual heat demand of buildings given by use, construction period and area.
+* :func:`typology_demand_for`: annual heat demand of buildings given by use, construction period and area;
+* :func:`read_point_table`: the table of wells or buildings from whichever of these it comes.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import tomllib
 from pathlib import Path
@@ -27,7 +29,9 @@ import pandas as pd
 
 from engine.physics import typology
 from engine.scenario import epw, gis
+from engine.scenario.cells import REQUIRED, Column, check_header, parse_table
 from engine.scenario.problems import Problem
+from engine.scenario.tables import Report, Table, read_csv
 
 SCENARIO_FILE = "scenario.toml"
 GIS_SECTION = "gis"
@@ -237,3 +241,49 @@ def typology_demand_for(
     if len(unknown) > 5:
         problems.append(Problem(file, None, "heat_demand_mwh_per_a", f"{len(unknown) - 5} more building(s) without demand"))
     return demand["heat_demand_mwh_per_a"].to_numpy(dtype=float), problems
+
+
+# ============================================================================= the reader's entry for point tables
+def point_files_exist(folder: Path, stem: str) -> bool:
+    """Whether the folder gives ``stem`` (wells, buildings) as a CSV or as a layer."""
+    return (Path(folder) / f"{stem}.csv").exists() or bool(gis.find_layer(folder, stem))
+
+
+def read_point_table(
+    folder: Path, stem: str, specs, report: Report, crs: str | None
+) -> tuple[Table, pd.DataFrame] | None:
+    """Wells or buildings from ``{stem}.csv`` or a point layer, with x/y columns in the declared CRS turned into
+    lon/lat, then checked like any table (header, cells). ``specs`` is a tuple of columns or a callable taking
+    the header and returning one."""
+    cells, rows, file, problems = point_layer_cells(folder, stem, crs)
+    report.problems.extend(problems)
+    if problems:
+        return None
+    if cells is not None:
+        table = Table(file, cells, rows, item_word="features")
+        report.notes.append(f"{file}: reprojected to WGS 84")
+    else:
+        table = read_csv(folder, f"{stem}.csv", report, required=False)
+        if table is None:
+            return None
+    table.cells, problems = project_xy_cells(table.cells, table.file, table.rows, crs)
+    report.problems.extend(problems)
+    if problems:
+        return None
+    if callable(specs):
+        specs = specs(list(table.cells.columns))
+    check_header(report, table, specs)
+    return table, parse_table(report, table, specs)
+
+
+def building_columns(columns: tuple[Column, ...]):
+    """A callable for :func:`read_point_table`: ``heat_demand_mwh_per_a`` is a required column unless the
+    building-stock columns can give the demand (then a blank cell asks the typology table)."""
+    def choose(header: list[str]) -> tuple[Column, ...]:
+        if any(name in header for name in BUILDING_STOCK_COLUMNS):
+            return columns
+        return tuple(
+            dataclasses.replace(spec, in_header=True, default=REQUIRED) if spec.name == "heat_demand_mwh_per_a" else spec for spec in columns
+        )
+
+    return choose

@@ -161,6 +161,8 @@ class Scenario:
     warnings: list = field(default_factory=list)
     """Problems of warning severity found when the folder was read (:class:`engine.scenario.problems.Problem`):
     options the files state that cannot take effect. They do not enter :func:`input_hash`."""
+    notes: tuple[str, ...] = ()
+    """What the reader took from elsewhere or assumed (a layer's CRS, the EPW station); not in the input hash."""
 
     @property
     def n_hours(self) -> int:
