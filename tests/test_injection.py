@@ -39,7 +39,7 @@ from engine.scenario.problems import InputError
 from engine.outputs.report import html_report
 from engine.model.solve import run_settings, solve_scenario
 from engine.storage.store import ScenarioStore, read_scenario_files
-from pages._support.workbench import district_results_table
+from pages._support.tables import district_results_table
 from test_browser_e2e import (
     CHROMIUM,
     CHROMIUM_ARGS,

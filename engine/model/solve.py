@@ -27,9 +27,8 @@ from engine.model.formulation import DistrictModel, build_model, co2_stage_objec
 from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
 from engine.model.solvers import DIRECT, resolve_solver
+from engine.progress import Cancel, Progress, no_progress
 from engine.studies.permits import add_well_status
-
-Progress = Callable[[float, str], None]
 
 
 def run_settings(scenario: Scenario, objective=None, co2_cap_t_per_a=None, typical_days=None, **changes) -> Settings:
@@ -232,7 +231,7 @@ def solve_scenario(
     decompose: bool | str = "auto",
     workers: int | None = None,
     progress: Progress | None = None,
-    cancel: Callable[[], bool] | None = None,
+    cancel: Cancel | None = None,
     time_limit_s: float | None = None,
     settings: Settings | None = None,
     solver: str = DIRECT,
@@ -245,7 +244,7 @@ def solve_scenario(
     """
     started = time.perf_counter()
     solver = resolve_solver(solver)
-    report = progress or (lambda share, text: None)
+    report = progress or no_progress
     cost_case = cost_case or default_cost_case(scenario.cost_cases)
     settings = settings or run_settings(scenario, objective, co2_cap_t_per_a, typical_days)
     if settings.objective not in ("cost", "co2"):

@@ -43,11 +43,6 @@ BREACH_TOLERANCE_K = 0.01
 
 STATUSES = ("ok", "at_limit", "breach")
 
-SCREENING_CAUTION = (
-    "Screening estimate: not a substitute for the numerical groundwater model and the permit procedure the "
-    "water authority requires. Defer to the water authority, local codes and licensed engineers."
-)
-
 _SEASONS = {12: "winter", 1: "winter", 2: "winter", 3: "spring", 4: "spring", 5: "spring", 6: "summer",
             7: "summer", 8: "summer", 9: "autumn", 10: "autumn", 11: "autumn"}
 _SEASON_ORDER = ("winter", "spring", "summer", "autumn")
@@ -552,7 +547,6 @@ def screening_display_table(screening: pd.DataFrame, district_names: dict | None
 
 __all__ = [
     "FLOW_LIMIT_SHARE",
-    "SCREENING_CAUTION",
     "SCREENING_COLUMNS",
     "STATUSES",
     "STATUS_LABELS",

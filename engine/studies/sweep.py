@@ -28,7 +28,7 @@ import os
 import uuid
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
-from typing import Callable
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -38,8 +38,7 @@ from engine.scenario.kinds import HEAT_PUMP_KINDS
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
 from engine.model.solvers import DIRECT
-
-Progress = Callable[[float, str], None]
+from engine.progress import Cancel, Progress, SweepCancelled, no_progress
 
 
 @dataclass(frozen=True)
@@ -294,10 +293,6 @@ def _solve_on_cluster(scenario, payload, typical_days, objective, keep_result, s
     return solve_task(scenario, _task(payload), typical_days, objective, keep_result, solver)
 
 
-class SweepCancelled(RuntimeError):
-    """A sweep stopped by its ``cancel`` callable before every run finished."""
-
-
 def run_sweep(
     scenario: Scenario,
     tasks: list[SweepTask],
@@ -308,7 +303,7 @@ def run_sweep(
     keep_results: bool = False,
     progress: Progress | None = None,
     sweep_id: str | None = None,
-    cancel: Callable[[], bool] | None = None,
+    cancel: Cancel | None = None,
     solver: str = DIRECT,
 ) -> SweepOutcome:
     """Solve every task and collect one record per run.
@@ -351,7 +346,7 @@ def run_sweep(
     names = [t.name for t in tasks]
     if len(set(names)) != len(names):
         raise ValueError("tasks must have distinct names")
-    report = progress or (lambda share, text: None)
+    report = progress or no_progress
     sweep_id = sweep_id or f"sweep-{uuid.uuid4().hex[:12]}"
     outputs: list = [None] * len(tasks)
     done = 0

@@ -16,7 +16,7 @@ from __future__ import annotations
 import dataclasses
 import math
 from dataclasses import dataclass, field
-from typing import Callable
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -25,8 +25,7 @@ from engine.scenario.inputs import CostCase, Scenario, default_cost_case
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
 from engine.model.solvers import DIRECT
-
-Progress = Callable[[float, str], None]
+from engine.progress import Cancel, Progress, no_progress
 
 TRADEOFF_COLUMNS = (
     "point", "kind", "co2_bound_t_per_a", "co2_t_per_a", "total_cost_eur_per_a", "unserved_heat_mwh_per_a",
@@ -67,7 +66,7 @@ def tradeoff_curve_runs(
     n_points: int = 7,
     typical_days: int | None = None,
     progress: Progress | None = None,
-    cancel: Callable[[], bool] | None = None,
+    cancel: Cancel | None = None,
     solver: str = DIRECT,
 ) -> tuple[pd.DataFrame, list[RunResult]]:
     """The cost-CO2 trade-off curve and the run behind each of its points.
@@ -123,7 +122,7 @@ def tradeoff_curve_runs(
         raise ValueError(f"n_points must be a whole number >= 2, got {n_points!r}")
     n_points = int(n_points)
     case = _default_case(scenario, cost_case)
-    report = progress or (lambda share, text: None)
+    report = progress or no_progress
     stopped = cancel or (lambda: False)
     settings_cost = run_settings(scenario, "cost", 0.0, typical_days)
     settings_co2 = run_settings(scenario, "co2", 0.0, typical_days)
@@ -339,7 +338,7 @@ def co2_price_for_cap(
     base = scenario.cost_cases[case_name]
     base_price = float(scenario.prices.co2_eur_per_t if base.co2_eur_per_t is None else base.co2_eur_per_t)
     settings = run_settings(scenario, "cost", 0.0, typical_days)
-    report = progress or (lambda share, text: None)
+    report = progress or no_progress
     history = []
 
     def solve_at(surcharge: float):
