@@ -11,7 +11,7 @@ import sys
 
 from engine.cli import solve, studies
 from engine.cli.common import EXIT_INPUT, EXIT_OK, EXIT_SOLVER
-from engine.scenario import init_cli
+from engine.cli import init as init_cli
 
 COMMANDS = {
     "validate": solve.cmd_validate,

@@ -1,7 +1,7 @@
 """Start a scenario folder for a planner's own city from GIS layers, a weather file and a template.
 
 :func:`init_scenario_folder` is ``python -m engine init NEW_DIR --districts LAYER ...``
-(:mod:`engine.scenario.init_cli` parses the arguments). It writes a complete folder in the layout of
+(:mod:`engine.cli.init` parses the arguments). It writes a complete folder in the layout of
 ``docs/input_format.md``:
 
 * ``districts.geojson`` in WGS 84 from the districts layer (any format and CRS :mod:`engine.scenario.gis`
@@ -9,8 +9,8 @@
 * ``buildings.csv`` from a buildings layer (points or footprints), with the annual demand of each building:
   metered where the layer gives ``heat_demand_mwh_per_a``, else from the typology table
   (:mod:`engine.physics.typology`);
-* ``hourly.csv``: the template's hourly prices and CO2 factors, with the outdoor temperature of the EPW file
-  when one is given (a copy of it is kept as ``weather.epw``);
+* ``hourly.csv``: the template's hourly prices and CO2 factors; with an EPW file, the file is copied as
+  ``weather.epw`` and hourly.csv leaves out ``outdoor_temp_c``, so the reader takes the dry bulb from it;
 * ``scenario.toml``, ``technologies.csv`` and ``cost_cases.toml`` copied from the template.
 
 Every default it takes is listed in :attr:`InitResult.assumptions` and printed, so the planner sees what to
@@ -262,9 +262,8 @@ def _hourly(template: Path, weather: epw.Weather | None, notes: list[str]) -> pd
             "FILE.epw for your own"
         )
         return hourly
-    hourly = _fit_rows(hourly, weather.n_hours, notes)
-    hourly["outdoor_temp_c"] = np.round(weather.dry_bulb_c, 2)
-    notes.append(f"hourly.csv: outdoor temperature from the weather file, {weather.location.describe()}")
+    hourly = _fit_rows(hourly, weather.n_hours, notes).drop(columns=["outdoor_temp_c"])
+    notes.append(f"outdoor temperature: weather.epw, {weather.location.describe()} (hourly.csv has no outdoor_temp_c)")
     if weather.filled_hours:
         notes.append(f"weather: {weather.filled_hours} missing hour(s) (code 99.9) filled by linear interpolation")
     return hourly

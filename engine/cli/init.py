@@ -1,8 +1,8 @@
 """``python -m engine init NEW_DIR --districts LAYER ...``: the argument parsing of :mod:`engine.scenario.init_folder`.
 
-Wired into the command line by two calls: :func:`add_init_parser` on the sub-command parsers and
-:func:`cmd_init` for ``args.command == "init"``. Exit codes as the rest of the command line: 0 written and
-valid, 2 input problems (printed, no traceback).
+:func:`add_init_parser` adds the sub-command and :func:`cmd_init` runs it (both registered in
+:mod:`engine.cli`). Exit codes as the rest of the command line: 0 written and valid, 2 input problems (printed,
+no traceback).
 """
 
 from __future__ import annotations
@@ -10,9 +10,8 @@ from __future__ import annotations
 import argparse
 import sys
 
+from engine.cli.common import EXIT_INPUT, EXIT_OK
 from engine.scenario.init_folder import init_scenario_folder
-
-EXIT_OK, EXIT_INPUT = 0, 2
 
 
 def add_init_parser(sub) -> argparse.ArgumentParser:
