@@ -177,3 +177,51 @@ def test_validate_shows_where_the_temperatures_and_coordinates_came_from(tmp_pat
     assert main(["validate", str(folder)]) == 0
     out = capsys.readouterr().out
     assert "Examplestadt" in out and "EPSG:25832" in out
+
+
+def districts_gpkg(folder: Path, mutate) -> None:
+    """Replace districts.geojson by a GeoPackage in EPSG:25832, after ``mutate(shapes, props)``."""
+    data = json.loads((TINY / "districts.geojson").read_text())
+    shapes = [shapely.transform(shape(f["geometry"]), to_utm) for f in data["features"]]
+    props = [{"district_id": f["properties"]["district_id"], "heat_demand_mwh_per_a": f["properties"]["heat_demand_mwh_per_a"],
+              "supply_temp_c": f["properties"]["supply_temp_c"]} for f in data["features"]]
+    mutate(shapes, props)
+    (folder / "districts.geojson").unlink()
+    (folder / "district_technologies.csv").unlink()
+    (folder / "heat_demand_hourly.csv").unlink()
+    write_layer(folder / "districts.gpkg", shapes, props, CRS, "GPKG")
+
+
+def test_gpkg_districts_with_a_duplicate_id_name_the_layer_and_feature(tmp_path):
+    folder = plain_copy(tmp_path / "dup")
+    districts_gpkg(folder, lambda shapes, props: props[1].update(district_id=props[0]["district_id"]))
+    problems = [p for p in validate_scenario(folder) if p.file == "districts.gpkg"]
+    assert [(p.row, p.column) for p in problems] == [(2, "district_id")]
+    assert "duplicate" in problems[0].message and str(problems[0]).startswith("districts.gpkg, feature 2, field district_id")
+
+
+def test_gpkg_districts_load_without_the_geojson(tmp_path):
+    folder = plain_copy(tmp_path / "gpkg")
+    districts_gpkg(folder, lambda shapes, props: None)
+    scenario = load_scenario(folder)
+    plain = load_scenario(TINY).districts
+    for a, b in zip(scenario.districts["geometry"], plain["geometry"]):
+        assert np.allclose(np.array(a["coordinates"][0]), np.array(b["coordinates"][0]), atol=1e-9)
+
+
+@pytest.mark.filterwarnings("ignore::RuntimeWarning")  # GDAL warns when writing a point into a polygon layer
+def test_mixed_geometry_in_a_districts_layer_is_refused(tmp_path):
+    folder = plain_copy(tmp_path / "mixed")
+    districts_gpkg(folder, lambda shapes, props: shapes.__setitem__(1, shapes[1].centroid))
+    problems = validate_scenario(folder)
+    assert {p.file for p in problems} == {"districts.gpkg"}
+    assert any(p.row == 2 and p.column == "geometry" and "is a Point" in p.message for p in problems)
+    assert any(p.row is None and "mixes geometry types" in p.message for p in problems)
+
+
+def test_unknown_declared_crs_is_refused_on_its_key(tmp_path):
+    folder = plain_copy(tmp_path / "badcrs")
+    (folder / "scenario.toml").write_text((TINY / "scenario.toml").read_text() + '\n[gis]\ncrs = "EPSG:99999999"\n')
+    problems = validate_scenario(folder)
+    assert [(p.file, p.column) for p in problems] == [("scenario.toml", "gis.crs")]
+    assert "pyproj does not know" in problems[0].message
