@@ -1,4 +1,4 @@
-"""Command line: ``python -m engine validate|solve|export-lp|tradeoff|sweep|fidelity|pathway|designate ...``.
+"""Command line: ``python -m engine validate|solve|export-lp|tradeoff|sweep|fidelity|pathway|designate|init ...``.
 
 Exit codes: 0 solved (or valid), 2 input errors (printed, no traceback), 3 the solver failed. Every command that
 solves takes ``--solver NAME`` (:mod:`engine.model.solvers`): ``highs``, HiGHS directly, by default.
@@ -13,6 +13,7 @@ from engine.cli import solve, studies
 from engine.cli.common import EXIT_INPUT, EXIT_OK, EXIT_SOLVER
 from engine.studies.designation import add_designate_parser, cmd_designate
 from engine.studies.pathway import add_pathway_parser, cmd_pathway
+from engine.cli import init as init_cli
 
 COMMANDS = {
     "validate": solve.cmd_validate,
@@ -23,6 +24,7 @@ COMMANDS = {
     "fidelity": studies.cmd_fidelity,
     "pathway": cmd_pathway,
     "designate": cmd_designate,
+    "init": init_cli.cmd_init,
 }
 
 __all__ = ["EXIT_INPUT", "EXIT_OK", "EXIT_SOLVER", "main", "parser"]
@@ -35,6 +37,7 @@ def parser() -> argparse.ArgumentParser:
     studies.add_parsers(sub)
     add_pathway_parser(sub)
     add_designate_parser(sub)
+    init_cli.add_init_parser(sub)
     return root
 
 

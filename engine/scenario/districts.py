@@ -13,6 +13,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+import engine.scenario.city_inputs as city_inputs
 import engine.scenario.geometry as geometry
 from engine.scenario.cells import (
     KEEP,
@@ -22,7 +23,6 @@ from engine.scenario.cells import (
     Column,
     check_unique,
     parse_table,
-    read_checked_table,
     report_rows,
 )
 from engine.scenario.defaults import cell_default
@@ -133,8 +133,8 @@ def _crs_name(crs: Any) -> str:
     return str(crs)
 
 
-def _district_table(report: Report, features: list) -> tuple[Table, list[Any]]:
-    """Properties of the usable features as a text table, with their geometries."""
+def _district_table(report: Report, features: list, file: str = DISTRICTS_FILE) -> tuple[Table, list[Any]]:
+    """Properties of the usable features as a text table, with their geometries (``file``: the layer's name)."""
     known = [spec.name for spec in DISTRICT_PROPERTIES]
     columns: dict[str, list[str]] = {name: [] for name in known}
     rows: list[int] = []
@@ -143,12 +143,12 @@ def _district_table(report: Report, features: list) -> tuple[Table, list[Any]]:
     unknown_seen: dict[str, list[int]] = {}
     for number, feature in enumerate(features, start=1):
         if not isinstance(feature, dict) or feature.get("type") != "Feature":
-            report(DISTRICTS_FILE, number, None, "is not a GeoJSON Feature")
+            report(file, number, None, "is not a GeoJSON Feature")
             continue
         properties = feature.get("properties")
         if not isinstance(properties, dict) or not properties:
             report(
-                DISTRICTS_FILE,
+                file,
                 number,
                 None,
                 "has no properties; each district needs district_id, heat_demand_mwh_per_a and supply_temp_c",
@@ -156,7 +156,7 @@ def _district_table(report: Report, features: list) -> tuple[Table, list[Any]]:
             continue
         for key in getattr(properties, "repeated", ()):
             report(
-                DISTRICTS_FILE,
+                file,
                 number,
                 key,
                 "appears more than once in this feature's properties (the last value would silently win); keep one",
@@ -174,14 +174,14 @@ def _district_table(report: Report, features: list) -> tuple[Table, list[Any]]:
         close = difflib.get_close_matches(key, known, n=1, cutoff=0.6)
         hint = f"did you mean '{close[0]}'? " if close else ""
         report(
-            DISTRICTS_FILE,
+            file,
             numbers[0],
             key,
             f"unknown property (in {len(numbers)} feature(s)); {hint}known properties: {', '.join(known)} "
             "(extra properties are allowed only when their name starts with 'note')",
         )
     table = Table(
-        DISTRICTS_FILE,
+        file,
         pd.DataFrame(columns, dtype=str),
         rows,
         labels,
@@ -198,7 +198,7 @@ def _check_district_geometries(report: Report, table: Table, geometries: list[An
         problems = geometry.geometry_problems(shape)
         row, prefix = table.place(index)
         for message in problems:
-            report(DISTRICTS_FILE, row, "geometry", prefix + message)
+            report(table.file, row, "geometry", prefix + message)
         shapes.append(None if problems else geometry.to_shape(shape))
     return shapes
 
@@ -270,7 +270,16 @@ def _check_district_units(report: Report, table: Table, frame: pd.DataFrame, geo
         )
 
 
-def load_districts(folder: Path, report: Report) -> Districts | None:
+def load_districts(folder: Path, report: Report, crs: str | None = None) -> Districts | None:
+    """Districts from districts.geojson (WGS 84), or from a layer in another format or CRS
+    (:func:`engine.scenario.city_inputs.district_features`); ``crs`` is ``[gis] crs`` of scenario.toml."""
+    features, file, problems, notes = city_inputs.district_features(folder, crs)
+    report.problems.extend(problems)
+    report.notes.extend(notes)
+    if problems:
+        return None
+    if features is not None:
+        return _district_frame(report, features, file)
     text = read_text(folder, DISTRICTS_FILE, report, required=True)
     if text is None:
         return None
@@ -293,7 +302,12 @@ def load_districts(folder: Path, report: Report) -> Districts | None:
     features = _feature_collection(report, data)
     if features is None:
         return None
-    table, geometries = _district_table(report, features)
+    return _district_frame(report, features, DISTRICTS_FILE)
+
+
+def _district_frame(report: Report, features: list, file: str) -> Districts:
+    """The checked districts of a list of GeoJSON features in WGS 84."""
+    table, geometries = _district_table(report, features, file)
     frame = parse_table(report, table, DISTRICT_PROPERTIES)
     frame["name"] = [name or district_id for name, district_id in zip(frame["name"], frame["district_id"])]
     shapes = _check_district_geometries(report, table, geometries)
@@ -355,9 +369,27 @@ BUILDING_COLUMNS = (
     Column("building_id", "text"),
     Column("lon"),
     Column("lat"),
-    Column("heat_demand_mwh_per_a", low=0),
+    Column("heat_demand_mwh_per_a", in_header=False, default=KEEP, low=0),
     Column("cooling_demand_mwh_per_a", in_header=False, default=_building_default("cooling_demand_mwh_per_a"), low=0),
+    Column("use", "text", in_header=False, default=KEEP),
+    Column("construction_year", in_header=False, default=KEEP, low=1000, high=2200),
+    Column("construction_period", "text", in_header=False, default=KEEP),
+    Column("heated_area_m2", in_header=False, default=KEEP, low=0),
+    Column("footprint_area_m2", in_header=False, default=KEEP, low=0),
+    Column("storeys", in_header=False, default=KEEP, low=0, high=200),
 )
+"""Metered demand, or the building stock (use, period, area) from which the typology table gives it; a blank
+heat demand is an error unless the stock columns are there (engine.scenario.city_inputs.building_columns)."""
+
+
+def _building_demand(folder: Path, report: Report, table: Table, frame: pd.DataFrame) -> None:
+    """Blank heat demand from the typology table where the building-stock columns describe the building."""
+    if not any(name in table.cells.columns for name in city_inputs.BUILDING_STOCK_COLUMNS):
+        return
+    demand, problems = city_inputs.typology_demand_for(folder, frame, table.file, table.rows)
+    report.problems.extend(problems)
+    if demand is not None:
+        frame["heat_demand_mwh_per_a"] = demand
 
 
 def _check_building_units(report: Report, table: Table, frame: pd.DataFrame) -> None:
@@ -374,12 +406,17 @@ def _check_building_units(report: Report, table: Table, frame: pd.DataFrame) -> 
         )
 
 
-def load_buildings(folder: Path, report: Report, districts: Districts | None) -> pd.DataFrame | None:
-    """Buildings with the index of the district containing them (column ``district_index``)."""
-    loaded = read_checked_table(folder, BUILDINGS_FILE, BUILDING_COLUMNS, report, required=False)
+def load_buildings(
+    folder: Path, report: Report, districts: Districts | None, crs: str | None = None
+) -> pd.DataFrame | None:
+    """Buildings (buildings.csv or a layer) with the index of the district containing them (``district_index``)."""
+    loaded = city_inputs.read_point_table(
+        folder, "buildings", city_inputs.building_columns(BUILDING_COLUMNS), report, crs
+    )
     if loaded is None:
         return None
     table, frame = loaded
+    _building_demand(folder, report, table, frame)
     check_unique(report, table, list(frame["building_id"]), "building_id", "building_id '{}'")
     usable = check_points(report, table, frame, "lon", "lat")
     _check_building_units(report, table, frame)

@@ -31,3 +31,15 @@ OPTIONAL_FILES = (
 
 SCENARIO_FILES = REQUIRED_FILES + OPTIONAL_FILES
 """Every file name a scenario folder may hold, required ones first."""
+
+WEATHER_FILE = "weather.epw"
+TYPOLOGY_FILE = "building_typology.csv"
+LAYER_SUFFIXES = (".geojson", ".gpkg", ".zip")
+OWN_CITY_FILES = (
+    WEATHER_FILE,
+    TYPOLOGY_FILE,
+    *(f"{stem}{suffix}" for stem in ("districts", "wells", "buildings") for suffix in LAYER_SUFFIXES),
+)
+"""Further files the reader takes from a planner's own folder (engine.scenario.city_inputs): the weather file,
+the typology table and GIS layers. Not yet part of :data:`SCENARIO_FILES`, so the store and bundles do not carry
+them (GeoPackage and zipped Shapefiles are binary; the store keeps UTF-8 text)."""

@@ -26,6 +26,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from engine.scenario import city_inputs
 from engine.scenario.catalogue import full_district_technologies, load_district_technologies, load_technologies
 from engine.scenario.cells import Column, report_rows
 from engine.scenario.pathway_inputs import PATHWAY_FILE, read_pathway_inputs
@@ -38,6 +39,7 @@ from engine.scenario.files import (
     HEAT_DEMAND_HOURLY_FILE,
     HOURLY_FILE,
     OPTIONAL_FILES,
+    OWN_CITY_FILES,
     REQUIRED_FILES,
     SCENARIO_FILE,
     TECHNOLOGIES_FILE,
@@ -151,7 +153,7 @@ def _check_folder(folder: Path, report: Report) -> bool:
     if not folder.is_dir():
         report(str(folder), None, None, "is not a folder; a scenario is a folder of files (docs/input_format.md)")
         return False
-    known = REQUIRED_FILES + OPTIONAL_FILES
+    known = REQUIRED_FILES + OPTIONAL_FILES + OWN_CITY_FILES
     for path in sorted(folder.iterdir()):
         if path.name in known or path.suffix.lower() not in (".csv", ".toml", ".geojson", ".json"):
             continue
@@ -168,10 +170,13 @@ def _read_folder(folder: Path) -> tuple[Scenario | None, list[Problem]]:
     if not _check_folder(folder, report):
         return None, report.problems
     settings = districts = technologies = hourly = None
+    crs = None
     with report.guard(SCENARIO_FILE):
         settings = load_settings(folder, report)
+        crs, problems = city_inputs.scenario_crs(folder)
+        report.problems.extend(problems)
     with report.guard(DISTRICTS_FILE):
-        districts = load_districts(folder, report)
+        districts = load_districts(folder, report, crs)
     with report.guard(TECHNOLOGIES_FILE):
         technologies = load_technologies(folder, report)
     with report.guard(HOURLY_FILE):
@@ -182,11 +187,11 @@ def _read_folder(folder: Path) -> tuple[Scenario | None, list[Problem]]:
 
     wells = overrides = buildings = heat_series = temp_series = cost_cases = None
     with report.guard(WELLS_FILE):
-        wells = load_wells(folder, report, districts)
+        wells = load_wells(folder, report, districts, crs)
     with report.guard(DISTRICT_TECHNOLOGIES_FILE):
         overrides = load_district_technologies(folder, report, district_ids, technology_ids)
     with report.guard(BUILDINGS_FILE):
-        buildings = load_buildings(folder, report, districts)
+        buildings = load_buildings(folder, report, districts, crs)
     with report.guard(HEAT_DEMAND_HOURLY_FILE):
         heat_series = load_id_series(
             folder, HEAT_DEMAND_HOURLY_FILE, report, district_ids, "district", Column("", low=0), n_hours
@@ -215,6 +220,7 @@ def _read_folder(folder: Path) -> tuple[Scenario | None, list[Problem]]:
         )
         scenario.warnings = list(report.problems)
         scenario.pathway = pathway
+        scenario.notes = tuple(report.notes)
         return scenario, list(report.problems)
     return None, report.problems
 
@@ -299,6 +305,8 @@ def validate_command(path: str | Path) -> int:
             f"OK: {len(scenario.districts)} districts, {len(scenario.wells)} wells, "
             f"{len(scenario.technologies)} technologies, {scenario.n_hours} hours"
         )
+        for note in scenario.notes:
+            print(f"  {note}")
         return 0
     for problem in problems:
         print(problem)

@@ -53,7 +53,8 @@ def coordinate_problem(lon: float, lat: float) -> str | None:
     if abs(lon) > PROJECTED_THRESHOLD or abs(lat) > PROJECTED_THRESHOLD:
         return (
             f"coordinates ({lon:.10g}, {lat:.10g}) look like a projected CRS (metres); "
-            "they must be WGS 84 longitude/latitude in degrees (EPSG:4326): reproject them"
+            "they must be WGS 84 longitude/latitude in degrees (EPSG:4326): reproject them, or say which CRS "
+            "they are in (the layer's own CRS, or [gis] crs = \"EPSG:NNNN\" in scenario.toml)"
         )
     if abs(lat) > 90 and abs(lon) <= 90 and abs(lat) <= 180:
         return (

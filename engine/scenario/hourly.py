@@ -16,14 +16,16 @@ from engine.scenario.cells import (
     MAX_DISTRICT_DEMAND_MWH_PER_A,
     MAX_HEAT_DENSITY_MWH_PER_KM2,
     MAX_PRICE_EUR_PER_MWH,
+    KEEP,
     Column,
+    check_header,
     check_timestamp_hours,
     parse_table,
-    read_checked_table,
     timestamp_column,
 )
+import engine.scenario.city_inputs as city_inputs
 from engine.scenario.districts import Districts
-from engine.scenario.files import HOURLY_FILE
+from engine.scenario.files import HOURLY_FILE, WEATHER_FILE
 from engine.scenario.tables import Report, Table, read_csv
 from engine.units import KWH_PER_MWH
 
@@ -98,12 +100,26 @@ def _check_hours(report: Report, table: Table, hours: np.ndarray, expected_rows:
 
 
 def load_hourly(folder: Path, report: Report) -> pd.DataFrame | None:
-    loaded = read_checked_table(folder, HOURLY_FILE, HOURLY_COLUMNS, report, required=True)
-    if loaded is None:
+    """hourly.csv; without an ``outdoor_temp_c`` column, the dry bulb of weather.epw (in file order) fills it."""
+    table = read_csv(folder, HOURLY_FILE, report, required=True)
+    if table is None:
         return None
-    table, frame = loaded
+    from_epw = "outdoor_temp_c" not in table.cells.columns and (folder / WEATHER_FILE).is_file()
+    specs = tuple(
+        dataclasses.replace(spec, in_header=False, default=KEEP) if from_epw and spec.name == "outdoor_temp_c" else spec
+        for spec in HOURLY_COLUMNS
+    )
+    check_timestamp_hours(report, table)
+    check_header(report, table, specs)
+    frame = parse_table(report, table, specs)
     if "hour" in table.cells.columns:
         _check_hours(report, table, frame["hour"].to_numpy(dtype=float), None)
+    if from_epw:
+        temps, station, problems = city_inputs.weather_temperature(folder, len(frame))
+        report.problems.extend(problems)
+        if temps is not None:
+            frame["outdoor_temp_c"] = temps
+            report.notes.append(f"outdoor_temp_c from {WEATHER_FILE}: {station}")
     _check_hourly_price_units(report, table, frame)
     return frame
 

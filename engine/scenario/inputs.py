@@ -166,6 +166,8 @@ class Scenario:
     options the files state that cannot take effect. They do not enter :func:`input_hash`."""
     pathway: Any = None
     """Milestone years and trajectories (:class:`engine.scenario.pathway_inputs.PathwayInputs`), or None."""
+    notes: tuple[str, ...] = ()
+    """What the reader took from elsewhere or assumed (a layer's CRS, the EPW station); not in the input hash."""
 
     @property
     def n_hours(self) -> int:

@@ -11,6 +11,8 @@ the file sees it:
 * GeoJSON files: ``row`` is the feature number, counting the first feature as 1; ``column`` is the property
   name (or ``geometry``).
 * TOML files: ``row`` is the line number; ``column`` is the dotted key (``run.discount_rate``).
+* GeoPackage and zipped Shapefile layers: ``row`` is the feature number (first = 1), ``column`` the field.
+* EPW weather files: ``row`` is the line of the file (the first header line is 1), ``column`` the field.
 
 ``row`` and ``column`` are ``None`` where a problem concerns the whole file or a whole column.
 
@@ -61,6 +63,10 @@ class Problem:
         name = self.file.lower()
         if name.endswith((".geojson", ".json")):
             return "feature", "property"
+        if name.endswith((".gpkg", ".zip", ".shp")):
+            return "feature", "field"
+        if name.endswith(".epw"):
+            return "line", "field"
         if name.endswith(".toml"):
             return "line", "key"
         return "row", "column"

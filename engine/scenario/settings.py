@@ -82,7 +82,11 @@ AQUIFER_KEYS = (
     ),
     Column("reinjection_offset_m", default=_AQUIFER["reinjection_offset_m"], low=0, high=10_000, low_open=True),
 )
-SCENARIO_SECTIONS = {"run": RUN_KEYS, "prices": PRICE_KEYS, "co2_factors": CO2_FACTOR_KEYS, "aquifer": AQUIFER_KEYS}
+GIS_KEYS = (Column("crs", "text", default=""),)
+"""``[gis] crs``: the CRS of x/y columns and of layers without one (checked by engine.scenario.city_inputs)."""
+SCENARIO_SECTIONS = {
+    "run": RUN_KEYS, "prices": PRICE_KEYS, "co2_factors": CO2_FACTOR_KEYS, "aquifer": AQUIFER_KEYS, "gis": GIS_KEYS,
+}
 REQUIRED_SECTIONS = ("run", "prices")
 OBJECTIVES = ("cost", "co2")
 

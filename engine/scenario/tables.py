@@ -47,6 +47,8 @@ class Report:
 
     def __init__(self) -> None:
         self.problems: list[Problem] = []
+        self.notes: list[str] = []
+        """What the reader took from elsewhere (a layer's CRS, weather.epw's station), shown with the scenario."""
 
     def __call__(self, file: str, row: int | None, column: str | None, message: str, severity: str = "error") -> None:
         self.problems.append(Problem(file, None if row is None else int(row), column, message, severity))

@@ -7,6 +7,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+import engine.scenario.city_inputs as city_inputs
 import engine.scenario.geometry as geometry
 from engine.scenario.cells import (
     KEEP,
@@ -15,7 +16,6 @@ from engine.scenario.cells import (
     blank_cells,
     check_references,
     check_unique,
-    read_checked_table,
     report_rows,
 )
 from engine.scenario.districts import Districts, check_points, outside_note, swapped_hints
@@ -146,10 +146,13 @@ def _empty_wells() -> pd.DataFrame:
     return frame.astype({"well_id": str, "district_id": str, "coldest_day_of_year": "int64"})
 
 
-def load_wells(folder: Path, report: Report, districts: Districts | None) -> pd.DataFrame | None:
-    loaded = read_checked_table(folder, WELLS_FILE, WELL_COLUMNS, report, required=False)
+def load_wells(
+    folder: Path, report: Report, districts: Districts | None, crs: str | None = None
+) -> pd.DataFrame | None:
+    """Wells from wells.csv (lon/lat, or x/y in ``[gis] crs``) or a point layer (engine.scenario.city_inputs)."""
+    loaded = city_inputs.read_point_table(folder, "wells", WELL_COLUMNS, report, crs)
     if loaded is None:
-        return None if (folder / WELLS_FILE).exists() else _empty_wells()
+        return None if city_inputs.point_files_exist(folder, "wells") else _empty_wells()
     table, frame = loaded
     check_unique(report, table, list(frame["well_id"]), "well_id", "well_id '{}'")
     usable = check_points(report, table, frame, "lon", "lat")

@@ -253,10 +253,26 @@ def _utm(lon: float, lat: float) -> list[float]:
     return [round(500000 + (lon - 9.0) * 74_000, 1), round(lat * 111_200, 1)]
 
 
-def _projected_districts(data: dict) -> None:
-    data["crs"] = {"type": "name", "properties": {"name": "urn:ogc:def:crs:EPSG::25832"}}
+def _projected_districts_without_crs(data: dict) -> None:
+    """Metres without a crs member: never guessed (a layer WITH the member is read and reprojected, see
+    tests/test_own_city.py)."""
     for feature in data["features"]:
         feature["geometry"]["coordinates"] = [[_utm(*p) for p in ring] for ring in feature["geometry"]["coordinates"]]
+
+
+def _unknown_crs_member(data: dict) -> None:
+    data["crs"] = {"type": "name", "properties": {"name": "EPSG:999999"}}
+    _projected_districts_without_crs(data)
+
+
+def _wells_as_xy(folder: Path) -> None:
+    records = read_records(folder / "wells.csv")
+    header = records[0]
+    header[header.index("lon")], header[header.index("lat")] = "x", "y"
+    for record in records[1:]:
+        x, y = _utm(float(record[header.index("x")]), float(record[header.index("y")]))
+        record[header.index("x")], record[header.index("y")] = f"{x:.1f}", f"{y:.1f}"
+    write_records(folder / "wells.csv", records)
 
 
 def _swap_point(file: str, row: int) -> Callable[[Path], None]:
@@ -456,9 +472,13 @@ CASES: tuple[Case, ...] = (
          set_ring(1, [[11.0, 48.0], [11.01, 48.0], [11.005, 48.0], [11.0, 48.0]]),
          (expect(D, 1, "geometry", "not valid", "fix"),)),
     # ------------------------------------------------------------------ coordinate systems
-    Case("projected_districts", "coordinate systems", edit_geojson(_projected_districts),
-         (expect(D, None, "crs", "EPSG::25832", "reproject"), expect(D, 1, "geometry", "projected", "EPSG:4326"),
-          expect(D, 2, "geometry", "projected", "EPSG:4326"))),
+    Case("projected_districts_without_crs", "coordinate systems", edit_geojson(_projected_districts_without_crs),
+         (expect(D, 1, "geometry", "projected", ("EPSG:4326", "[gis] crs")),
+          expect(D, 2, "geometry", "projected", ("EPSG:4326", "[gis] crs")))),
+    Case("unknown_crs_member", "coordinate systems", edit_geojson(_unknown_crs_member),
+         (expect(D, None, "crs", ("pyproj does not know", "EPSG:999999"), "EPSG code"),)),
+    Case("wells_xy_without_declared_crs", "coordinate systems", _wells_as_xy,
+         (expect(W, 1, "x", "declares no coordinate system", "[gis] crs"),)),
     Case("projected_wells", "coordinate systems",
          both(map_column(W, "lon", lambda v: f"{_utm(float(v), 48.0)[0]:.1f}"),
               map_column(W, "lat", lambda v: f"{_utm(11.0, float(v))[1]:.1f}")),
