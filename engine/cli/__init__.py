@@ -11,8 +11,7 @@ import sys
 
 from engine.cli import solve, studies
 from engine.cli.common import EXIT_INPUT, EXIT_OK, EXIT_SOLVER
-from engine.studies.designation import add_designate_parser, cmd_designate
-from engine.studies.pathway import add_pathway_parser, cmd_pathway
+from engine.cli.plan import add_designate_parser, add_pathway_parser, cmd_designate, cmd_pathway
 from engine.cli import init as init_cli
 
 COMMANDS = {

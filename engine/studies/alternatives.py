@@ -27,12 +27,12 @@ import os
 import uuid
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
-from typing import Callable
 
 import highspy
 import numpy as np
 import pandas as pd
 
+from engine.progress import Progress
 from engine.model.formulation import build_model
 from engine.model.lp import new_highs
 from engine.model.prepare import prepare_run
@@ -182,7 +182,7 @@ def near_optimal_ranges(
     typical_days: int | None = None,
     workers: int | None = None,
     scheduler=None,
-    progress: Callable[[float, str], None] | None = None,
+    progress: Progress | None = None,
 ) -> NearOptimalRanges:
     """Minimum and maximum of each district's network share and each technology's city-wide share.
 

@@ -34,9 +34,7 @@ operator and the local authorities to decide.
 
 from __future__ import annotations
 
-import argparse
 import math
-import sys
 import time
 import tomllib
 from dataclasses import dataclass, fields
@@ -52,8 +50,6 @@ from engine.model.solve import run_settings
 from engine.scenario.inputs import Scenario
 from engine.scenario.problems import InputError, Problem
 from engine.studies.alternatives import DEFAULT_SLACK_PCT, near_optimal_ranges
-from engine.scenario.folder import load_scenario, resolve_scenario_path
-from engine.studies.pathway import resolve_pathway, year_scenario
 from engine.studies.sweep import run_sweep, tasks_from_cost_cases
 
 AREAS = ("heat_network", "individual_heat_pumps", "other_individual", "under_review")
@@ -271,71 +267,5 @@ def designate(
                "total": round(time.perf_counter() - started, 3)}
     report(1.0, "Done")
     return Designation(pd.DataFrame(rows), names, t, ranges.ranges, wins, timings)
-
-
-# ------------------------------------------------------------------------------------------------ command line
-def add_designate_parser(sub) -> None:
-    p = sub.add_parser("designate", help="supply area and graded suitability per district; writes designation.csv")
-    p.add_argument("scenario", help="scenario folder, or 'demo'")
-    p.add_argument("--cost-cases", default="all", help="'all' or names separated by commas")
-    p.add_argument("--slack-pct", type=float, default=DEFAULT_SLACK_PCT, help="cost slack of the alternatives [%%]")
-    p.add_argument("--year", type=int, default=None, help="a milestone year of the pathway (default: the scenario)")
-    p.add_argument("--typical-days", type=int, default=None)
-    p.add_argument("--workers", type=int, default=None)
-    p.add_argument("--scheduler", default=None, metavar="ADDR", help="Dask scheduler address, e.g. tcp://host:8786")
-    p.add_argument("--out", default="out")
-    p.add_argument("--quiet", action="store_true")
-    p.set_defaults(run=cmd_designate)
-
-
-def cmd_designate(args) -> int:
-    if args.slack_pct < 0:
-        print("--slack-pct must be >= 0", file=sys.stderr)
-        return 2
-    if args.typical_days is not None and args.typical_days < 0:
-        print("--typical-days must be >= 0 (0 means the full year)", file=sys.stderr)
-        return 2
-    try:
-        scenario = load_scenario(resolve_scenario_path(args.scenario))
-        thresholds = thresholds_from_folder(scenario.source)
-        if args.year is not None:
-            pathway = resolve_pathway(scenario)
-            if args.year not in pathway.years:
-                print(f"--year {args.year} is not a milestone year of the pathway "
-                      f"({', '.join(map(str, pathway.years))})", file=sys.stderr)
-                return 2
-            scenario, _ = year_scenario(scenario, pathway, args.year)
-    except InputError as error:
-        print(f"The scenario has {len(error.problems)} problem(s):", file=sys.stderr)
-        for problem in error.problems:
-            print(f"  {problem}", file=sys.stderr)
-        return 2
-    names = None if args.cost_cases.strip().lower() == "all" else [n.strip() for n in args.cost_cases.split(",")
-                                                                     if n.strip()]
-    unknown = [n for n in names or [] if n not in scenario.cost_cases]
-    if unknown:
-        print(f"Unknown cost case(s) {', '.join(unknown)}. Known cost cases: {', '.join(sorted(scenario.cost_cases))}",
-              file=sys.stderr)
-        return 2
-    progress = None if args.quiet else (lambda share, text: print(f"[{share * 100:5.1f} %] {text}", file=sys.stderr))
-    try:
-        result = designate(scenario, names, args.slack_pct, args.typical_days, thresholds, workers=args.workers,
-                           scheduler=args.scheduler, progress=progress)
-    except RuntimeError as error:
-        print(f"Solver failed: {error}", file=sys.stderr)
-        return 3
-    out = result.write(Path(args.out))
-    if not args.quiet:
-        print(result.table[list(DESIGNATION_COLUMNS)].to_string(index=False))
-        print(f"written to {out}")
-    return 0
-
-
-def main(argv=None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m engine")
-    add_designate_parser(parser.add_subparsers(dest="command", required=True))
-    args = parser.parse_args(argv)
-    return args.run(args)
-
 
 __all__ = ["AREAS", "Designation", "GradeThresholds", "Evidence", "designate", "grade_of", "thresholds_from_folder"]

@@ -14,10 +14,8 @@ and the local authorities' own assessment.
 
 from __future__ import annotations
 
-import argparse
 import dataclasses
 import os
-import sys
 import time
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
@@ -37,9 +35,8 @@ from engine.scenario.inputs import Scenario
 from engine.scenario.kinds import COOLING_KINDS, FUELS
 from engine.scenario.pathway_inputs import PathwayInputs, check_years, load_pathway
 from engine.scenario.problems import InputError, Problem
-from engine.scenario.folder import load_scenario, resolve_scenario_path
+from engine.progress import Progress
 
-Progress = Callable[[float, str], None]
 SUMMARY_COLUMNS = ("year", "total_cost_eur_per_a", "co2_t_per_a", "investment_eur", "heat_demand_mwh_per_a",
                    "unserved_heat_mwh_per_a")
 CAPACITY_COLUMNS = ("year", "district_id", "technology_id", "capacity_kw", "new_kw", "retired_kw")
@@ -378,67 +375,3 @@ def _tables(result, scenario, scenarios, prepared_years, built) -> None:
     result.summary = summary[list(SUMMARY_COLUMNS) + heat_cols + ["co2_cap_t_per_a", "discounted_years"]]
     result.capacity = pd.DataFrame(rows, columns=list(CAPACITY_COLUMNS))
     result.present_value_eur = float(pv)
-
-
-# ------------------------------------------------------------------------------------------------ command line
-def add_pathway_parser(sub) -> None:
-    p = sub.add_parser("pathway", help="solve the milestone years of a heat plan; writes pathway.csv and capacity.csv")
-    p.add_argument("scenario", help="scenario folder, or 'demo'")
-    p.add_argument("--years", default=None, help="milestone years, e.g. 2030,2035,2040 (default: [pathway] years)")
-    p.add_argument("--myopic", action="store_true", help="year by year with capacity carried forward")
-    p.add_argument("--cost-case", default=None)
-    p.add_argument("--typical-days", type=int, default=None)
-    p.add_argument("--out", default="out")
-    p.add_argument("--time-limit-s", type=float, default=None)
-    p.add_argument("--quiet", action="store_true")
-    p.set_defaults(run=cmd_pathway)
-
-
-def _parse_years(text: str):
-    try:
-        return [int(part) for part in text.split(",") if part.strip()], None
-    except ValueError:
-        return None, f"--years must be whole years separated by commas (e.g. 2030,2035,2040), got '{text}'"
-
-
-def cmd_pathway(args) -> int:
-    years = None
-    if args.years is not None:
-        years, error = _parse_years(args.years)
-        if error:
-            print(error, file=sys.stderr)
-            return 2
-    if args.typical_days is not None and args.typical_days < 0:
-        print("--typical-days must be >= 0 (0 means the full year)", file=sys.stderr)
-        return 2
-    try:
-        scenario = load_scenario(resolve_scenario_path(args.scenario))
-        if args.cost_case is not None and args.cost_case not in scenario.cost_cases:
-            print(f"Unknown cost case '{args.cost_case}'. Known cost cases: {', '.join(sorted(scenario.cost_cases))}",
-                  file=sys.stderr)
-            return 2
-        pathway = resolve_pathway(scenario, years)
-    except InputError as error:
-        print(f"The scenario has {len(error.problems)} problem(s):", file=sys.stderr)
-        for problem in error.problems:
-            print(f"  {problem}", file=sys.stderr)
-        return 2
-    progress = None if args.quiet else (lambda share, text: print(f"[{share * 100:5.1f} %] {text}", file=sys.stderr))
-    result = solve_pathway(scenario, pathway, myopic=args.myopic, cost_case=args.cost_case,
-                           typical_days=args.typical_days, progress=progress, time_limit_s=args.time_limit_s)
-    if not result.solved:
-        print(f"Solver failed: {result.message}", file=sys.stderr)
-        return 3
-    out = result.write(Path(args.out))
-    if not args.quiet:
-        print(f"{result.mode} pathway {', '.join(map(str, result.years))}: present value "
-              f"{result.present_value_eur:,.0f} EUR; written to {out}")
-        for note in result.notes:
-            print(f"  note: {note}")
-    return 0
-
-
-def main(argv=None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m engine")
-    add_pathway_parser(parser.add_subparsers(dest="command", required=True))
-    return cmd_pathway(parser.parse_args(argv))
