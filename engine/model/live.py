@@ -146,3 +146,49 @@ class LiveCityModel:
         result.timings_s = {"prepare": round(prepare_s, 4), **result.timings_s, "total": round(time.perf_counter() - started, 4)}
         result.model_size["reused_model"] = True
         return result
+
+
+
+class LiveDistricts:
+    """Every district's LP held in its own HiGHS, for a series of cost-only changes (a CO2 price search).
+
+    Without a city-wide row each district is its own LP; a CO2 surcharge changes only the objective, so each
+    district re-solves from its last basis (the old optimum stays feasible). :meth:`emissions_and_cost` gives the
+    two figures a price search needs from the solution vectors, without reading tables.
+    """
+
+    def __init__(self, scenario: Scenario, cost_case: str, settings: Settings, time_limit_s: float | None = None):
+        settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=None)
+        self.prepared = prepare_run(scenario, cost_case, settings)
+        self.models = [build_model(self.prepared, [i]) for i in range(len(self.prepared.district_ids))]
+        self.highs = [m.lp.to_highs(time_limit_s) for m in self.models]
+        self._costs = [m.money.copy() for m in self.models]
+
+    def emissions_and_cost(self, co2_surcharge_eur_per_t: float) -> tuple[float, float]:
+        """The city's CO2 [t/a] and its cost at the cost case's own prices [€/a] (annuities, O&M, energy, CO2 at
+        the case's price, unserved heat; the fixed O&M of existing plant included) of the least-cost plan with
+        ``co2_surcharge_eur_per_t`` added to every tonne.
+
+        Raises
+        ------
+        RuntimeError
+            If a district LP is not solved to optimality (its status named).
+        """
+        emissions = cost = 0.0
+        for k, (model, h) in enumerate(zip(self.models, self.highs)):
+            target = model.money + float(co2_surcharge_eur_per_t) * model.emissions
+            changed = np.flatnonzero(target != self._costs[k]).astype(np.int32)
+            if len(changed):
+                h.changeColsCost(len(changed), changed, target[changed])
+                self._costs[k] = target
+            h.run()
+            solution = read_highs_solution(h, 0.0)
+            if solution.status != "optimal":
+                raise RuntimeError(f"district {self.prepared.district_ids[k]}: {solution.message}")
+            x = solution.x
+            emissions += float(model.emissions @ x)
+            # the objective carries a negligible charging cost (formulation.build_model) that no table reports
+            charge = model.cols["charge"]
+            tie_break = float(np.sum(x[charge] * self.prepared.grid.weight_h[None, :])) * 1e-6 if charge.size else 0.0
+            cost += float(model.money @ x) - tie_break + float(np.sum(model.constant_fixed_om))
+        return emissions, cost

@@ -23,7 +23,7 @@ import pandas as pd
 
 from engine.scenario.inputs import CostCase, Scenario, default_cost_case
 from engine.model.results import RunResult
-from engine.model.live import LiveCityModel
+from engine.model.live import LiveCityModel, LiveDistricts
 from engine.model.solve import run_settings, solve_scenario
 from engine.model.solvers import DIRECT, resolve_solver
 from engine.progress import Cancel, Progress, no_progress
@@ -353,15 +353,28 @@ def co2_price_for_cap(
     report = progress or no_progress
     history = []
 
-    def solve_at(surcharge: float):
+    # with HiGHS directly, the search re-solves each district's LP from its last basis with only the CO2 cost
+    # changed (engine.model.live.LiveDistricts) and reads the two figures it needs from the solution; the run
+    # returned is solved once more, from scratch, at the price found
+    live = LiveDistricts(scenario, case_name, settings) if resolve_solver(solver) == DIRECT else None
+
+    def full_run(surcharge: float) -> RunResult:
         case = dataclasses.replace(base, name=f"{case_name}+co2_{surcharge:.6g}", co2_eur_per_t=base_price + surcharge)
         result = solve_scenario(scenario_with_case(scenario, case), case.name, settings=settings, decompose=True,
                                 workers=workers, solver=solver)
         if not result.solved:
             raise RuntimeError(f"the district solve at a CO2 surcharge of {surcharge:.6g} EUR/t failed: "
                                f"{result.message}")
-        emissions = result.co2_t_per_a
-        own_cost = result.total_cost_eur_per_a - surcharge * emissions
+        return result
+
+    def solve_at(surcharge: float):
+        if live is not None:
+            result = None
+            emissions, own_cost = live.emissions_and_cost(surcharge)
+        else:
+            result = full_run(surcharge)
+            emissions = result.co2_t_per_a
+            own_cost = result.total_cost_eur_per_a - surcharge * emissions
         lower = own_cost + surcharge * (emissions - cap)
         history.append({"surcharge_eur_per_t": surcharge, "co2_t_per_a": emissions, "cost_eur_per_a": own_cost,
                         "lower_bound_eur_per_a": lower})
@@ -372,7 +385,7 @@ def co2_price_for_cap(
     lo = (0.0, *solve_at(0.0))  # (surcharge, result, emissions, own cost, lower bound)
     best_lower = lo[4]
     if lo[2] <= cap:
-        return CapPrice(cap, base_price, 0.0, lo[2], lo[3], lo[3], 1, True, lo[1], history)
+        return CapPrice(cap, base_price, 0.0, lo[2], lo[3], lo[3], 1, True, lo[1] or full_run(0.0), history)
     hi = None
     step = float(first_step_eur_per_t)
     while hi is None:
@@ -409,4 +422,5 @@ def co2_price_for_cap(
         upper = min(upper, upper_bound())
         converged = (upper - best_lower) <= rel_tol * max(abs(upper), 1.0) or width <= 1e-9 * max(hi[0], 1.0)
     report(1.0, "CO2 price found" if converged else "CO2 price search stopped at its iteration limit")
-    return CapPrice(cap, base_price + hi[0], hi[0], hi[2], best_lower, upper, len(history), converged, hi[1], history)
+    return CapPrice(cap, base_price + hi[0], hi[0], hi[2], best_lower, upper, len(history), converged,
+                    hi[1] or full_run(hi[0]), history)
