@@ -110,8 +110,10 @@ def tradeoff_curve_runs(
     Notes
     -----
     With a CO2 bound the districts share one constraint, so every interior point is solved as one linear
-    program for the whole city; the end points are decomposed by district where the scenario allows.
-    Cost can only rise as the bound tightens: each tighter bound shrinks the feasible set of the same LP.
+    program for the whole city. With HiGHS directly, the least-cost point and the interior points are re-solves
+    of that one city LP held in HiGHS (:class:`engine.model.live.LiveCityModel`), each from the basis of the point
+    before; the least-CO2 point is solved by :func:`engine.model.solve.solve_scenario`, district by district
+    where the scenario allows. Cost can only rise as the bound tightens: each tighter bound shrinks the feasible set of the same LP.
 
     References
     ----------
