@@ -2,7 +2,8 @@
 
 Usage::
 
-    python bench/run.py --quick      # 2-3 minutes: 10 districts, one monolithic LP of >= 100 000 variables
+    python bench/run.py --quick      # 3-4 minutes: 10 districts, one monolithic LP of >= 100 000 variables
+    python bench/run.py --ratios     # only the demo's interactive_ratio and study_ratio (about a minute)
     python bench/run.py              # 10, 50 and 200 districts, 12 typical days and the full year
     python bench/run.py --profile 10:0:decomposed   # cProfile of one case (districts:typical days:path)
 
@@ -22,6 +23,10 @@ Each case runs in a fresh child process so that its peak memory is its own. With
   (marked ``~``). ``ratio`` = ``total s`` / ``HiGHS s``.
 * ``mono HiGHS s``: for decomposed runs on typical days, the monolithic LP of the whole city (the same
   optimisation problem in one piece) solved by HiGHS alone, for comparison.
+
+In quick mode two lines before it give the demo city's interactive figures (:func:`run_ratios`):
+``interactive_ratio=R`` (read and solve the demo end to end, over HiGHS alone on the same LPs) and
+``study_ratio=R`` (a seven-point trade-off curve over seven single solves).
 
 The last line of the output is ``overhead_ratio=R``: the ratio of the largest monolithic case run (in quick mode
 a full-year city of at least 100 000 variables).
@@ -234,9 +239,61 @@ def run_demo() -> dict:
     return out
 
 
+def run_ratios(repeats: int = 3, curve_repeats: int = 1) -> dict:
+    """The two interactive figures of the demo city, each timed back to back in this process (medians).
+
+    ``interactive``: reading the demo folder and solving it at its own resolution with the default workers
+    (end to end), over HiGHS alone on the same LPs (written to MPS, read and solved by a fresh ``highspy.Highs``
+    one after the other, as the engine solves them for a city of this size).
+    ``study``: a seven-point trade-off curve (:func:`engine.studies.tradeoff.tradeoff_curve_runs`) over seven
+    times one solve of the demo (the scenario read already). The memo of typical-day grids is emptied before each
+    timed solve, so that every figure is that of a first solve.
+    """
+    import statistics
+
+    from engine.model.prepare import clear_grid_memo, prepare_run
+    from engine.model.solve import choose_workers, plan_parts, run_settings, solve_scenario
+    from engine.scenario import load_scenario, resolve_scenario_path
+    from engine.studies.tradeoff import tradeoff_curve_runs
+
+    folder = resolve_scenario_path("demo")
+    scenario = load_scenario(folder)
+    settings = run_settings(scenario)
+    prepared = prepare_run(scenario, "reference", settings)
+    _, parts = plan_parts(prepared, settings)
+    workers = choose_workers(prepared, parts)
+    end_to_end, alone, single = [], [], []
+    for _ in range(repeats):
+        clear_grid_memo()  # a first solve: the typical days are chosen again
+        started = time.perf_counter()
+        result = solve_scenario(load_scenario(folder))
+        end_to_end.append(time.perf_counter() - started)
+        if not result.solved:
+            raise RuntimeError(f"demo: {result.status}: {result.message}")
+        alone.append(_highs_reference(prepared, parts, workers, sample=len(parts) + 1)[0])
+    curve = []
+    for _ in range(curve_repeats):
+        clear_grid_memo()
+        started = time.perf_counter()
+        solve_scenario(scenario)
+        single.append(time.perf_counter() - started)
+        started = time.perf_counter()
+        table, _ = tradeoff_curve_runs(scenario, n_points=7)
+        curve.append(time.perf_counter() - started)
+        if (table["status"] != "optimal").any():
+            raise RuntimeError("demo trade-off curve: a point did not solve")
+    e2e, ref = statistics.median(end_to_end), statistics.median(alone)
+    one, whole = statistics.median(single), statistics.median(curve)
+    return {"end_to_end_s": e2e, "highs_alone_s": ref, "workers": workers, "linear_programs": len(parts),
+            "interactive_ratio": e2e / ref, "one_solve_s": one, "curve_s": whole, "study_ratio": whole / (7 * one),
+            "repeats": repeats, "curve_repeats": curve_repeats}
+
+
 def _child(spec: dict) -> None:
     if spec["kind"] == "demo":
         record = run_demo()
+    elif spec["kind"] == "ratios":
+        record = run_ratios()
     else:
         record = run_case(spec["districts"], spec["typical_days"], spec["path"], spec["workers"], spec["sample"])
     print("BENCH-JSON " + json.dumps(record), flush=True)
@@ -313,7 +370,14 @@ def main(argv=None) -> int:
     parser.add_argument("--profile", default=None, metavar="N:DAYS:PATH", help="cProfile one case, one worker")
     parser.add_argument("--case", action="append", default=None, metavar="N:DAYS:PATH:WORKERS",
                         help="run only this case (repeatable), e.g. 200:0:decomposed:2")
+    parser.add_argument("--ratios", action="store_true", help="only interactive_ratio and study_ratio of the demo")
     args = parser.parse_args(argv)
+    if args.ratios:
+        ratios = _spawn({"kind": "ratios"}, timeout_s=900)
+        print(json.dumps(ratios, indent=2))
+        print(f"interactive_ratio={ratios['interactive_ratio']:.3f}")
+        print(f"study_ratio={ratios['study_ratio']:.3f}")
+        return 0
     if args.child:
         _child(json.loads(args.child))
         return 0
@@ -342,6 +406,7 @@ def main(argv=None) -> int:
               file=sys.stderr, flush=True)
         records.append(_spawn(spec, timeout_s=3600))
     demo = _spawn({"kind": "demo"}, timeout_s=600)
+    ratios = _spawn({"kind": "ratios"}, timeout_s=900) if args.quick else None
     print(f"heatmosaic benchmark ({'quick' if args.quick else 'full'}), {os.cpu_count()} cores, "
           f"1-min load average {load_before:.1f} before / {os.getloadavg()[0]:.1f} after")
     print(format_table(records))
@@ -358,6 +423,13 @@ def main(argv=None) -> int:
     print(f"benchmark wall time {time.perf_counter() - started:.0f} s")
     if args.json:
         Path(args.json).write_text(json.dumps({"cases": records, "demo": demo}, indent=2))
+    if ratios is not None:
+        print(f"demo interactive: end to end {ratios['end_to_end_s']:.2f} s ({ratios['linear_programs']} LPs, "
+              f"{ratios['workers']} worker(s)) over HiGHS alone {ratios['highs_alone_s']:.2f} s, median of "
+              f"{ratios['repeats']}; seven-point trade-off curve {ratios['curve_s']:.2f} s over seven solves of "
+              f"{ratios['one_solve_s']:.2f} s")
+        print(f"interactive_ratio={ratios['interactive_ratio']:.3f}")
+        print(f"study_ratio={ratios['study_ratio']:.3f}")
     mono = [r for r in records if r["path"] == "monolithic"] or records
     largest = max(mono, key=lambda r: r["variables"])
     print(f"overhead_ratio={largest['total_s'] / largest['highs_s']:.3f}")

@@ -248,7 +248,7 @@ with st.container(border=True):
         run, from_cache = run_with_cancel(
             lambda progress, cancel: solve_with_cache(
                 solved, key, edited, files, inputs.label, cost_case, objective, co2_cap, days,
-                progress=progress, cancel=cancel, solver=solver,
+                progress=progress, cancel=cancel, solver=solver, library=ScenarioStore,
             ),
             key="setup_job",
         )

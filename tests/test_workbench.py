@@ -295,6 +295,24 @@ def test_saved_run_solves_again_to_the_same_cost(tiny, tiny_cache, tmp_path):
     assert again.input_hash == saved.input_hash
 
 
+def test_a_request_saved_in_the_library_comes_back_without_a_solve(tiny, tiny_cache, tmp_path):
+    """A request whose input hash matches an optimal saved run of the same solver is answered from the library
+    (the saved run itself, its id set); another solver's request is solved (common practice for memoising on a
+    content hash)."""
+    _, key, run, _ = tiny_cache
+    path = tmp_path / "library.sqlite"
+    with ScenarioStore(path) as store:
+        run_id = store.save_run(run.result, "tiny reference", inputs=run.files)
+
+    found, hit = solve_with_cache({}, key, tiny.scenario, tiny.files, "from library", "reference", "cost", 0.0,
+                                  TINY_DAYS, library=lambda: ScenarioStore(path))
+    assert hit and found.saved_run_id == run_id and found.result.timings_s == run.result.timings_s
+    assert found.result.total_cost_eur_per_a == pytest.approx(run.result.total_cost_eur_per_a, rel=1e-12)
+    other, hit = solve_with_cache({}, key, tiny.scenario, tiny.files, "cbc", "reference", "cost", 0.0, TINY_DAYS,
+                                  solver="cbc", library=lambda: ScenarioStore(path))
+    assert not hit and other.saved_run_id is None
+
+
 def test_choices_of_a_run_restore_the_set_up(tiny, tiny_cache):
     """Re-opening a run puts back its cost case, objective, cap and resolution (common practice)."""
     _, _, run, _ = tiny_cache

@@ -8,6 +8,7 @@ returns one :class:`PreparedRun` whose arrays are all indexed by model step. Not
 from __future__ import annotations
 
 import dataclasses
+import hashlib
 from dataclasses import dataclass
 
 import numpy as np
@@ -120,7 +121,22 @@ def build_time_grid(scenario: Scenario, settings: Settings, heat_year_kw: np.nda
     )
     features = daily_features(series)
     peak_day = int(np.argmax(city_heat.reshape(n_days, 24).sum(axis=1)))
-    return typical_day_grid(features, settings.typical_days, peak_day)
+    # the grid depends on these three alone: a cost case, an objective or a study's re-solve finds it again
+    key = (hashlib.sha256(np.ascontiguousarray(features).tobytes()).hexdigest(), int(settings.typical_days), peak_day)
+    if key not in _GRID_MEMO:
+        while len(_GRID_MEMO) >= 8:
+            del _GRID_MEMO[next(iter(_GRID_MEMO))]
+        _GRID_MEMO[key] = typical_day_grid(features, settings.typical_days, peak_day)
+    return _GRID_MEMO[key]
+
+
+_GRID_MEMO: dict = {}
+"""Typical-day grids of this process by (features digest, typical days, peak day); the oldest of 8 goes first.
+:func:`clear_grid_memo` empties it (the benchmark does, to time a first solve)."""
+
+
+def clear_grid_memo() -> None:
+    _GRID_MEMO.clear()
 
 
 def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = None) -> PreparedRun:

