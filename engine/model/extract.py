@@ -5,9 +5,15 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from engine.physics.economics import levelised_cost_eur_per_mwh
 from engine.model.lp import LpSolution
 from engine.model.formulation import DistrictModel
 from engine.model.prepare import KWH_PER_MWH
+from engine.scenario.inputs import COOLING_KINDS
+
+UNSERVED_TOLERANCE_MWH = 0.5
+"""Unserved heat above this in a year [MWh/a] marks a district (map class ``unserved``) and a run
+(status ``optimal_with_unserved``); below it, it is solver noise."""
 
 FLOW_BINDS_SHARE = 0.999
 """A well limit counts as binding when the flow reaches this share of the permit in some step."""
@@ -164,10 +170,11 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
     voll = prepared.settings.value_of_unserved_heat_eur_per_mwh
     unserved_heat_mwh = _annual_mwh(uns_h, w)
     unserved_cool_mwh = _annual_mwh(uns_c, w)
-    agg = supply.groupby("district_id", sort=False)[
-        ["investment_eur_per_a", "fixed_om_eur_per_a", "variable_om_eur_per_a", "energy_eur_per_a",
-         "co2_eur_per_a", "co2_t_per_a"]
-    ].sum()
+    parts = ["investment_eur_per_a", "fixed_om_eur_per_a", "variable_om_eur_per_a", "energy_eur_per_a",
+             "co2_eur_per_a"]
+    agg = supply.groupby("district_id", sort=False)[parts + ["co2_t_per_a"]].sum()
+    cooling_rows = supply["kind"].isin(COOLING_KINDS)
+    cooling_cost = supply[cooling_rows].groupby("district_id", sort=False)[parts].sum().sum(axis=1)
     heat_supply = supply[supply["kind"] != "heat_store"]
     main = (
         heat_supply[heat_supply["heat_mwh_per_a"] > 0]
@@ -177,6 +184,7 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
         .drop_duplicates("district_id")
         .set_index("district_id")["technology_id"]
     )
+    largest_heat = heat_supply.groupby("district_id")["heat_mwh_per_a"].max()
     rows = []
     for k, i in enumerate(d_idx):
         did = ids[i]
@@ -186,6 +194,14 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
         uns_eur = voll * (unserved_heat_mwh[k] + unserved_cool_mwh[k])
         total = float(a.sum() - a["co2_t_per_a"] + uns_eur)
         served = heat_mwh + cool_mwh
+        cool_eur = float(cooling_cost.get(did, 0.0))
+        # levelised cost of heat: the cost of the heat supply (no unserved-heat penalty, no cooling) per MWh served
+        heat_eur = total - float(uns_eur) - cool_eur
+        heat_served = max(heat_mwh - float(unserved_heat_mwh[k]), 0.0)
+        cool_served = max(cool_mwh - float(unserved_cool_mwh[k]), 0.0)
+        # unserved heat is the main "supply" where it exceeds the tolerance and the largest technology's heat
+        unserved_main = unserved_heat_mwh[k] > UNSERVED_TOLERANCE_MWH and unserved_heat_mwh[k] >= float(
+            largest_heat.get(did, 0.0))
         rows.append(
             {
                 "district_id": did,
@@ -202,9 +218,12 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
                 "unserved_eur_per_a": float(uns_eur),
                 "total_cost_eur_per_a": total,
                 "co2_t_per_a": float(a["co2_t_per_a"]),
-                "levelised_cost_eur_per_mwh": total / served if served > 0 else float("nan"),
+                "cooling_cost_eur_per_a": cool_eur,
+                "levelised_cost_eur_per_mwh": float(levelised_cost_eur_per_mwh(heat_eur, heat_served)),
+                "levelised_cost_of_cooling_eur_per_mwh": float(levelised_cost_eur_per_mwh(cool_eur, cool_served)),
                 "co2_kg_per_mwh": 1000.0 * float(a["co2_t_per_a"]) / served if served > 0 else float("nan"),
-                "main_supply": str(main.get(did, "unserved" if unserved_heat_mwh[k] > 0 else "none")),
+                "main_supply": "unserved" if unserved_main else str(
+                    main.get(did, "unserved" if unserved_heat_mwh[k] > 0 else "none")),
             }
         )
     districts = pd.DataFrame(rows)

@@ -97,6 +97,20 @@ def _district_potential(prepared: PreparedRun) -> dict:
     return cached
 
 
+def split_existing_over_wells(existing_kw: float, permit_flow_kg_s: np.ndarray) -> np.ndarray:
+    """Existing capacity of a well-bound technology in a district, shared over the district's wells [kW].
+
+    district_technologies.csv states existing capacity per district; a district may hold several doublets. The
+    existing units are placed on the wells in proportion to their permitted flow (equal shares where no well has
+    a permit flow), so that each part stays within what its well can carry as far as the permits allow.
+    """
+    flows = np.asarray(permit_flow_kg_s, dtype=float)
+    if flows.size == 0:
+        return flows
+    weights = flows if flows.sum() > 0 else np.ones_like(flows)
+    return float(existing_kw) * weights / weights.sum()
+
+
 def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUnits, StoreUnits]:
     """List the units that may exist in ``districts`` with their per-step conversion factors."""
     scenario = prepared.scenario
@@ -152,16 +166,17 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
                 srec["hours"].append(float(tech.store_hours))
                 continue
             if kind in WELL_KINDS:
-                for j in np.flatnonzero(prepared.well_district == i):
+                here = np.flatnonzero(prepared.well_district == i)
+                for j, existing_j in zip(here, split_existing_over_wells(existing, prepared.well_permit_flow_kg_s[here])):
                     if kind == "groundwater_heat_pump":
                         cop = prepared.well_cop[tech.technology_id][j]
                         usable = np.isfinite(prepared.well_flow_per_kw_heating[j])
-                        add(i, tech, j, 0.0, max_new, False, 1.0 / cop, zeros, zeros, 1.0 - 1.0 / cop,
+                        add(i, tech, j, existing_j, max_new, False, 1.0 / cop, zeros, zeros, 1.0 - 1.0 / cop,
                             np.where(usable, INF, 0.0))
                     else:
                         eer = float(tech.efficiency)
                         usable = np.isfinite(prepared.well_flow_per_kw_cooling[j])
-                        add(i, tech, j, 0.0, max_new, True, ones / eer, zeros, zeros, ones * (1.0 + 1.0 / eer),
+                        add(i, tech, j, existing_j, max_new, True, ones / eer, zeros, zeros, ones * (1.0 + 1.0 / eer),
                             np.where(usable, INF, 0.0))
                 continue
             cooling = kind in COOLING_KINDS
@@ -202,16 +217,6 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
         hours=np.array(srec["hours"], float),
     )
     return units, stores
-
-
-def previous_step(period: np.ndarray) -> np.ndarray:
-    """Index of the step before each step, cyclic within its period (a typical day, or the whole year)."""
-    n = len(period)
-    prev = np.arange(n) - 1
-    starts = np.flatnonzero(np.r_[True, period[1:] != period[:-1]])
-    ends = np.r_[starts[1:], n] - 1
-    prev[starts] = ends
-    return prev
 
 
 def build_model(
@@ -304,12 +309,12 @@ def build_model(
         groups.setdefault((int(units.district[u]), units.technology_id[u]), []).append(u)
     g_rows, g_cols, g_ub = [], [], []
     for g, ((i, tech), members) in enumerate(groups.items()):
-        _, potential = pot.get((prepared.district_ids[i], tech), (0.0, INF))
+        existing, potential = pot.get((prepared.district_ids[i], tech), (0.0, INF))
         if np.isfinite(potential):
             k = len(g_ub)
             g_rows += [k] * len(members)
             g_cols += list(cols["new"][members])
-            g_ub.append(potential)
+            g_ub.append(max(potential - existing, 0.0))  # new capacity on all the district's wells together
     if g_ub:
         rows["well_potential"] = lp.add_rows_coo(
             "well_potential", len(g_ub), g_rows, g_cols, np.ones(len(g_rows)), upper=np.array(g_ub)
@@ -317,7 +322,7 @@ def build_model(
 
     # ---------------------------------------------------------------- stores
     if n_s:
-        prev = previous_step(prepared.grid.period)
+        prev = prepared.grid.previous_step()
         keep = 1.0 - stores.loss_per_h
         rows["store_balance"] = lp.add_rows(
             "store_balance",

@@ -84,6 +84,20 @@ def demand_year_kw(scenario: Scenario, settings: Settings) -> tuple[np.ndarray, 
     return heat, cool
 
 
+def flow_per_kw_kg_s(spread_k: np.ndarray, groundwater_temp_c: np.ndarray) -> np.ndarray:
+    """Pumped water needed per kW exchanged at the usable spread [kg/s per kW]; inf where no spread is left.
+
+    The inverse of :func:`engine.physics.wells.well_thermal_power_kw` at 1 kg/s (P = m_dot c_p dT, c_p from
+    IAPWS-95 at the groundwater temperature, clipped to 0.5..99 °C where the property fit holds).
+    """
+    spread = np.asarray(spread_k, dtype=float)
+    if spread.size == 0:
+        return np.zeros_like(spread)
+    usable = spread > 1e-9
+    kw_per_kg_s = wells_mod.well_thermal_power_kw(1.0, np.where(usable, spread, 1.0), np.clip(groundwater_temp_c, 0.5, 99.0))
+    return np.where(usable, 1.0 / kw_per_kg_s, np.inf)
+
+
 def groundwater_year_c(scenario: Scenario) -> np.ndarray:
     """Hourly groundwater temperature at every well's extraction [°C], shape (wells, hours)."""
     wells = scenario.wells
@@ -153,12 +167,9 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
     design = wells["design_spread_k"].to_numpy(float)[:, None] if len(wells) else np.zeros((0, 1))
     spread_h = wells_mod.usable_spread_heating_k(gw, design, settings.reinjection_min_temp_c)
     spread_c = wells_mod.usable_spread_cooling_k(gw, design, settings.reinjection_max_temp_c)
-    cp = water.water_specific_heat_j_per_kg_k(np.clip(gw, 0.5, 99.0)) if len(wells) else np.zeros_like(gw)
     rho = water.water_density_kg_per_m3(np.clip(gw, 0.5, 99.0)) if len(wells) else np.zeros_like(gw)
-    with np.errstate(divide="ignore"):
-        # kg/s needed per kW exchanged at the largest spread the window allows
-        flow_h = np.where(spread_h > 1e-9, 1000.0 / (cp * np.maximum(spread_h, 1e-9)), np.inf)
-        flow_c = np.where(spread_c > 1e-9, 1000.0 / (cp * np.maximum(spread_c, 1e-9)), np.inf)
+    flow_h = flow_per_kw_kg_s(spread_h, gw)
+    flow_c = flow_per_kw_kg_s(spread_c, gw)
     if len(wells):
         rho_mean = water.water_density_kg_per_m3(np.clip(wells["groundwater_temp_c"].to_numpy(float), 0.5, 99))
         permit_kg_s = wells["permit_flow_m3_per_h"].to_numpy(float) * rho_mean / 3600.0
