@@ -24,6 +24,8 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--cost-case", default=None)
     p.add_argument("--objective", choices=("cost", "co2"), default=None)
     p.add_argument("--co2-cap-t", type=float, default=None, help="city-wide CO2 cap [t/a]")
+    p.add_argument("--co2-within-cost-pct", type=float, default=None, metavar="X",
+                   help="lowest CO2 at a cost at most X %% above the least cost (implies --objective co2)")
     group = p.add_mutually_exclusive_group()
     group.add_argument("--typical-days", type=int, default=None)
     group.add_argument("--full-year", action="store_true")
@@ -86,14 +88,26 @@ def cmd_solve(args) -> int:
     if typical_days is not None and typical_days < 0:
         print("--typical-days must be >= 0 (0 means the full year)", file=sys.stderr)
         return EXIT_INPUT
+    if args.co2_within_cost_pct is not None and args.co2_within_cost_pct < 0:
+        print("--co2-within-cost-pct must be >= 0", file=sys.stderr)
+        return EXIT_INPUT
+    if args.co2_within_cost_pct is not None and args.objective == "cost":
+        print("--co2-within-cost-pct goes with the CO2 objective, not --objective cost", file=sys.stderr)
+        return EXIT_INPUT
+    objective = "co2" if args.co2_within_cost_pct is not None else args.objective
     kwargs = dict(
         cost_case=args.cost_case,
-        objective=args.objective,
+        objective=objective,
         co2_cap_t_per_a=args.co2_cap_t,
         typical_days=typical_days,
         progress=_progress(args.quiet),
         time_limit_s=args.time_limit_s,
     )
+    if args.co2_within_cost_pct is not None:
+        if args.interference:
+            print("--co2-within-cost-pct cannot be combined with --interference yet", file=sys.stderr)
+            return EXIT_INPUT
+        kwargs["co2_within_cost_pct"] = args.co2_within_cost_pct
     if args.interference:
         from engine.studies.interference import solve_with_interference
 

@@ -19,7 +19,7 @@ from engine.physics import heatpump
 from engine.physics import water
 from engine.physics import wells as wells_mod
 from engine.scenario.inputs import COOLING_KINDS, HEAT_KINDS, WELL_KINDS, EffectivePrices, Scenario, Settings, apply_cost_case
-from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, typical_day_grid
+from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, rescale_to_annual, typical_day_grid
 
 KWH_PER_MWH = 1000.0
 
@@ -53,6 +53,7 @@ class PreparedRun:
     grid_co2_kg_per_mwh: np.ndarray
     network_co2_kg_per_mwh: np.ndarray
     annuity: dict  # technology_id -> annuity factor [1/a]
+    aggregation: dict = dataclasses.field(default_factory=dict)  # what the typical days change (summary)
 
     @property
     def n_steps(self) -> int:
@@ -116,34 +117,88 @@ def groundwater_year_c(scenario: Scenario) -> np.ndarray:
     return out
 
 
-def build_time_grid(scenario: Scenario, settings: Settings, heat_year_kw: np.ndarray) -> TimeGrid:
-    """Full year when ``settings.typical_days`` is 0, else k-medoids typical days with the peak day kept."""
+def extreme_days(scenario: Scenario, heat_year_kw: np.ndarray, cool_year_kw: np.ndarray) -> dict:
+    """The days kept on their own beside the typical days: the day of the city's peak heating hour, of its peak
+    cooling hour (if it has cooling) and the coldest day (lowest daily mean outdoor temperature)."""
+    outdoor = scenario.hourly["outdoor_temp_c"].to_numpy(float)
+    days = {"peak_heating_day": int(np.argmax(heat_year_kw.sum(axis=0)) // 24),
+            "coldest_day": int(np.argmin(outdoor.reshape(-1, 24).mean(axis=1)))}
+    city_cool = cool_year_kw.sum(axis=0)
+    if city_cool.max(initial=0.0) > 0:
+        days["peak_cooling_day"] = int(np.argmax(city_cool) // 24)
+    return days
+
+
+def build_time_grid(scenario: Scenario, settings: Settings, heat_year_kw: np.ndarray,
+                    cool_year_kw: np.ndarray | None = None) -> TimeGrid:
+    """Full year when ``settings.typical_days`` is 0, else k-medoids typical days plus the extreme days
+    (:func:`extreme_days`, weight one day each)."""
     n_hours = scenario.n_hours
     n_days = n_hours // 24
     if settings.typical_days <= 0 or settings.typical_days >= n_days:
         return full_year_grid(n_hours)
+    if cool_year_kw is None:
+        cool_year_kw = np.zeros_like(heat_year_kw)
     hourly = scenario.hourly
     city_heat = heat_year_kw.sum(axis=0)
-    series = np.column_stack(
-        [
-            hourly["outdoor_temp_c"].to_numpy(float),
-            city_heat,
-            hourly["electricity_price_eur_per_mwh"].to_numpy(float),
-            hourly["network_price_eur_per_mwh"].to_numpy(float),
-            hourly["grid_co2_kg_per_mwh"].to_numpy(float),
-        ]
-    )
-    features = daily_features(series)
-    peak_day = int(np.argmax(city_heat.reshape(n_days, 24).sum(axis=1)))
-    return typical_day_grid(features, settings.typical_days, peak_day)
+    city_cool = cool_year_kw.sum(axis=0)
+    columns = [
+        hourly["outdoor_temp_c"].to_numpy(float),
+        city_heat,
+        hourly["electricity_price_eur_per_mwh"].to_numpy(float),
+        hourly["network_price_eur_per_mwh"].to_numpy(float),
+        hourly["grid_co2_kg_per_mwh"].to_numpy(float),
+    ]
+    if city_cool.max(initial=0.0) > 0:
+        columns.append(city_cool)
+    features = daily_features(np.column_stack(columns))
+    extremes = extreme_days(scenario, heat_year_kw, cool_year_kw)
+    return typical_day_grid(features, settings.typical_days, None, extreme_days=sorted(set(extremes.values())))
+
+
+def aggregation_report(grid: TimeGrid, heat_year: np.ndarray, cool_year: np.ndarray, heat_steps: np.ndarray,
+                       cool_steps: np.ndarray, heat_error_pct: np.ndarray, cool_error_pct: np.ndarray,
+                       extremes: dict) -> dict:
+    """What the typical days change, for the run's summary: sums before rescaling, peaks, the profile error."""
+    if grid.is_full_year:
+        return {"typical_days": 0}
+    w = grid.weight_h
+    city_heat_year = heat_year.sum(axis=0)
+    city_heat_rebuilt = grid.rebuild(heat_steps.sum(axis=0))
+    rms = float(np.sqrt(np.mean((city_heat_rebuilt - city_heat_year) ** 2)))
+    mean = float(city_heat_year.mean()) if city_heat_year.size else 0.0
+
+    def worst(errors):
+        finite = errors[np.isfinite(errors)]
+        return float(finite[np.argmax(np.abs(finite))]) if finite.size else 0.0
+
+    return {
+        "typical_days": int((~grid.extreme_period).sum()) if grid.extreme_period is not None else grid.n_periods,
+        "extreme_days": extremes,
+        "periods": int(grid.n_periods),
+        "heat_sum_error_before_rescaling_pct_worst_district": worst(heat_error_pct),
+        "cooling_sum_error_before_rescaling_pct_worst_district": worst(cool_error_pct),
+        "heat_sum_error_after_rescaling_pct": float(
+            100 * ((heat_steps @ w).sum() - heat_year.sum()) / heat_year.sum()) if heat_year.sum() > 0 else 0.0,
+        "cooling_sum_error_after_rescaling_pct": float(
+            100 * ((cool_steps @ w).sum() - cool_year.sum()) / cool_year.sum()) if cool_year.sum() > 0 else 0.0,
+        "peak_heat_kept_pct": float(100 * heat_steps.sum(axis=0).max() / city_heat_year.max())
+        if city_heat_year.max() > 0 else 100.0,
+        "city_heat_profile_rms_error_pct_of_mean": 100 * rms / mean if mean > 0 else 0.0,
+    }
 
 
 def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = None) -> PreparedRun:
     settings = settings or scenario.settings
     prices = apply_cost_case(scenario, cost_case)
     heat_year, cool_year = demand_year_kw(scenario, settings)
-    grid = build_time_grid(scenario, settings, heat_year)
+    grid = build_time_grid(scenario, settings, heat_year, cool_year)
     steps = grid.year_hour
+    # demand at the steps, rescaled so that the weighted sums are the year's sums exactly
+    heat_steps, heat_error = rescale_to_annual(heat_year, grid)
+    cool_steps, cool_error = rescale_to_annual(cool_year, grid)
+    aggregation = aggregation_report(grid, heat_year, cool_year, heat_steps, cool_steps, heat_error, cool_error,
+                                     {} if grid.is_full_year else extreme_days(scenario, heat_year, cool_year))
     districts = scenario.districts
     techs = scenario.technologies
     outdoor = scenario.hourly["outdoor_temp_c"].to_numpy(float)[steps]
@@ -191,8 +246,8 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
         prices=prices,
         grid=grid,
         district_ids=list(districts["district_id"]),
-        heat_demand_kw=heat_year[:, steps],
-        cooling_demand_kw=cool_year[:, steps],
+        heat_demand_kw=heat_steps,
+        cooling_demand_kw=cool_steps,
         heat_demand_year_kw=heat_year,
         cooling_demand_year_kw=cool_year,
         air_cop=air_cop,
@@ -212,6 +267,7 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
         grid_co2_kg_per_mwh=hourly["grid_co2_kg_per_mwh"].to_numpy(float)[steps],
         network_co2_kg_per_mwh=hourly["network_co2_kg_per_mwh"].to_numpy(float)[steps],
         annuity=annuity,
+        aggregation=aggregation,
     )
 
 

@@ -54,6 +54,10 @@ COST_PARTS = ("investment", "fixed_om", "variable_om", "energy", "co2", "unserve
 """Parts of the annual cost; each district table has a column ``<part>_eur_per_a``."""
 
 STATUS_SOLVED = "optimal"
+STATUS_WITH_UNSERVED = "optimal_with_unserved"
+"""The LP reached its optimum but leaves heat unserved above the tolerance
+(:data:`engine.model.extract.UNSERVED_TOLERANCE_MWH`): tables are complete, the plan does not supply the city."""
+SOLVED_STATUSES = (STATUS_SOLVED, STATUS_WITH_UNSERVED)
 
 
 @dataclass
@@ -72,7 +76,7 @@ class RunResult:
 
     @property
     def solved(self) -> bool:
-        return self.status == STATUS_SOLVED
+        return self.status in SOLVED_STATUSES
 
     # ------------------------------------------------------------------ city figures
     def _district_sum(self, column: str) -> float:

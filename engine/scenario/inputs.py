@@ -62,6 +62,9 @@ class Settings:
     cooling_base_temp_c: float = 20.0
     reinjection_min_temp_c: float = 4.5
     reinjection_max_temp_c: float = 20.0
+    co2_within_cost_pct: float = 0.0
+    """With the CO2 objective: the least CO2 at a cost at most this many percent above the least cost (0: no
+    cost bound, the lowest CO2 at any cost)."""
 
 
 @dataclass
