@@ -39,7 +39,7 @@ def groundwater_case(existing_kw, potential_kw, demand_kw=400.0):
     )
     demand = np.full(HOURS, demand_kw)
     return f.scenario(
-        [f.district("A", supply_temp_c=55.0, heat_demand_mwh_per_a=demand.sum() / 1000)],
+        [f.district("A", supply_temp_c=55.0, hot_water_share=0.0, heat_demand_mwh_per_a=demand.sum() / 1000)],
         techs,
         f.hourly(electricity=100.0, grid_co2=0.0),
         wells=[f.well("W1", "A", permit_flow_m3_per_h=200.0, groundwater_temp_c=11.0, design_spread_k=4.0)],

@@ -45,6 +45,15 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
     var_om_rate = scenario.technologies.set_index("technology_id").loc[units.technology_id, "variable_om_eur_per_mwh"]
     var_om = _annual_mwh(out, w) * var_om_rate.to_numpy(float)
     total_out_cost = (money[cols["out"]] * out).sum(axis=1)
+    lifted = cols.get("hot_water_units", np.zeros(0, int))
+    hot_water = np.zeros_like(out)
+    if len(lifted):
+        # hot water from heat pumps: the extra electricity (and its cost and CO2) of the higher sink temperature
+        hw = np.maximum(x[cols["hot_water"]], 0.0)
+        hot_water[lifted] = hw
+        elec[lifted] += hw * (units.electricity_hot_water[lifted] - units.electricity[lifted])
+        co2_t[lifted] += (model.emissions[cols["hot_water"]] * hw).sum(axis=1)
+        total_out_cost[lifted] += (money[cols["hot_water"]] * hw).sum(axis=1)
     co2_eur = co2_price * co2_t
     energy_eur = total_out_cost - var_om - co2_eur
     n_u = len(units.technology_id)
@@ -237,8 +246,8 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
         "supply": supply,
         "dispatch": dispatch,
         "demand": demand,
-        "wells": well_table(model, out, units.existing_kw + new),
-        "well_steps": well_steps_table(model, out),
+        "wells": well_table(model, out, units.existing_kw + new, hot_water),
+        "well_steps": well_steps_table(model, out, hot_water),
     }
     grid = prepared.grid
     tables["steps"] = pd.DataFrame(
@@ -254,7 +263,7 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
     return tables
 
 
-def _well_exchange(model: DistrictModel, out: np.ndarray):
+def _well_exchange(model: DistrictModel, out: np.ndarray, hot_water: np.ndarray | None = None):
     """Extracted and rejected heat [kW] per well of the model and step."""
     prepared, units = model.prepared, model.units
     n_w = len(prepared.well_ids)
@@ -265,6 +274,8 @@ def _well_exchange(model: DistrictModel, out: np.ndarray):
     for u in np.flatnonzero(units.well >= 0):
         j = units.well[u]
         exchange = out[u] * units.aquifer_exchange[u]
+        if hot_water is not None and units.aquifer_exchange_hot_water is not None:
+            exchange = exchange + hot_water[u] * (units.aquifer_exchange_hot_water[u] - units.aquifer_exchange[u])
         if units.serves_cooling[u]:
             rejected[j] += exchange
             cool[j] += out[u]
@@ -279,11 +290,11 @@ def _wells_in_model(model: DistrictModel) -> np.ndarray:
     return np.flatnonzero(np.isin(prepared.well_district, model.districts))
 
 
-def well_steps_table(model: DistrictModel, out: np.ndarray) -> pd.DataFrame:
+def well_steps_table(model: DistrictModel, out: np.ndarray, hot_water: np.ndarray | None = None) -> pd.DataFrame:
     prepared = model.prepared
     js = _wells_in_model(model)
     n_t = prepared.n_steps
-    extracted, rejected, _, _ = _well_exchange(model, out)
+    extracted, rejected, _, _ = _well_exchange(model, out, hot_water)
     flow_h = np.where(np.isfinite(prepared.well_flow_per_kw_heating), prepared.well_flow_per_kw_heating, 0.0)
     flow_c = np.where(np.isfinite(prepared.well_flow_per_kw_cooling), prepared.well_flow_per_kw_cooling, 0.0)
     flow = extracted * flow_h + rejected * flow_c  # kg/s
@@ -311,12 +322,13 @@ def well_steps_table(model: DistrictModel, out: np.ndarray) -> pd.DataFrame:
     )
 
 
-def well_table(model: DistrictModel, out: np.ndarray, capacity_kw: np.ndarray) -> pd.DataFrame:
+def well_table(model: DistrictModel, out: np.ndarray, capacity_kw: np.ndarray,
+               hot_water: np.ndarray | None = None) -> pd.DataFrame:
     prepared, units = model.prepared, model.units
     js = _wells_in_model(model)
     w = prepared.grid.weight_h
-    extracted, rejected, heat, cool = _well_exchange(model, out)
-    steps = well_steps_table(model, out)
+    extracted, rejected, heat, cool = _well_exchange(model, out, hot_water)
+    steps = well_steps_table(model, out, hot_water)
     rows = []
     ids = prepared.district_ids
     for j in js:

@@ -49,6 +49,9 @@ class SupplyUnits:
     aquifer_exchange: np.ndarray  # kWh extracted (heating) or rejected (cooling) per kWh of output
     output_upper: np.ndarray  # kW, inf where unbounded by physics
     fuel_name: list
+    # heat pumps making hot water at its own temperature: electricity and aquifer exchange per kWh of hot water
+    electricity_hot_water: np.ndarray | None = None
+    aquifer_exchange_hot_water: np.ndarray | None = None
 
 
 @dataclass
@@ -123,7 +126,10 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
     ones = np.ones(n_t)
     zeros = np.zeros(n_t)
 
-    def add(i, tech, well, existing, max_new, cooling, elec, fuel, net, aquifer, upper):
+    def add(i, tech, well, existing, max_new, cooling, elec, fuel, net, aquifer, upper, elec_hw=None,
+            aquifer_hw=None):
+        rec["electricity_hot_water"].append(elec if elec_hw is None else elec_hw)
+        rec["aquifer_exchange_hot_water"].append(aquifer if aquifer_hw is None else aquifer_hw)
         rec["district"].append(i)
         rec["technology_id"].append(tech.technology_id)
         rec["kind"].append(tech.kind)
@@ -170,9 +176,10 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
                 for j, existing_j in zip(here, split_existing_over_wells(existing, prepared.well_permit_flow_kg_s[here])):
                     if kind == "groundwater_heat_pump":
                         cop = prepared.well_cop[tech.technology_id][j]
+                        cop_hw = prepared.well_cop_hot_water.get(tech.technology_id, prepared.well_cop[tech.technology_id])[j]
                         usable = np.isfinite(prepared.well_flow_per_kw_heating[j])
                         add(i, tech, j, existing_j, max_new, False, 1.0 / cop, zeros, zeros, 1.0 - 1.0 / cop,
-                            np.where(usable, INF, 0.0))
+                            np.where(usable, INF, 0.0), 1.0 / cop_hw, 1.0 - 1.0 / cop_hw)
                     else:
                         eer = float(tech.efficiency)
                         usable = np.isfinite(prepared.well_flow_per_kw_cooling[j])
@@ -181,15 +188,17 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
                 continue
             cooling = kind in COOLING_KINDS
             elec, fuel, net = zeros, zeros, zeros
+            elec_hw = None
             if kind == "fuel_boiler":
                 fuel = ones / float(tech.efficiency)
             elif kind == "electric_boiler" or kind == "chiller":
                 elec = ones / float(tech.efficiency)
             elif kind == "air_heat_pump":
                 elec = 1.0 / prepared.air_cop[tech.technology_id][i]
+                elec_hw = 1.0 / prepared.air_cop_hot_water.get(tech.technology_id, prepared.air_cop[tech.technology_id])[i]
             elif kind == "network_connection":
                 net = ones
-            add(i, tech, -1, existing, max_new, cooling, elec, fuel, net, zeros, ones * INF)
+            add(i, tech, -1, existing, max_new, cooling, elec, fuel, net, zeros, ones * INF, elec_hw)
 
     units = SupplyUnits(
         district=np.array(rec["district"], dtype=int),
@@ -205,6 +214,8 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
         aquifer_exchange=np.array(rec["aquifer_exchange"], float).reshape(-1, n_t),
         output_upper=np.array(rec["output_upper"], float).reshape(-1, n_t),
         fuel_name=rec["fuel_name"],
+        electricity_hot_water=np.array(rec["electricity_hot_water"], float).reshape(-1, n_t),
+        aquifer_exchange_hot_water=np.array(rec["aquifer_exchange_hot_water"], float).reshape(-1, n_t),
     )
     stores = StoreUnits(
         district=np.array(srec["district"], dtype=int),
@@ -279,6 +290,36 @@ def build_model(
         "heat_balance", n_d * n_t, *(np.concatenate([a.ravel() for a in x]) for x in (r, c, v)),
         lower=heat_demand.ravel(), upper=heat_demand.ravel(),
     ).reshape(n_d, n_t)
+
+    # ---------------------------------------------------------------- hot water at its own temperature
+    # A heat pump makes hot water at the hot-water temperature with its (lower) COP there: ``hot_water`` is the
+    # part of its output that is hot water, paying the extra electricity per kWh. Boilers and the network
+    # (supplying at or above the hot-water temperature) serve it at no extra cost; stores do not (their heat may
+    # come from a heat pump at the space-heating temperature). Only districts whose hot-water temperature lies
+    # above the supply temperature and that have a heat pump get these rows.
+    extra_elec = units.electricity_hot_water - units.electricity  # kWh of electricity per kWh of hot water
+    hw_demand = (prepared.hot_water_demand_kw[districts] if prepared.hot_water_demand_kw is not None
+                 else np.zeros((n_d, n_t)))
+    lifted_any = (~units.serves_cooling) & (extra_elec > 1e-12).any(axis=1)
+    hw_districts = np.array(sorted({int(unit_local[u]) for u in np.flatnonzero(lifted_any)
+                                    if hw_demand[unit_local[u]].sum() > 0}), dtype=int)
+    lifted = np.flatnonzero(lifted_any & np.isin(unit_local, hw_districts))
+    cols["hot_water_units"] = lifted
+    cols["hot_water"] = lp.add_variables("hot_water_kw", (len(lifted), n_t))
+    if len(lifted):
+        rows["hot_water_within_output"] = lp.add_rows(
+            "hot_water_within_output", [(cols["hot_water"], 1.0), (cols["out"][lifted], -1.0)], upper=0.0)
+        hpos = {int(k): p for p, k in enumerate(hw_districts)}
+        free = np.flatnonzero((~units.serves_cooling) & ~lifted_any & np.isin(unit_local, hw_districts))
+        r = [np.array([hpos[int(unit_local[u])] for u in free], int)[:, None] * n_t + t_idx[None, :],
+             np.array([hpos[int(unit_local[u])] for u in lifted], int)[:, None] * n_t + t_idx[None, :],
+             np.arange(len(hw_districts))[:, None] * n_t + t_idx[None, :]]
+        c = [cols["out"][free], cols["hot_water"], cols["unserved_heat"][hw_districts]]
+        rows["hot_water_balance"] = lp.add_rows_coo(
+            "hot_water_balance", len(hw_districts) * n_t,
+            *(np.concatenate([a.reshape(-1) for a in x]) for x in (r, c, [np.ones(cc.shape) for cc in c])),
+            lower=hw_demand[hw_districts].ravel(),
+        ).reshape(len(hw_districts), n_t)
 
     # ---------------------------------------------------------------- cooling balance
     cool_units = np.flatnonzero(units.serves_cooling)
@@ -358,9 +399,16 @@ def build_model(
             ]
         )  # kg/s per kW of output, (well units, steps)
         wrow = np.array([wpos[int(units.well[u])] for u in well_units])
+        # hot water made by a groundwater heat pump extracts less per kWh (more of it comes from electricity)
+        hw_well = [k for k, u in enumerate(lifted) if units.well[u] >= 0]
+        hw_rows = np.array([wpos[int(units.well[lifted[k]])] for k in hw_well], dtype=int)
+        hw_coef = np.array([(units.aquifer_exchange_hot_water[lifted[k]] - units.aquifer_exchange[lifted[k]])
+                            * flow_h[units.well[lifted[k]]] for k in hw_well]).reshape(len(hw_well), n_t)
+        hw_cols = cols["hot_water"][hw_well] if hw_well else np.zeros((0, n_t), int)
         rows["well_flow"] = lp.add_rows_coo(
             "well_flow", len(wells_here) * n_t,
-            (wrow[:, None] * n_t + t_idx[None, :]).ravel(), cols["out"][well_units].ravel(), flow_coef.ravel(),
+            np.r_[(wrow[:, None] * n_t + t_idx[None, :]).ravel(), (hw_rows[:, None] * n_t + t_idx[None, :]).ravel()],
+            np.r_[cols["out"][well_units].ravel(), hw_cols.ravel()], np.r_[flow_coef.ravel(), hw_coef.ravel()],
             upper=np.repeat(prepared.well_permit_flow_kg_s[wells_here], n_t),
         ).reshape(len(wells_here), n_t)
         volume = prepared.well_annual_volume_m3[wells_here]
@@ -371,8 +419,13 @@ def build_model(
             vpos = {int(p): k for k, p in enumerate(limited)}
             vrow = np.array([vpos[int(p)] for p in wrow[sel]])
             coef = flow_coef[sel] * w[None, :] * m3_per_kg[units.well[well_units][sel]]
+            hsel = np.isin(hw_rows, limited)
+            hvrow = np.array([vpos[int(p)] for p in hw_rows[hsel]], dtype=int)
+            hcoef = hw_coef[hsel] * w[None, :] * m3_per_kg[units.well[lifted[np.array(hw_well, int)[hsel]]]] \
+                if hsel.any() else np.zeros((0, n_t))
             rows["well_volume"] = lp.add_rows_coo(
-                "well_volume", len(limited), np.repeat(vrow, n_t), cols["out"][well_units][sel].ravel(), coef.ravel(),
+                "well_volume", len(limited), np.r_[np.repeat(vrow, n_t), np.repeat(hvrow, n_t)],
+                np.r_[cols["out"][well_units][sel].ravel(), hw_cols[hsel].ravel()], np.r_[coef.ravel(), hcoef.ravel()],
                 upper=volume[limited],
             )
         cols["wells_here"] = wells_here
@@ -407,6 +460,12 @@ def build_model(
     out_cols = cols["out"]
     money[out_cols] = w[None, :] * (unit_energy_eur + var_om[:, None] / KWH_PER_MWH + co2_price * unit_co2)
     emis[out_cols] = w[None, :] * unit_co2
+    if len(lifted):
+        extra = extra_elec[lifted]
+        hw_co2 = extra * prepared.grid_co2_kg_per_mwh[None, :] / KWH_PER_MWH / 1000.0
+        money[cols["hot_water"]] = w[None, :] * (extra * prepared.electricity_eur_per_mwh[None, :] / KWH_PER_MWH
+                                                 + co2_price * hw_co2)
+        emis[cols["hot_water"]] = w[None, :] * hw_co2
     annuity = np.array([prepared.annuity[t] for t in units.technology_id])
     net_inv = np.array([prices.investment_eur_per_kw[t] for t in units.technology_id])
     gross_inv = np.array([prices.gross_investment_eur_per_kw[t] for t in units.technology_id])

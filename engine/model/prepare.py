@@ -18,7 +18,9 @@ from engine.physics import economics
 from engine.physics import heatpump
 from engine.physics import water
 from engine.physics import wells as wells_mod
-from engine.scenario.inputs import COOLING_KINDS, HEAT_KINDS, WELL_KINDS, EffectivePrices, Scenario, Settings, apply_cost_case
+from engine.scenario.inputs import (
+    COOLING_KINDS, HEAT_KINDS, WELL_KINDS, EffectivePrices, Scenario, Settings, apply_cost_case, hot_water_temp_c,
+)
 from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, rescale_to_annual, typical_day_grid
 
 KWH_PER_MWH = 1000.0
@@ -53,6 +55,10 @@ class PreparedRun:
     grid_co2_kg_per_mwh: np.ndarray
     network_co2_kg_per_mwh: np.ndarray
     annuity: dict  # technology_id -> annuity factor [1/a]
+    hot_water_demand_kw: np.ndarray | None = None  # (districts, steps), part of heat_demand_kw
+    hot_water_temp_c: np.ndarray | None = None  # (districts,)
+    air_cop_hot_water: dict = dataclasses.field(default_factory=dict)  # COP at the hot-water temperature
+    well_cop_hot_water: dict = dataclasses.field(default_factory=dict)
     aggregation: dict = dataclasses.field(default_factory=dict)  # what the typical days change (summary)
 
     @property
@@ -97,6 +103,26 @@ def flow_per_kw_kg_s(spread_k: np.ndarray, groundwater_temp_c: np.ndarray) -> np
     usable = spread > 1e-9
     kw_per_kg_s = wells_mod.well_thermal_power_kw(1.0, np.where(usable, spread, 1.0), np.clip(groundwater_temp_c, 0.5, 99.0))
     return np.where(usable, 1.0 / kw_per_kg_s, np.inf)
+
+
+def hot_water_year_kw(scenario: Scenario, heat_year_kw: np.ndarray) -> np.ndarray:
+    """Hourly hot-water part of every district's heat demand [kW], shape (districts, hours).
+
+    From the annual figure, the part :func:`engine.physics.demand.heat_demand_profile_kw` puts in; for a measured
+    hourly series, ``hot_water_share`` of its sum spread with the daily hot-water shape, never above the hour's
+    measured demand.
+    """
+    districts = scenario.districts
+    n = heat_year_kw.shape[1]
+    out = np.zeros_like(heat_year_kw)
+    measured = scenario.heat_demand_hourly_kw
+    for i, row in enumerate(districts.itertuples(index=False)):
+        if measured is not None and row.district_id in measured.columns:
+            total = float(heat_year_kw[i].sum()) / 1000.0
+            out[i] = np.minimum(demand_mod.hot_water_profile_kw(total, n, row.hot_water_share), heat_year_kw[i])
+        else:
+            out[i] = demand_mod.hot_water_profile_kw(row.heat_demand_mwh_per_a, n, row.hot_water_share)
+    return out
 
 
 def groundwater_year_c(scenario: Scenario) -> np.ndarray:
@@ -197,6 +223,8 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
     # demand at the steps, rescaled so that the weighted sums are the year's sums exactly
     heat_steps, heat_error = rescale_to_annual(heat_year, grid)
     cool_steps, cool_error = rescale_to_annual(cool_year, grid)
+    hot_water_year = hot_water_year_kw(scenario, heat_year)
+    hot_water_steps = np.minimum(rescale_to_annual(hot_water_year, grid)[0], heat_steps)
     aggregation = aggregation_report(grid, heat_year, cool_year, heat_steps, cool_steps, heat_error, cool_error,
                                      {} if grid.is_full_year else extreme_days(scenario, heat_year, cool_year))
     districts = scenario.districts
@@ -204,20 +232,31 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
     outdoor = scenario.hourly["outdoor_temp_c"].to_numpy(float)[steps]
     supply = districts["supply_temp_c"].to_numpy(float)
 
-    air_cop = {}
+    hot_water_c = hot_water_temp_c(districts)
+    # hot water is made at its own temperature, at least the space-heating supply temperature
+    hot_water_sink = np.maximum(hot_water_c, supply)
+    air_cop, air_cop_hw = {}, {}
     for row in techs[techs["kind"] == "air_heat_pump"].itertuples(index=False):
         air_cop[row.technology_id] = heatpump.heat_pump_cop(
             supply[:, None], outdoor[None, :], row.cop_quality_grade, row.sink_approach_k, row.source_approach_k
+        )
+        air_cop_hw[row.technology_id] = heatpump.heat_pump_cop(
+            hot_water_sink[:, None], outdoor[None, :], row.cop_quality_grade, row.sink_approach_k,
+            row.source_approach_k,
         )
 
     wells = scenario.wells
     district_index = {d: i for i, d in enumerate(districts["district_id"])}
     well_district = np.array([district_index[d] for d in wells["district_id"]], dtype=int)
     gw = groundwater_year_c(scenario)[:, steps] if len(wells) else np.zeros((0, len(steps)))
-    well_cop = {}
+    well_cop, well_cop_hw = {}, {}
     for row in techs[techs["kind"] == "groundwater_heat_pump"].itertuples(index=False):
         well_cop[row.technology_id] = heatpump.heat_pump_cop(
             supply[well_district][:, None], gw, row.cop_quality_grade, row.sink_approach_k, row.source_approach_k
+        )
+        well_cop_hw[row.technology_id] = heatpump.heat_pump_cop(
+            hot_water_sink[well_district][:, None], gw, row.cop_quality_grade, row.sink_approach_k,
+            row.source_approach_k,
         )
     design = wells["design_spread_k"].to_numpy(float)[:, None] if len(wells) else np.zeros((0, 1))
     spread_h = wells_mod.usable_spread_heating_k(gw, design, settings.reinjection_min_temp_c)
@@ -248,6 +287,10 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
         district_ids=list(districts["district_id"]),
         heat_demand_kw=heat_steps,
         cooling_demand_kw=cool_steps,
+        hot_water_demand_kw=hot_water_steps,
+        hot_water_temp_c=hot_water_c,
+        air_cop_hot_water=air_cop_hw,
+        well_cop_hot_water=well_cop_hw,
         heat_demand_year_kw=heat_year,
         cooling_demand_year_kw=cool_year,
         air_cop=air_cop,

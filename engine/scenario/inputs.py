@@ -45,6 +45,19 @@ FUELS = ("gas", "oil", "biomass")
 DEFAULT_CO2_KG_PER_MWH = {"gas": 56_100 * 3.6e-3, "oil": 74_100 * 3.6e-3, "biomass": 0.0}
 
 
+DEFAULT_HOT_WATER_TEMP_C = 60.0
+"""Hot-water temperature of a district when districts.csv gives none [°C]: about 60 °C at the store against
+legionella (common practice; local hygiene rules decide)."""
+
+
+def hot_water_temp_c(districts: pd.DataFrame) -> np.ndarray:
+    """Hot-water temperature of every district [°C] (column ``hot_water_temp_c``, blank or absent: 60 °C)."""
+    if "hot_water_temp_c" not in districts.columns:
+        return np.full(len(districts), DEFAULT_HOT_WATER_TEMP_C)
+    values = pd.to_numeric(districts["hot_water_temp_c"], errors="coerce").to_numpy(float)
+    return np.where(np.isnan(values), DEFAULT_HOT_WATER_TEMP_C, values)
+
+
 @dataclass
 class Settings:
     """Run settings (``scenario.toml`` section ``[run]``)."""
