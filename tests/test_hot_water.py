@@ -118,3 +118,18 @@ def test_hot_water_share_runs_at_its_own_cop_by_hand():
         assert supply.loc["ahp", "electricity_mwh_per_a"] == pytest.approx(hand, rel=1e-6)
     else:  # gas covers some peak hours: electricity lies between the all-35 °C and the all-60 °C figures
         assert d.sum() / cop(35.0) / 1000 < supply.loc["ahp", "electricity_mwh_per_a"] < d.sum() / cop(60.0) / 1000
+
+
+def test_cop_clips_are_counted():
+    """Half the hours at 40 °C outdoors: a 35 °C sink then has a 3 K lift (condensing 40 °C, evaporating 37 °C),
+    Carnot COP 0.45 * 313.15 / 3 = 47, clipped to 8: 84 district-hours at the upper clip for space heating; the
+    60 °C hot-water sink keeps a 28 K lift, COP 0.45 * 338.15 / 28 = 5.4, below the clip."""
+    from engine.model.prepare import prepare_run
+
+    scenario = instance(60.0)
+    scenario.hourly["outdoor_temp_c"] = np.where(np.arange(HOURS) % 2 == 0, 40.0, OUTDOOR_C)
+    bounds = prepare_run(scenario, "reference").cop_bounds
+    assert bounds["space_heating"]["ahp"]["district_hours_at_cop_max"] == pytest.approx(HOURS / 2)
+    assert bounds["space_heating"]["ahp"]["districts_at_a_bound"] == 1
+    assert bounds["hot_water"]["ahp"]["district_hours_at_cop_max"] == 0.0
+    assert bounds["space_heating"]["ahp"]["cop_max"] == 8.0

@@ -60,6 +60,7 @@ class PreparedRun:
     air_cop_hot_water: dict = dataclasses.field(default_factory=dict)  # COP at the hot-water temperature
     well_cop_hot_water: dict = dataclasses.field(default_factory=dict)
     aggregation: dict = dataclasses.field(default_factory=dict)  # what the typical days change (summary)
+    cop_bounds: dict = dataclasses.field(default_factory=dict)  # hours at the COP clips (summary)
 
     @property
     def n_steps(self) -> int:
@@ -214,6 +215,32 @@ def aggregation_report(grid: TimeGrid, heat_year: np.ndarray, cool_year: np.ndar
     }
 
 
+COP_MIN = 1.0
+"""Lower clip of every heat pump COP the model uses (no worse than direct electric heating) [-]."""
+COP_MAX = 8.0
+"""Upper clip: a tiny lift (mild weather, warm source) gives no unbounded COP [-]."""
+
+
+def cop_bound_report(cops: dict, weight_h: np.ndarray, label: str) -> dict:
+    """Per technology: hours (step weights summed over the districts or wells) at the COP clips, and the
+    districts or wells that reach a clip at least once. ``cops``: technology_id -> (units, steps)."""
+    out = {}
+    for tech, values in cops.items():
+        values = np.asarray(values, dtype=float)
+        if values.size == 0:
+            continue
+        low = np.isclose(values, COP_MIN, rtol=0, atol=1e-12)
+        high = np.isclose(values, COP_MAX, rtol=0, atol=1e-12)
+        out[tech] = {
+            f"{label}_hours_at_cop_min": float((low * weight_h[None, :]).sum()),
+            f"{label}_hours_at_cop_max": float((high * weight_h[None, :]).sum()),
+            f"{label}s_at_a_bound": int((low | high).any(axis=1).sum()),
+            "cop_min": COP_MIN,
+            "cop_max": COP_MAX,
+        }
+    return out
+
+
 def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = None) -> PreparedRun:
     settings = settings or scenario.settings
     prices = apply_cost_case(scenario, cost_case)
@@ -238,11 +265,12 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
     air_cop, air_cop_hw = {}, {}
     for row in techs[techs["kind"] == "air_heat_pump"].itertuples(index=False):
         air_cop[row.technology_id] = heatpump.heat_pump_cop(
-            supply[:, None], outdoor[None, :], row.cop_quality_grade, row.sink_approach_k, row.source_approach_k
+            supply[:, None], outdoor[None, :], row.cop_quality_grade, row.sink_approach_k, row.source_approach_k,
+            COP_MIN, COP_MAX,
         )
         air_cop_hw[row.technology_id] = heatpump.heat_pump_cop(
             hot_water_sink[:, None], outdoor[None, :], row.cop_quality_grade, row.sink_approach_k,
-            row.source_approach_k,
+            row.source_approach_k, COP_MIN, COP_MAX,
         )
 
     wells = scenario.wells
@@ -252,11 +280,12 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
     well_cop, well_cop_hw = {}, {}
     for row in techs[techs["kind"] == "groundwater_heat_pump"].itertuples(index=False):
         well_cop[row.technology_id] = heatpump.heat_pump_cop(
-            supply[well_district][:, None], gw, row.cop_quality_grade, row.sink_approach_k, row.source_approach_k
+            supply[well_district][:, None], gw, row.cop_quality_grade, row.sink_approach_k, row.source_approach_k,
+            COP_MIN, COP_MAX,
         )
         well_cop_hw[row.technology_id] = heatpump.heat_pump_cop(
             hot_water_sink[well_district][:, None], gw, row.cop_quality_grade, row.sink_approach_k,
-            row.source_approach_k,
+            row.source_approach_k, COP_MIN, COP_MAX,
         )
     design = wells["design_spread_k"].to_numpy(float)[:, None] if len(wells) else np.zeros((0, 1))
     spread_h = wells_mod.usable_spread_heating_k(gw, design, settings.reinjection_min_temp_c)
@@ -311,6 +340,12 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
         network_co2_kg_per_mwh=hourly["network_co2_kg_per_mwh"].to_numpy(float)[steps],
         annuity=annuity,
         aggregation=aggregation,
+        cop_bounds={
+            "space_heating": {**cop_bound_report(air_cop, grid.weight_h, "district"),
+                              **cop_bound_report(well_cop, grid.weight_h, "well")},
+            "hot_water": {**cop_bound_report(air_cop_hw, grid.weight_h, "district"),
+                          **cop_bound_report(well_cop_hw, grid.weight_h, "well")},
+        },
     )
 
 

@@ -244,6 +244,7 @@ def solve_scenario(
     report(0.02, "Preparing demand, COPs and the time grid")
     prepared = prepare_run(scenario, cost_case, settings)
     result.extras["time_aggregation"] = prepared.aggregation
+    result.extras["cop_bounds"] = prepared.cop_bounds
     prepare_s = time.perf_counter() - started
     n_d = len(prepared.district_ids)
     if decompose == "auto":
