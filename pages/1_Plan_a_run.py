@@ -10,6 +10,7 @@ import streamlit as st
 
 
 from pages._support import workbench as wb
+from engine.model.solvers import DIRECT, solver_choices
 from engine.scenario.problems import problems_frame
 from engine.storage.store import ScenarioStore, StoreError
 from pages._support.shell import route_through_app, run_with_cancel, show_cancelled
@@ -129,6 +130,15 @@ with st.container(border=True):
                                        help="Days chosen to stand for the whole year; more days, closer results.")
         if full_year:
             st.caption("The full year solves every hour: minutes instead of seconds for a city the size of the demo.")
+    with st.expander("Advanced"):
+        solvers = solver_choices()
+        if state.get("setup_solver") not in solvers:  # kept in hm_setup across pages, like the other choices
+            state["setup_solver"] = setup.get("solver") if setup.get("solver") in solvers else DIRECT
+        solver = st.selectbox("Solver", list(solvers), format_func=solvers.get, key="setup_solver",
+                              help="HiGHS direct is the fast path. Solvers through pulp (CBC always, others where "
+                                   "installed and licensed) build the model one row at a time: for cross-checks "
+                                   "and small runs; a pulp solve cannot be cancelled half way.")
+        setup["solver"] = solver
 for widget, name in WIDGETS.items():
     setup[name] = state[widget]
 
@@ -210,6 +220,7 @@ with st.container(border=True):
 # ------------------------------------------------------------------------------------------------ 4 solve
 days = 0 if full_year else int(typical_days)
 key = wb.request_key(inputs.digest, technology_table, well_table, cost_case, objective, co2_cap, days)
+key = key if solver == DIRECT else f"{key}-{solver}"  # another solver's answer is another run to show
 with st.container(border=True):
     st.subheader("4 · Solve")
     clicked = st.button("Solve", type="primary", icon=":material/play_arrow:", disabled=bool(edit_problems),
@@ -227,7 +238,7 @@ with st.container(border=True):
         run, from_cache = run_with_cancel(
             lambda progress, cancel: wb.solve_with_cache(
                 solved, key, edited, files, inputs.label, cost_case, objective, co2_cap, days,
-                progress=progress, cancel=cancel,
+                progress=progress, cancel=cancel, solver=solver,
             ),
             key="setup_job",
         )

@@ -21,16 +21,8 @@ from streamlit_folium import st_folium
 
 from pages._support import workbench as wb
 from engine.outputs.figures import FIGURE_CONFIG
-from engine.studies.permits import (
-    STATUS_COLORS,
-    STATUS_LABELS,
-    groundwater_map_figure,
-    screen_wells,
-    screening_display_table,
-    well_status_layer,
-    well_year_figure,
-    well_year_profiles,
-)
+from engine.outputs.groundwater_maps import STATUS_COLORS, groundwater_map_figure, well_status_layer, well_year_figure
+from engine.studies.permits import STATUS_LABELS, screen_wells, screening_display_table, well_year_profiles
 from engine.studies.interference import interference_comparison, plume_outlines, plume_polygons, solve_with_interference
 from engine.outputs.maps import WELL_CAUTION, district_map
 from pages._support.shell import open_store, route_through_app, run_with_cancel, show_cancelled

@@ -21,11 +21,12 @@ from pages._support import workbench as wb
 from engine.studies.fidelity import DEFAULT_DAY_COUNTS, cached_fidelity, fidelity_key, fidelity_note, lookup_fidelity
 from engine.studies.fidelity import recommend_typical_days
 from engine.storage.store import ScenarioStore, StoreError
+from engine.outputs.study_figures import tornado_figure, tradeoff_figure, tradeoff_mix_figure
 from engine.studies.sweep import (
     PARAMETERS, default_ranges, random_samples, run_sweep, save_sweep, tasks_from_cost_cases, tasks_from_samples,
-    tornado_figure, tornado_table, tornado_tasks,
+    tornado_table, tornado_tasks,
 )
-from engine.studies.tradeoff import supply_mix_figure, tradeoff_curve_runs, tradeoff_figure
+from engine.studies.tradeoff import tradeoff_curve_runs
 from pages._support.shell import route_through_app, run_with_cancel, show_cancelled
 
 state = st.session_state
@@ -104,7 +105,7 @@ with tab_curve:
                               format_func=lambda p: f"{p}: {table.loc[p, 'kind'].replace('_', ' ')}, "
                               f"{table.loc[p, 'co2_t_per_a']:,.0f} t/a, "
                               f"{table.loc[p, 'total_cost_eur_per_a'] / 1e6:,.2f} M€/a")
-        st.plotly_chart(supply_mix_figure(table, scenario.technologies), key=f"tradeoffs_mix_{curve_key}",
+        st.plotly_chart(tradeoff_mix_figure(table, scenario.technologies), key=f"tradeoffs_mix_{curve_key}",
                         width="stretch")
         shown = table[["point", "kind", "co2_bound_t_per_a", "co2_t_per_a", "total_cost_eur_per_a",
                        "abatement_cost_eur_per_t", "unserved_heat_mwh_per_a", "status"]]

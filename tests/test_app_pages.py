@@ -18,7 +18,10 @@ from pathlib import Path
 import pytest
 from streamlit.testing.v1 import AppTest
 
-from engine.storage.store import ScenarioStore
+from engine.model.solve import solve_scenario
+from engine.scenario.reader import load_scenario
+from engine.storage.store import ScenarioStore, read_scenario_files
+from pages._support.workbench import input_set_from_files
 
 ROOT = Path(__file__).resolve().parents[1]
 APP = str(ROOT / "app.py")
@@ -227,3 +230,33 @@ def test_an_edited_cost_is_checked_solved_and_kept_in_the_run_files(session):
     choices = choices_of_run(run.result)
     settings = run_settings(scenario, choices["objective"], choices["co2_cap_t_per_a"], choices["typical_days"])
     assert input_hash(scenario, run.result.cost_case, settings) == run.result.input_hash
+
+
+def test_the_solver_setting_solves_through_pulp(tmp_path, monkeypatch):
+    """The Plan a run page's advanced Solver setting (``setup_solver``) offers HiGHS direct first and CBC; a solve
+    with CBC gives the direct HiGHS total cost of the same inputs within 1e-6 relative (CBC is a solver independent
+    of HiGHS), and is kept as its own run beside the HiGHS one; the choice stays when the planner comes back."""
+    tiny = ROOT / "tests" / "fixtures" / "tiny_city"
+    monkeypatch.setenv("HEATMOSAIC_STORE", str(tmp_path / "store.sqlite"))
+    at = AppTest.from_file(APP, default_timeout=TIMEOUT_S).run()
+    at.session_state["hm_input"] = input_set_from_files(read_scenario_files(tiny), "Tiny city")
+    at.switch_page(PLAN).run()
+    assert not at.exception, at.exception
+    choice = at.selectbox(key="setup_solver")
+    assert choice.options[0] == "HiGHS direct, the default" and "CBC via pulp" in choice.options
+    totals = {}
+    for solver in ("cbc", "highs"):
+        at.selectbox(key="setup_solver").set_value(solver).run()
+        at.button(key="setup_solve").click().run()
+        assert not at.exception, at.exception
+        run = at.session_state["hm_solved"][at.session_state["hm_current"]]
+        assert run.result.solved, run.result.message
+        totals[run.result.model_size["solver"]] = run.result.total_cost_eur_per_a
+        days = run.result.settings["typical_days"]
+        at.switch_page(RESULTS).run()
+        at.switch_page(PLAN).run()
+        assert at.selectbox(key="setup_solver").value == solver, "the choice is kept across pages"
+    assert set(totals) == {"pulp:PULP_CBC_CMD", "highs"}
+    reference = solve_scenario(load_scenario(tiny), typical_days=days).total_cost_eur_per_a
+    assert totals["pulp:PULP_CBC_CMD"] == pytest.approx(reference, rel=1e-6)
+    assert totals["highs"] == pytest.approx(reference, rel=1e-12)

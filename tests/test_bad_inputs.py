@@ -21,7 +21,7 @@ import pytest
 
 from engine.scenario import reader as io
 from pages._support import workbench
-from engine.__main__ import main
+from engine.cli import main
 from engine.storage.bundle import BundleError, export_bundle
 from engine.scenario.problems import Problem
 from engine.model.results import RunResult
@@ -47,7 +47,7 @@ VALID = [case for case in CASES if case.valid]
 
 UNEXPECTED = ("Traceback", "Unexpected error", "could not be read (")
 """Text that only appears when an exception escaped a check (the last-resort guards of engine/io.py and
-engine/__main__.py)."""
+engine/cli)."""
 
 
 def _problem_lines(text: str, expected) -> list[str]:
@@ -138,7 +138,7 @@ def test_valid_variants_validate(case, tmp_path, capsys):
 @pytest.mark.parametrize("case", BROKEN, ids=[case.name for case in BROKEN])
 def test_solve_refuses_broken_inputs(case, tmp_path, capsys):
     """``python -m engine solve DIR`` returns 2 for bad input, lists the same problems on stderr, writes no
-    result and solves nothing (engine/__main__.py exit codes: 2 = input errors)."""
+    result and solves nothing (engine/cli exit codes: 2 = input errors)."""
     folder = corpus.build(case, tmp_path / case.name)
     out = tmp_path / "out"
     code = main(["solve", str(folder), "--typical-days", "2", "--out", str(out), "--quiet"])
@@ -153,7 +153,7 @@ def test_solve_refuses_broken_inputs(case, tmp_path, capsys):
 @pytest.mark.parametrize("case", VALID, ids=[case.name for case in VALID])
 def test_valid_variants_solve(case, tmp_path, capsys):
     """The valid variants solve to optimality with two typical days; a leap year's 8784 hours reach the summary
-    (engine/__main__.py: exit code 0 = solved; docs/input_format.md allows 8784 rows)."""
+    (engine/cli: exit code 0 = solved; docs/input_format.md allows 8784 rows)."""
     folder = corpus.build(case, tmp_path / case.name)
     out = tmp_path / "out"
     code = main(["solve", str(folder), "--typical-days", "2", "--out", str(out), "--quiet"])

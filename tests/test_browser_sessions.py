@@ -31,6 +31,8 @@ from test_browser_e2e import (
     _wait_for_health,
 )
 
+pytestmark = pytest.mark.slow  # browser, fuzz or multi-process: left out of the quick loop
+
 TYPICAL_DAYS = 3
 SESSIONS = (("reference", "Planner A, reference prices"), ("high_co2", "Planner B, high CO2 price"))
 ERROR_SELECTORS = "[data-testid=stException], [data-testid=stAlertContentError]"

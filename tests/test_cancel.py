@@ -64,6 +64,7 @@ def test_interrupted_page_cancels_the_job_and_waits_for_it():
     assert seen == {"stopped": True}  # the job ended before run_cancellable passed the rerun on
 
 
+@pytest.mark.slow
 def test_cancel_reaches_the_solver_in_a_full_year_solve():
     """A full-year solve of an invented three-district city is cancelled while HiGHS runs: the run ends as
     "interrupted" (the solver's interrupt callback), not optimal."""
@@ -88,6 +89,7 @@ def test_cancel_reaches_the_solver_in_a_full_year_solve():
     assert not result.solved and "cancel" in result.message.lower()
 
 
+@pytest.mark.slow
 def test_sweep_stops_at_cancel_serially_and_on_processes():
     city = synthetic_city(2, n_hours=336, typical_days=4, seed=2)
     tasks = tasks_from_samples(city, random_samples(default_ranges(["co2_price_factor", "gas_price_factor"]), 6, seed=1))

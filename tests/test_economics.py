@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-npf = pytest.importorskip("numpy_financial")
+import numpy_financial as npf
 
 from engine.physics.economics import annualised_investment_eur_per_a, annuity_factor, levelised_cost_eur_per_mwh
 

@@ -27,6 +27,7 @@ import tempfile
 from pathlib import Path
 
 import pandas as pd
+import pytest
 
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
@@ -36,6 +37,8 @@ from engine.scenario import reader as io
 from engine.scenario.problems import InputError
 from engine.model.results import RunResult
 from engine.model.solve import solve_scenario
+
+pytestmark = pytest.mark.slow  # browser, fuzz or multi-process: left out of the quick loop
 
 TINY = Path(__file__).resolve().parent / "fixtures" / "tiny_city"
 LEFT_OUT = ("heat_demand_hourly.csv", "groundwater_temp_hourly.csv")

@@ -19,20 +19,18 @@ sys.path.insert(0, str(Path(__file__).parent))
 
 import scenario_factory as f  # noqa: E402
 from engine.physics import plume  # noqa: E402
+from engine.outputs.groundwater_maps import STATUS_COLORS, groundwater_map_figure, well_year_figure  # noqa: E402
 from engine.studies.permits import (  # noqa: E402
-    STATUS_COLORS,
     add_well_status,
-    groundwater_map_figure,
     net_injection,
     screen_wells,
     screening_display_table,
-    well_year_figure,
     well_year_profiles,
 )
 from engine.scenario.inputs import Aquifer, Prices, Settings  # noqa: E402
 from engine.model.solve import solve_scenario  # noqa: E402
 
-iapws = pytest.importorskip("iapws")
+import iapws
 
 ATMOSPHERIC_PRESSURE_MPA = 0.101325
 LAT = 50.005

@@ -462,6 +462,7 @@ def dashboard_visit(hostile, tmp_path_factory):
     return seen
 
 
+@pytest.mark.slow
 def test_dashboard_pages_run_no_payload_of_saved_runs(dashboard_visit):
     """Results, comparison and share pages of hostile saved runs (their maps in frames included) run no payload,
     open no dialog, raise no exception, and the comparison shows the run's script name as text."""
@@ -475,6 +476,7 @@ def test_dashboard_pages_run_no_payload_of_saved_runs(dashboard_visit):
     assert "DROP TABLE run_tables" in seen["pages"]["Run_results"]["text"]
 
 
+@pytest.mark.slow
 def test_dashboard_pages_fetch_nothing_a_name_points_to(dashboard_visit):
     """A Markdown image in a run's name or note is shown as text, not fetched (common practice: user text is
     displayed literally; the dashboard works offline)."""

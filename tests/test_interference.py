@@ -24,7 +24,7 @@ sys.path.insert(0, str(Path(__file__).parent))
 from test_groundwater import LAT, _lon, line_of_doublets  # noqa: E402
 
 from engine.physics import plume  # noqa: E402
-from engine.__main__ import main  # noqa: E402
+from engine.cli import main  # noqa: E402
 from engine.studies.permits import net_injection  # noqa: E402
 from engine.studies.interference import (  # noqa: E402
     SECONDS_PER_YEAR,

@@ -539,6 +539,7 @@ def test_two_threads_saving_at_once_both_succeed(store_path):
         assert sorted(runs["sweep_id"].value_counts().tolist()) == [10, 10]
 
 
+@pytest.mark.slow
 def test_two_processes_saving_at_once_both_succeed(store_path):
     """Two processes × 10 saves into the same file at the same time: all 20 present, database sound.
 

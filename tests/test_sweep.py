@@ -12,9 +12,11 @@ import pytest
 from bench.synthetic_city import synthetic_city
 from engine.scenario.inputs import apply_cost_case
 from engine.storage.store import ScenarioStore
+from engine.cli import main as cli_main
+from engine.outputs.study_figures import tornado_figure
 from engine.studies.sweep import (
-    PARAMETERS, case_from_prices, default_ranges, grid_samples, main, random_samples, run_sweep, save_sweep,
-    tasks_from_cost_cases, tasks_from_samples, tornado_figure, tornado_table, tornado_tasks,
+    PARAMETERS, case_from_prices, default_ranges, grid_samples, random_samples, run_sweep, save_sweep,
+    tasks_from_cost_cases, tasks_from_samples, tornado_table, tornado_tasks,
 )
 
 
@@ -97,10 +99,11 @@ def test_sweep_records_in_task_order(serial, tasks):
     assert serial.main_supply.shape == (3, 3)
 
 
+@pytest.mark.slow
 def test_dask_local_cluster_gives_the_serial_results(city, tasks, serial):
     """The same LPs solved by HiGHS on Dask workers (a LocalCluster of 2 processes) give the same numbers as the
     serial sweep; HiGHS is deterministic for a given model and options (common practice)."""
-    distributed = pytest.importorskip("distributed")
+    import distributed  # imported here: the Dask scheduler is heavy to load and only this test needs it
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
                                   dashboard_address=None) as cluster, distributed.Client(cluster) as client:
         seen = []
@@ -143,8 +146,8 @@ def test_saved_runs_carry_the_sweep_id(serial, tmp_path):
 def test_command_writes_sweep_csv(tmp_path, capsys):
     """Contract of ``sweep DIR --cost-cases all --out OUT``: a row per run with its prices, total_cost_eur_per_a
     and co2_t_per_a; progress on stderr."""
-    code = main(["tests/fixtures/tiny_city", "--cost-cases", "all", "--typical-days", "4", "--workers", "1",
-                 "--out", str(tmp_path)])
+    code = cli_main(["sweep", "tests/fixtures/tiny_city", "--cost-cases", "all", "--typical-days", "4",
+                     "--workers", "1", "--out", str(tmp_path)])
     assert code == 0
     table = pd.read_csv(tmp_path / "sweep.csv")
     assert list(table["name"]) == ["reference", "high_co2"]
@@ -155,7 +158,7 @@ def test_command_writes_sweep_csv(tmp_path, capsys):
 
 def test_command_rejects_unknown_cost_case(tmp_path, capsys):
     """An unknown cost case is an input error (exit 2) named in the message."""
-    assert main(["tests/fixtures/tiny_city", "--cost-cases", "nope", "--out", str(tmp_path)]) == 2
+    assert cli_main(["sweep", "tests/fixtures/tiny_city", "--cost-cases", "nope", "--out", str(tmp_path)]) == 2
     assert "nope" in capsys.readouterr().err
 
 

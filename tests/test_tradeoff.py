@@ -11,7 +11,8 @@ import pytest
 
 from bench.synthetic_city import synthetic_city
 from engine.model.solve import solve_scenario
-from engine.studies.tradeoff import TRADEOFF_COLUMNS, main, point_scenario, tradeoff_curve, tradeoff_curve_runs
+from engine.cli import main as cli_main
+from engine.studies.tradeoff import TRADEOFF_COLUMNS, point_scenario, tradeoff_curve, tradeoff_curve_runs
 
 
 @pytest.fixture(scope="module")
@@ -106,7 +107,7 @@ def test_command_writes_tradeoff_csv(tmp_path, capsys):
     """Contract of ``tradeoff DIR --points N --out OUT``: OUT/tradeoff.csv with co2_t_per_a and
     total_cost_eur_per_a per point; progress on stderr."""
     folder = "tests/fixtures/tiny_city"
-    code = main([folder, "--points", "2", "--typical-days", "3", "--out", str(tmp_path)])
+    code = cli_main(["tradeoff", folder, "--points", "2", "--typical-days", "3", "--out", str(tmp_path)])
     assert code == 0
     table = pd.read_csv(tmp_path / "tradeoff.csv")
     assert len(table) == 2
@@ -116,6 +117,6 @@ def test_command_writes_tradeoff_csv(tmp_path, capsys):
 
 def test_command_reports_input_errors(tmp_path, capsys):
     """Bad input gives exit code 2 and a message, never a traceback (common practice of the command line)."""
-    assert main(["tests/fixtures/tiny_city", "--points", "1", "--out", str(tmp_path)]) == 2
+    assert cli_main(["tradeoff", "tests/fixtures/tiny_city", "--points", "1", "--out", str(tmp_path)]) == 2
     assert "--points" in capsys.readouterr().err
-    assert main([str(tmp_path / "missing"), "--points", "3", "--out", str(tmp_path)]) == 2
+    assert cli_main(["tradeoff", str(tmp_path / "missing"), "--points", "3", "--out", str(tmp_path)]) == 2

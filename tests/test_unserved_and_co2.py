@@ -12,7 +12,7 @@ import pandas as pd
 import pytest
 
 import scenario_factory as f
-from engine.__main__ import main as cli_main
+from engine.cli import main as cli_main
 from engine.model.solve import solve_scenario
 from engine.scenario.inputs import Prices, Settings
 

@@ -95,7 +95,6 @@ def test_unexpected_exception_is_a_problem_line(tmp_path, capsys, monkeypatch):
     assert "unreadable folder" in capsys.readouterr().out
 
 
-@pytest.mark.skipif(not (ROOT / "engine" / "__main__.py").exists(), reason="engine/__main__.py not present")
 def test_python_m_engine_validate(tmp_path):
     """``python -m engine validate DIR`` gives the same lines and exit codes as validate_command (CLI contract)."""
     ok = subprocess.run(

@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-iapws = pytest.importorskip("iapws")
+import iapws
 
 from engine.physics.water import water_density_kg_per_m3, water_specific_heat_j_per_kg_k
 

@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-iapws = pytest.importorskip("iapws")
+import iapws
 
 from engine.physics.wells import (
     flow_m3_per_h_to_kg_s,

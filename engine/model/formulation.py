@@ -26,6 +26,7 @@ import numpy as np
 from engine.scenario.inputs import COOLING_KINDS, FUELS, WELL_KINDS
 from engine.model.lp import INF, LinearProgram, LpSolution
 from engine.model.prepare import KWH_PER_MWH, PreparedRun
+from engine.model.solvers import DIRECT, solve_lp
 
 UNSERVED_CO2_EQUIVALENT_T_PER_MWH = 10.0
 """Weight of unserved heat in the CO2 objective: far above any real supply (fuel oil emits 0.27 t/MWh)."""
@@ -511,19 +512,10 @@ ABATEMENT_STEP_MIN_T = 1.0
 """... and at least by this many tonnes [t/a]."""
 
 
-def _staged_co2(model: DistrictModel, time_limit_s, cancel, cost_limit_eur=None) -> LpSolution:
-    """Least CO2 (unserved heat weighted by :data:`UNSERVED_CO2_EQUIVALENT_T_PER_MWH`), then least cost at it.
-
-    ``cost_limit_eur`` (the LP's cost objective, constant fixed O&M left out) bounds the cost in both stages.
-    The result carries in ``info`` the CO2 optimum [t/a] and the cost saved by allowing
-    ``max(ABATEMENT_STEP_MIN_T, ABATEMENT_STEP_SHARE * optimum)`` more tonnes: their quotient is the abatement
-    cost of the last tonnes [EUR/t].
-    """
-    lp = model.lp
+def co2_stage_objective(model: DistrictModel) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The first stage of the CO2 objective: emissions with unserved heat and cooling counted at
+    :data:`UNSERVED_CO2_EQUIVALENT_T_PER_MWH`; returns (objective, unserved columns, their weights [h])."""
     w = model.prepared.grid.weight_h
-    if cost_limit_eur is not None:
-        nz = np.flatnonzero(model.money)
-        lp.add_rows_coo("cost_limit", 1, np.zeros(len(nz)), nz, model.money[nz], upper=np.array([cost_limit_eur]))
     first = model.emissions.copy()
     unserved_cols = np.concatenate([model.cols["unserved_heat"].ravel(), model.cols["unserved_cooling"].ravel()])
     penalty = UNSERVED_CO2_EQUIVALENT_T_PER_MWH / KWH_PER_MWH
@@ -532,8 +524,24 @@ def _staged_co2(model: DistrictModel, time_limit_s, cancel, cost_limit_eur=None)
          np.broadcast_to(w, model.cols["unserved_cooling"].shape).ravel()]
     )
     first[unserved_cols] += unserved_weight * penalty
+    return first, unserved_cols, unserved_weight
+
+
+def _staged_co2(model: DistrictModel, time_limit_s, cancel, cost_limit_eur=None, solver: str = DIRECT) -> LpSolution:
+    """Least CO2 (unserved heat weighted by :data:`UNSERVED_CO2_EQUIVALENT_T_PER_MWH`), then least cost at it.
+
+    ``cost_limit_eur`` (the LP's cost objective, constant fixed O&M left out) bounds the cost in both stages.
+    The result carries in ``info`` the CO2 optimum [t/a] and the cost saved by allowing
+    ``max(ABATEMENT_STEP_MIN_T, ABATEMENT_STEP_SHARE * optimum)`` more tonnes: their quotient is the abatement
+    cost of the last tonnes [EUR/t].
+    """
+    lp = model.lp
+    if cost_limit_eur is not None:
+        nz = np.flatnonzero(model.money)
+        lp.add_rows_coo("cost_limit", 1, np.zeros(len(nz)), nz, model.money[nz], upper=np.array([cost_limit_eur]))
+    first, unserved_cols, unserved_weight = co2_stage_objective(model)
     lp.set_objective(first)
-    stage1 = lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+    stage1 = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
     if stage1.status != "optimal":
         return stage1
     x = stage1.x
@@ -545,14 +553,14 @@ def _staged_co2(model: DistrictModel, time_limit_s, cancel, cost_limit_eur=None)
     lp.add_rows_coo("unserved_optimum", 1, np.zeros(len(unserved_cols)), unserved_cols, unserved_weight,
                     upper=np.array([unserved_opt * (1 + CO2_STAGE_RELATIVE_SLACK) + UNSERVED_STAGE_ABSOLUTE_SLACK_MWH]))
     lp.set_objective(model.money)
-    stage2 = lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+    stage2 = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
     stage2.solve_s += stage1.solve_s
     if stage2.status != "optimal":
         return stage2
     co2_at = float(model.emissions @ stage2.x)
     step = max(ABATEMENT_STEP_MIN_T, ABATEMENT_STEP_SHARE * co2_at)
     lp.set_row_upper("co2_optimum", co2_bound + step)
-    relaxed = lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+    relaxed = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
     lp.set_row_upper("co2_optimum", co2_bound)
     stage2.solve_s += relaxed.solve_s
     stage2.info = {"co2_optimum_t_per_a": co2_at, "abatement_step_t_per_a": 0.0, "abatement_saving_eur_per_a": 0.0}
@@ -564,30 +572,31 @@ def _staged_co2(model: DistrictModel, time_limit_s, cancel, cost_limit_eur=None)
 
 
 def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None, cancel=None,
-                co2_within_cost_pct: float = 0.0) -> LpSolution:
+                solver: str = DIRECT, co2_within_cost_pct: float = 0.0) -> LpSolution:
     """Solve for least cost, or for least CO2 and then least cost at that CO2 (lexicographic).
 
-    With ``objective="co2"`` and ``co2_within_cost_pct > 0`` the CO2 is the least reachable at a cost no more
-    than that many percent above the least cost of this LP (the cost optimum is solved first).
+    ``solver`` names the solver (:mod:`engine.model.solvers`; HiGHS directly by default). With
+    ``objective="co2"`` and ``co2_within_cost_pct > 0`` the CO2 is the least reachable at a cost no more than
+    that many percent above the least cost of this LP (the cost optimum is solved first).
     """
     lp = model.lp
     if objective == "cost":
         lp.set_objective(model.money)
-        return lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+        return solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
     if objective != "co2":
         raise ValueError(f"objective must be 'cost' or 'co2', got {objective!r}")
     limit = None
     extra_s = 0.0
     if co2_within_cost_pct and co2_within_cost_pct > 0:
         lp.set_objective(model.money)
-        cheapest = lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+        cheapest = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
         if cheapest.status != "optimal":
             return cheapest
         constant = float(model.constant_fixed_om.sum())
         least = float(model.money @ cheapest.x) + constant
         limit = least * (1 + co2_within_cost_pct / 100.0) - constant + 1e-6 * abs(least)
         extra_s = cheapest.solve_s
-    solution = _staged_co2(model, time_limit_s, cancel, limit)
+    solution = _staged_co2(model, time_limit_s, cancel, limit, solver)
     solution.solve_s += extra_s
     if limit is not None and solution.status == "optimal":
         solution.info["cost_limit_eur_per_a"] = limit + float(model.constant_fixed_om.sum())

@@ -5,7 +5,8 @@ and time step). Building them one pulp expression at a time costs more than solv
 interface then hands them to the solver one row at a time. :class:`LinearProgram` therefore keeps variables as
 index blocks and constraints as coordinate triplets, hands HiGHS the whole sparse matrix in one call, and reads the
 primal and dual solution back as arrays. :meth:`LinearProgram.to_pulp` turns the same program into a
-``pulp.LpProblem`` (for small instances, for inspection and for cross-checks against pulp's own HiGHS interface).
+``pulp.LpProblem``, so that any solver pulp drives can solve it (:mod:`engine.model.solvers`), and
+:meth:`LinearProgram.write` writes it as an LP or MPS file with named columns and rows, for inspection in any solver.
 """
 
 from __future__ import annotations
@@ -15,7 +16,9 @@ import sys
 import time
 from dataclasses import dataclass, field
 
+import highspy
 import numpy as np
+import pulp
 import scipy.sparse as sp
 
 INF = float("inf")
@@ -176,9 +179,9 @@ class LinearProgram:
         return int(self.matrix().nnz)
 
     # ------------------------------------------------------------------ solving
-    def to_highs(self, time_limit_s: float | None = None, threads: int | None = None):
-        import highspy
-
+    def to_highs(self, time_limit_s: float | None = None, threads: int | None = None, names: bool = False):
+        """A silent ``highspy.Highs`` holding this program (with :meth:`column_names` and :meth:`row_names` if
+        ``names``)."""
         h = new_highs()
         if time_limit_s:
             h.setOptionValue("time_limit", float(time_limit_s))
@@ -197,13 +200,37 @@ class LinearProgram:
         lp.a_matrix_.start_ = a.indptr.astype(np.int32)
         lp.a_matrix_.index_ = a.indices.astype(np.int32)
         lp.a_matrix_.value_ = a.data
+        if names:
+            lp.col_names_ = self.column_names()
+            lp.row_names_ = self.row_names()
         h.passModel(lp)
         return h
 
+    def column_names(self) -> list[str]:
+        """One name per column: the block's name and the column's index within the block (``output_kw_3_17``)."""
+        names = [""] * self.n_cols
+        for block, (start, shape) in self.var_blocks.items():
+            for k, index in enumerate(np.ndindex(*shape) if shape else [()]):
+                names[start + k] = "_".join([block, *map(str, index)])
+        return names
+
+    def row_names(self) -> list[str]:
+        """One name per row: the block's name and the row's position within the block (``heat_balance_40``)."""
+        names = [f"row_{i}" for i in range(self.n_rows)]
+        for block in self.row_blocks.values():
+            for k, i in enumerate(range(block.start, block.stop)):
+                names[i] = f"{block.name}_{k}"
+        return names
+
+    def write(self, path) -> None:
+        """Write the program to ``path``; HiGHS picks the format from the suffix (``.lp`` or ``.mps``)."""
+        h = self.to_highs(names=True)
+        status = h.writeModel(str(path))
+        if status != highspy.HighsStatus.kOk:
+            raise OSError(f"HiGHS could not write the model to {path}")
+
     def solve(self, time_limit_s: float | None = None, threads: int | None = None, cancel=None) -> LpSolution:
         """Solve with HiGHS. ``cancel`` is an optional callable; when it returns True the solve is interrupted."""
-        import highspy
-
         h = self.to_highs(time_limit_s, threads)
         if cancel is not None:
             def _callback(callback_type, message, data_out, data_in, user_data):
@@ -223,10 +250,10 @@ class LinearProgram:
         return read_highs_solution(h, elapsed)
 
     # ------------------------------------------------------------------ pulp
-    def to_pulp(self, name: str = "heatmosaic"):
-        """The same program as a ``pulp.LpProblem`` (one LpVariable per column, one constraint per row)."""
-        import pulp
-
+    def to_pulp(self, name: str = "heatmosaic", with_row_names: bool = False):
+        """The same program as a ``pulp.LpProblem``: one LpVariable per column, one constraint per row (a ranged
+        row becomes two inequalities). Returns ``(problem, variables)``, and with ``with_row_names`` also, for
+        every row, the names of the pulp constraints written for it."""
         prob = pulp.LpProblem(name, pulp.LpMinimize)
         lower, upper = self.col_lower, self.col_upper
         variables = [
@@ -237,17 +264,23 @@ class LinearProgram:
         prob.setObjective(pulp.LpAffineExpression([(variables[j], cost[j]) for j in np.flatnonzero(cost)]))
         a = self.matrix().tocsr()
         rl, ru = self.row_lower, self.row_upper
+        row_names: list[list[str]] = []
         for i in range(self.n_rows):
             lo, hi = a.indptr[i], a.indptr[i + 1]
             expr = pulp.LpAffineExpression([(variables[j], v) for j, v in zip(a.indices[lo:hi], a.data[lo:hi])])
+            written = []
             if rl[i] == ru[i]:
                 prob += pulp.LpConstraint(expr, pulp.LpConstraintEQ, f"r{i}", rl[i])
+                row_names.append([f"r{i}"])
                 continue
             if np.isfinite(rl[i]):
                 prob += pulp.LpConstraint(expr, pulp.LpConstraintGE, f"r{i}_lo", rl[i])
+                written.append(f"r{i}_lo")
             if np.isfinite(ru[i]):
                 prob += pulp.LpConstraint(expr, pulp.LpConstraintLE, f"r{i}_up", ru[i])
-        return prob, variables
+                written.append(f"r{i}_up")
+            row_names.append(written)
+        return (prob, variables, row_names) if with_row_names else (prob, variables)
 
 
 _BANNER_SILENCED = False
@@ -259,8 +292,6 @@ def new_highs():
     HiGHS writes a banner to the C-level standard output when the first instance of a process is made, before any
     option can switch it off; the command line's output (and a Streamlit log) should not carry it.
     """
-    import highspy
-
     global _BANNER_SILENCED
     if _BANNER_SILENCED:
         h = highspy.Highs()
@@ -281,8 +312,6 @@ def new_highs():
 
 
 def read_highs_solution(h, solve_s: float) -> LpSolution:
-    import highspy
-
     status = h.getModelStatus()
     ms = highspy.HighsModelStatus
     text = h.modelStatusToString(status)

@@ -3,6 +3,9 @@
 Without a city-wide constraint (CO2 cap, network plant limit) districts do not interact, so
 :func:`solve_scenario` may solve each district as its own LP, in parallel processes, and merge the tables
 (``decompose``). With a city-wide constraint the LP is solved in one piece.
+
+``solver`` picks the solver of every LP (:mod:`engine.model.solvers`): HiGHS directly by default, or any solver
+pulp drives. :func:`build_programs` builds the same LPs without solving them, for writing them to a file.
 """
 
 from __future__ import annotations
@@ -11,17 +14,19 @@ import dataclasses
 import os
 import time
 from concurrent.futures import ProcessPoolExecutor, as_completed
+from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
 import pandas as pd
 
-from engine.model.extract import extract_tables
+from engine.model.extract import UNSERVED_TOLERANCE_MWH, extract_tables
 from engine.scenario.inputs import Scenario, Settings, input_hash
-from engine.model.formulation import build_model, solve_model, supply_units
+from engine.model.formulation import DistrictModel, build_model, co2_stage_objective, solve_model, supply_units
 from engine.model.prepare import prepare_run
-from engine.model.extract import UNSERVED_TOLERANCE_MWH
 from engine.model.results import STATUS_SOLVED, STATUS_WITH_UNSERVED, RunResult
+from engine.model.solvers import DIRECT, resolve_solver, solve_lp
+from engine.studies.permits import add_well_status
 
 Progress = Callable[[float, str], None]
 
@@ -44,19 +49,37 @@ def _has_coupling(settings: Settings) -> bool:
     )
 
 
-def _solve_part(prepared, districts, objective, time_limit_s, cancel=None):
+@dataclass
+class PartOutcome:
+    """What solving one part (one district, or the whole city in one LP) gives."""
+
+    status: str
+    message: str
+    tables: dict | None = None
+    """The result tables of the part; None unless the status is ``optimal``."""
+    build_s: float = 0.0
+    solve_s: float = 0.0
+    extract_s: float = 0.0
+    size: dict | None = None
+    """``variables``, ``constraints`` and ``nonzeros`` of the part's LP."""
+    info: dict | None = None
+    """What a staged CO2 solve adds (CO2 optimum, abatement step and saving)."""
+
+
+def _solve_part(prepared, districts, objective, time_limit_s, cancel=None, solver=DIRECT) -> PartOutcome:
     model = build_model(prepared, districts)
     within = float(getattr(prepared.settings, "co2_within_cost_pct", 0.0) or 0.0)
-    solution = solve_model(model, objective, time_limit_s=time_limit_s, cancel=cancel, co2_within_cost_pct=within)
+    solution = solve_model(model, objective, time_limit_s=time_limit_s, cancel=cancel, solver=solver,
+                           co2_within_cost_pct=within)
     started = time.perf_counter()
     tables = extract_tables(model, solution) if solution.status == "optimal" else None
     extract_s = time.perf_counter() - started
     size = {"variables": model.lp.n_cols, "constraints": model.lp.n_rows, "nonzeros": model.lp.n_nonzeros}
-    return (solution.status, solution.message, tables, model.build_s, solution.solve_s, extract_s, size,
-            solution.info)
+    return PartOutcome(solution.status, solution.message, tables, model.build_s, solution.solve_s, extract_s, size,
+                       solution.info)
 
 
-def lowest_co2_without_unserved(prepared, time_limit_s=None, cancel=None) -> tuple[float | None, list[str]]:
+def lowest_co2_without_unserved(prepared, time_limit_s=None, cancel=None, solver=DIRECT) -> tuple[float | None, list[str]]:
     """The least CO2 [t/a] any plan reaches that serves all heat and cooling (no CO2 cap), or None and the
     districts where no plan serves everything with the allowed supply."""
     settings = dataclasses.replace(prepared.settings, allow_unserved_heat=False, co2_cap_t_per_a=0.0)
@@ -68,7 +91,7 @@ def lowest_co2_without_unserved(prepared, time_limit_s=None, cancel=None) -> tup
     for part in parts:
         model = build_model(strict, part)
         model.lp.set_objective(model.emissions)
-        solution = model.lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+        solution = solve_lp(model.lp, solver, time_limit_s=time_limit_s, cancel=cancel)
         if solution.status != "optimal":
             failed += [prepared.district_ids[i] for i in part]
             continue
@@ -76,13 +99,14 @@ def lowest_co2_without_unserved(prepared, time_limit_s=None, cancel=None) -> tup
     return (None if failed else total), failed
 
 
-def unserved_message(result: RunResult, prepared, settings: Settings, time_limit_s=None, cancel=None) -> str:
+def unserved_message(result: RunResult, prepared, settings: Settings, time_limit_s=None, cancel=None,
+                     solver=DIRECT) -> str:
     """The warning of a run that leaves heat unserved, with the lowest CO2 reachable without unserved heat."""
     unserved = result.unserved_heat_mwh_per_a
     share = 100 * unserved / result.heat_demand_mwh_per_a if result.heat_demand_mwh_per_a > 0 else 0.0
     text = (f"Solved, but {unserved:,.0f} MWh/a of heat demand ({share:.1f} %) is left unserved (priced at "
             f"{settings.value_of_unserved_heat_eur_per_mwh:,.0f} EUR/MWh): this is not a plan that supplies the city.")
-    floor, failed = lowest_co2_without_unserved(prepared, time_limit_s, cancel)
+    floor, failed = lowest_co2_without_unserved(prepared, time_limit_s, cancel, solver)
     if floor is None:
         return text + (" No plan serves all the heat with the allowed supply in district(s) " + ", ".join(failed)
                        + " (see potential_kw, the connection limits and the well permits).")
@@ -111,8 +135,8 @@ def _worker_init(prepared):
 
 
 def _worker_solve(args):
-    districts, objective, time_limit_s = args
-    return _solve_part(_WORKER_STATE["prepared"], districts, objective, time_limit_s)
+    districts, objective, time_limit_s, solver = args
+    return _solve_part(_WORKER_STATE["prepared"], districts, objective, time_limit_s, solver=solver)
 
 
 def merge_tables(parts: list[dict]) -> dict[str, pd.DataFrame]:
@@ -141,8 +165,6 @@ def failure_message(status: str, message: str, where: str) -> str:
 
 def district_supply_limits(prepared, district: int) -> list[str]:
     """Plain reasons why one district cannot meet its demand with the supply it is allowed (empty if none found)."""
-    from engine.model.formulation import supply_units
-
     units, stores = supply_units(prepared, np.array([district]))
     reasons = []
     did = prepared.district_ids[district]
@@ -203,6 +225,49 @@ def diagnose_failure(prepared, settings: Settings, status: str, districts: list[
     return "Check the inputs for contradictions."
 
 
+def plan_parts(prepared, settings: Settings, decompose: bool | str = "auto") -> tuple[bool, list[list[int]]]:
+    """Whether the run is decomposed, and the district indices of each LP (one per district, or one for all)."""
+    n_d = len(prepared.district_ids)
+    if decompose == "auto":
+        decompose = n_d > 1 and not _has_coupling(settings)
+    if decompose and _has_coupling(settings):
+        raise ValueError("a city-wide CO2 cap or network plant limit couples the districts: solve without decompose")
+    return bool(decompose), ([[i] for i in range(n_d)] if decompose else [list(range(n_d))])
+
+
+def default_cost_case(scenario: Scenario) -> str:
+    """``reference`` if the scenario has it, else its first cost case."""
+    return "reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases))
+
+
+def build_programs(
+    scenario: Scenario,
+    cost_case: str | None = None,
+    settings: Settings | None = None,
+    decompose: bool | str = "auto",
+) -> list[tuple[str, DistrictModel]]:
+    """The LPs :func:`solve_scenario` would solve, built but not solved, each with its objective set.
+
+    Returns ``(label, model)`` pairs: the label is the district's id when the run is decomposed (one LP per
+    district), else ``"city"``. A cost objective is set as is; a CO2 objective is solved in two stages, and the
+    program returned carries the first (least CO2, unserved demand counted at its CO2 equivalent).
+    """
+    cost_case = cost_case or default_cost_case(scenario)
+    settings = settings or scenario.settings
+    prepared = prepare_run(scenario, cost_case, settings)
+    decomposed, parts = plan_parts(prepared, settings, decompose)
+    programs = []
+    for part in parts:
+        model = build_model(prepared, part)
+        if settings.objective == "co2":
+            model.lp.set_objective(co2_stage_objective(model)[0])
+        else:
+            model.lp.set_objective(model.money)
+        label = str(prepared.district_ids[part[0]]) if decomposed else "city"
+        programs.append((label, model))
+    return programs
+
+
 def solve_scenario(
     scenario: Scenario,
     cost_case: str | None = None,
@@ -215,16 +280,21 @@ def solve_scenario(
     cancel: Callable[[], bool] | None = None,
     time_limit_s: float | None = None,
     settings: Settings | None = None,
+    solver: str = DIRECT,
     co2_within_cost_pct: float | None = None,
 ) -> RunResult:
     """Solve ``scenario`` under ``cost_case`` and return the result (never raises for solver failures).
 
+    ``solver`` is ``"highs"`` (HiGHS directly, the default) or a pulp solver (``"cbc"``, ``"pulp:NAME"``; see
+    :mod:`engine.model.solvers`); an unknown or unavailable name raises
+    :class:`engine.model.solvers.SolverChoiceError` before anything is solved. ``model_size["solver"]`` records it.
     ``co2_within_cost_pct`` (with the CO2 objective): the least CO2 at a cost at most that many percent above
     the least cost, bounded per solved LP (each district when decomposed).
     """
     started = time.perf_counter()
+    solver = resolve_solver(solver)
     report = progress or (lambda share, text: None)
-    cost_case = cost_case or ("reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases)))
+    cost_case = cost_case or default_cost_case(scenario)
     settings = settings or run_settings(scenario, objective, co2_cap_t_per_a, typical_days,
                                         **({} if co2_within_cost_pct is None else
                                            {"co2_within_cost_pct": float(co2_within_cost_pct)}))
@@ -246,21 +316,17 @@ def solve_scenario(
     result.extras["time_aggregation"] = prepared.aggregation
     result.extras["cop_bounds"] = prepared.cop_bounds
     prepare_s = time.perf_counter() - started
-    n_d = len(prepared.district_ids)
-    if decompose == "auto":
-        decompose = n_d > 1 and not _has_coupling(settings)
-    if decompose and _has_coupling(settings):
-        raise ValueError("a city-wide CO2 cap or network plant limit couples the districts: solve without decompose")
-    parts = [[i] for i in range(n_d)] if decompose else [list(range(n_d))]
+    decompose, parts = plan_parts(prepared, settings, decompose)
     if workers is None:
         workers = min(len(parts), os.cpu_count() or 1) if len(parts) > 4 else 1
     report(0.1, f"Building and solving {len(parts)} linear program(s)")
-    done: dict[int, tuple] = {}  # part index -> outcome
+    done: dict[int, PartOutcome] = {}  # part index -> outcome
     if workers > 1 and len(parts) > 1:
         # largest first, so that no worker is left with a long store LP while the other idles at the end
         order = sorted(range(len(parts)), key=lambda k: -part_work(prepared, parts[k]))
         with ProcessPoolExecutor(max_workers=workers, initializer=_worker_init, initargs=(prepared,)) as pool:
-            futures = {pool.submit(_worker_solve, (parts[k], settings.objective, time_limit_s)): k for k in order}
+            futures = {pool.submit(_worker_solve, (parts[k], settings.objective, time_limit_s, solver)): k
+                       for k in order}
             for future in as_completed(futures):
                 done[futures[future]] = future.result()
                 report(0.1 + 0.85 * len(done) / len(parts), f"Solved {len(done)} of {len(parts)}")
@@ -270,38 +336,37 @@ def solve_scenario(
                     break
     else:
         for k, p in enumerate(parts):
-            done[k] = _solve_part(prepared, p, settings.objective, time_limit_s, cancel)
+            done[k] = _solve_part(prepared, p, settings.objective, time_limit_s, cancel, solver)
             report(0.1 + 0.85 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)}")
-            if done[k][0] != "optimal":
+            if done[k].status != "optimal":
                 break
     outcomes = [done[k] for k in sorted(done)]
-    build_s = sum(o[3] for o in outcomes)
-    solve_s = sum(o[4] for o in outcomes)
-    extract_s = sum(o[5] for o in outcomes)
-    size = {key: int(sum(o[6][key] for o in outcomes)) for key in ("variables", "constraints", "nonzeros")}
+    build_s = sum(o.build_s for o in outcomes)
+    solve_s = sum(o.solve_s for o in outcomes)
+    extract_s = sum(o.extract_s for o in outcomes)
+    size = {key: int(sum(o.size[key] for o in outcomes)) for key in ("variables", "constraints", "nonzeros")}
     size["linear_programs"] = len(parts)
+    size["solver"] = solver
     result.model_size = size
-    failed = [(k, done[k]) for k in sorted(done) if done[k][0] != "optimal"]
+    failed = [(k, done[k]) for k in sorted(done) if done[k].status != "optimal"]
     if len(done) < len(parts) and not failed:
         missing = min(k for k in range(len(parts)) if k not in done)
-        failed = [(missing, ("interrupted", "cancelled", None))]
+        failed = [(missing, PartOutcome("interrupted", "cancelled"))]
     if failed:
         k, o = failed[0]
-        where = diagnose_failure(prepared, settings, o[0], parts[k])
+        where = diagnose_failure(prepared, settings, o.status, parts[k])
         if not where:
             where = ("In district " + ", ".join(prepared.district_ids[i] for i in parts[k]) + "."
                      if decompose else "In the city-wide model.")
-        result.status = o[0]
-        result.message = failure_message(o[0], o[1], where)
+        result.status = o.status
+        result.message = failure_message(o.status, o.message, where)
     else:
-        result.tables = merge_tables([done[k][2] for k in range(len(parts))])
+        result.tables = merge_tables([done[k].tables for k in range(len(parts))])
         result.status = STATUS_SOLVED
-        from engine.studies.permits import add_well_status
-
         add_well_status(result, scenario)
         abatement_text = ""
         if settings.objective == "co2":
-            infos = [o[7] for o in outcomes if len(o) > 7 and o[7]]
+            infos = [o.info for o in outcomes if o.info]
             step = sum(i.get("abatement_step_t_per_a", 0.0) for i in infos)
             saving = sum(i.get("abatement_saving_eur_per_a", 0.0) for i in infos)
             co2_info = {"abatement_step_t_per_a": step,
@@ -315,7 +380,8 @@ def solve_scenario(
         result.message = "Optimal solution found." + abatement_text
         if result.unserved_heat_mwh_per_a > UNSERVED_TOLERANCE_MWH:
             result.status = STATUS_WITH_UNSERVED
-            result.message = unserved_message(result, prepared, settings, time_limit_s, cancel) + abatement_text
+            result.message = unserved_message(result, prepared, settings, time_limit_s, cancel,
+                                              solver) + abatement_text
     result.timings_s = {
         "prepare": round(prepare_s, 4),
         "build": round(build_s, 4),

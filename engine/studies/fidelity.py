@@ -21,12 +21,13 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import Callable
 
-import numpy as np
 import pandas as pd
 
 from engine.scenario.inputs import Scenario, input_hash
 from engine.model.results import RunResult
-from engine.model.solve import run_settings, solve_scenario
+from engine.model.solve import default_cost_case, run_settings, solve_scenario
+from engine.model.solvers import DIRECT
+from engine.storage.store import default_store_path
 
 Progress = Callable[[float, str], None]
 
@@ -114,6 +115,7 @@ def typical_day_fidelity(
     workers: int | None = None,
     progress: Progress | None = None,
     cancel: Callable[[], bool] | None = None,
+    solver: str = DIRECT,
 ) -> pd.DataFrame:
     """Solve ``scenario`` at each number of typical days and over the full year; compare (see :func:`fidelity_table`).
 
@@ -133,6 +135,8 @@ def typical_day_fidelity(
         ``progress(share, text)`` after each run.
     cancel : callable, optional
         Checked before each run and passed to the solver; when it returns True the measurement stops.
+    solver : str
+        Solver of every run (:mod:`engine.model.solvers`; HiGHS directly by default).
 
     Raises
     ------
@@ -148,7 +152,7 @@ def typical_day_fidelity(
             raise ValueError(f"day_counts: {d!r} is not a whole number from 1 to {n_days - 1}")
         counts.append(int(d))
     report = progress or (lambda share, text: None)
-    case = cost_case or ("reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases)))
+    case = cost_case or default_cost_case(scenario)
     results = {}
     runs = sorted(set(counts)) + [0]
     for k, days in enumerate(runs):
@@ -157,7 +161,8 @@ def typical_day_fidelity(
         if cancel is not None and cancel():
             raise RuntimeError("the fidelity measurement was cancelled")
         settings = run_settings(scenario, objective, None, days)
-        results[days] = solve_scenario(scenario, case, settings=settings, workers=workers, cancel=cancel)
+        results[days] = solve_scenario(scenario, case, settings=settings, workers=workers, cancel=cancel,
+                                       solver=solver)
         if cancel is not None and cancel():
             raise RuntimeError("the fidelity measurement was cancelled")
         if days == 0 and not results[0].solved:
@@ -169,14 +174,12 @@ def typical_day_fidelity(
 # ============================================================================================ cache
 def default_cache_path() -> Path:
     """The cache file beside the scenario store (``typical_day_fidelity.json``)."""
-    from engine.storage.store import default_store_path
-
     return default_store_path().parent / CACHE_FILE_NAME
 
 
 def fidelity_key(scenario: Scenario, cost_case: str | None = None, objective: str | None = None) -> str:
     """Hash of the inputs the fidelity depends on: everything but the time resolution."""
-    case = cost_case or ("reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases)))
+    case = cost_case or default_cost_case(scenario)
     settings = run_settings(scenario, objective, None, 0)
     return input_hash(scenario, case, dataclasses.replace(settings, typical_days=0))
 
@@ -222,6 +225,7 @@ def cached_fidelity(
     progress: Progress | None = None,
     refresh: bool = False,
     cancel: Callable[[], bool] | None = None,
+    solver: str = DIRECT,
 ) -> pd.DataFrame:
     """The fidelity table of these inputs: from the cache, or measured once and stored there.
 
@@ -235,7 +239,7 @@ def cached_fidelity(
     if found is not None:
         return found
     started = time.perf_counter()
-    table = typical_day_fidelity(scenario, cost_case, day_counts, objective, workers, progress, cancel)
+    table = typical_day_fidelity(scenario, cost_case, day_counts, objective, workers, progress, cancel, solver)
     measured = datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
     entries = _read_cache(path)
     entries[fidelity_key(scenario, cost_case, objective)] = {
@@ -276,47 +280,3 @@ def recommend_typical_days(table: pd.DataFrame, cost_tolerance_pct: float = 1.0,
         if abs(row.total_cost_error_pct) <= cost_tolerance_pct and row.capacity_deviation_pct <= capacity_tolerance_pct:
             return int(row.typical_days)
     return 0
-
-
-def main(argv=None) -> int:
-    """``python -m engine.studies.fidelity DIR [--days 4,8,12,24] [--out FILE.csv]``: measure and print the table."""
-    import argparse
-    import sys
-
-    from engine.studies.tradeoff import _stderr_progress, load_for_command
-
-    parser = argparse.ArgumentParser(prog="python -m engine.studies.fidelity")
-    parser.add_argument("scenario")
-    parser.add_argument("--days", default=",".join(map(str, DEFAULT_DAY_COUNTS)))
-    parser.add_argument("--cost-case", default=None)
-    parser.add_argument("--out", default=None)
-    parser.add_argument("--no-cache", action="store_true")
-    args = parser.parse_args(argv)
-    try:
-        days = [int(d) for d in args.days.split(",") if d.strip()]
-    except ValueError:
-        print(f"--days must be whole numbers separated by commas, got '{args.days}'", file=sys.stderr)
-        return 2
-    scenario = load_for_command(args.scenario)
-    if scenario is None:
-        return 2
-    try:
-        if args.no_cache:
-            table = typical_day_fidelity(scenario, args.cost_case, days, progress=_stderr_progress(False))
-        else:
-            table = cached_fidelity(scenario, args.cost_case, day_counts=days, progress=_stderr_progress(False))
-    except (ValueError, RuntimeError) as error:
-        print(str(error), file=sys.stderr)
-        return 2
-    with pd.option_context("display.width", 200, "display.max_columns", 12):
-        print(table.iloc[:, :10].to_string(index=False, float_format=lambda v: f"{v:,.2f}"))
-    print(f"recommended typical days (cost within 1 %, capacity within 10 %): {recommend_typical_days(table)}")
-    if args.out:
-        table.to_csv(args.out, index=False)
-    return 0
-
-
-if __name__ == "__main__":
-    import sys
-
-    sys.exit(main())

@@ -68,6 +68,7 @@ from engine.studies.permits import add_well_status, net_injection
 from engine.scenario.inputs import Scenario
 from engine.model.results import RunResult
 from engine.model.solve import solve_scenario
+from engine.model.solvers import DIRECT
 
 SECONDS_PER_YEAR = 365.25 * plume.SECONDS_PER_DAY
 
@@ -375,6 +376,7 @@ def solve_with_interference(
     plume_levels_k=DEFAULT_PLUME_LEVELS_K,
     cancel: Callable[[], bool] | None = None,
     workers: int | None = None,
+    solver: str = DIRECT,
 ) -> RunResult:
     """Solve ``scenario`` again and again with the source temperature shifts neighbouring plumes cause.
 
@@ -384,7 +386,7 @@ def solve_with_interference(
     ----------
     scenario : Scenario
         Validated inputs; any ``wells.source_temp_shift_k`` column is replaced by the computed shifts.
-    cost_case, objective, co2_cap_t_per_a, typical_days, time_limit_s
+    cost_case, objective, co2_cap_t_per_a, typical_days, time_limit_s, solver
         As in :func:`engine.model.solve.solve_scenario` (the time limit applies to each solve).
     progress : callable, optional
         ``progress(share, text)`` with share in [0, 1]; called once or twice per iteration.
@@ -447,7 +449,7 @@ def solve_with_interference(
         result = solve_scenario(
             _with_shift(scenario, shift), cost_case=cost_case, objective=objective,
             co2_cap_t_per_a=co2_cap_t_per_a, typical_days=typical_days, time_limit_s=time_limit_s, cancel=cancel,
-            workers=workers,
+            workers=workers, solver=solver,
         )
         record = {
             "iteration": k + 1,

@@ -8,7 +8,8 @@ the scenario) and returns one compact record per run: the prices, total cost, CO
 supply of each district; the full :class:`RunResult` too when asked, for the scenario store.
 
 :func:`tornado_analysis` varies one price at a time to its low and high value around the reference and reports the
-change in total cost and how many districts change their main supply; :func:`tornado_figure` draws it.
+change in total cost and how many districts change their main supply;
+:func:`engine.outputs.study_figures.tornado_figure` draws it.
 
 Price multipliers (:data:`PARAMETERS`): ``co2_price_factor`` multiplies the base case's CO2 price,
 ``gas_price_factor``, ``electricity_price_factor`` and ``network_price_factor`` multiply those prices (on top of the
@@ -23,11 +24,10 @@ from __future__ import annotations
 import dataclasses
 import itertools
 import math
-import sys
+import os
 import uuid
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import Callable
 
 import numpy as np
@@ -36,6 +36,7 @@ import pandas as pd
 from engine.scenario.inputs import CostCase, Scenario
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
+from engine.model.solvers import DIRECT
 
 Progress = Callable[[float, str], None]
 
@@ -253,7 +254,8 @@ def _record(task: SweepTask, result: RunResult, scenario: Scenario) -> dict:
     return record
 
 
-def solve_task(scenario: Scenario, task: SweepTask, typical_days=None, objective=None, keep_result=False):
+def solve_task(scenario: Scenario, task: SweepTask, typical_days=None, objective=None, keep_result=False,
+               solver: str = DIRECT):
     """Solve one task (its cost case added to a shallow copy of ``scenario``); returns (record, result or None).
 
     The districts of one task are solved one after another in this process: a sweep's parallelism is across
@@ -263,7 +265,7 @@ def solve_task(scenario: Scenario, task: SweepTask, typical_days=None, objective
     cases[task.cost_case.name] = task.cost_case
     copy = dataclasses.replace(scenario, cost_cases=cases)
     settings = run_settings(copy, objective, None, typical_days)
-    result = solve_scenario(copy, task.cost_case.name, settings=settings, workers=1)
+    result = solve_scenario(copy, task.cost_case.name, settings=settings, workers=1, solver=solver)
     return _record(task, result, scenario), (result if keep_result else None)
 
 
@@ -285,12 +287,12 @@ def _task(payload: tuple) -> SweepTask:
     return SweepTask(name, CostCase(**case), prices)
 
 
-def _solve_in_worker(payload, typical_days, objective, keep_result):
-    return solve_task(_WORKER["scenario"], _task(payload), typical_days, objective, keep_result)
+def _solve_in_worker(payload, typical_days, objective, keep_result, solver=DIRECT):
+    return solve_task(_WORKER["scenario"], _task(payload), typical_days, objective, keep_result, solver)
 
 
-def _solve_on_cluster(scenario, payload, typical_days, objective, keep_result):
-    return solve_task(scenario, _task(payload), typical_days, objective, keep_result)
+def _solve_on_cluster(scenario, payload, typical_days, objective, keep_result, solver=DIRECT):
+    return solve_task(scenario, _task(payload), typical_days, objective, keep_result, solver)
 
 
 class SweepCancelled(RuntimeError):
@@ -308,6 +310,7 @@ def run_sweep(
     progress: Progress | None = None,
     sweep_id: str | None = None,
     cancel: Callable[[], bool] | None = None,
+    solver: str = DIRECT,
 ) -> SweepOutcome:
     """Solve every task and collect one record per run.
 
@@ -336,14 +339,14 @@ def run_sweep(
     cancel : callable, optional
         Checked each time a run finishes; when it returns True the runs not yet started are dropped and
         :class:`SweepCancelled` is raised.
+    solver : str
+        Solver of every run (:mod:`engine.model.solvers`; HiGHS directly by default).
 
     Returns
     -------
     SweepOutcome
         Records in the order of ``tasks``, whatever order the runs finished in.
     """
-    import os
-
     if not tasks:
         raise ValueError("tasks is empty: a sweep needs at least one run")
     names = [t.name for t in tasks]
@@ -368,7 +371,7 @@ def run_sweep(
             raise SweepCancelled(f"the sweep was cancelled after {done} of {len(tasks)} runs")
 
     if scheduler is not None:
-        _run_on_cluster(scenario, tasks, typical_days, objective, keep_results, scheduler, finished)
+        _run_on_cluster(scenario, tasks, typical_days, objective, keep_results, scheduler, finished, solver)
     else:
         if workers is None:
             workers = min(len(tasks), os.cpu_count() or 1)
@@ -376,11 +379,11 @@ def run_sweep(
             for k, task in enumerate(tasks):
                 if stopped():
                     raise SweepCancelled(f"the sweep was cancelled after {done} of {len(tasks)} runs")
-                finished(k, solve_task(scenario, task, typical_days, objective, keep_results))
+                finished(k, solve_task(scenario, task, typical_days, objective, keep_results, solver))
         else:
             with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(scenario,)) as pool:
                 futures = {
-                    pool.submit(_solve_in_worker, _payload(task), typical_days, objective, keep_results): k
+                    pool.submit(_solve_in_worker, _payload(task), typical_days, objective, keep_results, solver): k
                     for k, task in enumerate(tasks)
                 }
                 try:
@@ -393,8 +396,9 @@ def run_sweep(
     return _outcome(sweep_id, outputs, keep_results)
 
 
-def _run_on_cluster(scenario, tasks, typical_days, objective, keep_results, scheduler, finished) -> None:
-    try:
+def _run_on_cluster(scenario, tasks, typical_days, objective, keep_results, scheduler, finished,
+                    solver=DIRECT) -> None:
+    try:  # imported here: distributed is slow to import and only sweeps on a cluster need it
         from distributed import Client, as_completed as dask_as_completed
     except ImportError as error:  # pragma: no cover - dask[distributed] is in requirements.txt
         raise RuntimeError("a Dask scheduler was given but the 'distributed' package is not installed") from error
@@ -403,7 +407,8 @@ def _run_on_cluster(scenario, tasks, typical_days, objective, keep_results, sche
     try:
         shared = client.scatter(scenario, broadcast=True)
         futures = [
-            client.submit(_solve_on_cluster, shared, _payload(task), typical_days, objective, keep_results, pure=False,
+            client.submit(_solve_on_cluster, shared, _payload(task), typical_days, objective, keep_results, solver,
+                          pure=False,
                           key=f"heatmosaic-{task.name}-{uuid.uuid4().hex[:8]}")
             for task in tasks
         ]
@@ -503,154 +508,9 @@ def tornado_analysis(
     workers: int | None = None,
     scheduler=None,
     progress: Progress | None = None,
+    solver: str = DIRECT,
 ) -> pd.DataFrame:
     """One-at-a-time sensitivity of the total cost and the districts' main supply (see :func:`tornado_table`)."""
     outcome = run_sweep(scenario, tornado_tasks(scenario, base_case, parameters), typical_days=typical_days,
-                        workers=workers, scheduler=scheduler, progress=progress)
+                        workers=workers, scheduler=scheduler, progress=progress, solver=solver)
     return tornado_table(outcome)
-
-
-def tornado_figure(tornado: pd.DataFrame):
-    """Horizontal bars of the change in total cost at each parameter's low and high value (plotly Figure).
-
-    The largest swing is on top; the hover text gives the value and the number of districts whose main supply
-    changes.
-    """
-    import plotly.graph_objects as go
-
-    data = tornado.iloc[::-1]
-    fig = go.Figure()
-    for side, colour in (("low", "#3b7dd8"), ("high", "#d8703b")):
-        value = data[f"{side}_value"]
-        changed = data[f"districts_changed_{side}"]
-        fig.add_trace(
-            go.Bar(
-                y=data["label"],
-                x=data[f"delta_cost_{side}_eur_per_a"] / 1e6,
-                orientation="h",
-                name=f"{side} value",
-                marker_color=colour,
-                customdata=np.column_stack([value, changed]),
-                hovertemplate="%{y} at %{customdata[0]:.3g}: %{x:+.3f} M EUR/a, "
-                "main supply changes in %{customdata[1]} district(s)<extra></extra>",
-                text=[f"{c} changed" if c else "" for c in changed],
-                textposition="outside",
-                cliponaxis=False,
-            )
-        )
-    fig.update_layout(
-        barmode="overlay",
-        xaxis_title="Change in total annual cost against the reference [million EUR/a]",
-        yaxis_title=None,
-        legend_title_text="Parameter at its",
-        height=120 + 60 * len(data),
-        margin=dict(l=10, r=10, t=30, b=40),
-    )
-    fig.add_vline(x=0, line_color="#444", line_width=1)
-    return fig
-
-
-# ============================================================================================ command line
-def add_sweep_parser(sub) -> None:
-    """Register ``sweep`` on an argparse sub-parser collection."""
-    p = sub.add_parser("sweep", help="solve many cost cases in parallel; writes sweep.csv")
-    p.add_argument("scenario", help="scenario folder, or 'demo'")
-    what = p.add_mutually_exclusive_group(required=True)
-    what.add_argument("--cost-cases", metavar="all|NAME,NAME", help="the scenario's cost cases ('all' or a list)")
-    what.add_argument("--sample", type=int, metavar="N", help="N Latin hypercube samples of the price multipliers")
-    what.add_argument("--tornado", action="store_true", help="one price at a time, low and high; also tornado.csv")
-    p.add_argument("--parameters", default=None, help=f"comma-separated, of: {', '.join(PARAMETERS)}")
-    p.add_argument("--seed", type=int, default=0)
-    p.add_argument("--base-case", default=None, help="cost case the multipliers apply to (default reference)")
-    p.add_argument("--scheduler", default=None, metavar="ADDR", help="Dask scheduler address, e.g. tcp://host:8786")
-    p.add_argument("--workers", type=int, default=None, help="local worker processes (default: the cores)")
-    group = p.add_mutually_exclusive_group()
-    group.add_argument("--typical-days", type=int, default=None)
-    group.add_argument("--full-year", action="store_true")
-    p.add_argument("--out", default="out")
-    p.add_argument("--quiet", action="store_true")
-
-
-def cmd_sweep(args) -> int:
-    """``python -m engine sweep DIR (--cost-cases all | --sample N | --tornado) [--scheduler ADDR] --out OUT``.
-
-    Exit codes: 0 every run solved, 2 input error, 3 some run failed (sweep.csv is written all the same).
-    """
-    from engine.studies.tradeoff import _stderr_progress, load_for_command
-
-    typical_days = 0 if args.full_year else args.typical_days
-    if typical_days is not None and typical_days < 0:
-        print("--typical-days must be >= 0 (0 means the full year)", file=sys.stderr)
-        return 2
-    if args.sample is not None and args.sample < 1:
-        print("--sample must be >= 1", file=sys.stderr)
-        return 2
-    if args.workers is not None and args.workers < 1:
-        print("--workers must be >= 1", file=sys.stderr)
-        return 2
-    parameters = None
-    if args.parameters:
-        parameters = [p.strip() for p in args.parameters.split(",") if p.strip()]
-        unknown = [p for p in parameters if p not in PARAMETERS]
-        if unknown:
-            print(f"Unknown parameter(s) {', '.join(unknown)}. Known: {', '.join(PARAMETERS)}", file=sys.stderr)
-            return 2
-    scenario = load_for_command(args.scenario)
-    if scenario is None:
-        return 2
-    if args.base_case is not None and args.base_case not in scenario.cost_cases:
-        print(f"Unknown cost case '{args.base_case}'. Known cost cases: {', '.join(scenario.cost_cases)}",
-              file=sys.stderr)
-        return 2
-    if args.cost_cases is not None:
-        names = None if args.cost_cases.strip() == "all" else [n.strip() for n in args.cost_cases.split(",")]
-        unknown = [n for n in (names or []) if n not in scenario.cost_cases]
-        if unknown:
-            print(f"Unknown cost case(s) {', '.join(unknown)}. Known cost cases: {', '.join(scenario.cost_cases)}",
-                  file=sys.stderr)
-            return 2
-        tasks = tasks_from_cost_cases(scenario, names)
-    elif args.tornado:
-        tasks = tornado_tasks(scenario, args.base_case, parameters)
-    else:
-        samples = random_samples(default_ranges(parameters), args.sample, seed=args.seed)
-        tasks = tasks_from_samples(scenario, samples, args.base_case)
-    try:
-        outcome = run_sweep(scenario, tasks, typical_days=typical_days, workers=args.workers,
-                            scheduler=args.scheduler, progress=_stderr_progress(args.quiet))
-    except OSError as error:  # e.g. the scheduler cannot be reached
-        print(f"The sweep could not run: {error}", file=sys.stderr)
-        return 3
-    out = Path(args.out)
-    out.mkdir(parents=True, exist_ok=True)
-    outcome.table.assign(sweep_id=outcome.sweep_id).to_csv(out / "sweep.csv", index=False)
-    outcome.main_supply.to_csv(out / "main_supply.csv")
-    if args.tornado:
-        tornado_table(outcome).to_csv(out / "tornado.csv", index=False)
-    failed = outcome.table[outcome.table["status"] != "optimal"]
-    if len(failed):
-        print(f"{len(failed)} of {len(outcome.table)} run(s) failed: {', '.join(failed['name'])}", file=sys.stderr)
-        return 3
-    if not args.quiet:
-        print(f"{len(outcome.table)} runs solved; written to {out / 'sweep.csv'}")
-    return 0
-
-
-def main(argv=None) -> int:
-    import argparse
-
-    parser = argparse.ArgumentParser(prog="python -m engine.studies.sweep")
-    add_sweep_parser(parser.add_subparsers(dest="command", required=True))
-    args = parser.parse_args(["sweep", *(sys.argv[1:] if argv is None else argv)])
-    try:
-        return cmd_sweep(args)
-    except KeyboardInterrupt:
-        print("Cancelled.", file=sys.stderr)
-        return 3
-    except Exception as error:  # the last guard: a plain message, never a traceback at the user
-        print(f"Unexpected error: {type(error).__name__}: {error}", file=sys.stderr)
-        return 3
-
-
-if __name__ == "__main__":
-    sys.exit(main())

@@ -15,9 +15,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
-import sys
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import Callable
 
 import numpy as np
@@ -26,6 +24,7 @@ import pandas as pd
 from engine.scenario.inputs import CostCase, Scenario
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
+from engine.model.solvers import DIRECT
 
 Progress = Callable[[float, str], None]
 
@@ -69,6 +68,7 @@ def tradeoff_curve_runs(
     typical_days: int | None = None,
     progress: Progress | None = None,
     cancel: Callable[[], bool] | None = None,
+    solver: str = DIRECT,
 ) -> tuple[pd.DataFrame, list[RunResult]]:
     """The cost-CO2 trade-off curve and the run behind each of its points.
 
@@ -90,6 +90,8 @@ def tradeoff_curve_runs(
         ``progress(share, text)`` after each point.
     cancel : callable, optional
         Checked between points; when it returns True the curve stops and the points so far are returned.
+    solver : str
+        Solver of every point (:mod:`engine.model.solvers`; HiGHS directly by default).
 
     Returns
     -------
@@ -127,13 +129,13 @@ def tradeoff_curve_runs(
     settings_co2 = run_settings(scenario, "co2", 0.0, typical_days)
 
     report(0.0, "Least-cost run")
-    cheapest = solve_scenario(scenario, case, settings=settings_cost)
+    cheapest = solve_scenario(scenario, case, settings=settings_cost, solver=solver)
     rows = [_row(0, "cost_optimal", math.nan, cheapest)]
     results = [cheapest]
     if not cheapest.solved or stopped():
         return _finish(rows), results
     report(1.0 / n_points, "Least-CO2 run")
-    cleanest = solve_scenario(scenario, case, settings=settings_co2)
+    cleanest = solve_scenario(scenario, case, settings=settings_co2, solver=solver)
     if not cleanest.solved:
         rows.append(_row(n_points - 1, "co2_optimal", math.nan, cleanest))
         return _finish(rows), results + [cleanest]
@@ -147,7 +149,8 @@ def tradeoff_curve_runs(
         report((k + 1) / n_points, f"Least cost with CO2 <= {bound:,.0f} t/a ({k} of {interior})")
         # solve_scenario treats a cap of 0 as "no cap"; a bound that small is the least-CO2 point anyway
         capped = solve_scenario(
-            scenario, case, settings=run_settings(scenario, "cost", max(float(bound), 1e-6), typical_days)
+            scenario, case, settings=run_settings(scenario, "cost", max(float(bound), 1e-6), typical_days),
+            solver=solver,
         )
         rows.append(_row(k, "co2_bounded", float(bound), capped))
         results.append(capped)
@@ -180,9 +183,10 @@ def tradeoff_curve(
     n_points: int = 7,
     typical_days: int | None = None,
     progress: Progress | None = None,
+    solver: str = DIRECT,
 ) -> pd.DataFrame:
     """The cost-CO2 trade-off table of :func:`tradeoff_curve_runs` (without the runs)."""
-    table, _ = tradeoff_curve_runs(scenario, cost_case, n_points, typical_days, progress)
+    table, _ = tradeoff_curve_runs(scenario, cost_case, n_points, typical_days, progress, solver=solver)
     return table
 
 
@@ -210,75 +214,6 @@ def point_scenario(scenario: Scenario, table: pd.DataFrame, point: int) -> Scena
     else:
         settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=0.0)
     return dataclasses.replace(scenario, settings=settings)
-
-
-# ============================================================================================ figures
-KIND_LABELS = {"cost_optimal": "least cost", "co2_bounded": "CO2 bounded", "co2_optimal": "least CO2"}
-
-
-def tradeoff_figure(table: pd.DataFrame, selected: int | None = None):
-    """The trade-off curve: annual cost against CO2, one marker per point (plotly Figure).
-
-    Each marker's ``customdata`` holds its point number, so a click selection names the point.
-    """
-    import plotly.graph_objects as go
-
-    solved = table[table["status"] == "optimal"]
-    labels = [KIND_LABELS.get(k, k) for k in solved["kind"]]
-    fig = go.Figure(
-        go.Scatter(
-            x=solved["co2_t_per_a"],
-            y=solved["total_cost_eur_per_a"] / 1e6,
-            mode="lines+markers",
-            marker=dict(size=[16 if p == selected else 11 for p in solved["point"]], color="#0072B2",
-                        line=dict(width=[3 if p == selected else 0 for p in solved["point"]], color="#E69F00")),
-            line=dict(color="#0072B2", width=2),
-            customdata=np.column_stack([solved["point"], labels, solved["abatement_cost_eur_per_t"].fillna(0.0)]),
-            hovertemplate="Point %{customdata[0]} (%{customdata[1]})<br>CO2 %{x:,.0f} t/a<br>"
-            "cost %{y:,.3f} M EUR/a<br>abatement %{customdata[2]:,.0f} EUR/t<extra></extra>",
-            name="trade-off",
-        )
-    )
-    fig.update_layout(
-        xaxis_title="CO2 emissions [t/a]",
-        yaxis_title="Total annual cost [million EUR/a]",
-        height=420,
-        margin=dict(l=10, r=10, t=30, b=40),
-        showlegend=False,
-        clickmode="event+select",
-    )
-    return fig
-
-
-def supply_mix_figure(table: pd.DataFrame, technologies: pd.DataFrame | None = None):
-    """Heat supplied by each technology at every point of the curve, as stacked bars [GWh/a] (plotly Figure)."""
-    import plotly.graph_objects as go
-
-    from engine.outputs.palette import technology_colors
-
-    colors = technology_colors(technologies) if technologies is not None else {}
-    names = {}
-    if technologies is not None:
-        names = dict(zip(technologies["technology_id"].astype(str), technologies["name"].astype(str)))
-    solved = table[table["status"] == "optimal"]
-    x = [f"{p}: {KIND_LABELS.get(k, k)}" for p, k in zip(solved["point"], solved["kind"])]
-    fig = go.Figure()
-    for column in [c for c in solved.columns if c.startswith("heat_") and c.endswith("_mwh_per_a")]:
-        tech = column[len("heat_"):-len("_mwh_per_a")]
-        values = solved[column].to_numpy(float) / 1000.0
-        if np.all(np.abs(values) < 1e-3):
-            continue
-        fig.add_trace(go.Bar(x=x, y=values, name=names.get(tech, tech), marker_color=colors.get(tech),
-                             hovertemplate="%{x}<br>" + names.get(tech, tech) + ": %{y:,.1f} GWh/a<extra></extra>"))
-    fig.update_layout(
-        barmode="relative",
-        yaxis_title="Heat supplied [GWh/a] (stores: net)",
-        xaxis_title="Point of the trade-off curve",
-        height=380,
-        margin=dict(l=10, r=10, t=30, b=40),
-        legend_title_text="Technology",
-    )
-    return fig
 
 
 # ============================================================================================ CO2 price for a cap
@@ -331,6 +266,7 @@ def co2_price_for_cap(
     max_surcharge_eur_per_t: float = 1e5,
     workers: int | None = None,
     progress: Progress | None = None,
+    solver: str = DIRECT,
 ) -> CapPrice:
     """The CO2 price at which the districts, solved one by one, together emit no more than ``cap_t_per_a``.
 
@@ -370,6 +306,8 @@ def co2_price_for_cap(
         Worker processes for the district solves (see :func:`engine.model.solve.solve_scenario`).
     progress : callable, optional
         ``progress(share, text)`` after each solve.
+    solver : str
+        Solver of the district LPs (:mod:`engine.model.solvers`; HiGHS directly by default).
 
     Returns
     -------
@@ -407,7 +345,7 @@ def co2_price_for_cap(
     def solve_at(surcharge: float):
         case = dataclasses.replace(base, name=f"{case_name}+co2_{surcharge:.6g}", co2_eur_per_t=base_price + surcharge)
         result = solve_scenario(scenario_with_case(scenario, case), case.name, settings=settings, decompose=True,
-                                workers=workers)
+                                workers=workers, solver=solver)
         if not result.solved:
             raise RuntimeError(f"the district solve at a CO2 surcharge of {surcharge:.6g} EUR/t failed: "
                                f"{result.message}")
@@ -461,93 +399,3 @@ def co2_price_for_cap(
         converged = (upper - best_lower) <= rel_tol * max(abs(upper), 1.0) or width <= 1e-9 * max(hi[0], 1.0)
     report(1.0, "CO2 price found" if converged else "CO2 price search stopped at its iteration limit")
     return CapPrice(cap, base_price + hi[0], hi[0], hi[2], best_lower, upper, len(history), converged, hi[1], history)
-
-
-# ============================================================================================ command line
-def add_tradeoff_parser(sub) -> None:
-    """Register ``tradeoff`` on an argparse sub-parser collection."""
-    p = sub.add_parser("tradeoff", help="cost-CO2 trade-off curve (epsilon-constraint); writes tradeoff.csv")
-    p.add_argument("scenario", help="scenario folder, or 'demo'")
-    p.add_argument("--points", type=int, default=7, help="number of points, >= 2 (default 7)")
-    p.add_argument("--cost-case", default=None)
-    group = p.add_mutually_exclusive_group()
-    group.add_argument("--typical-days", type=int, default=None)
-    group.add_argument("--full-year", action="store_true")
-    p.add_argument("--out", default="out")
-    p.add_argument("--quiet", action="store_true")
-
-
-def _stderr_progress(quiet: bool):
-    if quiet:
-        return None
-
-    def report(share: float, text: str) -> None:
-        print(f"[{share * 100:5.1f} %] {text}", file=sys.stderr, flush=True)
-
-    return report
-
-
-def load_for_command(path_arg: str):
-    """The scenario of a command-line argument, or None after printing its problems on stderr."""
-    from engine.scenario.reader import load_scenario, resolve_scenario_path
-    from engine.scenario.problems import InputError
-
-    try:
-        return load_scenario(resolve_scenario_path(path_arg))
-    except InputError as error:
-        print(f"The scenario has {len(error.problems)} problem(s):", file=sys.stderr)
-        for problem in error.problems:
-            print(f"  {problem}", file=sys.stderr)
-        return None
-
-
-def cmd_tradeoff(args) -> int:
-    """``python -m engine tradeoff DIR --points N --out OUT``: exit 0 solved, 2 input error, 3 solver failure."""
-    if args.points < 2:
-        print("--points must be >= 2", file=sys.stderr)
-        return 2
-    typical_days = 0 if args.full_year else args.typical_days
-    if typical_days is not None and typical_days < 0:
-        print("--typical-days must be >= 0 (0 means the full year)", file=sys.stderr)
-        return 2
-    scenario = load_for_command(args.scenario)
-    if scenario is None:
-        return 2
-    if args.cost_case is not None and args.cost_case not in scenario.cost_cases:
-        known = ", ".join(sorted(scenario.cost_cases))
-        print(f"Unknown cost case '{args.cost_case}'. Known cost cases: {known}", file=sys.stderr)
-        return 2
-    table, _ = tradeoff_curve_runs(scenario, args.cost_case, args.points, typical_days,
-                                   _stderr_progress(args.quiet))
-    out = Path(args.out)
-    out.mkdir(parents=True, exist_ok=True)
-    table.to_csv(out / "tradeoff.csv", index=False)
-    failed = table[table["status"] != "optimal"]
-    if len(failed):
-        print(f"{len(failed)} point(s) failed: {', '.join(failed['status'].astype(str))}", file=sys.stderr)
-        return 3
-    if not args.quiet:
-        print(f"{len(table)} points from {table['total_cost_eur_per_a'].iloc[0]:,.0f} EUR/a at "
-              f"{table['co2_t_per_a'].iloc[0]:,.0f} t/a to {table['total_cost_eur_per_a'].iloc[-1]:,.0f} EUR/a at "
-              f"{table['co2_t_per_a'].iloc[-1]:,.0f} t/a; written to {out / 'tradeoff.csv'}")
-    return 0
-
-
-def main(argv=None) -> int:
-    import argparse
-
-    parser = argparse.ArgumentParser(prog="python -m engine.studies.tradeoff")
-    add_tradeoff_parser(parser.add_subparsers(dest="command", required=True))
-    args = parser.parse_args(["tradeoff", *(sys.argv[1:] if argv is None else argv)])
-    try:
-        return cmd_tradeoff(args)
-    except KeyboardInterrupt:
-        print("Cancelled.", file=sys.stderr)
-        return 3
-    except Exception as error:  # the last guard: a plain message, never a traceback at the user
-        print(f"Unexpected error: {type(error).__name__}: {error}", file=sys.stderr)
-        return 3
-
-
-if __name__ == "__main__":
-    sys.exit(main())

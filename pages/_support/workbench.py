@@ -59,6 +59,7 @@ from engine.scenario.inputs import Scenario, input_hash
 from engine.scenario.problems import InputError, Problem, problems_frame
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
+from engine.model.solvers import DIRECT, resolve_solver
 from engine.storage.store import ScenarioStore, StoreError, check_scenario_files, read_scenario_files
 
 CAUTION_LINE = (
@@ -685,8 +686,12 @@ def solve_with_cache(
     typical_days: int,
     progress: Callable[[float, str], None] | None = None,
     cancel: Callable[[], bool] | None = None,
+    solver: str = DIRECT,
 ) -> tuple[SolvedRun, bool]:
     """Solve (or find in ``cache``) one request; returns the run and whether it came from the cache.
+
+    ``solver`` as in :func:`engine.model.solve.solve_scenario`; a run found by its input hash is reused only when
+    it was solved by the same solver (the point of choosing another solver is to see its answer).
 
     The cache is looked up by ``key`` first and then by the input hash, so that two requests that differ only in
     ways the model ignores share one solve. Districts are solved one after the other in this process
@@ -698,14 +703,17 @@ def solve_with_cache(
         return cache[key], True
     settings = run_settings(scenario, objective, co2_cap_t_per_a, typical_days)
     hash_ = input_hash(scenario, cost_case, settings)
+    solver = resolve_solver(solver)
     for solved in list(cache.values()):
-        if solved.input_hash == hash_ and solved.result.solved:
+        if (solved.input_hash == hash_ and solved.result.solved
+                and solved.result.model_size.get("solver", DIRECT) == solver):
             run = dataclasses.replace(solved, label=label)
             remember(cache, key, run)
             return run, True
     try:
         result = solve_scenario(
-            scenario, cost_case=cost_case, settings=settings, progress=progress, cancel=cancel, workers=1
+            scenario, cost_case=cost_case, settings=settings, progress=progress, cancel=cancel, workers=1,
+            solver=solver,
         )
     except Exception as exc:  # a planner sees a message, never a traceback; a failed solve is not cached
         result = RunResult(
