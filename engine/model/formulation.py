@@ -1,8 +1,8 @@
 """The district linear program: investment and dispatch of every district's heat and cooling supply.
 
-The formulation is that of ``model.md`` section 3. Every quantity is a block of variables indexed by supply unit
-(a technology in a district, or a heat pump bound to one well) and model step; every constraint family is added in
-one bulk call (:mod:`engine.model.lp`). Power is in kW and one step is one hour, so a step's energy in kWh equals its
+The formulation is written out in ``docs/model.md`` (sections 3 to 6). Every quantity is a block of variables
+indexed by supply unit (a technology in a district, or a heat pump bound to one well) and model step; every
+constraint family is added in one bulk call (:mod:`engine.model.lp`). Power is in kW and one step is one hour, so a step's energy in kWh equals its
 power; annual sums multiply by the step weights [h]. Prices are per MWh and per tonne, hence the factors 1/1000.
 
 Two refinements over the design document:
