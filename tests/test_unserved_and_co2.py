@@ -90,3 +90,17 @@ def test_command_line_takes_co2_within_cost_pct(tmp_path):
     assert cli_main(["solve", "demo", "--co2-within-cost-pct", "-1", "--out", str(tmp_path), "--quiet"]) == 2
     assert cli_main(["solve", "demo", "--objective", "cost", "--co2-within-cost-pct", "5", "--out",
                      str(tmp_path), "--quiet"]) == 2
+
+
+def test_map_shows_the_unserved_class():
+    """The district left mostly unserved is drawn in the palette's 'unserved' colour, legend 'Unserved heat'."""
+    from engine.outputs.maps import district_values
+    from engine.outputs.palette import technology_colors
+
+    scenario = two_boilers(grid_co2=100.0, only_electric=True,
+                           settings=Settings(typical_days=0, co2_cap_t_per_a=40.0))
+    result = solve_scenario(scenario)
+    table, legend = district_values(scenario, result, "main_supply")
+    colours = technology_colors(scenario.technologies)
+    assert table.set_index("district_id").loc["A", "color"] == colours["unserved"]
+    assert ("Unserved heat", colours["unserved"]) in legend["entries"]
