@@ -127,6 +127,10 @@ def test_levelised_cost_of_heat_leaves_out_unserved_and_cooling():
     assert row["cooling_cost_eur_per_a"] == pytest.approx(chiller_cost, rel=1e-6)
     assert row["levelised_cost_of_cooling_eur_per_mwh"] == pytest.approx(chiller_cost / cooling_mwh, rel=1e-6)
     assert row["main_supply"] == "gas"  # 300 kW served against 100 kW unserved
+    summary = result.summary()["districts"][0]
+    assert summary["levelised_cost_eur_per_mwh"] == pytest.approx(heat_cost / served, rel=1e-7)
+    assert summary["unserved_eur_per_a"] == pytest.approx(row["unserved_eur_per_a"])
+    assert summary["cooling_cost_eur_per_a"] == pytest.approx(chiller_cost, rel=1e-6)
 
 
 def test_prepared_well_flow_is_inverse_of_iapws_power():
