@@ -14,8 +14,9 @@ Rousseeuw 2021), run from its BUILD start and from a few seeded random starts th
 in well under a second for the usual 8 to 24 typical days.
 
 Typical days keep the sequence of hours inside a day but not the sequence of days: seasonal storage and
-multi-day cold spells are not represented. The peak day can be forced to be a typical day so that the supply
-is sized for it.
+multi-day cold spells are not represented. Extreme days (peak heating, peak cooling, coldest) are kept as periods
+of their own with weight one day (:func:`typical_day_grid` ``extreme_days``), and :func:`rescale_to_annual` keeps
+the annual sums of demand exactly (Kotzur et al. 2018, see docs/model.md section 8).
 
 References
 ----------
