@@ -1,7 +1,7 @@
 """heatmosaic dashboard: plan, solve, save, compare and share heat-transition scenarios in the browser.
 
 Start with ``streamlit run app.py``. This file sets up the navigation and draws the overview page; the other
-pages live in ``pages/``. The session-state keys the pages share are documented in :mod:`pages._support.workbench`.
+pages live in ``pages/``. The session-state keys the pages share are documented in :mod:`pages._support`.
 """
 
 from __future__ import annotations
@@ -11,7 +11,8 @@ from pathlib import Path
 import streamlit as st
 
 from engine.storage.store import ScenarioStore, StoreError
-from pages._support.workbench import CAUTION, library_table
+from engine import cautions
+from pages._support.library import library_table
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 RESULTS_PAGE = "pages/2_Run_results.py"
@@ -50,7 +51,7 @@ def overview() -> None:
         "network's reach. Keep each run in your library, compare runs side by side on maps, load curves and "
         "cost breakdowns, and share a summary with colleagues and the council."
     )
-    st.warning(CAUTION, icon=":material/warning:")
+    st.warning(cautions.RESULTS, icon=":material/warning:")
 
     steps = st.columns(4)
     steps[0].page_link(PLAN_PAGE, label="Plan a run", icon=":material/tune:",

@@ -205,7 +205,7 @@ def run_case(n_districts: int, typical_days: int, path: str, workers: int, sampl
 
 def run_demo() -> dict:
     """Demo city end to end (read the folder and solve at 12 typical days), default workers and one worker."""
-    from engine.scenario.reader import load_scenario, resolve_scenario_path
+    from engine.scenario import load_scenario, resolve_scenario_path
     from engine.model.solve import solve_scenario
 
     out = {}

@@ -11,11 +11,11 @@ What one solve is
 The default drives ``pages/1_Plan_a_run.py`` as a planner does, inside one Streamlit session: the cost case
 select box alternates between ``reference`` and ``high_co2``, the typical-days box steps through 3 to 9, and the
 Solve button is pressed. Two cost cases times seven day counts repeat every 14 solves, more than the session's
-solve cache keeps (:data:`pages._support.workbench.SOLVE_CACHE_SIZE`), so every press is a real solve while the cache is
+solve cache keeps (:data:`pages._support.cache.SOLVE_CACHE_SIZE`), so every press is a real solve while the cache is
 full and dropping its oldest run, which is the state a long working session ends up in.
 
 ``--engine`` makes the same requests without Streamlit, calling what the page calls: the request key, the edits
-applied to the scenario and written into its files, :func:`pages._support.workbench.solve_with_cache` with a dict in
+applied to the scenario and written into its files, :func:`pages._support.cache.solve_with_cache` with a dict in
 place of ``st.session_state["hm_solved"]``, the key figures and the district table.
 
 What is printed
@@ -43,6 +43,13 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
+
+# Imported after the project root is on the path (the benchmark runs as a plain script).
+from pages._support.cache import SOLVE_CACHE_SIZE, request_key, solve_with_cache  # noqa: E402
+from pages._support.edits import apply_edits, initial_setup, scenario_files_with_edits  # noqa: E402
+from pages._support.inputs import demo_input_set  # noqa: E402
+from pages._support.describe import run_kpis  # noqa: E402
+from pages._support.tables import district_results_table  # noqa: E402
 
 COST_CASES = ("reference", "high_co2")
 TYPICAL_DAYS = tuple(range(3, 10))
@@ -107,36 +114,31 @@ class EngineSession:
     """The same requests through the helpers the set-up page calls, with a dict as the session's cache."""
 
     def __init__(self):
-        from pages._support import workbench as wb
-
-        self.wb = wb
-        self.inputs = wb.demo_input_set()
-        self.setup = wb.initial_setup(self.inputs)
+        self.inputs = demo_input_set()
+        self.setup = initial_setup(self.inputs)
         self.solved: dict = {}
 
     def cache(self) -> dict:
         return self.solved
 
     def solve(self, cost_case: str, typical_days: int) -> bool:
-        wb, inputs, setup = self.wb, self.inputs, self.setup
+        inputs, setup = self.inputs, self.setup
         technology_table, well_table = setup["technology_table"], setup["well_table"]
-        key = wb.request_key(inputs.digest, technology_table, well_table, cost_case, "cost", 0.0, typical_days)
-        edited, problems = wb.apply_edits(inputs.scenario, technology_table, well_table)
+        key = request_key(inputs.digest, technology_table, well_table, cost_case, "cost", 0.0, typical_days)
+        edited, problems = apply_edits(inputs.scenario, technology_table, well_table)
         if edited is None:
             raise SystemExit(f"the set-up tables do not apply: {problems}")
-        files = wb.scenario_files_with_edits(inputs.files, technology_table, well_table, inputs.scenario)
-        run, from_cache = wb.solve_with_cache(self.solved, key, edited, files, inputs.label, cost_case, "cost", 0.0,
+        files = scenario_files_with_edits(inputs.files, technology_table, well_table, inputs.scenario)
+        run, from_cache = solve_with_cache(self.solved, key, edited, files, inputs.label, cost_case, "cost", 0.0,
                                               typical_days, progress=lambda share, text: None)
         if not run.result.solved:
             raise SystemExit(f"{cost_case}, {typical_days} typical days did not solve: {run.result.message}")
-        wb.run_kpis(run.result)
-        wb.district_results_table(run.result, inputs.scenario.technologies)
+        run_kpis(run.result)
+        district_results_table(run.result, inputs.scenario.technologies)
         return not from_cache
 
 
 def main(argv=None) -> int:
-    from pages._support.workbench import SOLVE_CACHE_SIZE
-
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--solves", type=int, default=50, help="number of solves (default 50)")
     parser.add_argument("--engine", action="store_true", help="call the page's helpers instead of the page")

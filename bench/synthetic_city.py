@@ -254,7 +254,7 @@ def _toml_value(value) -> str:
 
 
 def write_scenario_folder(scenario: Scenario, folder: str | Path) -> Path:
-    """Write ``scenario`` as a scenario folder that :func:`engine.scenario.reader.load_scenario` reads back.
+    """Write ``scenario`` as a scenario folder that :func:`engine.scenario.load_scenario` reads back.
 
     Raises
     ------
@@ -270,7 +270,8 @@ def write_scenario_folder(scenario: Scenario, folder: str | Path) -> Path:
     for key in ("name", "target_year", "objective", "discount_rate", "typical_days",
                 "value_of_unserved_heat_eur_per_mwh", "co2_cap_t_per_a", "network_plant_limit_kw",
                 "heating_base_temp_c", "cooling_base_temp_c", "reinjection_min_temp_c", "reinjection_max_temp_c"):
-        lines.append(f"{key} = {_toml_value(getattr(s, key))}")
+        if getattr(s, key) is not None:  # None: no limit, written by leaving the key out
+            lines.append(f"{key} = {_toml_value(getattr(s, key))}")
     p = scenario.prices
     lines += ["", "[prices]"] + [
         f"{key} = {_toml_value(getattr(p, key))}"

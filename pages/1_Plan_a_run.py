@@ -9,7 +9,17 @@ from pathlib import Path
 import streamlit as st
 
 
-from pages._support import workbench as wb
+from engine import cautions
+from pages._support.inputs import (
+    InputSet, cost_case_descriptions, demo_input_set, input_set_from_bundle, problems_for_display,
+)
+from pages._support.edits import (
+    apply_edits, check_edits, editable_technology_table, editable_well_table, edited_cells, initial_setup,
+    scenario_files_with_edits,
+)
+from pages._support.cache import SolvedRun, request_key, solve_with_cache
+from pages._support.describe import markdown_literal, run_kpis, suggested_run_name
+from pages._support.tables import district_results_table, table_height
 from engine.model.solvers import DIRECT, solver_choices
 from engine.scenario.problems import problems_frame
 from engine.storage.store import ScenarioStore, StoreError
@@ -28,17 +38,17 @@ WIDGETS = {  # widget key -> hm_setup entry it starts from
 state = st.session_state
 route_through_app("pages/1_Plan_a_run.py")
 st.title("Plan a run")
-st.caption(wb.CAUTION_LINE)
+st.caption(cautions.RESULTS_LINE)
 
 if "hm_input" not in state:
-    state["hm_input"] = wb.demo_input_set()
+    state["hm_input"] = demo_input_set()
 solved = state.setdefault("hm_solved", {})
-inputs: wb.InputSet = state["hm_input"]
+inputs: InputSet = state["hm_input"]
 
 setup = state.get("hm_setup")
 if setup is None or setup.get("digest") != inputs.digest or setup.get("fresh"):
     if setup is None or setup.get("digest") != inputs.digest:
-        setup = wb.initial_setup(inputs)
+        setup = initial_setup(inputs)
     setup.pop("fresh", None)
     state["hm_setup"] = setup
     for widget, name in WIDGETS.items():
@@ -50,14 +60,14 @@ else:
 
 
 def use_demo() -> None:
-    state["hm_input"] = wb.demo_input_set()
+    state["hm_input"] = demo_input_set()
 
 
 def reset_tables() -> None:
     if inputs.scenario is None:
         return
-    setup["technology_table"] = wb.editable_technology_table(inputs.scenario)
-    setup["well_table"] = wb.editable_well_table(inputs.scenario)
+    setup["technology_table"] = editable_technology_table(inputs.scenario)
+    setup["well_table"] = editable_well_table(inputs.scenario)
     for key in list(state.keys()):
         if str(key).startswith(("setup_tech_", "setup_wells_")):
             del state[key]
@@ -70,14 +80,14 @@ with st.container(border=True):
     with left:
         scenario = inputs.scenario
         if scenario is not None:
-            st.markdown(f"**{wb.markdown_literal(inputs.label)}:** {wb.markdown_literal(scenario.settings.name)}, target year {scenario.settings.target_year}")
+            st.markdown(f"**{markdown_literal(inputs.label)}:** {markdown_literal(scenario.settings.name)}, target year {scenario.settings.target_year}")
             st.caption(
                 f"{len(scenario.districts)} districts · {len(scenario.technologies)} technologies · "
                 f"{len(scenario.wells)} well doublets · {len(scenario.cost_cases)} cost cases · "
                 f"{scenario.districts['heat_demand_mwh_per_a'].sum():,.0f} MWh/a heat demand"
             )
         else:
-            st.markdown(f"**{wb.markdown_literal(inputs.label)}** cannot be used:")
+            st.markdown(f"**{markdown_literal(inputs.label)}** cannot be used:")
         if inputs.manifest:
             st.caption(
                 f"Bundle written by heatmosaic {inputs.manifest.get('heatmosaic_version', '?')} on "
@@ -94,15 +104,15 @@ with st.container(border=True):
         if upload is not None and state.get("setup_bundle_seen") != upload.file_id:
             state["setup_bundle_seen"] = upload.file_id
             workdir = Path(tempfile.gettempdir()) / "heatmosaic-uploads"
-            opened = wb.input_set_from_bundle(upload.getvalue(), workdir, f"Bundle {upload.name}")
+            opened = input_set_from_bundle(upload.getvalue(), workdir, f"Bundle {upload.name}")
             state["hm_input"] = opened
             if opened.ok:  # start from the choices of the run inside the bundle
-                state["hm_setup"] = {**wb.initial_setup(opened, opened.manifest.get("settings"),
+                state["hm_setup"] = {**initial_setup(opened, opened.manifest.get("settings"),
                                                         opened.manifest.get("cost_case")), "fresh": True}
             st.rerun()
     if not inputs.problems.empty:
         st.error(f"{len(inputs.problems)} problem(s) in these inputs. Fix them in the files and upload again.")
-        st.dataframe(wb.problems_for_display(inputs.problems), hide_index=True, width="stretch",
+        st.dataframe(problems_for_display(inputs.problems), hide_index=True, width="stretch",
                      column_config={"message": st.column_config.TextColumn(width="large")})
 if inputs.scenario is None:
     st.stop()
@@ -111,11 +121,11 @@ scenario = inputs.scenario
 # ------------------------------------------------------------------------------------------------ 2 choices
 with st.container(border=True):
     st.subheader("2 · Run choices")
-    descriptions = wb.cost_case_descriptions(scenario)
+    descriptions = cost_case_descriptions(scenario)
     c1, c2, c3 = st.columns([2, 1.3, 1.5], gap="large")
     with c1:
         cost_case = st.selectbox("Cost case", list(descriptions), key="setup_cost_case")
-        st.caption(wb.markdown_literal(descriptions.get(cost_case, "")))
+        st.caption(markdown_literal(descriptions.get(cost_case, "")))
     with c2:
         objective = st.radio("Objective", list(OBJECTIVES), format_func=OBJECTIVES.get, key="setup_objective")
         co2_cap = st.number_input(
@@ -206,11 +216,11 @@ with st.container(border=True):
             well_table = setup["well_table"]
             st.info("These inputs have no well doublets.")
     setup["technology_table"], setup["well_table"] = technology_table, well_table
-    edit_problems = wb.check_edits(scenario, technology_table, well_table)
-    changes = wb.edited_cells(scenario, technology_table, well_table)
+    edit_problems = check_edits(scenario, technology_table, well_table)
+    changes = edited_cells(scenario, technology_table, well_table)
     if edit_problems:
         st.error("Some edited values cannot be used; fix them before solving.")
-        st.dataframe(wb.problems_for_display(problems_frame(edit_problems)), hide_index=True, width="stretch",
+        st.dataframe(problems_for_display(problems_frame(edit_problems)), hide_index=True, width="stretch",
                      column_config={"message": st.column_config.TextColumn(width="large")})
     if not changes.empty:
         with st.expander(f"{len(changes)} value(s) differ from the input files"):
@@ -219,24 +229,24 @@ with st.container(border=True):
 
 # ------------------------------------------------------------------------------------------------ 4 solve
 days = 0 if full_year else int(typical_days)
-key = wb.request_key(inputs.digest, technology_table, well_table, cost_case, objective, co2_cap, days)
+key = request_key(inputs.digest, technology_table, well_table, cost_case, objective, co2_cap, days)
 key = key if solver == DIRECT else f"{key}-{solver}"  # another solver's answer is another run to show
 with st.container(border=True):
     st.subheader("4 · Solve")
     clicked = st.button("Solve", type="primary", icon=":material/play_arrow:", disabled=bool(edit_problems),
                         key="setup_solve")
     earlier = key in solved and not clicked and state.get("setup_just_solved") != key
-    run: wb.SolvedRun | None = solved.get(key)
+    run: SolvedRun | None = solved.get(key)
     show_cancelled("setup_job", "solve")
     if clicked:
         started = time.perf_counter()
-        edited, edit_problems = wb.apply_edits(scenario, technology_table, well_table)
+        edited, edit_problems = apply_edits(scenario, technology_table, well_table)
         if edited is None:
             st.error("The edits cannot be used.")
             st.stop()
-        files = wb.scenario_files_with_edits(inputs.files, technology_table, well_table, scenario)
+        files = scenario_files_with_edits(inputs.files, technology_table, well_table, scenario)
         run, from_cache = run_with_cancel(
-            lambda progress, cancel: wb.solve_with_cache(
+            lambda progress, cancel: solve_with_cache(
                 solved, key, edited, files, inputs.label, cost_case, objective, co2_cap, days,
                 progress=progress, cancel=cancel, solver=solver,
             ),
@@ -258,7 +268,7 @@ with st.container(border=True):
         if not result.solved:
             st.error(f"The run did not solve: {result.message}")
         else:
-            kpis = wb.run_kpis(result)
+            kpis = run_kpis(result)
             m = st.columns(4)
             m[0].metric("Total cost [M€/a]", f"{kpis['total_cost_eur_per_a'] / 1e6:,.2f}")
             m[1].metric("CO2 [t/a]", f"{kpis['co2_t_per_a']:,.0f}")
@@ -268,11 +278,11 @@ with st.container(border=True):
                 st.warning(result.message)
             else:
                 st.success(result.message)
-            districts = wb.district_results_table(result, scenario.technologies)[
+            districts = district_results_table(result, scenario.technologies)[
                 ["district", "main supply", "heat demand [MWh/a]", "total cost [€/a]", "levelised cost [€/MWh]",
                  "CO2 [t/a]"]
             ]
-            st.dataframe(districts, hide_index=True, width="stretch", height=wb.table_height(districts),
+            st.dataframe(districts, hide_index=True, width="stretch", height=table_height(districts),
                          column_config={c: st.column_config.NumberColumn(format="localized")
                                         for c in districts.columns[2:]})
             st.page_link(RESULTS_PAGE, label="See the map, load curves and costs of this run", icon=":material/map:")
@@ -284,12 +294,12 @@ if run is not None and run.result.solved:
         if run.saved_run_id is not None:
             st.caption(f"This run is saved in the library as run #{run.saved_run_id}; saving again adds a copy.")
         with st.form(f"setup_save_{key[:12]}", border=False):
-            name = st.text_input("Name", value=wb.suggested_run_name(run.result), max_chars=120)
+            name = st.text_input("Name", value=suggested_run_name(run.result), max_chars=120)
             note = st.text_area("Note", placeholder="What this run tests, where the numbers come from ...")
             if st.form_submit_button("Save run", icon=":material/save:"):
                 try:
                     with ScenarioStore() as store:
                         run.saved_run_id = store.save_run(run.result, name, note, inputs=run.files)
-                    st.success(f"Saved as “{wb.markdown_literal(name.strip())}” (run #{run.saved_run_id}).")
+                    st.success(f"Saved as “{markdown_literal(name.strip())}” (run #{run.saved_run_id}).")
                 except StoreError as error:
                     st.error(f"The run could not be saved: {error}")

@@ -5,7 +5,13 @@ from __future__ import annotations
 import streamlit as st
 from streamlit_folium import st_folium
 
-from pages._support import workbench as wb
+from engine import cautions
+from pages._support.inputs import input_set_from_files
+from pages._support.edits import initial_setup
+from pages._support.cache import load_saved_run, resolve_saved_run, scenario_for_files
+from pages._support.describe import describe_choices, markdown_literal, resolution_note, run_kpis, suggested_run_name
+from pages._support.tables import district_results_table, supply_results_table, table_height, well_results_table
+from pages._support.library import run_choices
 from engine.outputs.figures import (
     FIGURE_CONFIG,
     cost_breakdown_figure,
@@ -13,7 +19,7 @@ from engine.outputs.figures import (
     load_curve_figure,
     load_duration_figure,
 )
-from engine.outputs.maps import MEASURES, WELL_CAUTION, district_map
+from engine.outputs.maps import MEASURES, district_map
 from engine.storage.store import StoreError
 from pages._support.shell import open_store, route_through_app, run_with_cancel, show_cancelled
 
@@ -31,7 +37,7 @@ TABS = ["Map", "Load curves", "Costs", "Tables", "Manage run"]
 state = st.session_state
 route_through_app("pages/2_Run_results.py")
 st.title("Run results")
-st.caption(wb.CAUTION_LINE)
+st.caption(cautions.RESULTS_LINE)
 solved = state.setdefault("hm_solved", {})
 loaded = state.setdefault("hm_loaded", {})
 scenarios = state.setdefault("hm_scenarios", {})
@@ -39,7 +45,7 @@ if state.get("hm_flash"):
     st.success(state.pop("hm_flash"))
 
 store = open_store()
-choices = wb.run_choices(store)
+choices = run_choices(store)
 current = solved.get(state.get("hm_current"))
 options = ([CURRENT] if current is not None else []) + list(choices)
 if not options:
@@ -51,7 +57,7 @@ if not options:
 def option_label(option) -> str:
     if option == CURRENT:
         saved = f", saved as #{current.saved_run_id}" if current.saved_run_id is not None else ", not saved"
-        return f"Current run: {wb.suggested_run_name(current.result)} ({current.label}{saved})"
+        return f"Current run: {suggested_run_name(current.result)} ({current.label}{saved})"
     return choices[option]
 
 
@@ -62,19 +68,19 @@ if picked == CURRENT:
     result, files, run_name, run_id, info = current.result, current.files, "Current run", None, None
 else:
     run_id = int(picked)
-    result = wb.load_saved_run(store, loaded, run_id)
+    result = load_saved_run(store, loaded, run_id)
     files = store.load_inputs(run_id)
     info = store.run_info(run_id)
     run_name = info["name"]
-scenario = wb.scenario_for_files(scenarios, files)
+scenario = scenario_for_files(scenarios, files)
 technologies = scenario.technologies if scenario is not None else None
 
-st.markdown(wb.describe_choices(result))
-resolution_note = wb.resolution_note(scenario, result)
-if resolution_note:
-    st.caption(resolution_note)
+st.markdown(describe_choices(result))
+accuracy_note = resolution_note(scenario, result)
+if accuracy_note:
+    st.caption(accuracy_note)
 if info is not None:
-    note = f" · note: {wb.markdown_literal(info['note'])}" if info["note"] else ""
+    note = f" · note: {markdown_literal(info['note'])}" if info["note"] else ""
     saved = str(info["created_utc"])[:16].replace("T", " ")
     st.caption(f"Saved {saved} UTC{note} · input hash {result.input_hash[:12]}")
 
@@ -96,13 +102,13 @@ def show_map() -> None:
             measure = "main_supply"
         else:
             base_id = c2.selectbox("Baseline run", others, format_func=choices.get, key="results_baseline")
-            baseline = wb.load_saved_run(store, loaded, base_id)
+            baseline = load_saved_run(store, loaded, base_id)
     if scenario is None:
         st.info("The scenario files of this run are not available, so the map cannot be drawn.")
     else:
         fmap = district_map(scenario, result, measure=measure, baseline=baseline, technologies=technologies)
         st_folium(fmap, height=560, use_container_width=True, returned_objects=[], key="results_map")
-        st.caption(WELL_CAUTION + " Click a district or a well for its figures.")
+        st.caption(cautions.WELLS + " Click a district or a well for its figures.")
     st.plotly_chart(district_supply_figure(result, technologies), width="stretch", config=FIGURE_CONFIG)
 
 
@@ -132,26 +138,26 @@ def show_load_curves() -> None:
 
 def show_costs() -> None:
     st.plotly_chart(cost_breakdown_figure({run_name: result}, by="district"), width="stretch", config=FIGURE_CONFIG)
-    table = wb.district_results_table(result, technologies)
-    st.dataframe(table, hide_index=True, width="stretch", height=wb.table_height(table),
+    table = district_results_table(result, technologies)
+    st.dataframe(table, hide_index=True, width="stretch", height=table_height(table),
                  column_config=numbers(table, 2))
 
 
 def show_tables() -> None:
     st.markdown("**Supply per district and technology**")
-    table = wb.supply_results_table(result, technologies)
-    st.dataframe(table, hide_index=True, width="stretch", height=wb.table_height(table, 20),
+    table = supply_results_table(result, technologies)
+    st.dataframe(table, hide_index=True, width="stretch", height=table_height(table, 20),
                  column_config=numbers(table, 3))
     st.caption("Technologies a district neither has nor builds are left out. Heat stores: capacity in kWh, heat is "
                "discharge minus charge (their loss).")
     st.markdown("**Well doublets**")
-    wells = wb.well_results_table(result)
+    wells = well_results_table(result)
     if wells.empty:
         st.caption("No well doublets in this run.")
         return
-    st.dataframe(wells, hide_index=True, width="stretch", height=wb.table_height(wells),
+    st.dataframe(wells, hide_index=True, width="stretch", height=table_height(wells),
                  column_config=numbers(wells, 2, 10))
-    st.caption(WELL_CAUTION + " A binding limit means the permit, not the heat pump, sets the well's output.")
+    st.caption(cautions.WELLS + " A binding limit means the permit, not the heat pump, sets the well's output.")
 
 
 def show_manage() -> None:
@@ -166,32 +172,32 @@ def show_manage() -> None:
         if st.button("Rename", key="results_rename_button"):
             try:
                 store.rename_run(run_id, new_name)
-                state["hm_flash"] = f"Renamed to “{wb.markdown_literal(new_name.strip())}”."
+                state["hm_flash"] = f"Renamed to “{markdown_literal(new_name.strip())}”."
                 st.rerun()
             except StoreError as error:
                 st.error(str(error))
         st.markdown("**Delete**")
-        sure = st.checkbox(f"Yes, delete “{wb.markdown_literal(info['name'])}” from the library", key=f"results_sure_{run_id}")
+        sure = st.checkbox(f"Yes, delete “{markdown_literal(info['name'])}” from the library", key=f"results_sure_{run_id}")
         if st.button("Delete run", disabled=not sure, key="results_delete", icon=":material/delete:"):
             store.delete_run(run_id)
             loaded.pop(run_id, None)
             state.pop("results_run", None)
-            state["hm_flash"] = f"Deleted “{wb.markdown_literal(info['name'])}”."
+            state["hm_flash"] = f"Deleted “{markdown_literal(info['name'])}”."
             st.rerun()
     with right:
         st.markdown("**Re-open on the set-up page**")
         st.caption("Puts this run's files and choices back on the set-up page, to change and solve again.")
         if st.button("Re-open", key="results_reopen", icon=":material/edit:", disabled=scenario is None):
-            reopened = wb.input_set_from_files(files, f"Saved run “{info['name']}”")
+            reopened = input_set_from_files(files, f"Saved run “{info['name']}”")
             state["hm_input"] = reopened
-            state["hm_setup"] = {**wb.initial_setup(reopened, result.settings, result.cost_case), "fresh": True}
+            state["hm_setup"] = {**initial_setup(reopened, result.settings, result.cost_case), "fresh": True}
             st.switch_page(PLAN_PAGE)
         st.markdown("**Re-solve**")
         st.caption("Solves the run again from its saved files; the result should match to solver precision.")
         show_cancelled("results_job", "re-solve")
         if st.button("Re-solve", key="results_resolve", icon=":material/replay:", disabled=scenario is None):
             again, _ = run_with_cancel(
-                lambda progress, cancel: wb.resolve_saved_run(
+                lambda progress, cancel: resolve_saved_run(
                     solved, scenario, files, result, f"re-solve of “{info['name']}”", progress=progress, cancel=cancel,
                 ),
                 key="results_job",
@@ -207,7 +213,7 @@ def show_manage() -> None:
 if not result.solved:
     st.error(f"This run did not solve: {result.message}")
     st.stop()
-kpis = wb.run_kpis(result)
+kpis = run_kpis(result)
 m = st.columns(5)
 m[0].metric("Total cost [M€/a]", f"{kpis['total_cost_eur_per_a'] / 1e6:,.2f}")
 m[1].metric("CO2 [t/a]", f"{kpis['co2_t_per_a']:,.0f}")

@@ -5,7 +5,10 @@ from __future__ import annotations
 import streamlit as st
 from streamlit_folium import st_folium
 
-from pages._support import workbench as wb
+from engine import cautions
+from pages._support.cache import load_saved_run, scenario_for_files
+from pages._support.describe import markdown_literal
+from pages._support.library import default_baseline, run_choices, unique_run_names
 from engine.outputs.figures import (
     FIGURE_CONFIG,
     cost_breakdown_figure,
@@ -17,7 +20,7 @@ from engine.outputs.figures import (
     main_supply_changes,
     supply_mix_figure,
 )
-from engine.outputs.maps import MEASURES, WELL_CAUTION, district_map
+from engine.outputs.maps import MEASURES, district_map
 from pages._support.shell import open_store, route_through_app
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
@@ -31,12 +34,12 @@ MEASURE_LABELS = {
 state = st.session_state
 route_through_app("pages/3_Compare_runs.py")
 st.title("Compare runs")
-st.caption(wb.CAUTION_LINE)
+st.caption(cautions.RESULTS_LINE)
 loaded = state.setdefault("hm_loaded", {})
 scenarios = state.setdefault("hm_scenarios", {})
 
 store = open_store()
-choices = wb.run_choices(store)
+choices = run_choices(store)
 if len(choices) < 2:
     st.info("Save at least two runs to compare them (for example the demo city under two cost cases).")
     st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/tune:")
@@ -50,23 +53,23 @@ picked = c1.multiselect("Runs to compare (2 to 4)", list(choices), format_func=c
 if len(picked) < 2:
     st.info("Choose at least two runs.")
     st.stop()
-names = wb.unique_run_names({r: store.run_info(r)["name"] for r in picked})
-runs = {r: wb.load_saved_run(store, loaded, r) for r in picked}
+names = unique_run_names({r: store.run_info(r)["name"] for r in picked})
+runs = {r: load_saved_run(store, loaded, r) for r in picked}
 if state.get("compare_baseline") not in picked:
-    state["compare_baseline"] = wb.default_baseline(runs)
+    state["compare_baseline"] = default_baseline(runs)
 baseline_id = c2.selectbox("Baseline run", picked, format_func=names.get, key="compare_baseline")
 baseline = names[baseline_id]
 picked = [baseline_id] + [r for r in picked if r != baseline_id]  # the baseline first in tables, maps and figures
 results = {names[r]: runs[r] for r in picked}
 files = {r: store.load_inputs(r) for r in picked}
-run_scenarios = {r: wb.scenario_for_files(scenarios, files[r]) for r in picked}
+run_scenarios = {r: scenario_for_files(scenarios, files[r]) for r in picked}
 base_scenario = run_scenarios[baseline_id]
 technologies = base_scenario.technologies if base_scenario is not None else None
 
 # ------------------------------------------------------------------------------------------------ tables
 st.subheader("Key figures")
 st.dataframe(format_table(kpi_table(results, technologies)), hide_index=True, width="stretch")
-st.subheader(f"Differences against the baseline “{wb.markdown_literal(baseline)}”")
+st.subheader(f"Differences against the baseline “{markdown_literal(baseline)}”")
 st.caption("Positive: more than in the baseline (higher cost, more CO2, more heat from that technology).")
 st.dataframe(format_table(difference_table(results, baseline, technologies)), hide_index=True, width="stretch")
 with st.expander("Districts whose main supply changed"):
@@ -74,7 +77,7 @@ with st.expander("Districts whose main supply changed"):
         if name == baseline:
             continue
         changes = main_supply_changes(result, results[baseline], technologies)
-        st.markdown(f"**{wb.markdown_literal(name)}**: {len(changes)} district(s)")
+        st.markdown(f"**{markdown_literal(name)}**: {len(changes)} district(s)")
         if not changes.empty:
             st.dataframe(changes, hide_index=True, width="stretch")
 
@@ -86,7 +89,7 @@ columns = st.columns(len(picked))
 for column, run_id in zip(columns, picked):
     with column:
         name = names[run_id]
-        st.markdown(f"**{wb.markdown_literal(name)}**" + (" (baseline)" if run_id == baseline_id else ""))
+        st.markdown(f"**{markdown_literal(name)}**" + (" (baseline)" if run_id == baseline_id else ""))
         scenario = run_scenarios[run_id]
         if scenario is None:
             st.info("The scenario files of this run are not available.")
@@ -95,7 +98,7 @@ for column, run_id in zip(columns, picked):
         fmap = district_map(scenario, results[name], measure=measure, baseline=base, technologies=technologies,
                             legend_open=len(picked) < 2)
         st_folium(fmap, height=480, use_container_width=True, returned_objects=[], key=f"compare_map_{run_id}")
-st.caption(WELL_CAUTION)
+st.caption(cautions.WELLS)
 
 # ------------------------------------------------------------------------------------------------ load curves
 st.subheader("Load curves")
@@ -118,7 +121,7 @@ if layout == "side":
     columns = st.columns(min(len(solved_runs), 2))
     for k, (name, result) in enumerate(solved_runs.items()):
         with columns[k % len(columns)]:
-            st.markdown(f"**{wb.markdown_literal(name)}**")
+            st.markdown(f"**{markdown_literal(name)}**")
             fig = load_curve_figure(result, technologies, district_id=district,
                                     week=None if week == "year" else int(week))
             st.plotly_chart(fig, width="stretch", config=FIGURE_CONFIG, key=f"compare_curve_{k}")

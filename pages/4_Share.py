@@ -5,7 +5,12 @@ from __future__ import annotations
 import streamlit as st
 
 
-from pages._support import workbench as wb
+from engine import cautions
+from pages._support.cache import load_saved_run, scenario_for_files
+from pages._support.describe import markdown_literal
+from pages._support.library import (
+    bundle_bytes, import_library_bytes, library_bytes, run_choices, safe_file_name, unique_run_names,
+)
 from engine.outputs.export import tables_csv_zip, tables_xlsx
 from engine.outputs.report import html_report
 from engine.storage.store import ScenarioStore
@@ -16,14 +21,14 @@ PLAN_PAGE = "pages/1_Plan_a_run.py"
 state = st.session_state
 route_through_app("pages/4_Share.py")
 st.title("Share")
-st.caption(wb.CAUTION_LINE)
+st.caption(cautions.RESULTS_LINE)
 loaded = state.setdefault("hm_loaded", {})
 scenarios = state.setdefault("hm_scenarios", {})
 if state.get("hm_flash"):
     st.success(state.pop("hm_flash"))
 
 store = open_store()
-choices = wb.run_choices(store)
+choices = run_choices(store)
 
 if not choices:
     st.info("No saved runs yet. Save a run on the set-up page to share it.")
@@ -33,12 +38,12 @@ else:
     state["share_runs"] = kept or list(choices)[:1]
     picked = st.multiselect("Runs to share", list(choices), format_func=choices.get, key="share_runs")
     if picked:
-        names = wb.unique_run_names({r: store.run_info(r)["name"] for r in picked})
-        results = {names[r]: wb.load_saved_run(store, loaded, r) for r in picked}
+        names = unique_run_names({r: store.run_info(r)["name"] for r in picked})
+        results = {names[r]: load_saved_run(store, loaded, r) for r in picked}
         first_files = store.load_inputs(picked[0])
-        scenario = wb.scenario_for_files(scenarios, first_files)
+        scenario = scenario_for_files(scenarios, first_files)
         technologies = scenario.technologies if scenario is not None else None
-        stem = wb.safe_file_name(names[picked[0]] if len(picked) == 1 else "heatmosaic_runs", "")
+        stem = safe_file_name(names[picked[0]] if len(picked) == 1 else "heatmosaic_runs", "")
 
         with st.container(border=True):
             st.subheader("Summary for colleagues and the council")
@@ -77,10 +82,10 @@ else:
 
                 def bundle(result=result, run_id=run_id) -> bytes:
                     with ScenarioStore(store.path) as own:
-                        return wb.bundle_bytes(result, own.load_inputs(run_id))
+                        return bundle_bytes(result, own.load_inputs(run_id))
 
-                st.download_button(f"Bundle of “{wb.markdown_literal(names[run_id])}”", data=bundle,
-                                   file_name=wb.safe_file_name(names[run_id], "_bundle.zip"), mime="application/zip",
+                st.download_button(f"Bundle of “{markdown_literal(names[run_id])}”", data=bundle,
+                                   file_name=safe_file_name(names[run_id], "_bundle.zip"), mime="application/zip",
                                    icon=":material/inventory_2:", key=f"share_bundle_{run_id}", on_click="ignore")
 
 with st.container(border=True):
@@ -91,7 +96,7 @@ with st.container(border=True):
         if choices:
             def library() -> bytes:
                 with ScenarioStore(store.path) as own:
-                    return wb.library_bytes(own)
+                    return library_bytes(own)
 
             st.download_button(f"Export all {len(choices)} run(s)", data=library, file_name="heatmosaic_library.zip",
                                mime="application/zip", icon=":material/download:", key="share_library",
@@ -101,7 +106,7 @@ with st.container(border=True):
                                   key="share_import_file")
         if upload is not None and st.button("Add its runs to the library", key="share_import",
                                             icon=":material/upload:"):
-            added, error = wb.import_library_bytes(store, upload.getvalue())
+            added, error = import_library_bytes(store, upload.getvalue())
             if error:
                 st.error(f"The library was not imported: {error}")
             else:

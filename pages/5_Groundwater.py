@@ -1,6 +1,6 @@
 """Groundwater check: permit screening of every well doublet of a run, and the interference check.
 
-Session state, besides the keys documented in :mod:`pages._support.workbench`:
+Session state, besides the keys documented in :mod:`pages._support`:
 
 ``hm_groundwater``
     ``{check key: RunResult}``: interference checks solved in this session (the key holds the run's input hash,
@@ -19,27 +19,27 @@ import pandas as pd
 import streamlit as st
 from streamlit_folium import st_folium
 
-from pages._support import workbench as wb
+from engine import cautions
+from pages._support.cache import choices_of_run, load_saved_run, scenario_for_files
+from pages._support.describe import markdown_literal, suggested_run_name
+from pages._support.tables import table_height
+from pages._support.library import run_choices
 from engine.outputs.figures import FIGURE_CONFIG
 from engine.outputs.groundwater_maps import STATUS_COLORS, groundwater_map_figure, well_status_layer, well_year_figure
 from engine.studies.permits import STATUS_LABELS, screen_wells, screening_display_table, well_year_profiles
 from engine.studies.interference import interference_comparison, plume_outlines, plume_polygons, solve_with_interference
-from engine.outputs.maps import WELL_CAUTION, district_map
+from engine.outputs.maps import district_map
 from pages._support.shell import open_store, route_through_app, run_with_cancel, show_cancelled
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
 CURRENT = "current"
-PAGE_CAUTION = (
-    "Screening estimate from an analytic plume model: not a substitute for the numerical groundwater model and "
-    "the permit procedure the water authority requires."
-)
 VIEW_AS_SOLVED = "as solved"
 VIEW_CHECKED = "with interference"
 
 state = st.session_state
 route_through_app("pages/5_Groundwater.py")
 st.title("Groundwater check")
-st.warning(PAGE_CAUTION + " " + wb.CAUTION_LINE, icon=":material/warning:")
+st.warning(cautions.GROUNDWATER + " " + cautions.RESULTS_LINE, icon=":material/warning:")
 solved = state.setdefault("hm_solved", {})
 loaded = state.setdefault("hm_loaded", {})
 scenarios = state.setdefault("hm_scenarios", {})
@@ -47,7 +47,7 @@ checks = state.setdefault("hm_groundwater", {})
 plume_cache = state.setdefault("hm_plumes", {})
 
 store = open_store()
-choices = wb.run_choices(store)
+choices = run_choices(store)
 current = solved.get(state.get("hm_current"))
 options = ([CURRENT] if current is not None else []) + list(choices)
 if not options:
@@ -58,7 +58,7 @@ if not options:
 
 def option_label(option) -> str:
     if option == CURRENT:
-        return f"Current run: {wb.suggested_run_name(current.result)} ({current.label})"
+        return f"Current run: {suggested_run_name(current.result)} ({current.label})"
     return choices[option]
 
 
@@ -68,9 +68,9 @@ picked = st.selectbox("Run", options, format_func=option_label, key="groundwater
 if picked == CURRENT:
     result, files = current.result, current.files
 else:
-    result = wb.load_saved_run(store, loaded, int(picked))
+    result = load_saved_run(store, loaded, int(picked))
     files = store.load_inputs(int(picked))
-scenario = wb.scenario_for_files(scenarios, files)
+scenario = scenario_for_files(scenarios, files)
 
 if not result.solved:
     st.error(f"This run did not solve: {result.message}")
@@ -82,7 +82,7 @@ if len(scenario.wells) == 0 or result.tables.get("well_steps") is None or result
     st.info("This run has no well doublets.")
     st.stop()
 
-choice = wb.choices_of_run(result)
+choice = choices_of_run(result)
 already_checked = "interference" in result.extras
 district_names = dict(zip(scenario.districts["district_id"].astype(str), scenario.districts["name"].astype(str)))
 
@@ -158,7 +158,7 @@ number_formats = {
 st.dataframe(
     table.style.map(lambda value: f"color: {status_colors.get(value, 'inherit')}; font-weight: 600",
                     subset=["status"]).format(number_formats, na_rep="–"),
-    hide_index=True, width="stretch", height=wb.table_height(table),
+    hide_index=True, width="stretch", height=table_height(table),
     column_config={
         "status": st.column_config.TextColumn(help="ok / at a limit / breach of the permit or window"),
         "binding limits": st.column_config.TextColumn(width="large"),
@@ -166,7 +166,7 @@ st.dataframe(
 )
 st.caption("“At a limit”: the permit or the window, not the heat pump, sets the doublet's output somewhere in the "
            "year; the optimum uses what the permit allows. A breach shows only against inputs changed after "
-           "solving or shifted source temperatures. " + WELL_CAUTION)
+           "solving or shifted source temperatures. " + cautions.WELLS)
 
 tab_year, tab_map, tab_check = st.tabs(["Over the year", "Map", "Interference check"])
 with tab_year:
@@ -215,7 +215,7 @@ with tab_map:
             "library: choose the plain map.",
             unsafe_allow_html=True,
         )
-    st.caption(PAGE_CAUTION)
+    st.caption(cautions.GROUNDWATER)
 
 with tab_check:
     if checked is None:
@@ -231,7 +231,7 @@ with tab_check:
         m[0].caption(f"{len(iterations)} solves in {info['seconds']:.0f} s")
         m[1].metric("Largest source shift [K]", f"{shifts.get(strongest, 0.0):+.2f}")
         if strongest is not None and abs(shifts[strongest]) > 0.005:
-            m[1].caption(f"at the extraction well of {wb.markdown_literal(strongest)}")
+            m[1].caption(f"at the extraction well of {markdown_literal(strongest)}")
         if baseline:
             m[2].metric("Total cost [M€/a]", f"{checked.total_cost_eur_per_a / 1e6:,.3f}",
                         f"{(checked.total_cost_eur_per_a - baseline['total_cost_eur_per_a']) / 1e3:+,.1f} k€/a "
@@ -281,4 +281,4 @@ with tab_check:
             )
             for note in info["notes"]:
                 st.markdown(f"- {note}")
-        st.caption(PAGE_CAUTION)
+        st.caption(cautions.GROUNDWATER)

@@ -1,6 +1,6 @@
 """Trade-offs and sweeps: the cost-CO2 curve, price sweeps with a tornado chart, and typical-day fidelity.
 
-Session state, besides the keys documented in :mod:`pages._support.workbench`:
+Session state, besides the keys documented in :mod:`pages._support`:
 
 ``hm_tradeoff``
     ``{request key: (trade-off table, list of RunResult)}``: curves computed in this session.
@@ -17,11 +17,14 @@ from __future__ import annotations
 import streamlit as st
 
 
-from pages._support import workbench as wb
+from engine import cautions
+from pages._support.inputs import InputSet, demo_input_set
+from pages._support.describe import markdown_literal, suggested_run_name
 from engine.studies.fidelity import DEFAULT_DAY_COUNTS, cached_fidelity, fidelity_key, fidelity_note, lookup_fidelity
 from engine.studies.fidelity import recommend_typical_days
 from engine.storage.store import ScenarioStore, StoreError
 from engine.outputs.study_figures import tornado_figure, tradeoff_figure, tradeoff_mix_figure
+from engine.scenario.inputs import default_cost_case
 from engine.studies.sweep import (
     PARAMETERS, default_ranges, random_samples, run_sweep, save_sweep, tasks_from_cost_cases, tasks_from_samples,
     tornado_table, tornado_tasks,
@@ -33,11 +36,11 @@ state = st.session_state
 route_through_app("pages/6_Trade_offs_and_sweeps.py")
 
 st.title("Trade-offs and sweeps")
-st.caption(wb.CAUTION_LINE)
+st.caption(cautions.RESULTS_LINE)
 
 if "hm_input" not in state:
-    state["hm_input"] = wb.demo_input_set()
-inputs: wb.InputSet = state["hm_input"]
+    state["hm_input"] = demo_input_set()
+inputs: InputSet = state["hm_input"]
 if inputs.scenario is None:
     st.error(f"{inputs.label} has problems; fix them on the Plan a run page first.")
     st.stop()
@@ -48,10 +51,10 @@ sweeps = state.setdefault("hm_sweeps", {})
 fidelities = state.setdefault("hm_fidelity", {})
 
 
-st.markdown(f"**{wb.markdown_literal(inputs.label)}:** {wb.markdown_literal(scenario.settings.name)} · {len(scenario.districts)} districts")
+st.markdown(f"**{markdown_literal(inputs.label)}:** {markdown_literal(scenario.settings.name)} · {len(scenario.districts)} districts")
 top = st.columns([2, 1, 1])
 cases = list(scenario.cost_cases)
-default_case = setup.get("cost_case", "reference")
+default_case = setup.get("cost_case") or default_cost_case(cases)
 cost_case = top[0].selectbox("Cost case", cases, index=cases.index(default_case) if default_case in cases else 0,
                              key="tradeoffs_cost_case")
 full_year = top[1].toggle("Full year", value=bool(setup.get("full_year", False)), key="tradeoffs_full_year",
@@ -121,7 +124,7 @@ with tab_curve:
         with st.form(f"tradeoffs_save_{curve_key}", border=True):
             st.markdown(f"**Save point {chosen} as a run in the library**")
             result = results[chosen]
-            name = st.text_input("Name", value=f"Trade-off point {chosen}: {wb.suggested_run_name(result)}",
+            name = st.text_input("Name", value=f"Trade-off point {chosen}: {suggested_run_name(result)}",
                                  max_chars=120)
             note = st.text_area("Note", placeholder="Why this point ...")
             if st.form_submit_button("Save point", icon=":material/save:"):
@@ -179,7 +182,7 @@ with tab_sweep:
     if outcome is not None:
         failed = outcome.table[outcome.table["status"] != "optimal"]
         if len(failed):
-            st.warning(f"{len(failed)} run(s) did not solve: {wb.markdown_literal(', '.join(failed['name']))}")
+            st.warning(f"{len(failed)} run(s) did not solve: {markdown_literal(', '.join(failed['name']))}")
         if mode == "tornado":
             tornado = tornado_table(outcome)
             st.plotly_chart(tornado_figure(tornado), key=f"tradeoffs_tornado_{sweep_key}", width="stretch")

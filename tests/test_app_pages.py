@@ -19,9 +19,9 @@ import pytest
 from streamlit.testing.v1 import AppTest
 
 from engine.model.solve import solve_scenario
-from engine.scenario.reader import load_scenario
+from engine.scenario import load_scenario
 from engine.storage.store import ScenarioStore, read_scenario_files
-from pages._support.workbench import input_set_from_files
+from pages._support.inputs import input_set_from_files
 
 ROOT = Path(__file__).resolve().parents[1]
 APP = str(ROOT / "app.py")
@@ -199,7 +199,8 @@ def test_an_edited_cost_is_checked_solved_and_kept_in_the_run_files(session):
     run keeps exactly the inputs it was solved with)."""
     from engine.scenario.inputs import input_hash
     from engine.model.solve import run_settings
-    from pages._support.workbench import choices_of_run, scenario_from_files
+    from pages._support.inputs import scenario_from_files
+    from pages._support.cache import choices_of_run
 
     at = session["at"]
     at.switch_page(PLAN).run()

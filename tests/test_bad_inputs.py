@@ -19,8 +19,9 @@ from pathlib import Path
 
 import pytest
 
-from engine.scenario import reader as io
-from pages._support import workbench
+from engine.scenario import folder as io
+from engine.scenario import tables
+from pages._support.inputs import input_set_from_bundle
 from engine.cli import main
 from engine.storage.bundle import BundleError, export_bundle
 from engine.scenario.problems import Problem
@@ -46,7 +47,7 @@ BROKEN = [case for case in CASES if not case.valid]
 VALID = [case for case in CASES if case.valid]
 
 UNEXPECTED = ("Traceback", "Unexpected error", "could not be read (")
-"""Text that only appears when an exception escaped a check (the last-resort guards of engine/io.py and
+"""Text that only appears when an exception escaped a check (the last-resort guards of engine/scenario/tables.py and
 engine/cli)."""
 
 
@@ -203,7 +204,7 @@ def test_size_limit_is_checked_before_reading(tmp_path, monkeypatch):
     a big file gives a message rather than exhausting memory). Here the limit is lowered to 1 kB with monkeypatch
     so that a plain small file is above it."""
     folder = corpus.build(corpus.case_named("header_only_wells"), tmp_path / "small_limit")
-    monkeypatch.setattr(io, "MAX_FILE_BYTES", 1024)
+    monkeypatch.setattr(tables, "MAX_FILE_BYTES", 1024)
     read = []
     original = Path.read_bytes
 
@@ -243,7 +244,7 @@ def _table_rows(problems) -> list[tuple]:
 def test_uploaded_bundle_shows_the_problems_table(case, tmp_path):
     """A bundle (zip) whose scenario files are broken reads, in the dashboard's set-up page helper, to no scenario
     and a problems table (file, row, column, message) holding the very problems the validator lists, so the page
-    can show them (engine/workbench.py; pages/1_Plan_a_run.py shows ``inputs.problems``). A file that is not
+    can show them (pages/_support/inputs.py; pages/1_Plan_a_run.py shows ``inputs.problems``). A file that is not
     UTF-8 cannot go into a bundle at all, and one with a NUL byte is refused when the bundle is read; both
     refusals name the file (engine/bundle.py)."""
     folder = corpus.build(case, tmp_path / case.name)
@@ -255,7 +256,8 @@ def test_uploaded_bundle_shows_the_problems_table(case, tmp_path):
             export_bundle(result, files, tmp_path / "bundle.zip")
         return
     bundle = export_bundle(result, files, tmp_path / "bundle.zip")
-    scenario, problems, manifest = workbench.load_uploaded_bundle(bundle.read_bytes(), tmp_path / "work")
+    loaded = input_set_from_bundle(bundle.read_bytes(), tmp_path / "work")
+    scenario, problems, manifest = loaded.scenario, loaded.problems, loaded.manifest
     assert scenario is None
     assert list(problems.columns) == ["file", "row", "column", "message"]
     if case.name == "nul_byte":

@@ -16,7 +16,7 @@ import sys
 
 import pytest
 
-from engine.scenario.reader import DEMO_DIR, load_scenario
+from engine.scenario import DEMO_DIR, load_scenario
 from engine.model.solve import run_settings, solve_scenario
 from engine.storage.store import ScenarioStore
 from test_browser_e2e import (

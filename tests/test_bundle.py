@@ -30,13 +30,13 @@ from pandas.testing import assert_frame_equal
 from test_store import INPUTS, synthetic_result
 
 from engine.storage.bundle import (
-    CAUTION,
     BundleError,
-    BundleLimits,
     export_bundle,
     read_bundle,
 )
 from engine.model.results import RunResult
+from engine.storage.safezip import ZipLimits
+from engine import cautions
 
 
 def bundle_result() -> RunResult:
@@ -121,7 +121,7 @@ def test_round_trip_gives_the_same_files_and_tables(honest, tmp_path):
         assert manifest[key] == getattr(result, key)
     assert manifest["settings"]["co2_cap_t_per_a"] is None  # inf is not JSON (RFC 8259 section 6)
     assert manifest["summary"]["total_cost_eur_per_a"] == pytest.approx(result.total_cost_eur_per_a)
-    assert manifest["caution"] == CAUTION
+    assert manifest["caution"] == cautions.RESULTS
     assert contents.summary["total_cost_eur_per_a"] == pytest.approx(result.summary()["total_cost_eur_per_a"])
     back = contents.to_result()
     assert back.input_hash == result.input_hash and back.total_cost_eur_per_a == result.total_cost_eur_per_a
@@ -301,11 +301,11 @@ def test_encrypted_entries_are_refused(honest, tmp_path):
 def test_limits_on_total_size_and_entry_count_are_enforced(honest, tmp_path):
     """Smaller limits show the total-size and entry-count checks at work without writing big files."""
     with pytest.raises(BundleError, match="in total"):
-        read_bundle(honest, tmp_path / "a", limits=BundleLimits(max_total_bytes=4096))
+        read_bundle(honest, tmp_path / "a", limits=ZipLimits(max_total_bytes=4096))
     with pytest.raises(BundleError, match="more than the 5 allowed"):
-        read_bundle(honest, tmp_path / "b", limits=BundleLimits(max_entries=5))
+        read_bundle(honest, tmp_path / "b", limits=ZipLimits(max_entries=5))
     with pytest.raises(BundleError, match="allowed for one file"):
-        read_bundle(honest, tmp_path / "c", limits=BundleLimits(max_entry_bytes=100))
+        read_bundle(honest, tmp_path / "c", limits=ZipLimits(max_entry_bytes=100))
     assert tree(tmp_path / "a") == tree(tmp_path / "b") == tree(tmp_path / "c") == []
 
 

@@ -1,6 +1,6 @@
 """Long jobs stop when the planner cancels them: the worker-thread runner, a solve, a sweep, the fidelity measure.
 
-The dashboard runs each long job in a worker thread (:func:`pages._support.workbench.run_cancellable`) while the page
+The dashboard runs each long job in a worker thread (:func:`pages._support.jobs.run_cancellable`) while the page
 thread shows progress; pressing Cancel reruns the page, which raises in the page thread. These tests raise there
 the same way and check that the job itself saw the cancel and stopped (the solver reports "interrupted"), rather
 than running on in the background. No timing is asserted.
@@ -15,8 +15,9 @@ import pytest
 from bench.synthetic_city import synthetic_city
 from engine.studies.fidelity import typical_day_fidelity
 from engine.model.solve import solve_scenario
-from engine.studies.sweep import SweepCancelled, default_ranges, random_samples, run_sweep, tasks_from_samples
-from pages._support.workbench import run_cancellable
+from engine.progress import FidelityCancelled, JobCancelled, SweepCancelled
+from engine.studies.sweep import default_ranges, random_samples, run_sweep, tasks_from_samples
+from pages._support.jobs import run_cancellable
 
 
 class PageRerun(Exception):
@@ -95,16 +96,18 @@ def test_sweep_stops_at_cancel_serially_and_on_processes():
     tasks = tasks_from_samples(city, random_samples(default_ranges(["co2_price_factor", "gas_price_factor"]), 6, seed=1))
     for workers in (1, 2):
         finished = []
-        with pytest.raises(SweepCancelled, match=r"after 1 of 6 runs"):
+        with pytest.raises(SweepCancelled, match=r"after 1 of 6 runs") as caught:
             run_sweep(city, tasks, workers=workers, progress=lambda share, text: finished.append(text),
                       cancel=lambda: len(finished) >= 1)
+        assert isinstance(caught.value, JobCancelled)  # one except clause catches every cancelled job
         assert len(finished) == 1
 
 
 def test_fidelity_measure_stops_at_cancel():
     city = synthetic_city(2, n_hours=336, typical_days=4, seed=2)
     calls = []
-    with pytest.raises(RuntimeError, match="cancelled"):
+    with pytest.raises(FidelityCancelled, match="cancelled") as caught:
         typical_day_fidelity(city, day_counts=(2, 4), progress=lambda share, text: calls.append(text),
                              cancel=lambda: len(calls) >= 2)
     assert len(calls) == 2  # the first resolution ran, the second was never started
+    assert isinstance(caught.value, JobCancelled)

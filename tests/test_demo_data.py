@@ -413,9 +413,9 @@ def test_hourly_weather_and_prices_have_the_intended_shape():
 
 # ------------------------------------------------------------------------------------------ the project loader
 def test_demo_loads_without_problems():
-    """The demo passes the project's own validation (engine.scenario.reader.load_scenario) with every district, well and cost
+    """The demo passes the project's own validation (engine.scenario.load_scenario) with every district, well and cost
     case it declares."""
-    io = pytest.importorskip("engine.scenario.reader")
+    io = pytest.importorskip("engine.scenario")
     scenario = io.load_scenario(DEMO)
     assert len(scenario.districts) == len(_features())
     assert len(scenario.wells) == len(_rows("wells.csv"))

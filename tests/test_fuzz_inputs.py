@@ -6,7 +6,7 @@ cut at a random byte or with random bytes inserted; GeoJSON properties and coord
 Whatever the damage, exactly one of two things may happen (project rule: bad input gives a clear message, never a
 traceback):
 
-* :func:`engine.scenario.reader.load_scenario` raises :class:`engine.scenario.problems.InputError` whose problems each name a file of
+* :func:`engine.scenario.load_scenario` raises :class:`engine.scenario.problems.InputError` whose problems each name a file of
   the folder, a row inside that file (or none) and a non-empty message, and none of which is an exception caught
   by the reader's last-resort guard (those read "could not be read (SomeError: ...)");
 * or it returns a scenario, and :func:`engine.model.solve.solve_scenario` with two typical days returns a
@@ -33,7 +33,7 @@ from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 from hypothesis.errors import InvalidArgument
 
-from engine.scenario import reader as io
+from engine.scenario import folder as io
 from engine.scenario.problems import InputError
 from engine.model.results import RunResult
 from engine.model.solve import solve_scenario

@@ -18,6 +18,7 @@ import pytest
 sys.path.insert(0, str(Path(__file__).parent))
 
 import scenario_factory as f  # noqa: E402
+from engine.physics import coords  # noqa: E402
 from engine.physics import plume  # noqa: E402
 from engine.outputs.groundwater_maps import STATUS_COLORS, groundwater_map_figure, well_year_figure  # noqa: E402
 from engine.studies.permits import (  # noqa: E402
@@ -38,7 +39,7 @@ LON0 = 10.005
 
 
 def _lon(east_m: float) -> float:
-    return float(plume.local_m_to_lonlat(east_m, 0.0, LON0, LAT)[0])
+    return float(coords.local_m_to_lonlat(east_m, 0.0, LON0, LAT)[0])
 
 
 def line_of_doublets(heat_kw=(400.0, 400.0), spacing_m=300.0, amplitude_k=0.0, permit_m3_per_h=20.0,

@@ -27,7 +27,7 @@ def test_carnot_rejects_non_positive_lift(sink, source):
 
 def test_water_to_water_rating_point_w10_w35_is_in_datasheet_range():
     """W10/W35 (EN 14511 rating conditions: water source 10 °C in, sink 35 °C out) with grade 0.5 and the
-    default approaches (5 K / 3 K) lies within COP 4.5 to 6.5, the range of typical water-to-water heat pumps
+    default approaches (sink 3 K, source 5 K) lies within COP 4.5 to 6.5, the range of typical water-to-water heat pumps
     at that rating point (from memory of manufacturers' datasheets and heat-pump test-centre results)."""
     cop = heat_pump_cop(35.0, 10.0, quality_grade=0.5)
     assert 4.5 <= cop <= 6.5
@@ -35,8 +35,9 @@ def test_water_to_water_rating_point_w10_w35_is_in_datasheet_range():
 
 def test_cop_is_grade_times_carnot_of_approach_temperatures():
     """COP = g * Carnot(T_sink + sink approach, T_source - source approach) (model definition, design doc
-    section 2; Carnot formula evaluated independently here)."""
-    expected = 0.45 * (35.0 + 5.0 + 273.15) / ((35.0 + 5.0) - (10.0 - 3.0))
+    section 2; Carnot formula evaluated independently here) with the documented defaults of a blank cell
+    (docs/input_format.md, table "Defaults": grade 0.5, sink approach 3 K, source approach 5 K)."""
+    expected = 0.5 * (35.0 + 3.0 + 273.15) / ((35.0 + 3.0) - (10.0 - 5.0))
     assert heat_pump_cop(35.0, 10.0) == pytest.approx(expected, rel=1e-12)
 
 

@@ -33,13 +33,13 @@ import pytest
 
 from engine.outputs.export import tables_csv_zip, tables_xlsx
 from engine.outputs.figures import difference_table, format_table, kpi_table, main_supply_changes
-from engine.scenario.reader import DEMO_DIR, load_scenario
+from engine.scenario import DEMO_DIR, load_scenario
 from engine.outputs.maps import district_map
 from engine.scenario.problems import InputError
 from engine.outputs.report import html_report
 from engine.model.solve import run_settings, solve_scenario
 from engine.storage.store import ScenarioStore, read_scenario_files
-from pages._support.workbench import district_results_table
+from pages._support.tables import district_results_table
 from test_browser_e2e import (
     CHROMIUM,
     CHROMIUM_ARGS,

@@ -23,6 +23,7 @@ sys.path.insert(0, str(Path(__file__).parent))
 
 from test_groundwater import LAT, _lon, line_of_doublets  # noqa: E402
 
+from engine.physics import coords  # noqa: E402
 from engine.physics import plume  # noqa: E402
 from engine.cli import main  # noqa: E402
 from engine.studies.permits import net_injection  # noqa: E402
@@ -34,7 +35,7 @@ from engine.studies.interference import (  # noqa: E402
     solve_with_interference,
     superposed_shift_k,
 )
-from engine.scenario.reader import load_scenario, resolve_scenario_path  # noqa: E402
+from engine.scenario import load_scenario, resolve_scenario_path  # noqa: E402
 from engine.model.solve import solve_scenario  # noqa: E402
 
 TINY_CITY = Path(__file__).parent / "fixtures" / "tiny_city"
@@ -46,7 +47,7 @@ def puff_integral_k(x_m, y_m, rate_m3_s, delta_k, aquifer, time_s):
 
     T = m / (4 pi sqrt(D_L D_T)) * int_0^t exp(-(x - u s)^2 / (4 D_L s) - y^2 / (4 D_T s)) ds / s,
     m = C_w Q dT / (b C_a), u = q C_w / C_a, D = alpha u + lambda / C_a (Kinzelbach 1987). lambda = 2 W/(m K)
-    is the conductivity the engine assumes (a handbook value quoted from memory in engine/plume.py).
+    is the conductivity the engine assumes (a handbook value quoted from memory in engine/physics/plume.py).
     """
     c_a = aquifer.aquifer_heat_capacity_mj_per_m3_k * 1e6
     c_w = aquifer.water_heat_capacity_mj_per_m3_k * 1e6
@@ -207,9 +208,9 @@ def test_demo_well_in_a_cold_plume_loses_heat_or_cop(demo_runs):
     for well_id in shifted:
         others = table.drop(index=well_id)
         lon0, lat0 = float(table["lon"].mean()), float(table["lat"].mean())
-        x_e, y_e = plume.lonlat_to_local_m(table.loc[well_id, "lon"], table.loc[well_id, "lat"], lon0, lat0)
-        x_r, y_r = plume.lonlat_to_local_m(others["reinjection_lon"], others["reinjection_lat"], lon0, lat0)
-        along, across = plume.to_flow_frame(x_e - np.asarray(x_r), y_e - np.asarray(y_r), direction)
+        x_e, y_e = coords.lonlat_to_local_m(table.loc[well_id, "lon"], table.loc[well_id, "lat"], lon0, lat0)
+        x_r, y_r = coords.lonlat_to_local_m(others["reinjection_lon"], others["reinjection_lat"], lon0, lat0)
+        along, across = coords.to_flow_frame(x_e - np.asarray(x_r), y_e - np.asarray(y_r), direction)
         # some other doublet's reinjection well lies up-gradient, within a few transverse plume widths
         assert np.any((np.asarray(along) > 0) & (np.abs(np.asarray(across)) < 100.0)), well_id
         lost_heat = wells.loc[well_id, "heat_mwh_per_a"] < before.loc[well_id, "heat_mwh_per_a"] - 1.0

@@ -1,4 +1,4 @@
-"""Tests of the scenario reader (engine.scenario.reader), its problem records (engine.scenario.problems) and geometry (engine.scenario.geometry).
+"""Tests of the scenario reader (engine.scenario), its problem records (engine.scenario.problems) and geometry (engine.scenario.geometry).
 
 The expected behaviour comes from the folder specification ``docs/input_format.md`` and the typed-input contract in
 ``engine/inputs.py``; geometric results are checked against textbook formulas (spherical zone area, haversine).
@@ -19,7 +19,11 @@ import numpy as np
 import pytest
 
 from engine.scenario import geometry
-from engine.scenario import reader as io
+from engine.scenario import folder as io
+from engine.scenario import tables
+from engine.scenario.files import OPTIONAL_FILES
+from engine.scenario.tables import CELL_REPORT_LIMIT
+from engine.scenario.well_table import WELL_COLUMNS
 from engine.scenario.inputs import CostCase
 from engine.scenario.problems import InputError, Problem, problems_frame
 
@@ -126,12 +130,12 @@ def test_tiny_city_counts(scenario):
 
 def test_district_defaults_filled(scenario):
     """Blank district properties take the documented defaults: hot_water_share 0.15, network_available false,
-    connection limit 0, name = id (docs/input_format.md, districts.geojson table)."""
+    connection limit blank = no limit (inf), name = id (docs/input_format.md, table "Defaults")."""
     districts = scenario.districts.set_index("district_id")
     assert districts.loc["old_town", "hot_water_share"] == pytest.approx(0.15)  # null in the file
     assert districts.loc["riverside", "hot_water_share"] == pytest.approx(0.2)  # given
     assert not districts.loc["riverside", "network_available"]
-    assert districts.loc["riverside", "network_connection_limit_kw"] == 0.0
+    assert districts.loc["riverside", "network_connection_limit_kw"] == math.inf
     assert districts.loc["riverside", "name"] == "riverside"
     assert districts.loc["old_town", "name"] == "Old town"
     assert districts["network_available"].dtype == bool
@@ -254,10 +258,10 @@ def test_without_cost_cases_file_one_reference_case(tiny):
 
 def test_optional_files_may_be_absent(tiny):
     """Only scenario.toml, districts.geojson, technologies.csv and hourly.csv are required (docs/input_format.md)."""
-    for name in io.OPTIONAL_FILES:
+    for name in OPTIONAL_FILES:
         (tiny / name).unlink()
     scenario = io.load_scenario(tiny)
-    assert scenario.wells.empty and list(scenario.wells.columns) == [c.name for c in io.WELL_COLUMNS]
+    assert scenario.wells.empty and list(scenario.wells.columns) == [c.name for c in WELL_COLUMNS]
     assert scenario.heat_demand_hourly_kw is None and scenario.groundwater_temp_hourly_c is None
     assert len(scenario.district_technologies) == len(scenario.districts) * len(scenario.technologies)
 
@@ -430,7 +434,7 @@ def test_bad_cells_are_summed_up_after_a_few(tiny):
     lines = [lines[0]] + [line.rsplit(",", 1)[0] + ",high" for line in lines[1:]]
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
     problems = [p for p in io.validate_scenario(tiny) if p.column == "network_co2_kg_per_mwh"]
-    assert len(problems) == io.CELL_REPORT_LIMIT + 1
+    assert len(problems) == CELL_REPORT_LIMIT + 1
     assert [p.row for p in problems[:3]] == [2, 3, 4]
     assert "8755 more rows" in problems[-1].message
 
@@ -492,7 +496,7 @@ def test_geojson_structure_problems(tiny):
 
 def test_file_size_guard(tiny, monkeypatch):
     """A file above the size limit is refused with a message instead of being read (project rule)."""
-    monkeypatch.setattr(io, "MAX_FILE_BYTES", 100_000)
+    monkeypatch.setattr(tables, "MAX_FILE_BYTES", 100_000)
     problems = io.validate_scenario(tiny)
     assert _find(problems, "hourly.csv", None, None, "larger than")
     assert not _find(problems, "wells.csv", None, None, "larger than")
@@ -505,7 +509,7 @@ def test_unexpected_failure_is_reported_on_the_file(tiny, monkeypatch):
     def broken(*args, **kwargs):
         raise RuntimeError("disk hiccup")
 
-    monkeypatch.setattr(io, "_load_wells", broken)
+    monkeypatch.setattr(io, "load_wells", broken)
     _edit_cell(tiny / "buildings.csv", 2, "heat_demand_mwh_per_a", "-1")
     problems = io.validate_scenario(tiny)
     assert _find(problems, "wells.csv", None, None, "disk hiccup")

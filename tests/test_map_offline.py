@@ -8,7 +8,7 @@ import shutil
 
 import pytest
 
-from engine.scenario.reader import DEMO_DIR, load_scenario
+from engine.scenario import DEMO_DIR, load_scenario
 from engine.outputs.maps import district_map
 
 pytestmark = pytest.mark.slow  # browser, fuzz or multi-process: left out of the quick loop

@@ -1,4 +1,4 @@
-"""Tests of engine.physics.plume, the line-source thermal plume model of a reinjection well.
+"""Tests of engine.physics.plume (with plume_field and coords), the line-source thermal plume model of a reinjection well.
 
 The aquifer used throughout is the default of docs/input_format.md ([aquifer]: Darcy velocity 0.5 m/d, 15 m
 saturated thickness, dispersivities 5 m and 0.5 m) with a doublet of 10 L/s reinjected 4 K colder.
@@ -7,13 +7,15 @@ saturated thickness, dispersivities 5 m and 0.5 m) with a doublet of 10 L/s rein
 from __future__ import annotations
 
 import math
+import pickle
 
 import numpy as np
 import pytest
 import shapely
 from scipy import integrate, special
 
-from engine.physics import plume
+from engine import cautions
+from engine.physics import coords, plume, plume_field
 from engine.scenario.inputs import Aquifer
 
 DAY = 86_400.0
@@ -52,7 +54,7 @@ def haversine_m(lon1, lat1, lon2, lat2):
     p1, p2 = math.radians(lat1), math.radians(lat2)
     dp, dl = p2 - p1, math.radians(lon2 - lon1)
     h = math.sin(dp / 2) ** 2 + math.cos(p1) * math.cos(p2) * math.sin(dl / 2) ** 2
-    return 2 * plume.EARTH_RADIUS_M * math.asin(math.sqrt(h))
+    return 2 * coords.EARTH_RADIUS_M * math.asin(math.sqrt(h))
 
 
 # ----------------------------------------------------------------------------- basic properties
@@ -249,10 +251,10 @@ def test_transient_near_and_behind_the_front_matches_published_lahm(x, y, fronts
 def test_flow_to_the_east_puts_an_eastern_point_down_gradient():
     """Flow direction is a bearing, clockwise from north (common practice): flowing east (90°), a point 100 m
     east is 100 m down-gradient and on the axis; a point north lies to the left (y > 0)."""
-    x, y = plume.to_flow_frame(100.0, 0.0, 90.0)
+    x, y = coords.to_flow_frame(100.0, 0.0, 90.0)
     assert x == pytest.approx(100.0)
     assert abs(y) < 1e-9
-    x, y = plume.to_flow_frame(0.0, 30.0, 90.0)
+    x, y = coords.to_flow_frame(0.0, 30.0, 90.0)
     assert abs(x) < 1e-9 and y == pytest.approx(30.0)
 
 
@@ -261,9 +263,9 @@ def test_flow_to_the_east_puts_an_eastern_point_down_gradient():
 def test_a_point_along_the_flow_bearing_is_on_the_axis(bearing, east, north):
     """A point at distance d along the bearing has x = d, y = 0 (bearing clockwise from north, common
     practice), and the inverse rotation returns the offsets."""
-    x, y = plume.to_flow_frame(250.0 * east, 250.0 * north, bearing)
+    x, y = coords.to_flow_frame(250.0 * east, 250.0 * north, bearing)
     assert x == pytest.approx(250.0) and abs(y) < 1e-9
-    back_east, back_north = plume.from_flow_frame(x, y, bearing)
+    back_east, back_north = coords.from_flow_frame(x, y, bearing)
     assert back_east == pytest.approx(250.0 * east, abs=1e-9)
     assert back_north == pytest.approx(250.0 * north, abs=1e-9)
 
@@ -273,9 +275,9 @@ def test_local_metres_agree_with_great_circle_distance():
     Sinnott 1984), and the inverse returns the position."""
     lon0, lat0 = 11.57, 48.14
     lon, lat = 11.59, 48.15
-    x, y = plume.lonlat_to_local_m(lon, lat, lon0, lat0)
+    x, y = coords.lonlat_to_local_m(lon, lat, lon0, lat0)
     assert math.hypot(x, y) == pytest.approx(haversine_m(lon0, lat0, lon, lat), rel=1e-4)
-    back_lon, back_lat = plume.local_m_to_lonlat(x, y, lon0, lat0)
+    back_lon, back_lat = coords.local_m_to_lonlat(x, y, lon0, lat0)
     assert back_lon == pytest.approx(lon, abs=1e-12) and back_lat == pytest.approx(lat, abs=1e-12)
 
 
@@ -288,8 +290,8 @@ def two_doublets():
     north = np.array([0.0, 100.0])
     extraction_east = np.array([-100.0, 300.0])
     extraction_north = np.array([0.0, 20.0])
-    rein = plume.local_m_to_lonlat(east, north, lon0, lat0)
-    extr = plume.local_m_to_lonlat(extraction_east, extraction_north, lon0, lat0)
+    rein = coords.local_m_to_lonlat(east, north, lon0, lat0)
+    extr = coords.local_m_to_lonlat(extraction_east, extraction_north, lon0, lat0)
     return rein, extr
 
 
@@ -297,7 +299,7 @@ def test_interference_matrix_entries_are_plume_responses_at_the_neighbours():
     """Entry [i, j] is the plume of reinjection i at extraction j (definition); the offsets are checked
     against the great-circle distance (Sinnott 1984) and the up-gradient entries are negligible."""
     (rein_lon, rein_lat), (extr_lon, extr_lat) = two_doublets()
-    matrix = plume.interference_matrix_k_per_unit(rein_lon, rein_lat, extr_lon, extr_lat, 90.0, **AQUIFER)
+    matrix = plume_field.interference_matrix_k_per_unit(rein_lon, rein_lat, extr_lon, extr_lat, 90.0, **AQUIFER)
     assert matrix.shape == (2, 2)
     distance = haversine_m(rein_lon[0], rein_lat[0], extr_lon[1], extr_lat[1])
     assert distance == pytest.approx(math.hypot(300.0, 20.0), rel=1e-4)
@@ -312,15 +314,15 @@ def test_extraction_shift_superposes_and_clips():
     difference; the total never leaves the range of the injected differences (maximum principle, common
     practice)."""
     (rein_lon, rein_lat), (extr_lon, extr_lat) = two_doublets()
-    matrix = plume.interference_matrix_k_per_unit(rein_lon, rein_lat, extr_lon, extr_lat, 90.0, **AQUIFER)
+    matrix = plume_field.interference_matrix_k_per_unit(rein_lon, rein_lat, extr_lon, extr_lat, 90.0, **AQUIFER)
     rates = np.array([0.002, 0.003])
     deltas = np.array([-0.5, 1.0])
-    shift = plume.extraction_temperature_shift_k(matrix, rates, deltas)
+    shift = plume_field.extraction_temperature_shift_k(matrix, rates, deltas)
     assert shift[1] == pytest.approx(matrix[0, 1] * 0.002 * -0.5 + matrix[1, 1] * 0.003 * 1.0, rel=1e-12)
     # a well on top of a reinjection well sees at most the injected difference
     on_top = np.array([[np.inf, 0.0], [0.0, np.inf]])
-    assert np.array_equal(plume.extraction_temperature_shift_k(on_top, rates, deltas), deltas)
-    strong = plume.extraction_temperature_shift_k(np.full((2, 2), 1e6), np.array([1.0, 1.0]), np.array([-3.0, -2.0]))
+    assert np.array_equal(plume_field.extraction_temperature_shift_k(on_top, rates, deltas), deltas)
+    strong = plume_field.extraction_temperature_shift_k(np.full((2, 2), 1e6), np.array([1.0, 1.0]), np.array([-3.0, -2.0]))
     assert np.all(strong >= -3.0)
 
 
@@ -331,15 +333,15 @@ def test_parameters_from_the_scenario_aquifer_feed_the_matrix():
     assert params["darcy_velocity_m_per_s"] == pytest.approx(0.5 / 86_400.0)
     assert params["aquifer_heat_capacity_j_per_m3_k"] == pytest.approx(2.8e6)
     (rein_lon, rein_lat), (extr_lon, extr_lat) = two_doublets()
-    matrix = plume.interference_matrix_k_per_unit(rein_lon, rein_lat, extr_lon, extr_lat, **params)
+    matrix = plume_field.interference_matrix_k_per_unit(rein_lon, rein_lat, extr_lon, extr_lat, **params)
     assert matrix[0, 1] == pytest.approx(response(300.0, 20.0), rel=1e-3)
 
 
 # ----------------------------------------------------------------------------- isotherms
 def ring_in_flow_frame(ring, lon0, lat0, bearing):
     lon, lat = np.array(ring).T
-    east, north = plume.lonlat_to_local_m(lon, lat, lon0, lat0)
-    return plume.to_flow_frame(east, north, bearing)
+    east, north = coords.lonlat_to_local_m(lon, lat, lon0, lat0)
+    return coords.to_flow_frame(east, north, bearing)
 
 
 @pytest.mark.parametrize("time_s", [None, 365 * DAY])
@@ -349,7 +351,7 @@ def test_isotherm_points_lie_on_the_level_and_nest(time_s):
     lon0, lat0, bearing = 11.0, 48.0, 120.0
     rings = {}
     for level in (1.0, 2.5):
-        ring = plume.isotherm_polygon_lonlat(level, lon0, lat0, RATE, DELTA, bearing, **AQUIFER, time_s=time_s)
+        ring = plume_field.isotherm_polygon_lonlat(level, lon0, lat0, RATE, DELTA, bearing, **AQUIFER, time_s=time_s)
         assert len(ring) > 100 and ring[0] == ring[-1]
         x, y = ring_in_flow_frame(ring[:-1], lon0, lat0, bearing)
         assert np.allclose(np.abs(change(x, y, time_s=time_s)), level, rtol=1e-6)
@@ -365,7 +367,7 @@ def test_isotherm_points_lie_on_the_level_and_nest(time_s):
 def test_isotherm_points_down_gradient():
     """The plume leaves the well in the flow direction (advection, Kinzelbach 1987): with flow to the south
     the far tip of the 1 K isotherm is south of the well."""
-    ring = plume.isotherm_polygon_lonlat(1.0, 11.0, 48.0, RATE, DELTA, 180.0, **AQUIFER, time_s=365 * DAY)
+    ring = plume_field.isotherm_polygon_lonlat(1.0, 11.0, 48.0, RATE, DELTA, 180.0, **AQUIFER, time_s=365 * DAY)
     lats = np.array(ring)[:, 1]
     assert 48.0 - lats.min() > 10 * (lats.max() - 48.0)
 
@@ -373,9 +375,9 @@ def test_isotherm_points_down_gradient():
 def test_isotherm_empty_when_level_never_reached():
     """No injection, or a level at or above the injected difference (reached only in the clipped zone at the
     well), gives no polygon (definition)."""
-    assert plume.isotherm_polygon_lonlat(0.5, 11.0, 48.0, 0.0, DELTA, 90.0, **AQUIFER) == []
-    assert plume.isotherm_polygon_lonlat(0.5, 11.0, 48.0, RATE, 0.0, 90.0, **AQUIFER) == []
-    assert plume.isotherm_polygon_lonlat(4.0, 11.0, 48.0, RATE, DELTA, 90.0, **AQUIFER) == []
+    assert plume_field.isotherm_polygon_lonlat(0.5, 11.0, 48.0, 0.0, DELTA, 90.0, **AQUIFER) == []
+    assert plume_field.isotherm_polygon_lonlat(0.5, 11.0, 48.0, RATE, 0.0, 90.0, **AQUIFER) == []
+    assert plume_field.isotherm_polygon_lonlat(4.0, 11.0, 48.0, RATE, DELTA, 90.0, **AQUIFER) == []
 
 
 # ----------------------------------------------------------------------------- validity and input checks
@@ -384,12 +386,19 @@ def test_validity_notes_warn_about_slow_flow_and_the_near_well_zone():
     near-well zone is the width Q / (b q) of the injected water's stream tube (mass balance: 0.01 m³/s over
     15 m at 0.5 m/d is 115 m)."""
     slow = plume.validity_notes(0.005)
-    assert slow[0] == plume.SCREENING_CAUTION
+    assert slow[0] == cautions.PLUME and slow[0].code is plume.NoteCode.CAUTION
     assert any("conduction" in note for note in slow)
+    assert [note.code for note in slow if "conduction" in note] == [plume.NoteCode.CONDUCTION_ONLY]
     fast = plume.validity_notes(0.5, injection_rate_m3_per_s=RATE, saturated_thickness_m=THICKNESS, distance_m=80.0)
     assert not any("conduction" in note and "below about 0.01" in note for note in fast)
     assert any("115 m" in note for note in fast)
     assert any("inside the near-well zone" in note for note in fast)
+    codes = [note.code for note in fast]
+    assert plume.NoteCode.CONDUCTION_ONLY not in codes
+    assert plume.NoteCode.NEAR_WELL_ZONE in codes and plume.NoteCode.POINT_IN_NEAR_ZONE in codes
+    assert codes[-1] is plume.NoteCode.ASSUMPTIONS
+    # a note survives a process boundary with its code (the interference check runs on worker processes)
+    assert [note.code for note in pickle.loads(pickle.dumps(fast))] == codes
 
 
 def test_validity_notes_for_an_early_time():
@@ -397,6 +406,7 @@ def test_validity_notes_for_an_early_time():
     0.5 m/d Darcy velocity takes about 300 / (0.5 * 4.18 / 2.8) = 402 days."""
     notes = plume.validity_notes(0.5, distance_m=300.0, time_s=100 * DAY)
     assert any("402 days" in note for note in notes)
+    assert [note.code for note in notes if "402 days" in note] == [plume.NoteCode.FRONT_NOT_ARRIVED]
 
 
 @pytest.mark.parametrize(
@@ -409,9 +419,9 @@ def test_validity_notes_for_an_early_time():
         (lambda: change(10.0, 0.0, rate=-0.01), "injection_rate_m3_per_s"),
         (lambda: change(10.0, 0.0, longitudinal_dispersivity_m=0.0, thermal_conductivity_w_per_m_k=0.0),
          "longitudinal_dispersivity_m"),
-        (lambda: plume.lonlat_to_local_m(11.0, 95.0, 11.0, 48.0), "lat"),
+        (lambda: coords.lonlat_to_local_m(11.0, 95.0, 11.0, 48.0), "lat"),
         (lambda: plume.validity_notes(-1.0), "darcy_velocity_m_per_d"),
-        (lambda: plume.isotherm_polygon_lonlat(-1.0, 11.0, 48.0, RATE, DELTA, 90.0, **AQUIFER), "level_k"),
+        (lambda: plume_field.isotherm_polygon_lonlat(-1.0, 11.0, 48.0, RATE, DELTA, 90.0, **AQUIFER), "level_k"),
     ],
 )
 def test_bad_arguments_raise_value_error_naming_them(call, name):

@@ -15,7 +15,8 @@ from plotly.offline import get_plotlyjs
 
 from engine.outputs.export import MAX_SHEET_NAME, tables_csv_zip, tables_xlsx
 from engine.outputs.figures import format_value, kpi_table
-from engine.outputs.report import CAUTION, html_report
+from engine import cautions
+from engine.outputs.report import html_report
 from engine.model.results import RunResult
 from test_figures import TECHNOLOGIES, synthetic_result, two_runs
 from test_maps import result_with_wells, synthetic_scenario
@@ -89,7 +90,7 @@ def test_report_holds_every_runs_kpis_formatted_as_in_the_kpi_table(report):
     for _, row in kpi.iterrows():
         for column in ("total cost [€/a]", "CO2 [t/a]", "levelised cost [€/MWh]", "unserved heat [MWh/a]"):
             assert f">{format_value(row[column], column)}<" in html
-    assert CAUTION in html
+    assert cautions.RESULTS in html
     assert "screening estimate" in html
 
 
@@ -174,7 +175,7 @@ def solved_tiny_city():
     """The tiny fixture city solved by the engine under two cost cases (about 2 s)."""
     from pathlib import Path
 
-    from engine.scenario.reader import load_scenario
+    from engine.scenario import load_scenario
     from engine.model.solve import solve_scenario
 
     scenario = load_scenario(Path(__file__).parent / "fixtures" / "tiny_city")

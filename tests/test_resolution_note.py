@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from pages._support import workbench as wb
-from engine.scenario.reader import DEMO_DIR, load_scenario
+from pages._support.describe import resolution_note
+from engine.scenario import DEMO_DIR, load_scenario
 from engine.model.results import RunResult
 
 
@@ -13,10 +13,10 @@ def _result(days: int) -> RunResult:
 
 
 def test_full_year_needs_no_approximation():
-    assert "full hourly year" in wb.resolution_note(load_scenario(DEMO_DIR), _result(0))
+    assert "full hourly year" in resolution_note(load_scenario(DEMO_DIR), _result(0))
 
 
 def test_unmeasured_resolution_says_where_to_measure(tmp_path, monkeypatch):
     monkeypatch.setenv("HEATMOSAIC_STORE", str(tmp_path / "store.sqlite"))
-    note = wb.resolution_note(load_scenario(DEMO_DIR), _result(12))
+    note = resolution_note(load_scenario(DEMO_DIR), _result(12))
     assert "12 typical days" in note and "not been measured" in note

@@ -11,7 +11,7 @@ from engine.scenario.inputs import Prices, Settings
 from engine.model.solve import solve_scenario
 
 
-def _instance(allow_unserved=False, gas_potential=100.0, cap=0.0):
+def _instance(allow_unserved=False, gas_potential=100.0, cap=None):
     demand = np.where(np.arange(8760) < 4380, 1000.0, 400.0)
     techs = f.technologies(
         dict(technology_id="gas", kind="fuel_boiler", carrier="gas", efficiency=0.9, investment_eur_per_kw=100.0),

@@ -21,7 +21,7 @@ from engine.cli import main
 from engine.model.lp import LinearProgram
 from engine.model.solve import build_programs, run_settings, solve_scenario
 from engine.model.solvers import DIRECT, SolverChoiceError, resolve_solver, solve_lp, solver_choices
-from engine.scenario.reader import load_scenario
+from engine.scenario import load_scenario
 
 ROOT = Path(__file__).resolve().parents[1]
 TINY = ROOT / "tests" / "fixtures" / "tiny_city"

@@ -34,18 +34,18 @@ from hypothesis.extra import pandas as hpd
 from pandas.testing import assert_frame_equal
 
 from engine.model.results import RunResult
+from engine.scenario.files import SCENARIO_FILES
 from engine.storage.store import (
     APPLICATION_ID,
     LIST_COLUMNS,
-    SCENARIO_FILES,
     SCHEMA_VERSION,
     ScenarioStore,
     StoreError,
-    decode_table,
     default_store_path,
-    encode_table,
     read_scenario_files,
 )
+from engine.storage.library import export_library, import_library
+from engine.storage.tablecodec import decode_table, encode_table
 
 REPO = Path(__file__).resolve().parents[1]
 
@@ -137,8 +137,9 @@ def synthetic_result(seed: int = 0, n_steps: int = 24) -> RunResult:
         cost_case="high_co2",
         input_hash=f"{seed:064x}",
         scenario_name="Example city",
-        settings={"typical_days": 12, "discount_rate": 0.05, "co2_cap_t_per_a": math.inf, "label": "reference"},
-        timings_s={"build": 0.25, "solve": 1.5},
+        settings={"typical_days": 12, "discount_rate": 0.05, "co2_cap_t_per_a": math.inf, "label": "reference",
+                  "min_share": -0.0, "floor_temp_c": -math.inf},
+        timings_s={"build": 0.25, "solve": 1.5, "extract": math.nan},
         model_size={"variables": 1234, "constraints": 987},
         tables={
             "districts": districts,
@@ -173,10 +174,27 @@ def assert_same_result(actual: RunResult, expected: RunResult) -> None:
                            check_index_type=True, check_categorical=True, check_freq=False)
     for field in ("status", "message", "objective", "cost_case", "input_hash", "scenario_name"):
         assert getattr(actual, field) == getattr(expected, field), field
-    assert json.dumps(actual.settings) == json.dumps(expected.settings)
-    assert actual.timings_s == expected.timings_s
-    assert actual.model_size == expected.model_size
-    assert actual.extras == expected.extras
+    for field in ("settings", "timings_s", "model_size", "extras"):
+        assert_same_value(getattr(actual, field), getattr(expected, field), field)
+
+
+def assert_same_value(actual, expected, where: str) -> None:
+    """Equal JSON-like values, numbers compared as IEEE 754 values: NaN matches only NaN, +-inf and the sign of
+    zero must agree, and a number keeps its kind (int or float)."""
+    if isinstance(expected, dict):
+        assert isinstance(actual, dict) and list(actual) == list(expected), where
+        for key in expected:
+            assert_same_value(actual[key], expected[key], f"{where}.{key}")
+    elif isinstance(expected, (list, tuple)):
+        assert isinstance(actual, list) and len(actual) == len(expected), where
+        for k, (a, e) in enumerate(zip(actual, expected)):
+            assert_same_value(a, e, f"{where}[{k}]")
+    elif isinstance(expected, float):
+        assert type(actual) is float, (where, actual)
+        assert (math.isnan(actual) and math.isnan(expected)) or (
+            actual == expected and math.copysign(1.0, actual) == math.copysign(1.0, expected)), (where, actual)
+    else:
+        assert type(actual) is type(expected) and actual == expected, (where, actual, expected)
 
 
 @pytest.fixture
@@ -309,8 +327,9 @@ def test_unknown_run_ids_give_store_errors(store_path):
     """Every call with an unknown run id raises StoreError with a plain message (common practice)."""
     with ScenarioStore(store_path) as store:
         store.save_run(synthetic_result(0), "only")
-        for call in (store.load_run, store.load_inputs, store.delete_run,
-                     lambda i: store.rename_run(i, "x"), lambda i: store.set_note(i, "x")):
+        for call in (store.load_run, store.load_inputs, store.delete_run, store.run_info,
+                     lambda i: store.rename_run(i, "x"), lambda i: store.set_note(i, "x"),
+                     lambda i: store.set_tags(i, "x"), lambda i: store.materialise_inputs(i, store_path.parent)):
             with pytest.raises(StoreError, match="no run 999"):
                 call(999)
         with pytest.raises(StoreError, match="whole number"):
@@ -392,8 +411,9 @@ def test_inputs_are_whitelisted_and_materialised(tmp_path, store_path):
 def test_default_path_follows_environment(monkeypatch, tmp_path):
     """$HEATMOSAIC_STORE wins; otherwise $XDG_DATA_HOME, else ~/.local/share (XDG Base Directory Spec 0.8)."""
     monkeypatch.setattr(sys, "platform", "linux")
+    monkeypatch.setenv("XDG_DATA_HOME", str(tmp_path / "xdg"))
     monkeypatch.setenv("HEATMOSAIC_STORE", str(tmp_path / "custom" / "my.sqlite"))
-    assert default_store_path() == tmp_path / "custom" / "my.sqlite"
+    assert default_store_path() == tmp_path / "custom" / "my.sqlite"  # wins over XDG_DATA_HOME, set as well
     monkeypatch.delenv("HEATMOSAIC_STORE")
     monkeypatch.setenv("XDG_DATA_HOME", str(tmp_path / "xdg"))
     assert default_store_path() == tmp_path / "xdg" / "heatmosaic" / "scenarios.sqlite"
@@ -660,7 +680,7 @@ def test_library_export_and_import_round_trip(tmp_path, store_path):
         ids = [store.save_run(results[k], f"run {k}", note=f"note {k}", inputs=INPUTS if k != 1 else None,
                               tags="lib", sweep_id="s" if k else None) for k in results]
         store.delete_run(ids[0])
-        library = store.export_library(tmp_path / "out" / "library.zip")
+        library = export_library(store, tmp_path / "out" / "library.zip")
         exported = store.list_runs()
     with zipfile.ZipFile(library) as archive:
         names = archive.namelist()
@@ -674,7 +694,7 @@ def test_library_export_and_import_round_trip(tmp_path, store_path):
     other = tmp_path / "other.sqlite"
     with ScenarioStore(other) as target:
         existing = target.save_run(synthetic_result(8), "already there")
-        new_ids = target.import_library(library)
+        new_ids = import_library(target, library)
         assert len(new_ids) == 2 and existing not in new_ids
         imported = target.list_runs().set_index("name")
         for k in (1, 2):
@@ -690,16 +710,16 @@ def test_import_refuses_a_tampered_library(tmp_path, store_path):
     """A library zip with a path that climbs out ('..') is refused with StoreError; nothing is imported."""
     with ScenarioStore(store_path) as store:
         store.save_run(synthetic_result(0), "a")
-        library = store.export_library(tmp_path / "library.zip")
+        library = export_library(store, tmp_path / "library.zip")
     with zipfile.ZipFile(library, "a") as archive:
         archive.writestr("runs/00001/../../evil.json", "{}")
     with ScenarioStore(tmp_path / "target.sqlite") as target:
         with pytest.raises(StoreError, match=r"\.\."):
-            target.import_library(library)
+            import_library(target, library)
         assert target.list_runs().empty
     not_a_library = tmp_path / "plain.zip"
     with zipfile.ZipFile(not_a_library, "w") as archive:
         archive.writestr("library.json", '{"format": "something else"}')
     with ScenarioStore(tmp_path / "target.sqlite") as target:
         with pytest.raises(StoreError, match="not a heatmosaic library"):
-            target.import_library(not_a_library)
+            import_library(target, not_a_library)

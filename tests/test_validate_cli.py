@@ -1,4 +1,4 @@
-"""Tests of the ``validate`` command (engine.scenario.reader.validate_command and ``python -m engine validate DIR``).
+"""Tests of the ``validate`` command (engine.scenario.folder.validate_command and ``python -m engine validate DIR``).
 
 What the command must print and return is the project's command-line contract: ``OK: <n> districts, <m> wells,
 <k> technologies, <h> hours`` and exit code 0, or one line per problem (``file, row R, column C: message``) and
@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pytest
 
-from engine.scenario import reader as io
+from engine.scenario import folder as io
 
 ROOT = Path(__file__).resolve().parents[1]
 FIXTURES = Path(__file__).resolve().parent / "fixtures"
@@ -82,7 +82,7 @@ def test_unexpected_exception_is_a_problem_line(tmp_path, capsys, monkeypatch):
     def broken(*args, **kwargs):
         raise MemoryError("out of memory while reading")
 
-    monkeypatch.setattr(io, "_load_hourly", broken)
+    monkeypatch.setattr(io, "load_hourly", broken)
     assert io.validate_command(folder) == 2
     out = capsys.readouterr().out
     assert "hourly.csv: could not be read (MemoryError: out of memory while reading)" in out

@@ -6,7 +6,7 @@ import sys
 
 from engine.model.solvers import DIRECT, SolverChoiceError, resolve_solver
 from engine.scenario.problems import InputError
-from engine.scenario.reader import load_scenario, resolve_scenario_path
+from engine.scenario import load_scenario, resolve_scenario_path
 
 EXIT_OK, EXIT_INPUT, EXIT_SOLVER = 0, 2, 3
 """0 solved (or valid), 2 input errors (printed, no traceback), 3 the solver failed."""

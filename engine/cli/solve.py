@@ -11,7 +11,7 @@ from engine.cli.common import (
     load_for_command, solver_of, stderr_progress, typical_days_of,
 )
 from engine.model.solve import build_programs, run_settings, solve_scenario
-from engine.scenario.reader import validate_command
+from engine.scenario import validate_command
 from engine.studies.interference import solve_with_interference
 
 LP_SUFFIXES = (".lp", ".mps")

@@ -8,8 +8,8 @@ import pandas as pd
 from engine.physics.economics import levelised_cost_eur_per_mwh
 from engine.model.lp import LpSolution
 from engine.model.formulation import DistrictModel
-from engine.model.prepare import KWH_PER_MWH
-from engine.scenario.inputs import COOLING_KINDS
+from engine.scenario.kinds import COOLING_KINDS
+from engine.units import KG_PER_T, KWH_PER_MWH, SECONDS_PER_HOUR
 
 UNSERVED_TOLERANCE_MWH = 0.5
 """Unserved heat above this in a year [MWh/a] marks a district (map class ``unserved``) and a run
@@ -230,7 +230,7 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
                 "cooling_cost_eur_per_a": cool_eur,
                 "levelised_cost_eur_per_mwh": float(levelised_cost_eur_per_mwh(heat_eur, heat_served)),
                 "levelised_cost_of_cooling_eur_per_mwh": float(levelised_cost_eur_per_mwh(cool_eur, cool_served)),
-                "co2_kg_per_mwh": 1000.0 * float(a["co2_t_per_a"]) / served if served > 0 else float("nan"),
+                "co2_kg_per_mwh": KG_PER_T * float(a["co2_t_per_a"]) / served if served > 0 else float("nan"),
                 "main_supply": "unserved" if unserved_main else str(
                     main.get(did, "unserved" if unserved_heat_mwh[k] > 0 else "none")),
             }
@@ -336,7 +336,7 @@ def well_table(model: DistrictModel, out: np.ndarray, capacity_kw: np.ndarray,
         s = steps[steps["well_id"] == wid]
         hp_units = [u for u in np.flatnonzero(units.well == j) if not units.serves_cooling[u]]
         rho = prepared.well_density_kg_per_m3[j]
-        volume = float((s["flow_kg_s"].to_numpy() * 3600.0 / rho * w).sum())
+        volume = float((s["flow_kg_s"].to_numpy() * SECONDS_PER_HOUR / rho * w).sum())
         limit = prepared.well_annual_volume_m3[j]
         peak = float(s["flow_share"].max()) if len(s) else 0.0
         rows.append(

@@ -23,10 +23,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from engine.scenario.inputs import COOLING_KINDS, FUELS, WELL_KINDS
+from engine.scenario.kinds import COOLING_KINDS, FUELS, WELL_KINDS
 from engine.model.lp import INF, LinearProgram, LpSolution
-from engine.model.prepare import KWH_PER_MWH, PreparedRun
+from engine.model.prepare import PreparedRun
 from engine.model.solvers import DIRECT, solve_lp
+from engine.units import KG_PER_T, KWH_PER_MWH, SECONDS_PER_HOUR
 
 UNSERVED_CO2_EQUIVALENT_T_PER_MWH = 10.0
 """Weight of unserved heat in the CO2 objective: far above any real supply (fuel oil emits 0.27 t/MWh)."""
@@ -231,22 +232,16 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
     return units, stores
 
 
-def build_model(
-    prepared: PreparedRun,
-    districts=None,
-    co2_cap_t_per_a: float | None = None,
-    network_plant_limit_kw: float | None = None,
-) -> DistrictModel:
-    """Build the LP for ``districts`` (indices; all by default). City-wide limits apply to those districts."""
+def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
+    """Build the LP for ``districts`` (indices; all by default). The city-wide limits of the settings (None for
+    no limit) apply to those districts."""
     started = time.perf_counter()
     settings = prepared.settings
     if districts is None:
         districts = np.arange(len(prepared.district_ids))
     districts = np.asarray(districts, dtype=int)
-    if co2_cap_t_per_a is None:
-        co2_cap_t_per_a = settings.co2_cap_t_per_a
-    if network_plant_limit_kw is None:
-        network_plant_limit_kw = settings.network_plant_limit_kw
+    co2_cap_t_per_a = settings.co2_cap_t_per_a
+    network_plant_limit_kw = settings.network_plant_limit_kw
     prices = prepared.prices
     techs = prepared.scenario.technologies.set_index("technology_id")
     units, stores = supply_units(prepared, districts)
@@ -415,7 +410,7 @@ def build_model(
         volume = prepared.well_annual_volume_m3[wells_here]
         limited = np.flatnonzero(np.isfinite(volume))
         if len(limited):
-            m3_per_kg = 3600.0 / prepared.well_density_kg_per_m3  # m³ per (kg/s · h)
+            m3_per_kg = SECONDS_PER_HOUR / prepared.well_density_kg_per_m3  # m³ per (kg/s · h)
             sel = np.isin(wrow, limited)
             vpos = {int(p): k for k, p in enumerate(limited)}
             vrow = np.array([vpos[int(p)] for p in wrow[sel]])
@@ -433,7 +428,7 @@ def build_model(
 
     # ---------------------------------------------------------------- city-wide network plant limit
     net_units = np.flatnonzero(np.array(units.kind) == "network_connection")
-    if network_plant_limit_kw and network_plant_limit_kw > 0 and len(net_units):
+    if network_plant_limit_kw is not None and len(net_units):
         rows["network_plant"] = lp.add_rows_coo(
             "network_plant", n_t, np.tile(t_idx, len(net_units)), cols["out"][net_units].ravel(),
             np.ones(len(net_units) * n_t), upper=np.full(n_t, float(network_plant_limit_kw)),
@@ -451,7 +446,7 @@ def build_model(
         units.fuel * fuel_co2[:, None]
         + units.electricity * prepared.grid_co2_kg_per_mwh[None, :]
         + units.network * prepared.network_co2_kg_per_mwh[None, :]
-    ) / KWH_PER_MWH / 1000.0
+    ) / KWH_PER_MWH / KG_PER_T
     unit_energy_eur = (
         units.fuel * fuel_price[:, None]
         + units.electricity * prepared.electricity_eur_per_mwh[None, :]
@@ -463,7 +458,7 @@ def build_model(
     emis[out_cols] = w[None, :] * unit_co2
     if len(lifted):
         extra = extra_elec[lifted]
-        hw_co2 = extra * prepared.grid_co2_kg_per_mwh[None, :] / KWH_PER_MWH / 1000.0
+        hw_co2 = extra * prepared.grid_co2_kg_per_mwh[None, :] / KWH_PER_MWH / KG_PER_T
         money[cols["hot_water"]] = w[None, :] * (extra * prepared.electricity_eur_per_mwh[None, :] / KWH_PER_MWH
                                                  + co2_price * hw_co2)
         emis[cols["hot_water"]] = w[None, :] * hw_co2
@@ -488,7 +483,7 @@ def build_model(
     # a negligible cost on store charging removes simultaneous charge and discharge without changing the optimum
     money[cols["charge"]] += w[None, :] * 1e-6
 
-    if co2_cap_t_per_a and co2_cap_t_per_a > 0:
+    if co2_cap_t_per_a is not None:
         nz = np.flatnonzero(emis)
         rows["co2_cap"] = lp.add_rows_coo(
             "co2_cap", 1, np.zeros(len(nz)), nz, emis[nz], upper=np.array([float(co2_cap_t_per_a)])

@@ -18,12 +18,9 @@ from engine.physics import economics
 from engine.physics import heatpump
 from engine.physics import water
 from engine.physics import wells as wells_mod
-from engine.scenario.inputs import (
-    COOLING_KINDS, HEAT_KINDS, WELL_KINDS, EffectivePrices, Scenario, Settings, apply_cost_case, hot_water_temp_c,
-)
+from engine.scenario.inputs import EffectivePrices, Scenario, Settings, apply_cost_case, hot_water_temp_c
 from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, rescale_to_annual, typical_day_grid
-
-KWH_PER_MWH = 1000.0
+from engine.units import SECONDS_PER_HOUR
 
 
 @dataclass
@@ -295,7 +292,7 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
     flow_c = flow_per_kw_kg_s(spread_c, gw)
     if len(wells):
         rho_mean = water.water_density_kg_per_m3(np.clip(wells["groundwater_temp_c"].to_numpy(float), 0.5, 99))
-        permit_kg_s = wells["permit_flow_m3_per_h"].to_numpy(float) * rho_mean / 3600.0
+        permit_kg_s = wells["permit_flow_m3_per_h"].to_numpy(float) * rho_mean / SECONDS_PER_HOUR
         volume = wells["permit_annual_volume_m3"].to_numpy(float)
         volume = np.where(np.isnan(volume), np.inf, volume)
     else:
@@ -353,4 +350,4 @@ def with_settings(settings: Settings, **changes) -> Settings:
     return dataclasses.replace(settings, **changes)
 
 
-__all__ = ["PreparedRun", "prepare_run", "with_settings", "HEAT_KINDS", "COOLING_KINDS", "WELL_KINDS"]
+__all__ = ["PreparedRun", "prepare_run", "with_settings"]

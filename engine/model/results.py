@@ -45,12 +45,13 @@ Tables (``result.tables[name]``):
 from __future__ import annotations
 
 import json
-import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
+
+from engine.jsonsafe import json_value
 
 COST_PARTS = ("investment", "fixed_om", "variable_om", "energy", "co2", "unserved")
 """Parts of the annual cost; each district table has a column ``<part>_eur_per_a``."""
@@ -200,12 +201,10 @@ class RunResult:
             )
         out["districts"] = districts
         wells = self.tables.get("wells", pd.DataFrame())
-        out["wells"] = [
-            {k: _plain(v) for k, v in record.items()} for record in wells.to_dict(orient="records")
-        ]
+        out["wells"] = wells.to_dict(orient="records")
         for key, value in self.extras.items():
             out[key] = value
-        return json.loads(json.dumps(out, default=_plain))
+        return json_value(out, where="the run summary")
 
     def write(self, out_dir: str | Path) -> Path:
         """Write summary.json and one CSV per table into ``out_dir``."""
@@ -217,15 +216,3 @@ class RunResult:
         return out
 
 
-def _plain(value):
-    """JSON-safe Python scalars (NaN and inf become None)."""
-    if isinstance(value, (np.bool_, bool)):
-        return bool(value)
-    if isinstance(value, (np.integer,)):
-        return int(value)
-    if isinstance(value, (np.floating, float)):
-        value = float(value)
-        return None if not math.isfinite(value) else value
-    if isinstance(value, (np.ndarray,)):
-        return [_plain(v) for v in value.tolist()]
-    return value

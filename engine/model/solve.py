@@ -21,32 +21,34 @@ import numpy as np
 import pandas as pd
 
 from engine.model.extract import UNSERVED_TOLERANCE_MWH, extract_tables
-from engine.scenario.inputs import Scenario, Settings, input_hash
+from engine.scenario.defaults import limit_from_entry
+from engine.scenario.inputs import Scenario, Settings, default_cost_case, input_hash
 from engine.model.formulation import DistrictModel, build_model, co2_stage_objective, solve_model, supply_units
 from engine.model.prepare import prepare_run
 from engine.model.results import STATUS_SOLVED, STATUS_WITH_UNSERVED, RunResult
 from engine.model.solvers import DIRECT, resolve_solver, solve_lp
+from engine.progress import Cancel, Progress, no_progress
 from engine.studies.permits import add_well_status
-
-Progress = Callable[[float, str], None]
 
 
 def run_settings(scenario: Scenario, objective=None, co2_cap_t_per_a=None, typical_days=None, **changes) -> Settings:
-    """The scenario's settings with the given overrides (None keeps the scenario's value)."""
+    """The scenario's settings with the given overrides (None keeps the scenario's value).
+
+    ``co2_cap_t_per_a`` is entered as on the command line and in the dashboard: 0 removes the scenario's cap
+    (the settings then hold None, no limit; :func:`engine.scenario.defaults.limit_from_entry`).
+    """
     updates = dict(changes)
     if objective is not None:
         updates["objective"] = objective
     if co2_cap_t_per_a is not None:
-        updates["co2_cap_t_per_a"] = float(co2_cap_t_per_a)
+        updates["co2_cap_t_per_a"] = limit_from_entry(co2_cap_t_per_a)
     if typical_days is not None:
         updates["typical_days"] = int(typical_days)
     return dataclasses.replace(scenario.settings, **updates)
 
 
 def _has_coupling(settings: Settings) -> bool:
-    return bool(settings.co2_cap_t_per_a and settings.co2_cap_t_per_a > 0) or bool(
-        settings.network_plant_limit_kw and settings.network_plant_limit_kw > 0
-    )
+    return settings.co2_cap_t_per_a is not None or settings.network_plant_limit_kw is not None
 
 
 @dataclass
@@ -82,9 +84,9 @@ def _solve_part(prepared, districts, objective, time_limit_s, cancel=None, solve
 def lowest_co2_without_unserved(prepared, time_limit_s=None, cancel=None, solver=DIRECT) -> tuple[float | None, list[str]]:
     """The least CO2 [t/a] any plan reaches that serves all heat and cooling (no CO2 cap), or None and the
     districts where no plan serves everything with the allowed supply."""
-    settings = dataclasses.replace(prepared.settings, allow_unserved_heat=False, co2_cap_t_per_a=0.0)
+    settings = dataclasses.replace(prepared.settings, allow_unserved_heat=False, co2_cap_t_per_a=None)
     strict = dataclasses.replace(prepared, settings=settings)
-    coupled = bool(settings.network_plant_limit_kw and settings.network_plant_limit_kw > 0)
+    coupled = settings.network_plant_limit_kw is not None
     n_d = len(prepared.district_ids)
     parts = [list(range(n_d))] if coupled else [[i] for i in range(n_d)]
     total, failed = 0.0, []
@@ -111,7 +113,7 @@ def unserved_message(result: RunResult, prepared, settings: Settings, time_limit
         return text + (" No plan serves all the heat with the allowed supply in district(s) " + ", ".join(failed)
                        + " (see potential_kw, the connection limits and the well permits).")
     text += f" The lowest CO2 reachable without unserved heat is {floor:,.0f} t/a"
-    if settings.co2_cap_t_per_a and settings.co2_cap_t_per_a > 0 and settings.co2_cap_t_per_a < floor:
+    if settings.co2_cap_t_per_a is not None and settings.co2_cap_t_per_a < floor:
         text += f"; the CO2 cap of {settings.co2_cap_t_per_a:,.0f} t/a lies below it and is met only by leaving heat unserved"
     result.extras["lowest_co2_without_unserved_t_per_a"] = floor
     return text + "."
@@ -212,9 +214,9 @@ def diagnose_failure(prepared, settings: Settings, status: str, districts: list[
     if reasons:
         return "; ".join(reasons) + "."
     coupling = []
-    if settings.co2_cap_t_per_a and settings.co2_cap_t_per_a > 0:
+    if settings.co2_cap_t_per_a is not None:
         coupling.append(f"the city-wide CO2 cap of {settings.co2_cap_t_per_a:,.0f} t/a")
-    if settings.network_plant_limit_kw and settings.network_plant_limit_kw > 0:
+    if settings.network_plant_limit_kw is not None:
         coupling.append(f"the network plant limit of {settings.network_plant_limit_kw:,.0f} kW")
     if coupling:
         return ("Every district can be supplied on its own, so " + " and ".join(coupling)
@@ -235,11 +237,6 @@ def plan_parts(prepared, settings: Settings, decompose: bool | str = "auto") -> 
     return bool(decompose), ([[i] for i in range(n_d)] if decompose else [list(range(n_d))])
 
 
-def default_cost_case(scenario: Scenario) -> str:
-    """``reference`` if the scenario has it, else its first cost case."""
-    return "reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases))
-
-
 def build_programs(
     scenario: Scenario,
     cost_case: str | None = None,
@@ -252,7 +249,7 @@ def build_programs(
     district), else ``"city"``. A cost objective is set as is; a CO2 objective is solved in two stages, and the
     program returned carries the first (least CO2, unserved demand counted at its CO2 equivalent).
     """
-    cost_case = cost_case or default_cost_case(scenario)
+    cost_case = cost_case or default_cost_case(scenario.cost_cases)
     settings = settings or scenario.settings
     prepared = prepare_run(scenario, cost_case, settings)
     decomposed, parts = plan_parts(prepared, settings, decompose)
@@ -277,7 +274,7 @@ def solve_scenario(
     decompose: bool | str = "auto",
     workers: int | None = None,
     progress: Progress | None = None,
-    cancel: Callable[[], bool] | None = None,
+    cancel: Cancel | None = None,
     time_limit_s: float | None = None,
     settings: Settings | None = None,
     solver: str = DIRECT,
@@ -293,8 +290,8 @@ def solve_scenario(
     """
     started = time.perf_counter()
     solver = resolve_solver(solver)
-    report = progress or (lambda share, text: None)
-    cost_case = cost_case or default_cost_case(scenario)
+    report = progress or no_progress
+    cost_case = cost_case or default_cost_case(scenario.cost_cases)
     settings = settings or run_settings(scenario, objective, co2_cap_t_per_a, typical_days,
                                         **({} if co2_within_cost_pct is None else
                                            {"co2_within_cost_pct": float(co2_within_cost_pct)}))

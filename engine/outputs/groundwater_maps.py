@@ -113,7 +113,7 @@ def groundwater_map_figure(scenario: Scenario, screening: pd.DataFrame, plume_po
     """Map of the districts, every doublet's two wells in their status colour and the plume isotherms (plotly).
 
     Needs no map library from the internet. Longitude and latitude are drawn to scale about the map's mid
-    latitude (equirectangular, as :func:`engine.physics.plume.lonlat_to_local_m`): true to shape at the size of a city.
+    latitude (equirectangular, as :func:`engine.physics.coords.lonlat_to_local_m`): true to shape at the size of a city.
     Extraction wells are filled circles (area proportional to the annual heat), reinjection wells open
     circles, joined by a thin line; isotherms are dashed (cold plumes blue, warm plumes purple).
 

@@ -37,6 +37,7 @@ from engine.outputs.palette import (
     sequential_colors,
     technology_colors,
 )
+from engine import cautions
 from engine.model.results import RunResult
 
 MEASURES = {
@@ -47,7 +48,6 @@ MEASURES = {
 }
 """Measures a district map can show: key -> (legend title, unit)."""
 
-WELL_CAUTION = "Wells and plumes: screening estimate. Permits defer to the water authority."
 PLUME_COLOR = "#000000"
 _MIN_RADIUS_PX, _MAX_RADIUS_PX = 4.0, 16.0
 
@@ -261,8 +261,7 @@ def well_values(scenario, result: RunResult | None = None) -> pd.DataFrame:
             if volume_binds[k]:
                 status.append("permitted annual volume binds")
             lines.append("Status: " + (", ".join(status) if status else "within the permit"))
-        lines.append("<i style='color:#666'>Screening estimate; permits and designs defer to the water authority "
-                     "and licensed engineers.</i>")
+        lines.append(f"<i style='color:#666'>{escape(cautions.WELL_POPUP)}</i>")
         popups.append("<br>".join(lines))
     out["popup"] = popups
     for column in ("reinjection_lon", "reinjection_lat"):
@@ -320,7 +319,7 @@ def legend_html(legend: dict, wells: bool = False, plumes: bool = False) -> str:
         parts.append("<div><span style='display:inline-block;width:18px;margin-right:6px;vertical-align:middle;"
                      f"border-top:2px dashed {PLUME_COLOR}'></span>plume isotherm</div>")
     if wells or plumes:
-        parts.append(f"<div style='margin-top:4px;color:#8a3b00;max-width:220px'>{escape(WELL_CAUTION)}</div>")
+        parts.append(f"<div style='margin-top:4px;color:#8a3b00;max-width:220px'>{escape(cautions.WELLS)}</div>")
     return "".join(parts)
 
 

@@ -31,13 +31,9 @@ from engine.outputs.figures import (
     main_supply_changes,
     supply_mix_figure,
 )
-from engine.outputs.maps import WELL_CAUTION, svg_district_map
+from engine import cautions
+from engine.outputs.maps import svg_district_map
 from engine.model.results import RunResult
-
-CAUTION = (
-    "Screening-level results. Heat-plan decisions, well permits and designs defer to local codes, the water "
-    "authority and licensed engineers."
-)
 
 _STYLE = """
 body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, Arial, sans-serif; margin: 0; color: #1b1b1b;
@@ -210,7 +206,7 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
     body = [
         f"<h1>{escape(title)}</h1>",
         f"<p class='meta'>Scenario: {escape(scenario_name)} · {len(runs)} run(s) · generated {generated}</p>",
-        f"<div class='caution'><b>Caution.</b> {escape(CAUTION)}</div>",
+        f"<div class='caution'><b>Caution.</b> {escape(cautions.RESULTS)}</div>",
         "<nav>" + "".join(f"<a href='#{a}'>{t}</a>" for a, t in (
             ("overview", "Overview"), ("differences", "Differences"), ("costs", "Costs"), ("supply", "Supply"),
             ("runs", "Runs"), ("duration", "Load duration"), ("assumptions", "Assumptions"),
@@ -290,8 +286,8 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
 
     body += [
         "<h2 id='cautions'>Cautions</h2>",
-        f"<div class='caution'><p>{escape(CAUTION)}</p>"
-        f"<p>{escape(WELL_CAUTION)} Well heat, flows and reinjection temperatures come from a screening model, "
+        f"<div class='caution'><p>{escape(cautions.RESULTS)}</p>"
+        f"<p>{escape(cautions.WELLS)} Well heat, flows and reinjection temperatures come from a screening model, "
         "not from the numerical groundwater model a permit requires.</p>"
         "<p>Where typical days stand for the year, the hourly curves are rebuilt from them: the peaks of single "
         "days are smoothed out.</p>"

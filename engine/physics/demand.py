@@ -21,6 +21,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from engine.units import KWH_PER_MWH
+
 HOURS_PER_DAY = 24
 COOLING_DAY_START_HOUR = 8
 """First hour of the day (local clock, hour starting 08:00) of the fallback cooling window."""
@@ -150,7 +152,7 @@ def heat_demand_profile_kw(annual_mwh, outdoor_temp_c, hot_water_share=0.15, bas
 
     if annual == 0.0:
         return np.zeros(temp.size)
-    total_kwh = annual * 1000.0
+    total_kwh = annual * KWH_PER_MWH
     n_days = temp.size // HOURS_PER_DAY
     hot_water_weights = np.tile(hot_water_daily_shape(), n_days)
     degree_hours = np.maximum(0.0, base - temp)
@@ -242,4 +244,4 @@ def cooling_demand_profile_kw(annual_mwh, outdoor_temp_c, base_temp_c=20.0) -> n
         hour_of_day = np.arange(temp.size) % HOURS_PER_DAY
         daytime = (hour_of_day >= COOLING_DAY_START_HOUR) & (hour_of_day < COOLING_DAY_END_HOUR)
         weights = daytime.astype(float)
-    return _scaled_to_total(weights, annual * 1000.0)
+    return _scaled_to_total(weights, annual * KWH_PER_MWH)

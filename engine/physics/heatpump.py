@@ -20,6 +20,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from engine.scenario.defaults import HEAT_PUMP_QUALITY_GRADE, SINK_APPROACH_K, SOURCE_APPROACH_K
+
 KELVIN_OFFSET = 273.15
 """0 °C in kelvin [K]."""
 
@@ -91,9 +93,9 @@ def carnot_cop_heating(sink_temp_c, source_temp_c):
 def heat_pump_cop(
     sink_temp_c,
     source_temp_c,
-    quality_grade: float = 0.45,
-    sink_approach_k: float = 5.0,
-    source_approach_k: float = 3.0,
+    quality_grade: float = HEAT_PUMP_QUALITY_GRADE,
+    sink_approach_k: float = SINK_APPROACH_K,
+    source_approach_k: float = SOURCE_APPROACH_K,
     cop_min: float = 1.0,
     cop_max: float = 8.0,
 ):
@@ -109,12 +111,13 @@ def heat_pump_cop(
         Heat sink (supply or flow) temperature. [°C]
     source_temp_c : float or array_like
         Heat source temperature (outdoor air, groundwater). [°C] Broadcast against ``sink_temp_c``.
-    quality_grade : float, default 0.45
+    quality_grade : float, default 0.5
         Share of the Carnot COP the machine reaches, in (0, 1]. [-]
-    sink_approach_k : float, default 5.0
+    sink_approach_k : float, default 3.0
         Condensing temperature above the sink temperature, >= 0. [K]
-    source_approach_k : float, default 3.0
+    source_approach_k : float, default 5.0
         Evaporating temperature below the source temperature, >= 0. [K]
+        The defaults are those of a blank cell in ``technologies.csv`` (:mod:`engine.scenario.defaults`).
     cop_min : float, default 1.0
         Lower clip of the COP, > 0. [-]
     cop_max : float, default 8.0

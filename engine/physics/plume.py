@@ -67,6 +67,9 @@ Screening only: homogeneous aquifer, uniform flow, no heat exchange with the con
 effect of the wells. Results are screening estimates; a permit needs the numerical groundwater model the water
 authority asks for, and decisions belong to licensed engineers and the local authority.
 
+Applied to a well field (interference matrix, temperature shifts, isotherm outlines) in
+:mod:`engine.physics.plume_field`; coordinates (local metric grid, flow frame) in :mod:`engine.physics.coords`.
+
 References
 ----------
 .. [1] Kinzelbach, W. (1987). Numerische Methoden zur Modellierung des Transports von Schadstoffen im
@@ -81,17 +84,18 @@ References
    (continuous line source, section 10.4).
 .. [6] Abramowitz, M. and Stegun, I. A. (1964). Handbook of Mathematical Functions. National Bureau of
    Standards (integral representation of K0, 9.6.24).
-.. [7] Snyder, J. P. (1987). Map Projections: A Working Manual. U.S. Geological Survey Professional Paper 1395
-   (equirectangular projection, chapter 12).
 """
 
 from __future__ import annotations
 
+import enum
+
 import numpy as np
 from scipy import special
 
-EARTH_RADIUS_M = 6_371_008.8
-"""Mean Earth radius R1 of GRS 80 [m] (Moritz 2000, Journal of Geodesy 74, 128-133)."""
+from engine import cautions
+from engine.physics.arguments import as_result, finite_array, finite_scalar
+
 
 SECONDS_PER_DAY = 86_400.0
 
@@ -99,46 +103,9 @@ DEFAULT_THERMAL_CONDUCTIVITY_W_PER_M_K = 2.0
 """Thermal conductivity of a water-saturated sand or gravel aquifer [W/(m K)]; a typical handbook value,
 quoted from memory (saturated unconsolidated sediments lie roughly between 1.5 and 2.5 W/(m K))."""
 
-SCREENING_CAUTION = (
-    "Screening estimate only: an analytic plume model in a uniform, homogeneous aquifer. It does not replace "
-    "the numerical groundwater model a well permit requires; defer to the water authority, local codes and "
-    "licensed engineers."
-)
-
 _QUADRATURE_NODES, _QUADRATURE_WEIGHTS = np.polynomial.legendre.leggauss(128)
 _INTEGRAND_CUTOFF = 50.0  # the transient integrand is cut where it falls below exp(-50) of its peak
 _CHUNK = 20_000  # points per quadrature block, to bound memory (points x nodes)
-_MAX_ISOTHERM_RADIUS_M = 1.0e7
-
-
-# ----------------------------------------------------------------------------- argument checks
-def _scalar(value, name: str, *, minimum: float | None = None, strictly: bool = False) -> float:
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        raise ValueError(f"{name} must be a number; got {value!r}") from None
-    if not np.isfinite(number):
-        raise ValueError(f"{name} must be finite; got {number}")
-    if minimum is not None:
-        if strictly and number <= minimum:
-            raise ValueError(f"{name} must be greater than {minimum:g}; got {number:g}")
-        if not strictly and number < minimum:
-            raise ValueError(f"{name} must be at least {minimum:g}; got {number:g}")
-    return number
-
-
-def _array(value, name: str) -> np.ndarray:
-    try:
-        array = np.asarray(value, dtype=float)
-    except (TypeError, ValueError):
-        raise ValueError(f"{name} must be numeric; got {value!r}") from None
-    if not np.all(np.isfinite(array)):
-        raise ValueError(f"{name} must be finite; got a NaN or infinite value")
-    return array
-
-
-def _as_result(array: np.ndarray):
-    return array[()] if array.ndim == 0 else array
 
 
 def _transport_coefficients(
@@ -150,12 +117,12 @@ def _transport_coefficients(
     thermal_conductivity_w_per_m_k,
 ):
     """Thermal velocity u [m/s] and dispersion coefficients D_L, D_T [m²/s], after checking the arguments."""
-    q = _scalar(darcy_velocity_m_per_s, "darcy_velocity_m_per_s", minimum=0.0)
-    alpha_l = _scalar(longitudinal_dispersivity_m, "longitudinal_dispersivity_m", minimum=0.0)
-    alpha_t = _scalar(transverse_dispersivity_m, "transverse_dispersivity_m", minimum=0.0)
-    c_a = _scalar(aquifer_heat_capacity_j_per_m3_k, "aquifer_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
-    c_w = _scalar(water_heat_capacity_j_per_m3_k, "water_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
-    lam = _scalar(thermal_conductivity_w_per_m_k, "thermal_conductivity_w_per_m_k", minimum=0.0)
+    q = finite_scalar(darcy_velocity_m_per_s, "darcy_velocity_m_per_s", minimum=0.0)
+    alpha_l = finite_scalar(longitudinal_dispersivity_m, "longitudinal_dispersivity_m", minimum=0.0)
+    alpha_t = finite_scalar(transverse_dispersivity_m, "transverse_dispersivity_m", minimum=0.0)
+    c_a = finite_scalar(aquifer_heat_capacity_j_per_m3_k, "aquifer_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
+    c_w = finite_scalar(water_heat_capacity_j_per_m3_k, "water_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
+    lam = finite_scalar(thermal_conductivity_w_per_m_k, "thermal_conductivity_w_per_m_k", minimum=0.0)
     u = q * c_w / c_a
     d_l = alpha_l * u + lam / c_a
     d_t = alpha_t * u + lam / c_a
@@ -266,9 +233,9 @@ def unit_plume_response_s_per_m3(
     Kinzelbach (1987); Pophillat et al. (2020); Hantush and Jacob (1955); Carslaw and Jaeger (1959),
     full citations in the module docstring.
     """
-    x = _array(x_m, "x_m")
-    y = _array(y_m, "y_m")
-    b = _scalar(saturated_thickness_m, "saturated_thickness_m", minimum=0.0, strictly=True)
+    x = finite_array(x_m, "x_m")
+    y = finite_array(y_m, "y_m")
+    b = finite_scalar(saturated_thickness_m, "saturated_thickness_m", minimum=0.0, strictly=True)
     u, d_l, d_t, capacity_ratio = _transport_coefficients(
         darcy_velocity_m_per_s,
         longitudinal_dispersivity_m,
@@ -290,9 +257,9 @@ def unit_plume_response_s_per_m3(
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             # x u / (2 D_L) <= beta always, so the exponent is never positive; k0e(0) = inf at the well
             response = steady_coefficient * np.exp(x * u / (2.0 * d_l) - beta) * special.k0e(beta)
-        return _as_result(np.where(beta == 0.0, np.inf, response))
+        return as_result(np.where(beta == 0.0, np.inf, response))
 
-    t = _array(time_s, "time_s")
+    t = finite_array(time_s, "time_s")
     if np.any(t <= 0.0):
         raise ValueError(f"time_s must be positive; got {float(np.min(t)):g} s")
     x, y, t = np.broadcast_arrays(x, y, t)
@@ -304,14 +271,14 @@ def unit_plume_response_s_per_m3(
     if u <= 0.0:
         # pure conduction, D_L = D_T: continuous line source of Carslaw and Jaeger, E1(r² / (4 D t))
         response[away] = 0.5 * steady_coefficient * special.exp1(rho[away] ** 2 / (4.0 * t[away]))
-        return _as_result(response.reshape(shape))
+        return as_result(response.reshape(shape))
     beta = u * rho[away] / (2.0 * np.sqrt(d_l))
     centre_time = rho[away] * np.sqrt(d_l) / u  # time at which the puff integrand peaks [s]
     v_max = np.log(t[away] / centre_time)
     integral = _incomplete_cosh_integral_scaled(beta, v_max)
     with np.errstate(over="ignore", invalid="ignore"):
         response[away] = 0.5 * steady_coefficient * np.exp(x[away] * u / (2.0 * d_l) - beta) * integral
-    return _as_result(response.reshape(shape))
+    return as_result(response.reshape(shape))
 
 
 def plume_temperature_change_k(
@@ -382,8 +349,8 @@ def plume_temperature_change_k(
     ----------
     Kinzelbach (1987); Haehnlein et al. (2010); Pophillat et al. (2020), full citations in the module docstring.
     """
-    rate = _scalar(injection_rate_m3_per_s, "injection_rate_m3_per_s", minimum=0.0)
-    delta = _scalar(injection_temp_change_k, "injection_temp_change_k")
+    rate = finite_scalar(injection_rate_m3_per_s, "injection_rate_m3_per_s", minimum=0.0)
+    delta = finite_scalar(injection_temp_change_k, "injection_temp_change_k")
     response = np.asarray(
         unit_plume_response_s_per_m3(
             x_m,
@@ -399,136 +366,11 @@ def plume_temperature_change_k(
         )
     )
     if rate == 0.0 or delta == 0.0:
-        return _as_result(np.zeros_like(response))
+        return as_result(np.zeros_like(response))
     magnitude = np.minimum(rate * abs(delta) * response, abs(delta))
-    return _as_result(np.sign(delta) * magnitude)
+    return as_result(np.sign(delta) * magnitude)
 
 
-# ----------------------------------------------------------------------------- coordinates
-def to_flow_frame(dx_east_m, dy_north_m, flow_direction_deg):
-    """Rotate east/north offsets from a well into the flow frame (x along the flow, y across it).
-
-    Parameters
-    ----------
-    dx_east_m, dy_north_m : float or array_like
-        Offset of the points from the well, east and north. [m]
-    flow_direction_deg : float
-        Direction the groundwater flows TO, clockwise from north (90 = flowing east). [°]
-
-    Returns
-    -------
-    tuple of numpy.ndarray
-        ``(x_along_m, y_across_m)``: distance down-gradient and distance to the left of the flow. [m]
-
-    Raises
-    ------
-    ValueError
-        If an argument is not finite.
-    """
-    dx = _array(dx_east_m, "dx_east_m")
-    dy = _array(dy_north_m, "dy_north_m")
-    angle = np.radians(_scalar(flow_direction_deg, "flow_direction_deg"))
-    # unit vector of the flow in (east, north) is (sin a, cos a); the left normal is (-cos a, sin a)
-    x_along = dx * np.sin(angle) + dy * np.cos(angle)
-    y_across = -dx * np.cos(angle) + dy * np.sin(angle)
-    return _as_result(x_along), _as_result(y_across)
-
-
-def from_flow_frame(x_along_m, y_across_m, flow_direction_deg):
-    """Inverse of :func:`to_flow_frame`: flow-frame coordinates back to east/north offsets.
-
-    Parameters
-    ----------
-    x_along_m, y_across_m : float or array_like
-        Distance down-gradient and to the left of the flow. [m]
-    flow_direction_deg : float
-        Direction the groundwater flows TO, clockwise from north. [°]
-
-    Returns
-    -------
-    tuple of numpy.ndarray
-        ``(dx_east_m, dy_north_m)``. [m]
-    """
-    x = _array(x_along_m, "x_along_m")
-    y = _array(y_across_m, "y_across_m")
-    angle = np.radians(_scalar(flow_direction_deg, "flow_direction_deg"))
-    dx_east = x * np.sin(angle) - y * np.cos(angle)
-    dy_north = x * np.cos(angle) + y * np.sin(angle)
-    return _as_result(dx_east), _as_result(dy_north)
-
-
-def _check_latitude(lat: np.ndarray, name: str) -> None:
-    if np.any(np.abs(lat) > 90.0):
-        raise ValueError(f"{name} must lie between -90 and 90 degrees; got {float(np.max(np.abs(lat))):g}")
-
-
-def lonlat_to_local_m(lon, lat, lon0, lat0):
-    """WGS 84 longitude/latitude to local east/north metres about a reference point (equirectangular).
-
-    ``x = R cos(lat0) (lon - lon0)``, ``y = R (lat - lat0)`` with angles in radians and R the mean Earth
-    radius. Over a few kilometres, the scale of well interference, the error is far below a metre per
-    kilometre; it is not meant for distances of hundreds of kilometres.
-
-    Parameters
-    ----------
-    lon, lat : float or array_like
-        Position. [° WGS 84]
-    lon0, lat0 : float
-        Reference point (origin of the local frame). [° WGS 84]
-
-    Returns
-    -------
-    tuple of numpy.ndarray
-        ``(x_east_m, y_north_m)``. [m]
-
-    References
-    ----------
-    Snyder (1987), Map Projections: A Working Manual, chapter 12.
-    """
-    lon = _array(lon, "lon")
-    lat = _array(lat, "lat")
-    lon0 = _scalar(lon0, "lon0")
-    lat0 = _scalar(lat0, "lat0")
-    _check_latitude(lat, "lat")
-    if abs(lat0) >= 89.0:
-        raise ValueError(f"lat0 must lie within 89 degrees of the equator for a local frame; got {lat0:g}")
-    dlon = (lon - lon0 + 180.0) % 360.0 - 180.0  # across the antimeridian as well
-    x_east = EARTH_RADIUS_M * np.cos(np.radians(lat0)) * np.radians(dlon)
-    y_north = EARTH_RADIUS_M * np.radians(lat - lat0)
-    return _as_result(x_east), _as_result(y_north)
-
-
-def local_m_to_lonlat(x_east, y_north, lon0, lat0):
-    """Inverse of :func:`lonlat_to_local_m`: local east/north metres to WGS 84 longitude/latitude.
-
-    Parameters
-    ----------
-    x_east, y_north : float or array_like
-        Offset from the reference point. [m]
-    lon0, lat0 : float
-        Reference point. [° WGS 84]
-
-    Returns
-    -------
-    tuple of numpy.ndarray
-        ``(lon, lat)``. [° WGS 84]
-
-    References
-    ----------
-    Snyder (1987), Map Projections: A Working Manual, chapter 12.
-    """
-    x = _array(x_east, "x_east")
-    y = _array(y_north, "y_north")
-    lon0 = _scalar(lon0, "lon0")
-    lat0 = _scalar(lat0, "lat0")
-    if abs(lat0) >= 89.0:
-        raise ValueError(f"lat0 must lie within 89 degrees of the equator for a local frame; got {lat0:g}")
-    lon = lon0 + np.degrees(x / (EARTH_RADIUS_M * np.cos(np.radians(lat0))))
-    lat = lat0 + np.degrees(y / EARTH_RADIUS_M)
-    return _as_result(lon), _as_result(lat)
-
-
-# ----------------------------------------------------------------------------- doublets
 def plume_parameters_from_aquifer(aquifer, thermal_conductivity_w_per_m_k=DEFAULT_THERMAL_CONDUCTIVITY_W_PER_M_K):
     """Keyword arguments in SI units for the plume functions from an ``[aquifer]`` description.
 
@@ -548,7 +390,8 @@ def plume_parameters_from_aquifer(aquifer, thermal_conductivity_w_per_m_k=DEFAUL
         ``flow_direction_deg``, ``darcy_velocity_m_per_s``, ``saturated_thickness_m``,
         ``longitudinal_dispersivity_m``, ``transverse_dispersivity_m``, ``aquifer_heat_capacity_j_per_m3_k``,
         ``water_heat_capacity_j_per_m3_k``, ``thermal_conductivity_w_per_m_k``: exactly the keywords of
-        :func:`interference_matrix_k_per_unit` and :func:`isotherm_polygon_lonlat`.
+        :func:`engine.physics.plume_field.interference_matrix_k_per_unit` and
+        :func:`engine.physics.plume_field.isotherm_polygon_lonlat`.
     """
     return {
         "flow_direction_deg": float(aquifer.flow_direction_deg),
@@ -562,340 +405,58 @@ def plume_parameters_from_aquifer(aquifer, thermal_conductivity_w_per_m_k=DEFAUL
     }
 
 
-def interference_matrix_k_per_unit(
-    reinjection_lon,
-    reinjection_lat,
-    extraction_lon,
-    extraction_lat,
-    flow_direction_deg,
-    darcy_velocity_m_per_s,
-    saturated_thickness_m,
-    longitudinal_dispersivity_m,
-    transverse_dispersivity_m,
-    aquifer_heat_capacity_j_per_m3_k=2.8e6,
-    water_heat_capacity_j_per_m3_k=4.18e6,
-    thermal_conductivity_w_per_m_k=DEFAULT_THERMAL_CONDUCTIVITY_W_PER_M_K,
-    time_s=None,
-):
-    """Temperature change at every extraction well per unit ``Q * dT_inj`` at every reinjection well.
-
-    Entry ``[i, j]`` is the plume response of reinjection well ``i`` at extraction well ``j``
-    (:func:`unit_plume_response_s_per_m3`). Because the line-source model is linear in ``Q * dT_inj``, the
-    temperature shift at extraction well ``j`` is ``sum_i M[i, j] Q_i dT_i``; use
-    :func:`extraction_temperature_shift_k`, which also applies the near-well clipping. The diagonal is each
-    doublet's own recirculation (its reinjection plume at its own extraction well); the model ignores the
-    drawdown cone of the extraction well, which in reality pulls water towards it, so a diagonal entry is
-    a crude indicator only (usually near zero, as extraction wells sit up-gradient). Entries are not clipped
-    and are infinite where a reinjection and an extraction well coincide. Screening estimate only.
-
-    Parameters
-    ----------
-    reinjection_lon, reinjection_lat : array_like, shape (n,)
-        Reinjection well positions. [° WGS 84]
-    extraction_lon, extraction_lat : array_like, shape (n,)
-        Extraction well positions of the same n doublets. [° WGS 84]
-    flow_direction_deg : float
-        Direction the groundwater flows TO, clockwise from north. [°]
-    darcy_velocity_m_per_s, saturated_thickness_m, longitudinal_dispersivity_m, transverse_dispersivity_m,
-    aquifer_heat_capacity_j_per_m3_k, water_heat_capacity_j_per_m3_k, thermal_conductivity_w_per_m_k, time_s
-        As in :func:`plume_temperature_change_k`. [m/s], [m], [m], [m], [J/(m³ K)], [J/(m³ K)], [W/(m K)], [s]
-
-    Returns
-    -------
-    numpy.ndarray, shape (n, n)
-        ``M[i, j]``, temperature change at extraction well j per unit ``Q * dT_inj`` at reinjection well i.
-        [K / (m³/s K)] = [s/m³]
-
-    Raises
-    ------
-    ValueError
-        If the position arrays differ in length or hold non-finite values, or an aquifer argument is bad.
-
-    References
-    ----------
-    Kinzelbach (1987); Pophillat et al. (2020), full citations in the module docstring.
-    """
-    positions = {
-        "reinjection_lon": reinjection_lon,
-        "reinjection_lat": reinjection_lat,
-        "extraction_lon": extraction_lon,
-        "extraction_lat": extraction_lat,
-    }
-    arrays = {name: np.atleast_1d(_array(value, name)) for name, value in positions.items()}
-    for name, array in arrays.items():
-        if array.ndim != 1:
-            raise ValueError(f"{name} must be one-dimensional; got shape {array.shape}")
-    sizes = {name: array.size for name, array in arrays.items()}
-    if len(set(sizes.values())) != 1:
-        raise ValueError(f"reinjection and extraction positions must have the same length; got {sizes}")
-    _check_latitude(arrays["reinjection_lat"], "reinjection_lat")
-    _check_latitude(arrays["extraction_lat"], "extraction_lat")
-    if sizes["reinjection_lon"] == 0:
-        return np.zeros((0, 0))
-    lon0 = float(np.mean(np.concatenate([arrays["reinjection_lon"], arrays["extraction_lon"]])))
-    lat0 = float(np.mean(np.concatenate([arrays["reinjection_lat"], arrays["extraction_lat"]])))
-    source_east, source_north = lonlat_to_local_m(arrays["reinjection_lon"], arrays["reinjection_lat"], lon0, lat0)
-    target_east, target_north = lonlat_to_local_m(arrays["extraction_lon"], arrays["extraction_lat"], lon0, lat0)
-    x_along, y_across = to_flow_frame(
-        target_east[None, :] - source_east[:, None], target_north[None, :] - source_north[:, None], flow_direction_deg
-    )
-    return np.asarray(
-        unit_plume_response_s_per_m3(
-            x_along,
-            y_across,
-            darcy_velocity_m_per_s,
-            saturated_thickness_m,
-            longitudinal_dispersivity_m,
-            transverse_dispersivity_m,
-            aquifer_heat_capacity_j_per_m3_k,
-            water_heat_capacity_j_per_m3_k,
-            thermal_conductivity_w_per_m_k,
-            time_s,
-        ),
-        dtype=float,
-    ).reshape(x_along.shape)
-
-
-def extraction_temperature_shift_k(interference_matrix, injection_rate_m3_per_s, injection_temp_change_k):
-    """Temperature shift at each extraction well from all reinjection plumes (superposition with clipping).
-
-    ``shift_j = sum_i clip(M[i, j] Q_i dT_i)``, each term clipped to ``|dT_i|`` (the near-well clipping of
-    :func:`plume_temperature_change_k`) and the sum clipped to the range spanned by zero and the injected
-    temperature differences, which no mixture of the injected waters can leave.
-
-    Parameters
-    ----------
-    interference_matrix : array_like, shape (n, n)
-        From :func:`interference_matrix_k_per_unit`. [K / (m³/s K)]
-    injection_rate_m3_per_s : array_like, shape (n,)
-        Reinjected volume flow of each doublet. [m³/s] Not negative.
-    injection_temp_change_k : array_like, shape (n,)
-        Reinjection minus undisturbed groundwater temperature of each doublet. [K] Negative for heating.
-
-    Returns
-    -------
-    numpy.ndarray, shape (n,)
-        Temperature change of the water reaching each extraction well. [K]
-
-    Raises
-    ------
-    ValueError
-        If the shapes do not match, a rate is negative or a value is not finite (NaN; the matrix may hold +inf).
-    """
-    matrix = np.asarray(interference_matrix, dtype=float)
-    rate = np.atleast_1d(_array(injection_rate_m3_per_s, "injection_rate_m3_per_s"))
-    delta = np.atleast_1d(_array(injection_temp_change_k, "injection_temp_change_k"))
-    if matrix.ndim != 2 or matrix.shape[0] != matrix.shape[1]:
-        raise ValueError(f"interference_matrix must be square; got shape {matrix.shape}")
-    if np.any(np.isnan(matrix)) or np.any(matrix < 0.0):
-        raise ValueError("interference_matrix must hold non-negative numbers (NaN or negative found)")
-    n = matrix.shape[0]
-    if rate.shape != (n,):
-        raise ValueError(f"injection_rate_m3_per_s must have {n} values; got shape {rate.shape}")
-    if delta.shape != (n,):
-        raise ValueError(f"injection_temp_change_k must have {n} values; got shape {delta.shape}")
-    if np.any(rate < 0.0):
-        raise ValueError(f"injection_rate_m3_per_s must not be negative; got {float(np.min(rate)):g}")
-    strength = rate * np.abs(delta)
-    with np.errstate(invalid="ignore"):
-        magnitude = np.where(strength[:, None] > 0.0, matrix * strength[:, None], 0.0)
-    terms = np.sign(delta)[:, None] * np.minimum(magnitude, np.abs(delta)[:, None])
-    shift = terms.sum(axis=0)
-    return np.clip(shift, min(0.0, float(delta.min(initial=0.0))), max(0.0, float(delta.max(initial=0.0))))
-
-
-# ----------------------------------------------------------------------------- isotherms
-def _ray_radius_bisect(evaluate, directions: np.ndarray, level: float, lower: np.ndarray, upper: np.ndarray):
-    """Radius on each ray where ``evaluate`` crosses ``level``, by bisection in log radius.
-
-    Expects ``evaluate(lower) >= level > evaluate(upper)`` on every ray.
-    """
-    log_lo, log_hi = np.log(lower), np.log(upper)
-    for _ in range(60):
-        log_mid = 0.5 * (log_lo + log_hi)
-        inside = evaluate(np.exp(log_mid)[:, None] * directions) >= level
-        log_lo = np.where(inside, log_mid, log_lo)
-        log_hi = np.where(inside, log_hi, log_mid)
-    return np.exp(0.5 * (log_lo + log_hi))
-
-
-def _isotherm_radii(evaluate_steady, evaluate, directions: np.ndarray, level: float, transient: bool) -> np.ndarray:
-    """Outermost radius of the level on each ray (directions: (k, 2) unit vectors in the flow frame)."""
-    count = directions.shape[0]
-    lower = np.ones(count)
-    upper = np.ones(count)
-    # bracket the steady crossing: the steady plume decreases strictly along every ray from the well
-    for _ in range(80):
-        too_far = evaluate_steady(lower[:, None] * directions) < level
-        if not np.any(too_far):
-            break
-        lower = np.where(too_far, lower / 4.0, lower)
-    for _ in range(80):
-        reached = evaluate_steady(upper[:, None] * directions) >= level
-        if not np.any(reached):
-            break
-        if np.any(upper[reached] > _MAX_ISOTHERM_RADIUS_M):
-            raise ValueError(
-                "level_k: the isotherm reaches beyond 10 000 km, far outside where the model means anything; "
-                "check darcy_velocity_m_per_s and the injection figures"
-            )
-        upper = np.where(reached, upper * 4.0, upper)
-    upper = np.maximum(upper, lower * 1.0001)
-    steady_radius = _ray_radius_bisect(evaluate_steady, directions, level, lower, upper)
-    if not transient:
-        return steady_radius
-    # the transient plume lies inside the steady one (its integrand is positive, its range shorter);
-    # sample each ray and bisect after the outermost sample at or above the level
-    fractions = np.geomspace(1e-6, 1.0, 240)
-    radii = steady_radius[:, None] * fractions[None, :]
-    values = evaluate(radii[:, :, None] * directions[:, None, :])
-    above = values >= level
-    has_crossing = above.any(axis=1)
-    last = np.where(has_crossing, above.shape[1] - 1 - np.argmax(above[:, ::-1], axis=1), 0)
-    result = np.zeros(count)
-    ray = np.flatnonzero(has_crossing)
-    if ray.size == 0:
-        return result
-    inner = radii[ray, last[ray]]
-    outer = np.where(last[ray] + 1 < radii.shape[1], radii[ray, np.minimum(last[ray] + 1, radii.shape[1] - 1)], inner)
-    done = last[ray] + 1 >= radii.shape[1]
-    bisected = _ray_radius_bisect(evaluate, directions[ray], level, inner, np.maximum(outer, inner * 1.0001))
-    result[ray] = np.where(done, inner, bisected)
-    return result
-
-
-def isotherm_polygon_lonlat(
-    level_k,
-    reinjection_lon,
-    reinjection_lat,
-    injection_rate_m3_per_s,
-    injection_temp_change_k,
-    flow_direction_deg,
-    darcy_velocity_m_per_s,
-    saturated_thickness_m,
-    longitudinal_dispersivity_m,
-    transverse_dispersivity_m,
-    aquifer_heat_capacity_j_per_m3_k=2.8e6,
-    water_heat_capacity_j_per_m3_k=4.18e6,
-    thermal_conductivity_w_per_m_k=DEFAULT_THERMAL_CONDUCTIVITY_W_PER_M_K,
-    time_s=None,
-    ray_count=181,
-):
-    """Outline of the area where a plume changes the groundwater temperature by at least ``level_k``.
-
-    Rays are cast from the reinjection well and the crossing ``|dT| = level_k`` is found on each by bisection.
-    The steady plume strictly decreases along every ray from the well (``d ln dT / dr = u cos(a) / (2 D_L) -
-    k K1(k r) / K0(k r) < 0`` since ``K1 > K0``), so it is star-shaped and the rays find its exact outline.
-    The transient plume is sampled along each ray and the outermost crossing taken. A first pass with evenly
-    spaced rays measures the plume's elongation; a second pass spaces the rays evenly in a frame stretched by
-    that elongation, so that a long narrow plume gets rays along its sides and tip too.
-
-    Parameters
-    ----------
-    level_k : float
-        Isotherm, as a magnitude of temperature change. [K] Positive.
-    reinjection_lon, reinjection_lat : float
-        Reinjection well. [° WGS 84]
-    injection_rate_m3_per_s, injection_temp_change_k, darcy_velocity_m_per_s, saturated_thickness_m,
-    longitudinal_dispersivity_m, transverse_dispersivity_m, aquifer_heat_capacity_j_per_m3_k,
-    water_heat_capacity_j_per_m3_k, thermal_conductivity_w_per_m_k, time_s
-        As in :func:`plume_temperature_change_k`.
-    flow_direction_deg : float
-        Direction the groundwater flows TO, clockwise from north. [°]
-    ray_count : int, default 181
-        Number of rays (and vertices). At least 8.
-
-    Returns
-    -------
-    list of tuple of float
-        ``[(lon, lat), ...]`` [° WGS 84], a closed ring (the first vertex repeated at the end, as GeoJSON
-        wants), counter-clockwise seen from above. Empty when the level is never reached: no injection, or
-        ``level_k >= |injection_temp_change_k|``, which only the clipped, invalid zone at the well could reach.
-        Also empty for a transient so early that the isotherm is smaller than a millionth of the steady one.
-
-    Raises
-    ------
-    ValueError
-        Naming the argument that is not finite or out of range.
-
-    References
-    ----------
-    Kinzelbach (1987); Pophillat et al. (2020), full citations in the module docstring.
-    """
-    level = _scalar(level_k, "level_k", minimum=0.0, strictly=True)
-    lon0 = _scalar(reinjection_lon, "reinjection_lon")
-    lat0 = _scalar(reinjection_lat, "reinjection_lat")
-    rate = _scalar(injection_rate_m3_per_s, "injection_rate_m3_per_s", minimum=0.0)
-    delta = _scalar(injection_temp_change_k, "injection_temp_change_k")
-    direction = _scalar(flow_direction_deg, "flow_direction_deg")
-    try:
-        rays = int(ray_count)
-    except (TypeError, ValueError):
-        raise ValueError(f"ray_count must be an integer; got {ray_count!r}") from None
-    if rays < 8:
-        raise ValueError(f"ray_count must be at least 8; got {rays}")
-    if time_s is not None:
-        time_s = _scalar(time_s, "time_s", minimum=0.0, strictly=True)
-    aquifer = dict(
-        darcy_velocity_m_per_s=darcy_velocity_m_per_s,
-        saturated_thickness_m=saturated_thickness_m,
-        longitudinal_dispersivity_m=longitudinal_dispersivity_m,
-        transverse_dispersivity_m=transverse_dispersivity_m,
-        aquifer_heat_capacity_j_per_m3_k=aquifer_heat_capacity_j_per_m3_k,
-        water_heat_capacity_j_per_m3_k=water_heat_capacity_j_per_m3_k,
-        thermal_conductivity_w_per_m_k=thermal_conductivity_w_per_m_k,
-    )
-    # validate the aquifer once (raises with the argument's name), also when nothing is injected
-    unit_plume_response_s_per_m3(1.0, 0.0, **aquifer, time_s=time_s)
-    strength = rate * abs(delta)
-    if strength == 0.0 or level >= abs(delta):
-        return []
-
-    def evaluate(points: np.ndarray, time=time_s) -> np.ndarray:
-        response = unit_plume_response_s_per_m3(points[..., 0], points[..., 1], **aquifer, time_s=time)
-        return strength * np.asarray(response)
-
-    if float(darcy_velocity_m_per_s) > 0.0:
-        transient = time_s is not None
-
-        def evaluate_steady(points: np.ndarray) -> np.ndarray:
-            return evaluate(points, None)
-
-    else:
-        # no flow: only the transient exists (the check above raised otherwise); it is the conduction line
-        # source E1(r² / (4 D t)), which decreases along every ray, so it brackets itself
-        transient = False
-        evaluate_steady = evaluate
-
-    def outline(angles: np.ndarray, stretch: float) -> np.ndarray:
-        directions = np.column_stack([np.cos(angles), np.sin(angles) / stretch])
-        directions /= np.linalg.norm(directions, axis=1)[:, None]
-        radii = _isotherm_radii(evaluate_steady, evaluate, directions, level, transient)
-        return radii[:, None] * directions
-
-    angles = np.linspace(0.0, 2.0 * np.pi, rays, endpoint=False)
-    first = outline(angles, 1.0)
-    length = np.ptp(first[:, 0])
-    width = np.ptp(first[:, 1])
-    stretch = float(np.clip(length / width, 1.0, 1e3)) if width > 0.0 else 1.0
-    points = outline(angles, stretch) if stretch > 1.05 else first
-    if not np.any(np.linalg.norm(points, axis=1) > 0.0):
-        return []
-    east, north = from_flow_frame(points[:, 0], points[:, 1], direction)
-    lon, lat = local_m_to_lonlat(east, north, lon0, lat0)
-    ring = list(zip(np.atleast_1d(lon).tolist(), np.atleast_1d(lat).tolist()))
-    if _signed_area(np.atleast_1d(east), np.atleast_1d(north)) < 0.0:
-        ring.reverse()
-    ring.append(ring[0])
-    return ring
-
-
-def _signed_area(x: np.ndarray, y: np.ndarray) -> float:
-    """Shoelace area of a polygon given by its vertices (positive when counter-clockwise)."""
-    return 0.5 * float(np.sum(x * np.roll(y, -1) - np.roll(x, -1) * y))
-
-
 # ----------------------------------------------------------------------------- validity
+class NoteCode(str, enum.Enum):
+    """What a validity note of :func:`validity_notes` is about; code compares these, never the words."""
+
+    CAUTION = "caution"
+    """The screening caution (:data:`engine.cautions.PLUME`), always first."""
+    CONDUCTION_ONLY = "conduction_only"
+    """Flow too slow for the advective model at all."""
+    SLOW_FLOW = "slow_flow"
+    """Slow flow: the steady line source overstates the reach."""
+    SLOW_SEEPAGE = "slow_seepage"
+    """Seepage velocity below the range where the analytic model matches numerical ones."""
+    NEAR_WELL_ZONE = "near_well_zone"
+    """The zone around the reinjection well where the model is not valid."""
+    POINT_IN_NEAR_ZONE = "point_in_near_zone"
+    """The point of interest lies inside that zone."""
+    POINT_IN_NEAR_FIELD = "point_in_near_field"
+    """The point of interest is closer than ten longitudinal dispersivities."""
+    FRONT_TRAVEL = "front_travel"
+    """The steady state assumes a far longer operation than the thermal front needs to reach the point."""
+    FRONT_NOT_ARRIVED = "front_not_arrived"
+    """The thermal front has not reached the point of interest in the operating time."""
+    STEADY_STATE = "steady_state"
+    """What the steady state overstates."""
+    ASSUMPTIONS = "assumptions"
+    """The model's assumptions, always last."""
+
+
+POINT_NOTES = frozenset({
+    NoteCode.POINT_IN_NEAR_ZONE, NoteCode.POINT_IN_NEAR_FIELD, NoteCode.FRONT_TRAVEL, NoteCode.FRONT_NOT_ARRIVED,
+})
+"""Codes of the notes about one point of interest (a neighbour's well), as opposed to the aquifer as a whole."""
+
+
+class ValidityNote(str):
+    """The text of a validity note, with its :class:`NoteCode` as ``code``.
+
+    A note is a ``str`` (shown, stored and written as JSON as its text); code that must tell notes apart reads
+    ``note.code``.
+    """
+
+    code: NoteCode
+
+    def __new__(cls, code: NoteCode, text: str) -> "ValidityNote":
+        note = super().__new__(cls, text)
+        note.code = NoteCode(code)
+        return note
+
+    def __getnewargs__(self):
+        return (self.code, str(self))
+
+
 def validity_notes(
     darcy_velocity_m_per_d,
     *,
@@ -938,8 +499,8 @@ def validity_notes(
 
     Returns
     -------
-    list of str
-        Warnings, most important first.
+    list of ValidityNote
+        Warnings, most important first: text (``str``) with a :class:`NoteCode` as ``code``.
 
     Raises
     ------
@@ -950,84 +511,94 @@ def validity_notes(
     ----------
     Pophillat et al. (2020); Haehnlein et al. (2010), full citations in the module docstring.
     """
-    q_per_day = _scalar(darcy_velocity_m_per_d, "darcy_velocity_m_per_d", minimum=0.0)
-    c_a = _scalar(aquifer_heat_capacity_j_per_m3_k, "aquifer_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
-    c_w = _scalar(water_heat_capacity_j_per_m3_k, "water_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
-    notes = [SCREENING_CAUTION]
+    q_per_day = finite_scalar(darcy_velocity_m_per_d, "darcy_velocity_m_per_d", minimum=0.0)
+    c_a = finite_scalar(aquifer_heat_capacity_j_per_m3_k, "aquifer_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
+    c_w = finite_scalar(water_heat_capacity_j_per_m3_k, "water_heat_capacity_j_per_m3_k", minimum=0.0, strictly=True)
+    notes = [ValidityNote(NoteCode.CAUTION, cautions.PLUME)]
     if q_per_day < 0.01:
-        notes.append(
+        notes.append(ValidityNote(
+            NoteCode.CONDUCTION_ONLY,
             f"Darcy velocity {q_per_day:g} m/d is below about 0.01 m/d (rule of thumb, from memory): heat spreads "
             "mainly by conduction around the well, the advective line-source model does not apply, and its "
             "steady state does not exist without flow. Use a radial or numerical model."
-        )
+        ))
     elif q_per_day < 0.1:
-        notes.append(
+        notes.append(ValidityNote(
+            NoteCode.SLOW_FLOW,
             f"Darcy velocity {q_per_day:g} m/d is low (below about 0.1 m/d, rule of thumb, from memory): "
             "conduction matters and the steady line-source model, which has no heat loss to the confining layers, "
             "overstates how far the plume reaches (Pophillat et al. 2020 discuss the validity range)."
-        )
+        ))
     if effective_porosity is not None:
-        porosity = _scalar(effective_porosity, "effective_porosity", minimum=0.0, strictly=True)
+        porosity = finite_scalar(effective_porosity, "effective_porosity", minimum=0.0, strictly=True)
         if porosity > 1.0:
             raise ValueError(f"effective_porosity must be at most 1; got {porosity:g}")
         seepage = q_per_day / porosity
         if seepage < 1.0:
-            notes.append(
+            notes.append(ValidityNote(
+                NoteCode.SLOW_SEEPAGE,
                 f"Seepage velocity {seepage:.3g} m/d is below about 1 m/d; Pophillat et al. (2020) found the "
                 "analytic line-source model to deviate from numerical models at slow flow (threshold recalled "
                 "from memory)."
-            )
+            ))
     near_zone_m = None
     if injection_rate_m3_per_s is not None and saturated_thickness_m is not None and q_per_day > 0.0:
-        rate = _scalar(injection_rate_m3_per_s, "injection_rate_m3_per_s", minimum=0.0)
-        thickness = _scalar(saturated_thickness_m, "saturated_thickness_m", minimum=0.0, strictly=True)
+        rate = finite_scalar(injection_rate_m3_per_s, "injection_rate_m3_per_s", minimum=0.0)
+        thickness = finite_scalar(saturated_thickness_m, "saturated_thickness_m", minimum=0.0, strictly=True)
         near_zone_m = rate / (thickness * q_per_day / SECONDS_PER_DAY)
-        notes.append(
+        notes.append(ValidityNote(
+            NoteCode.NEAR_WELL_ZONE,
             f"Within about {near_zone_m:.0f} m of the reinjection well (the width Q/(b q) of the injected water's "
             "stream tube) the injected water pushes the groundwater aside; the line source ignores this and is "
             "not valid there. Values at the well are clipped to the injection temperature difference."
-        )
+        ))
     if distance_m is not None:
-        distance = _scalar(distance_m, "distance_m", minimum=0.0)
+        distance = finite_scalar(distance_m, "distance_m", minimum=0.0)
         if near_zone_m is not None and distance < near_zone_m:
-            notes.append(
+            notes.append(ValidityNote(
+                NoteCode.POINT_IN_NEAR_ZONE,
                 f"The point of interest ({distance:.0f} m away) lies inside the near-well zone: treat the estimate "
                 "as an order of magnitude at best."
-            )
+            ))
         if longitudinal_dispersivity_m is not None:
-            alpha_l = _scalar(longitudinal_dispersivity_m, "longitudinal_dispersivity_m", minimum=0.0)
+            alpha_l = finite_scalar(longitudinal_dispersivity_m, "longitudinal_dispersivity_m", minimum=0.0)
             if alpha_l > 0.0 and distance < 10.0 * alpha_l:
-                notes.append(
+                notes.append(ValidityNote(
+                    NoteCode.POINT_IN_NEAR_FIELD,
                     f"The distance ({distance:.0f} m) is less than ten longitudinal dispersivities; dispersivities "
                     "depend on scale and the near field is poorly described by constant values (common practice)."
-                )
+                ))
         thermal_velocity = q_per_day * c_w / c_a
         if thermal_velocity > 0.0:
             arrival_s = distance / thermal_velocity * SECONDS_PER_DAY
             if time_s is None:
-                notes.append(
+                notes.append(ValidityNote(
+                    NoteCode.FRONT_TRAVEL,
                     f"The steady state assumes continuous, constant injection for much longer than the thermal "
                     f"front needs to travel {distance:.0f} m (about {arrival_s / (365.25 * SECONDS_PER_DAY):.2g} "
                     "years); seasonal operation (heating in winter, cooling in summer) gives smaller plumes."
-                )
+                ))
             else:
-                operating = _scalar(time_s, "time_s", minimum=0.0, strictly=True)
+                operating = finite_scalar(time_s, "time_s", minimum=0.0, strictly=True)
                 if operating < arrival_s:
-                    notes.append(
+                    notes.append(ValidityNote(
+                        NoteCode.FRONT_NOT_ARRIVED,
                         f"After {operating / SECONDS_PER_DAY:.0f} days the thermal front has not yet reached "
                         f"{distance:.0f} m (it needs about {arrival_s / SECONDS_PER_DAY:.0f} days); the estimate "
                         "there is mostly dispersion ahead of the front and sensitive to the dispersivity."
-                    )
+                    ))
     if time_s is None:
-        notes.append(
+        notes.append(ValidityNote(
+            NoteCode.STEADY_STATE,
             "Steady state: the plume of years of continuous, constant injection with no heat loss to the layers "
             "above and below. Its isotherms can stretch for kilometres down-gradient and overstate real plumes, "
             "which seasonal operation and vertical heat exchange keep shorter; prefer the transient estimate for "
             "the operating period or use the annual net heat."
-        )
-    notes.append(
+        ))
+    notes.append(ValidityNote(
+        NoteCode.ASSUMPTIONS,
         "Assumes a homogeneous confined aquifer of constant thickness, uniform flow in one direction, fully "
         "penetrating wells, constant injection, no heat exchange with the layers above and below, and no "
         "change of the flow field by pumping (the pull of extraction wells is ignored)."
-    )
+    ))
     return notes

@@ -24,9 +24,9 @@ from __future__ import annotations
 import numpy as np
 
 from engine.physics.water import water_density_kg_per_m3, water_specific_heat_j_per_kg_k
+from engine.units import SECONDS_PER_HOUR, W_PER_KW
 
 HOURS_PER_DAY = 24
-SECONDS_PER_HOUR = 3600.0
 
 
 def _finite_array(value, name: str) -> np.ndarray:
@@ -80,7 +80,7 @@ def well_thermal_power_kw(flow_kg_s, spread_k, temp_c):
     flow = _non_negative_array(flow_kg_s, "flow_kg_s", "kg/s")
     spread = _non_negative_array(spread_k, "spread_k", "K")
     specific_heat = np.asarray(water_specific_heat_j_per_kg_k(temp_c))
-    return _as_result(flow * specific_heat * spread / 1000.0)
+    return _as_result(flow * specific_heat * spread / W_PER_KW)
 
 
 def flow_m3_per_h_to_kg_s(flow_m3_per_h, temp_c):

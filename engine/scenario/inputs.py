@@ -1,6 +1,6 @@
 """Typed inputs of a heatmosaic run.
 
-A :class:`Scenario` is what :func:`engine.scenario.reader.load_scenario` makes of a scenario folder once every file has
+A :class:`Scenario` is what :func:`engine.scenario.load_scenario` makes of a scenario folder once every file has
 passed validation (the folder layout is documented in ``docs/input_format.md``). Tables are pandas DataFrames
 whose column names carry their units; the loader guarantees the columns, dtypes and value ranges listed here,
 so that the physics and the model never re-check them.
@@ -22,32 +22,34 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-TECHNOLOGY_KINDS = (
-    "fuel_boiler",
-    "electric_boiler",
-    "air_heat_pump",
-    "groundwater_heat_pump",
-    "network_connection",
-    "heat_store",
-    "chiller",
-    "groundwater_cooling",
-)
-"""Kinds of technology the model knows. Heat is supplied by all but ``chiller`` and ``groundwater_cooling``."""
+from engine.scenario.defaults import DEFAULT_CO2_KG_PER_MWH, HOT_WATER_TEMP_C as DEFAULT_HOT_WATER_TEMP_C, section_defaults
+from engine.scenario.kinds import FUELS
 
-HEAT_KINDS = ("fuel_boiler", "electric_boiler", "air_heat_pump", "groundwater_heat_pump", "network_connection")
-COOLING_KINDS = ("chiller", "groundwater_cooling")
-WELL_KINDS = ("groundwater_heat_pump", "groundwater_cooling")
-CARRIERS = ("gas", "oil", "biomass", "electricity", "network", "none")
-FUELS = ("gas", "oil", "biomass")
+_RUN = section_defaults("run")
+_AQUIFER = section_defaults("aquifer")
 
-# IPCC 2006 Guidelines for National Greenhouse Gas Inventories, vol. 2, ch. 2, table 2.2 (default CO2 emission
-# factors for stationary combustion): natural gas 56 100 kg/TJ, gas/diesel oil 74 100 kg/TJ. 1 MWh = 3.6e-3 TJ.
-DEFAULT_CO2_KG_PER_MWH = {"gas": 56_100 * 3.6e-3, "oil": 74_100 * 3.6e-3, "biomass": 0.0}
+DEFAULT_COST_CASE = "reference"
+"""Name of the cost case a scenario without ``cost_cases.toml`` has (prices as in ``scenario.toml``)."""
 
 
-DEFAULT_HOT_WATER_TEMP_C = 60.0
-"""Hot-water temperature of a district when districts.csv gives none [°C]: about 60 °C at the store against
-legionella (common practice; local hygiene rules decide)."""
+def default_cost_case(case_names) -> str:
+    """The cost case a run takes when none is named: :data:`DEFAULT_COST_CASE` when the scenario has it,
+    otherwise the first case listed (the file's order).
+
+    Parameters
+    ----------
+    case_names : iterable of str
+        The scenario's cost case names (a ``Scenario.cost_cases`` dict will do).
+
+    Raises
+    ------
+    ValueError
+        If there is no cost case at all.
+    """
+    names = list(case_names)
+    if not names:
+        raise ValueError("the scenario defines no cost case")
+    return DEFAULT_COST_CASE if DEFAULT_COST_CASE in names else names[0]
 
 
 def hot_water_temp_c(districts: pd.DataFrame) -> np.ndarray:
@@ -60,22 +62,25 @@ def hot_water_temp_c(districts: pd.DataFrame) -> np.ndarray:
 
 @dataclass
 class Settings:
-    """Run settings (``scenario.toml`` section ``[run]``)."""
+    """Run settings (``scenario.toml`` section ``[run]``); defaults from :mod:`engine.scenario.defaults`.
 
-    name: str = "Unnamed city"
-    target_year: int = 2040
-    objective: str = "cost"
-    discount_rate: float = 0.05
-    typical_days: int = 12
-    value_of_unserved_heat_eur_per_mwh: float = 5000.0
-    allow_unserved_heat: bool = True
-    co2_cap_t_per_a: float = 0.0
-    network_plant_limit_kw: float = 0.0
-    heating_base_temp_c: float = 15.0
-    cooling_base_temp_c: float = 20.0
-    reinjection_min_temp_c: float = 4.5
-    reinjection_max_temp_c: float = 20.0
-    co2_within_cost_pct: float = 0.0
+    ``co2_cap_t_per_a`` and ``network_plant_limit_kw`` are None for no limit.
+    """
+
+    name: str = _RUN["name"]
+    target_year: int = _RUN["target_year"]
+    objective: str = _RUN["objective"]
+    discount_rate: float = _RUN["discount_rate"]
+    typical_days: int = _RUN["typical_days"]
+    value_of_unserved_heat_eur_per_mwh: float = _RUN["value_of_unserved_heat_eur_per_mwh"]
+    allow_unserved_heat: bool = _RUN["allow_unserved_heat"]
+    co2_cap_t_per_a: float | None = _RUN["co2_cap_t_per_a"]
+    network_plant_limit_kw: float | None = _RUN["network_plant_limit_kw"]
+    heating_base_temp_c: float = _RUN["heating_base_temp_c"]
+    cooling_base_temp_c: float = _RUN["cooling_base_temp_c"]
+    reinjection_min_temp_c: float = _RUN["reinjection_min_temp_c"]
+    reinjection_max_temp_c: float = _RUN["reinjection_max_temp_c"]
+    co2_within_cost_pct: float = _RUN["co2_within_cost_pct"]
     """With the CO2 objective: the least CO2 at a cost at most this many percent above the least cost (0: no
     cost bound, the lowest CO2 at any cost)."""
 
@@ -98,22 +103,22 @@ class Prices:
 class Aquifer:
     """Aquifer description for the interference screening (``[aquifer]``)."""
 
-    flow_direction_deg: float = 90.0
-    darcy_velocity_m_per_d: float = 0.5
-    effective_porosity: float = 0.2
-    saturated_thickness_m: float = 15.0
-    longitudinal_dispersivity_m: float = 5.0
-    transverse_dispersivity_m: float = 0.5
-    aquifer_heat_capacity_mj_per_m3_k: float = 2.8
-    water_heat_capacity_mj_per_m3_k: float = 4.18
-    reinjection_offset_m: float = 100.0
+    flow_direction_deg: float = _AQUIFER["flow_direction_deg"]
+    darcy_velocity_m_per_d: float = _AQUIFER["darcy_velocity_m_per_d"]
+    effective_porosity: float = _AQUIFER["effective_porosity"]
+    saturated_thickness_m: float = _AQUIFER["saturated_thickness_m"]
+    longitudinal_dispersivity_m: float = _AQUIFER["longitudinal_dispersivity_m"]
+    transverse_dispersivity_m: float = _AQUIFER["transverse_dispersivity_m"]
+    aquifer_heat_capacity_mj_per_m3_k: float = _AQUIFER["aquifer_heat_capacity_mj_per_m3_k"]
+    water_heat_capacity_mj_per_m3_k: float = _AQUIFER["water_heat_capacity_mj_per_m3_k"]
+    reinjection_offset_m: float = _AQUIFER["reinjection_offset_m"]
 
 
 @dataclass
 class CostCase:
     """A named set of overrides (``cost_cases.toml``)."""
 
-    name: str = "reference"
+    name: str = DEFAULT_COST_CASE
     description: str = "Prices as given in the scenario"
     co2_eur_per_t: float | None = None
     gas_price_factor: float = 1.0
@@ -133,11 +138,12 @@ class Scenario:
 
     ``districts``
         district_id (str, unique), name, heat_demand_mwh_per_a, cooling_demand_mwh_per_a, supply_temp_c,
-        hot_water_share, network_available (bool), network_connection_limit_kw, geometry (GeoJSON geometry
-        dict, WGS 84). Building demands are already added in.
+        hot_water_share, network_available (bool), network_connection_limit_kw (inf = no limit), geometry
+        (GeoJSON geometry dict, WGS 84). Building demands are already added in.
     ``technologies``
         the columns of technologies.csv; ``fixed_om_pct_per_a`` and ``store_loss_pct_per_h`` in percent as
-        in the file; blanks filled with the defaults (efficiency 1, grade 0.5, approaches 5 K / 3 K ...).
+        in the file; blanks filled with the defaults of :mod:`engine.scenario.defaults` (grade 0.5, source approach 5 K,
+        sink approach 3 K ...); ``efficiency`` is 1 and ``store_hours`` 0 for the kinds that do not use them.
     ``district_technologies``
         district_id, technology_id, existing_kw, potential_kw (inf = unlimited); one row for every district and
         every technology (defaults filled in).
@@ -163,6 +169,9 @@ class Scenario:
     heat_demand_hourly_kw: pd.DataFrame | None = None
     groundwater_temp_hourly_c: pd.DataFrame | None = None
     source: str = ""
+    warnings: list = field(default_factory=list)
+    """Problems of warning severity found when the folder was read (:class:`engine.scenario.problems.Problem`):
+    options the files state that cannot take effect. They do not enter :func:`input_hash`."""
 
     @property
     def n_hours(self) -> int:

@@ -1,7 +1,7 @@
 """Problems found in a scenario folder, and the error that carries them.
 
-The reader in :mod:`engine.scenario.reader` never stops at the first bad cell: it gathers every :class:`Problem` across all
-files and raises one :class:`InputError` holding them, so that a planner can fix a folder in one pass.
+The reader (:mod:`engine.scenario.folder`) never stops at the first bad cell: it gathers every :class:`Problem`
+across all files and raises one :class:`InputError` holding them, so that a planner can fix a folder in one pass.
 
 Each problem names the file, the place in it and what is wrong. The place is counted the way a person opening
 the file sees it:
@@ -13,6 +13,9 @@ the file sees it:
 * TOML files: ``row`` is the line number; ``column`` is the dotted key (``run.discount_rate``).
 
 ``row`` and ``column`` are ``None`` where a problem concerns the whole file or a whole column.
+
+A problem is an ``error`` (the folder cannot be used) or a ``warning`` (the folder loads, but something it states
+cannot take effect, such as a district on the network with a connection limit of 0 kW). Only errors stop a load.
 """
 
 from __future__ import annotations
@@ -22,6 +25,7 @@ from dataclasses import dataclass
 import pandas as pd
 
 PROBLEM_COLUMNS = ("file", "row", "column", "message")
+SEVERITIES = ("error", "warning")
 """Columns of :func:`problems_frame`."""
 
 
@@ -39,12 +43,19 @@ class Problem:
         Column header (CSV), property (GeoJSON) or dotted key (TOML).
     message : str
         What is wrong and, where it helps, how to fix it.
+    severity : str, default "error"
+        ``error`` or ``warning`` (see :data:`SEVERITIES`); warnings do not stop a load.
     """
 
     file: str
     row: int | None
     column: str | None
     message: str
+    severity: str = "error"
+
+    @property
+    def is_error(self) -> bool:
+        return self.severity != "warning"
 
     def _words(self) -> tuple[str, str]:
         name = self.file.lower()
@@ -61,7 +72,7 @@ class Problem:
             parts.append(f"{row_word} {self.row}")
         if self.column is not None:
             parts.append(f"{column_word} {self.column}")
-        return ", ".join(parts) + ": " + self.message
+        return ", ".join(parts) + ": " + ("" if self.is_error else "warning: ") + self.message
 
 
 class InputError(Exception):

@@ -11,12 +11,8 @@ Design points
 * Every change runs inside one ``BEGIN IMMEDIATE ... COMMIT`` transaction: a save interrupted part-way (a killed
   process, a power cut) leaves the file as it was before that save, with all earlier runs intact.
 * Values reach SQL only as bound parameters.
-* No pickle anywhere. Tables are stored as JSON (:func:`encode_table`) that records every column's dtype, so
-  that :func:`decode_table` gives back a frame equal to the original under ``pandas.testing.assert_frame_equal``:
-  bool, integer and float columns (NaN, +-inf and -0.0 included), text columns in pandas' ``str`` dtype or
-  ``object``, nullable and categorical columns, datetimes, row indexes and column labels. Numbers are kept as
-  their little-endian bytes in base64 (RFC 4648), which is exact and fast; text as a list of distinct values
-  with one code per row.
+* No pickle anywhere. Tables are stored as JSON that records every column's dtype and reads back equal
+  (:mod:`engine.storage.tablecodec`).
 * The schema carries a version (``PRAGMA user_version``) and an application id (``PRAGMA application_id``), so a
   file that belongs to another program is refused instead of altered, and a file from an older release is
   migrated in place (see :data:`MIGRATIONS`).
@@ -31,16 +27,15 @@ Schema (version 2)
 ``run_inputs``
     run_id (deleted with its run), filename (one of :data:`SCENARIO_FILES`), content (the file's bytes).
 
-Version 1 lacked ``runs.tags`` and ``runs.sweep_id``.
+Version 1 lacked ``runs.tags`` and ``runs.sweep_id``. A whole store travels as a library zip
+(:mod:`engine.storage.library`).
 """
 
 from __future__ import annotations
 
-import base64
 import json
 import math
 import os
-import re
 import sqlite3
 import sys
 import threading
@@ -52,32 +47,17 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from engine import __version__
+from engine.jsonsafe import json_value
 from engine.model.results import RunResult
-
-SCENARIO_FILES = (
-    "scenario.toml",
-    "districts.geojson",
-    "technologies.csv",
-    "hourly.csv",
-    "wells.csv",
-    "district_technologies.csv",
-    "buildings.csv",
-    "heat_demand_hourly.csv",
-    "groundwater_temp_hourly.csv",
-    "cost_cases.toml",
-)
-"""The file names a scenario folder may hold (``docs/input_format.md``); nothing else is read or written."""
-
-REQUIRED_SCENARIO_FILES = ("scenario.toml", "districts.geojson", "technologies.csv", "hourly.csv")
+from engine.scenario.files import SCENARIO_FILES
+from engine.storage.errors import StoreError
+from engine.storage.tablecodec import decode_table, encode_table
 
 SCHEMA_VERSION = 2
 """Schema version written by this release."""
 
 APPLICATION_ID = 0x484D5354
 """``PRAGMA application_id`` of a heatmosaic store (the ASCII letters "HMST")."""
-
-TABLE_CODEC_VERSION = 1
 
 ENV_STORE_PATH = "HEATMOSAIC_STORE"
 
@@ -98,15 +78,6 @@ LIST_COLUMNS = (
     "sweep_id",
 )
 """Columns of :meth:`ScenarioStore.list_runs`."""
-
-LIBRARY_FORMAT = "heatmosaic-library"
-LIBRARY_FORMAT_VERSION = 1
-
-_TABLE_NAME = re.compile(r"[a-z][a-z0-9_]{0,62}")
-
-
-class StoreError(Exception):
-    """A store operation failed; the message says why in plain words."""
 
 
 # ====================================================================================== where the store lives
@@ -179,294 +150,13 @@ def check_scenario_files(files: Mapping[str, bytes], where: str = "inputs") -> d
     return out
 
 
-# ====================================================================================== table codec
-def encode_table(frame: pd.DataFrame, where: str = "table") -> str:
-    """A DataFrame as JSON text that :func:`decode_table` turns back into an equal frame.
-
-    Every column is kept with its dtype; float columns keep NaN, +inf and -inf, text columns keep the
-    difference between a missing value and an empty string.
-
-    Raises
-    ------
-    StoreError
-        If a column has a dtype or a value the codec cannot keep (complex numbers, arbitrary Python objects).
-    """
-    if not isinstance(frame, pd.DataFrame):
-        raise StoreError(f"{where} is a {type(frame).__name__}, not a pandas DataFrame")
-    data = []
-    for position in range(frame.shape[1]):
-        label = frame.columns[position]
-        data.append(_encode_values(frame.iloc[:, position], f"{where}, column {label!r}"))
-    payload = {
-        "codec": "heatmosaic-table",
-        "version": TABLE_CODEC_VERSION,
-        "n_rows": int(frame.shape[0]),
-        "index": _encode_index(frame.index, f"{where}, row index"),
-        "columns": _encode_index(frame.columns, f"{where}, column labels"),
-        "data": data,
-    }
-    try:
-        return json.dumps(payload, allow_nan=False, separators=(",", ":"))
-    except (TypeError, ValueError) as exc:
-        raise StoreError(f"{where} holds a value that cannot be written as JSON: {exc}") from None
-
-
-def decode_table(text: str | bytes, where: str = "table") -> pd.DataFrame:
-    """The DataFrame that :func:`encode_table` wrote.
-
-    Raises
-    ------
-    StoreError
-        If ``text`` is not such a payload.
-    """
-    try:
-        payload = json.loads(text)
-        if not isinstance(payload, dict) or payload.get("codec") != "heatmosaic-table":
-            raise ValueError("not a heatmosaic table payload")
-        if payload.get("version") != TABLE_CODEC_VERSION:
-            raise ValueError(f"table codec version {payload.get('version')!r} is not known to this release")
-        n_rows = int(payload["n_rows"])
-        columns = _decode_index(payload["columns"])
-        index = _decode_index(payload["index"])
-        arrays = [_decode_values(spec) for spec in payload["data"]]
-        if len(arrays) != len(columns) or len(index) != n_rows or any(len(a) != n_rows for a in arrays):
-            raise ValueError("the column and row counts do not agree")
-        frame = pd.DataFrame(
-            {i: pd.Series(a, dtype=a.dtype, copy=False) for i, a in enumerate(arrays)},
-            index=pd.RangeIndex(n_rows),
-        )
-        frame.index = index
-        frame.columns = columns
-        return frame
-    except StoreError:
-        raise
-    except (ValueError, TypeError, KeyError, IndexError, AttributeError, RecursionError) as exc:
-        raise StoreError(f"{where} cannot be read back ({exc}); the store may be damaged") from None
-
-
-_MASKED = {
-    "Int8", "Int16", "Int32", "Int64", "UInt8", "UInt16", "UInt32", "UInt64", "Float32", "Float64", "boolean",
-}
-
-
-def _pack(values: np.ndarray) -> str:
-    """Numbers as their little-endian bytes in base64 (RFC 4648): every bit survives, NaN and -0.0 included."""
-    array = np.ascontiguousarray(values)
-    return base64.b64encode(array.astype(array.dtype.newbyteorder("<"), copy=False).tobytes()).decode("ascii")
-
-
-def _code_dtype(n_values: int) -> np.dtype:
-    """The smallest signed integer type that numbers ``n_values`` distinct values and -1 for missing."""
-    for candidate in (np.int8, np.int16, np.int32):
-        if n_values < np.iinfo(candidate).max:
-            return np.dtype(candidate)
-    return np.dtype(np.int64)
-
-
-def _unpack(text: str, dtype: np.dtype | str, n: int) -> np.ndarray:
-    dtype = np.dtype(dtype)
-    raw = base64.b64decode(text.encode("ascii"), validate=True)
-    if len(raw) != n * dtype.itemsize:
-        raise ValueError(f"{len(raw)} bytes do not hold {n} values of {dtype}")
-    return np.frombuffer(raw, dtype=dtype.newbyteorder("<")).astype(dtype)
-
-
-def _encode_object(value, where: str):
-    if value is None:
-        return ["none"]
-    if value is pd.NA:
-        return ["na"]
-    if value is pd.NaT:
-        return ["nat"]
-    if isinstance(value, (bool, np.bool_)):
-        return ["bool", bool(value)]
-    if isinstance(value, (int, np.integer)):
-        return ["int", int(value)]
-    if isinstance(value, (float, np.floating)):
-        value = float(value)
-        return ["float", value if math.isfinite(value) else str(value)]
-    if isinstance(value, str):
-        return ["str", str(value)]
-    if isinstance(value, (dict, list)):
-        try:
-            json.dumps(value, allow_nan=False)
-        except (TypeError, ValueError) as exc:
-            raise StoreError(f"{where}: a value cannot be written as JSON ({exc})") from None
-        return ["json", value]
-    raise StoreError(f"{where}: values of type {type(value).__name__} cannot be stored")
-
-
-def _decode_object(item):
-    tag = item[0]
-    if tag == "none":
-        return None
-    if tag == "na":
-        return pd.NA
-    if tag == "nat":
-        return pd.NaT
-    if tag == "bool":
-        return bool(item[1])
-    if tag == "int":
-        return int(item[1])
-    if tag == "float":
-        return float(item[1])
-    if tag in ("str", "json"):
-        return item[1]
-    raise ValueError(f"unknown value tag {tag!r}")
-
-
-def _string_dtype(storage: str, na: str) -> pd.StringDtype:
-    na_value = np.nan if na == "nan" else pd.NA
-    try:
-        return pd.StringDtype(storage=storage, na_value=na_value)
-    except ImportError:
-        # A store written where pyarrow is installed, read where it is not: same values, other storage.
-        return pd.StringDtype(na_value=na_value)
-
-
-def _encode_values(values: pd.Series | pd.Index, where: str) -> dict:
-    """One column (or one index level) as a JSON-safe dict."""
-    dtype = values.dtype
-    series = values if isinstance(values, pd.Series) else pd.Series(values, copy=False)
-    n = len(series)
-    if isinstance(dtype, np.dtype):
-        kind = dtype.kind
-        raw = series.to_numpy()
-        if kind in "biuf":
-            return {"dtype": dtype.name, "n": n, "data": _pack(raw)}
-        if kind in "mM":
-            return {"dtype": str(dtype), "n": n, "data": _pack(raw.view(np.int64))}
-        if kind == "O":
-            return {"dtype": "object", "n": n, "values": [_encode_object(v, where) for v in raw.tolist()]}
-        raise StoreError(f"{where}: dtype {dtype} cannot be stored")
-    if isinstance(dtype, pd.StringDtype):
-        # Dictionary-encoded: district and technology ids repeat on every row of the hourly tables.
-        codes, uniques = pd.factorize(series, use_na_sentinel=True)
-        return {
-            "dtype": "string",
-            "storage": dtype.storage,
-            "na": "nan" if isinstance(dtype.na_value, float) else "NA",
-            "n": n,
-            "uniques": [str(u) for u in uniques],
-            "codes": _pack(codes.astype(_code_dtype(len(uniques)))),
-            "code_dtype": _code_dtype(len(uniques)).name,
-        }
-    if isinstance(dtype, pd.CategoricalDtype):
-        return {
-            "dtype": "category",
-            "ordered": bool(dtype.ordered),
-            "categories": _encode_index(dtype.categories, f"{where}, categories"),
-            "n": n,
-            "codes": _pack(series.cat.codes.to_numpy().astype(np.int64)),
-        }
-    if isinstance(dtype, pd.DatetimeTZDtype):
-        utc = series.dt.tz_convert("UTC").dt.tz_localize(None).to_numpy()
-        return {"dtype": "datetimetz", "unit": dtype.unit, "tz": str(dtype.tz), "n": n,
-                "data": _pack(utc.view(np.int64))}
-    if str(dtype) in _MASKED:
-        mask = series.isna().to_numpy()
-        numpy_dtype = np.dtype(bool) if str(dtype) == "boolean" else np.dtype(str(dtype).lower())
-        filled = series.to_numpy(dtype=numpy_dtype, na_value=numpy_dtype.type(0))
-        return {"dtype": str(dtype), "n": n, "data": _pack(filled), "mask": _pack(mask)}
-    raise StoreError(f"{where}: dtype {dtype} cannot be stored")
-
-
-def _decode_values(spec: dict):
-    """Inverse of :func:`_encode_values`: a numpy array or pandas extension array."""
-    dtype = spec["dtype"]
-    n = int(spec["n"])
-    if dtype == "object":
-        values = spec["values"]
-        if len(values) != n:
-            raise ValueError("the value count does not agree")
-        out = np.empty(n, dtype=object)
-        for i, item in enumerate(values):
-            out[i] = _decode_object(item)
-        return out
-    if dtype == "string":
-        code_dtype = np.dtype(spec.get("code_dtype", "int64"))
-        if code_dtype.kind != "i":
-            raise ValueError(f"text codes of type {code_dtype} are not known")
-        codes = _unpack(spec["codes"], code_dtype, n).astype(np.intp)
-        uniques = pd.array(list(spec["uniques"]), dtype=_string_dtype(spec["storage"], spec["na"]))
-        if len(codes) and (codes.min() < -1 or codes.max() >= len(uniques)):
-            raise ValueError("text codes out of range")
-        return uniques.take(codes, allow_fill=True)
-    if dtype == "category":
-        categories = _decode_index(spec["categories"])
-        codes = _unpack(spec["codes"], np.int64, n)
-        return pd.Categorical.from_codes(codes, categories=categories, ordered=bool(spec["ordered"]))
-    if dtype == "datetimetz":
-        naive = _unpack(spec["data"], np.int64, n).view(f"datetime64[{spec['unit']}]")
-        return pd.Series(naive).dt.tz_localize("UTC").dt.tz_convert(spec["tz"]).array
-    if dtype in _MASKED:
-        numpy_dtype = np.dtype(bool) if dtype == "boolean" else np.dtype(dtype.lower())
-        values = _unpack(spec["data"], numpy_dtype, n)
-        mask = _unpack(spec["mask"], bool, n)
-        if dtype == "boolean":
-            return pd.arrays.BooleanArray(values, mask)
-        if dtype.startswith("Float"):
-            return pd.arrays.FloatingArray(values, mask)
-        return pd.arrays.IntegerArray(values, mask)
-    numpy_dtype = np.dtype(dtype)
-    if numpy_dtype.kind in "biuf":
-        return _unpack(spec["data"], numpy_dtype, n)
-    if numpy_dtype.kind in "mM":
-        return _unpack(spec["data"], np.int64, n).view(numpy_dtype)
-    raise ValueError(f"unknown dtype {dtype!r}")
-
-
-def _encode_index(index: pd.Index, where: str) -> dict:
-    if isinstance(index, pd.RangeIndex):
-        return {
-            "kind": "range",
-            "start": int(index.start),
-            "stop": int(index.stop),
-            "step": int(index.step),
-            "name": _encode_object(index.name, where),
-        }
-    if isinstance(index, pd.MultiIndex):
-        return {
-            "kind": "multi",
-            "names": [_encode_object(n, where) for n in index.names],
-            "levels": [_encode_values(index.get_level_values(i), where) for i in range(index.nlevels)],
-        }
-    return {"kind": "values", "name": _encode_object(index.name, where), "values": _encode_values(index, where)}
-
-
-def _decode_index(spec: dict) -> pd.Index:
-    kind = spec["kind"]
-    if kind == "range":
-        return pd.RangeIndex(spec["start"], spec["stop"], spec["step"], name=_decode_object(spec["name"]))
-    if kind == "multi":
-        levels = [_decode_values(level) for level in spec["levels"]]
-        names = [_decode_object(n) for n in spec["names"]]
-        return pd.MultiIndex.from_arrays([pd.Index(a, dtype=a.dtype) for a in levels], names=names)
-    if kind == "values":
-        values = _decode_values(spec["values"])
-        return pd.Index(values, dtype=values.dtype, name=_decode_object(spec["name"]), copy=False)
-    raise ValueError(f"unknown index kind {kind!r}")
-
-
 # ====================================================================================== run metadata
-def _json_default(value):
-    if isinstance(value, np.bool_):
-        return bool(value)
-    if isinstance(value, np.integer):
-        return int(value)
-    if isinstance(value, np.floating):
-        return float(value)
-    if isinstance(value, np.ndarray):
-        return value.tolist()
-    raise TypeError(f"values of type {type(value).__name__} cannot be written as JSON")
-
-
 def _dump_meta(value, field_name: str) -> str:
     """Metadata dicts as JSON text; NaN and inf kept (written as Python's json writes them)."""
     if not isinstance(value, dict):
         raise StoreError(f"the run's {field_name} must be a dict, not {type(value).__name__}")
     try:
-        return json.dumps(value, default=_json_default, allow_nan=True, sort_keys=False)
+        return json.dumps(json_value(value, keep_non_finite=True, where=f"the {field_name}"), allow_nan=True)
     except (TypeError, ValueError) as exc:
         raise StoreError(f"the run's {field_name} holds a value the store cannot keep: {exc}") from None
 
@@ -588,7 +278,7 @@ def migrate(conn: sqlite3.Connection) -> int:
 
 
 # ====================================================================================== the store
-_RUN_COLUMNS = (
+RUN_COLUMNS = (
     "run_id, name, note, created_utc, scenario_name, cost_case, objective, status, message, input_hash, "
     "total_cost_eur_per_a, co2_t_per_a, settings_json, timings_json, model_size_json, extras_json, tags, sweep_id"
 )
@@ -774,15 +464,18 @@ class ScenarioStore:
             If the result cannot be stored (a table or metadata value the store cannot keep, an unknown input
             file name) or the store stays busy longer than the timeout. Nothing is saved then.
         """
-        record, tables, files = self._prepare_run(result, name, note, inputs, tags, sweep_id)
+        record, tables, files = self.prepare_run(result, name, note, inputs, tags, sweep_id)
         try:
             with self._write() as conn:
                 return self._insert_run(conn, record, tables, files)
         except sqlite3.Error as exc:
             raise StoreError(f"the run could not be saved to '{self.path}': {exc}") from None
 
-    def _prepare_run(self, result, name, note, inputs, tags, sweep_id, created_utc=None):
-        """Everything a save writes, encoded before the transaction so the lock is held briefly."""
+    def prepare_run(self, result, name, note, inputs, tags, sweep_id, created_utc=None):
+        """Everything a save writes, encoded before the transaction so the lock is held briefly.
+
+        Returns the parts that :meth:`add_prepared` writes; :meth:`save_run` is the two steps in one.
+        """
         if not isinstance(result, RunResult):
             raise StoreError(f"only a RunResult can be saved, not {type(result).__name__}")
         if not isinstance(name, str) or not name.strip():
@@ -841,6 +534,20 @@ class ScenarioStore:
             self._hook(f"input:{filename}")
         return run_id
 
+    def add_prepared(self, prepared: list) -> list[int]:
+        """Write runs made by :meth:`prepare_run` in one transaction (all or none); returns their new ids."""
+        try:
+            with self._write() as conn:
+                return [self._insert_run(conn, *parts) for parts in prepared]
+        except sqlite3.Error as exc:
+            raise StoreError(f"the runs could not be added to '{self.path}': {exc}") from None
+
+    @contextmanager
+    def snapshot(self):
+        """A read transaction for readers outside this class (the library export): one consistent view."""
+        with self._read() as conn:
+            yield conn
+
     # ------------------------------------------------------------------ reading
     def list_runs(self) -> pd.DataFrame:
         """All runs, newest first, with the columns of :data:`LIST_COLUMNS`."""
@@ -860,7 +567,7 @@ class ScenarioStore:
         """
         run_id = self._run_id(run_id)
         with self._read() as conn:
-            row = conn.execute(f"SELECT {_RUN_COLUMNS} FROM runs WHERE run_id = ?", (run_id,)).fetchone()
+            row = conn.execute(f"SELECT {RUN_COLUMNS} FROM runs WHERE run_id = ?", (run_id,)).fetchone()
             if row is None:
                 raise StoreError(f"there is no run {run_id} in the store '{self.path}'")
             table_rows = conn.execute(
@@ -979,176 +686,3 @@ class ScenarioStore:
         with self._write() as conn:
             self._require_run(conn, run_id)
             conn.execute("DELETE FROM runs WHERE run_id = ?", (run_id,))
-
-    # ------------------------------------------------------------------ library export and import
-    def export_library(self, path: str | Path, include_csv: bool = True) -> Path:
-        """Write every run to one zip file (JSON, CSV and the scenario files; no pickle); returns its path.
-
-        Layout: ``library.json`` (format, release, list of runs); per run ``runs/<n>/run.json`` (metadata),
-        ``runs/<n>/tables/<table>.json`` (typed, read back by :meth:`import_library`),
-        ``runs/<n>/tables/<table>.csv`` (for spreadsheets, when ``include_csv``) and ``runs/<n>/inputs/<file>``.
-        """
-        from engine.storage import bundle as _bundle
-
-        with self._read() as conn:
-            return _bundle.write_checked_zip(path, self._library_entries(conn, include_csv), _bundle.LIBRARY_LIMITS)
-
-    def _library_entries(self, conn: sqlite3.Connection, include_csv: bool):
-        """The (name, bytes) entries of a library zip, one run at a time."""
-        rows = conn.execute(f"SELECT {_RUN_COLUMNS} FROM runs ORDER BY run_id").fetchall()
-        listing = []
-        for number, row in enumerate(rows, start=1):
-            folder = f"runs/{number:05d}"
-            meta = dict(zip(_RUN_COLUMNS.split(", "), row))
-            run_id = meta["run_id"]
-            table_rows = conn.execute(
-                "SELECT name, payload FROM run_tables WHERE run_id = ? ORDER BY position", (run_id,)
-            ).fetchall()
-            input_rows = conn.execute(
-                "SELECT filename, content FROM run_inputs WHERE run_id = ? ORDER BY filename", (run_id,)
-            ).fetchall()
-            for table_name, _ in table_rows:
-                if not _TABLE_NAME.fullmatch(table_name):
-                    raise StoreError(
-                        f"run {run_id}: table name '{table_name}' cannot be exported (use lower-case letters, "
-                        "digits and '_')"
-                    )
-            run_doc = {key: meta[key] for key in (
-                "name", "note", "created_utc", "scenario_name", "cost_case", "objective", "status", "message",
-                "input_hash", "tags", "sweep_id")}
-            run_doc.update(
-                original_run_id=run_id,
-                settings=json.loads(meta["settings_json"] or "{}"),
-                timings_s=json.loads(meta["timings_json"] or "{}"),
-                model_size=json.loads(meta["model_size_json"] or "{}"),
-                extras=json.loads(meta["extras_json"] or "{}"),
-                tables=[table_name for table_name, _ in table_rows],
-                inputs=[filename for filename, _ in input_rows],
-            )
-            yield f"{folder}/run.json", json.dumps(run_doc, indent=1).encode()
-            for table_name, payload in table_rows:
-                yield f"{folder}/tables/{table_name}.json", payload.encode()
-                if include_csv:
-                    frame = decode_table(payload, f"run {run_id}, table '{table_name}'")
-                    yield f"{folder}/tables/{table_name}.csv", frame.to_csv(index=False).encode()
-            for filename, content in input_rows:
-                yield f"{folder}/inputs/{filename}", bytes(content)
-            listing.append({"folder": folder, "original_run_id": run_id, "name": meta["name"]})
-        library_doc = {
-            "format": LIBRARY_FORMAT,
-            "format_version": LIBRARY_FORMAT_VERSION,
-            "created_utc": _now_utc(),
-            "heatmosaic_version": __version__,
-            "schema_version": SCHEMA_VERSION,
-            "runs": listing,
-        }
-        yield "library.json", json.dumps(library_doc, indent=1).encode()
-
-    def import_library(self, path: str | Path) -> list[int]:
-        """Add every run of a library zip (from :meth:`export_library`) as new runs; returns their ids.
-
-        All or nothing: the whole library is checked first and written in one transaction. Names, notes,
-        tags and creation times are kept; run ids are new.
-
-        Raises
-        ------
-        StoreError
-            If the file is not a heatmosaic library, is damaged or breaks the safety limits of a zip file
-            (see :class:`engine.storage.bundle.BundleLimits`).
-        """
-        from engine.storage import bundle as _bundle
-
-        def allowed(name: str) -> bool:
-            return bool(_LIBRARY_ENTRY.fullmatch(name))
-
-        try:
-            with _bundle.CheckedZip(path, allowed, _bundle.LIBRARY_LIMITS, what="library") as checked:
-                library_doc = _parse_json(checked.read("library.json"), "library.json")
-                if library_doc.get("format") != LIBRARY_FORMAT:
-                    raise StoreError(f"'{path}' is not a heatmosaic library (library.json has another format)")
-                version = library_doc.get("format_version")
-                if not isinstance(version, int) or version > LIBRARY_FORMAT_VERSION:
-                    raise StoreError(f"'{path}' was written by a newer heatmosaic release (format {version!r})")
-                listing = library_doc.get("runs")
-                if not isinstance(listing, list):
-                    raise StoreError("library.json: 'runs' must be a list")
-                prepared = []
-                for item in listing:
-                    folder = item.get("folder") if isinstance(item, dict) else None
-                    if not isinstance(folder, str) or not re.fullmatch(r"runs/\d{1,6}", folder):
-                        raise StoreError(f"library.json: run entry {item!r} has no valid folder")
-                    prepared.append(self._read_library_run(checked, folder))
-        except _bundle.BundleError as exc:
-            raise StoreError(str(exc)) from None
-        try:
-            with self._write() as conn:
-                return [self._insert_run(conn, *parts) for parts in prepared]
-        except sqlite3.Error as exc:
-            raise StoreError(f"the library could not be imported into '{self.path}': {exc}") from None
-
-    def _read_library_run(self, checked, folder: str):
-        doc = _parse_json(checked.read(f"{folder}/run.json"), f"{folder}/run.json")
-        table_names = doc.get("tables", [])
-        input_names = doc.get("inputs", [])
-        if not isinstance(table_names, list) or not isinstance(input_names, list):
-            raise StoreError(f"{folder}/run.json: 'tables' and 'inputs' must be lists")
-        tables = {}
-        for table_name in table_names:
-            if not isinstance(table_name, str) or not _TABLE_NAME.fullmatch(table_name):
-                raise StoreError(f"{folder}/run.json: table name {table_name!r} is not allowed")
-            entry = f"{folder}/tables/{table_name}.json"
-            tables[table_name] = decode_table(checked.read(entry).decode("utf-8"), entry)
-        inputs = {}
-        for filename in input_names:
-            if filename not in SCENARIO_FILES:
-                raise StoreError(f"{folder}/run.json: input file {filename!r} is not a scenario file")
-            inputs[filename] = checked.read(f"{folder}/inputs/{filename}")
-
-        def text(key):
-            value = doc.get(key, "")
-            if value is None:
-                return ""
-            if not isinstance(value, str):
-                raise StoreError(f"{folder}/run.json: '{key}' must be text")
-            return value
-
-        def mapping(key):
-            value = doc.get(key, {})
-            if not isinstance(value, dict):
-                raise StoreError(f"{folder}/run.json: '{key}' must be an object")
-            return value
-
-        result = RunResult(
-            status=text("status"),
-            message=text("message"),
-            objective=text("objective"),
-            cost_case=text("cost_case"),
-            input_hash=text("input_hash"),
-            scenario_name=text("scenario_name"),
-            settings=mapping("settings"),
-            timings_s=mapping("timings_s"),
-            model_size=mapping("model_size"),
-            tables=tables,
-            extras=mapping("extras"),
-        )
-        name = text("name") or f"imported {folder}"
-        return self._prepare_run(
-            result, name, text("note"), inputs, text("tags"), doc.get("sweep_id"),
-            created_utc=text("created_utc") or None,
-        )
-
-
-_LIBRARY_ENTRY = re.compile(
-    r"library\.json|runs/\d{1,6}/run\.json|runs/\d{1,6}/tables/[a-z][a-z0-9_]{0,62}\.(?:json|csv)"
-    r"|runs/\d{1,6}/inputs/(?:" + "|".join(re.escape(n) for n in SCENARIO_FILES) + ")"
-)
-
-
-def _parse_json(data: bytes, where: str) -> dict:
-    try:
-        value = json.loads(data.decode("utf-8"))
-    except (ValueError, RecursionError) as exc:
-        raise StoreError(f"{where} is not valid JSON: {exc}") from None
-    if not isinstance(value, dict):
-        raise StoreError(f"{where} must hold a JSON object")
-    return value

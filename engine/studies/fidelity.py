@@ -19,17 +19,15 @@ import tempfile
 import time
 from datetime import datetime, timezone
 from pathlib import Path
-from typing import Callable
 
 import pandas as pd
 
-from engine.scenario.inputs import Scenario, input_hash
+from engine.scenario.inputs import Scenario, default_cost_case, input_hash
 from engine.model.results import RunResult
-from engine.model.solve import default_cost_case, run_settings, solve_scenario
+from engine.model.solve import run_settings, solve_scenario
 from engine.model.solvers import DIRECT
+from engine.progress import Cancel, FidelityCancelled, Progress, no_progress
 from engine.storage.store import default_store_path
-
-Progress = Callable[[float, str], None]
 
 DEFAULT_DAY_COUNTS = (4, 8, 12, 24)
 CACHE_FILE_NAME = "typical_day_fidelity.json"
@@ -114,7 +112,7 @@ def typical_day_fidelity(
     objective: str | None = None,
     workers: int | None = None,
     progress: Progress | None = None,
-    cancel: Callable[[], bool] | None = None,
+    cancel: Cancel | None = None,
     solver: str = DIRECT,
 ) -> pd.DataFrame:
     """Solve ``scenario`` at each number of typical days and over the full year; compare (see :func:`fidelity_table`).
@@ -151,20 +149,20 @@ def typical_day_fidelity(
         if int(d) != d or not 1 <= d < n_days:
             raise ValueError(f"day_counts: {d!r} is not a whole number from 1 to {n_days - 1}")
         counts.append(int(d))
-    report = progress or (lambda share, text: None)
-    case = cost_case or default_cost_case(scenario)
+    report = progress or no_progress
+    case = cost_case or default_cost_case(scenario.cost_cases)
     results = {}
     runs = sorted(set(counts)) + [0]
     for k, days in enumerate(runs):
         label = "the full year" if days == 0 else f"{days} typical days"
         report(k / len(runs), f"Solving at {label}")
         if cancel is not None and cancel():
-            raise RuntimeError("the fidelity measurement was cancelled")
+            raise FidelityCancelled("the fidelity measurement was cancelled")
         settings = run_settings(scenario, objective, None, days)
         results[days] = solve_scenario(scenario, case, settings=settings, workers=workers, cancel=cancel,
                                        solver=solver)
         if cancel is not None and cancel():
-            raise RuntimeError("the fidelity measurement was cancelled")
+            raise FidelityCancelled("the fidelity measurement was cancelled")
         if days == 0 and not results[0].solved:
             raise RuntimeError(f"the full-year run failed, so there is nothing to compare with: {results[0].message}")
     report(1.0, "Fidelity measured")
@@ -179,7 +177,7 @@ def default_cache_path() -> Path:
 
 def fidelity_key(scenario: Scenario, cost_case: str | None = None, objective: str | None = None) -> str:
     """Hash of the inputs the fidelity depends on: everything but the time resolution."""
-    case = cost_case or default_cost_case(scenario)
+    case = cost_case or default_cost_case(scenario.cost_cases)
     settings = run_settings(scenario, objective, None, 0)
     return input_hash(scenario, case, dataclasses.replace(settings, typical_days=0))
 
@@ -224,7 +222,7 @@ def cached_fidelity(
     workers: int | None = None,
     progress: Progress | None = None,
     refresh: bool = False,
-    cancel: Callable[[], bool] | None = None,
+    cancel: Cancel | None = None,
     solver: str = DIRECT,
 ) -> pd.DataFrame:
     """The fidelity table of these inputs: from the cache, or measured once and stored there.

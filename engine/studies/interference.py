@@ -58,17 +58,18 @@ import json
 import os
 import time
 from concurrent.futures import ProcessPoolExecutor
-from typing import Callable
 
 import numpy as np
 import pandas as pd
 
-from engine.physics import plume
+from engine import cautions
+from engine.physics import coords, plume, plume_field
 from engine.studies.permits import add_well_status, net_injection
 from engine.scenario.inputs import Scenario
 from engine.model.results import RunResult
 from engine.model.solve import solve_scenario
 from engine.model.solvers import DIRECT
+from engine.progress import Cancel, Progress, no_progress
 
 SECONDS_PER_YEAR = 365.25 * plume.SECONDS_PER_DAY
 
@@ -80,9 +81,6 @@ MIN_RELAXATION = 1.0 / 16.0
 """Under-relaxation is halved on oscillation, but not below this factor."""
 
 DEFAULT_PLUME_LEVELS_K = (1.0, 3.0)
-
-Progress = Callable[[float, str], None]
-
 
 # ----------------------------------------------------------------------------- physics
 def superposed_shift_k(interference_matrix, injection_rate_m3_per_s, injection_temp_change_k,
@@ -100,7 +98,7 @@ def superposed_shift_k(interference_matrix, injection_rate_m3_per_s, injection_t
     Parameters
     ----------
     interference_matrix : array_like, shape (n, n)
-        ``M[i, j]`` from :func:`engine.physics.plume.interference_matrix_k_per_unit`. [K / (m³/s K)] Not negative.
+        ``M[i, j]`` from :func:`engine.physics.plume_field.interference_matrix_k_per_unit`. [K / (m³/s K)] Not negative.
     injection_rate_m3_per_s : array_like, shape (n,)
         Mean reinjected volume flow of each doublet. [m³/s] Not negative.
     injection_temp_change_k : array_like, shape (n,)
@@ -182,12 +180,12 @@ def interference_matrix_for(scenario: Scenario, horizon_years: float = 1.0) -> n
     """Unit plume response of every reinjection well at every extraction well of ``scenario`` [s/m³].
 
     The transient line source after ``horizon_years`` of operation, with the scenario's ``[aquifer]``
-    (:func:`engine.physics.plume.interference_matrix_k_per_unit`); rows are reinjection wells, columns extraction wells,
+    (:func:`engine.physics.plume_field.interference_matrix_k_per_unit`); rows are reinjection wells, columns extraction wells,
     both in the order of ``scenario.wells``.
     """
     wells = scenario.wells
     params = plume.plume_parameters_from_aquifer(scenario.aquifer)
-    return plume.interference_matrix_k_per_unit(
+    return plume_field.interference_matrix_k_per_unit(
         wells["reinjection_lon"].to_numpy(float),
         wells["reinjection_lat"].to_numpy(float),
         wells["lon"].to_numpy(float),
@@ -212,14 +210,14 @@ def _with_shift(scenario: Scenario, shift_k: np.ndarray) -> Scenario:
 
 def _isotherm_job(job: tuple) -> list:
     level, lon, lat, rate, delta, params, time_s, ray_count = job
-    return plume.isotherm_polygon_lonlat(level, lon, lat, rate, delta, time_s=time_s, ray_count=ray_count, **params)
+    return plume_field.isotherm_polygon_lonlat(level, lon, lat, rate, delta, time_s=time_s, ray_count=ray_count, **params)
 
 
 def plume_outlines(scenario: Scenario, result: RunResult, levels_k=DEFAULT_PLUME_LEVELS_K, horizon_years=1.0,
                    ray_count: int = 49, workers: int | None = None) -> pd.DataFrame:
     """Isotherms of every doublet's reinjection plume after ``horizon_years``, from a run's net injection.
 
-    Each outline takes a fraction of a second (:func:`engine.physics.plume.isotherm_polygon_lonlat` bisects along every
+    Each outline takes a fraction of a second (:func:`engine.physics.plume_field.isotherm_polygon_lonlat` bisects along every
     ray), so more than a handful are drawn in parallel processes (``workers``, default: the CPU count, at most 4).
 
     Returns
@@ -285,7 +283,7 @@ def _notes(scenario: Scenario, matrix: np.ndarray, rate: np.ndarray, delta: np.n
     strength = rate * np.abs(delta)
     reach = np.where(strength[:, None] > 0, np.minimum(matrix * strength[:, None], np.abs(delta)[:, None]), 0.0)
     np.fill_diagonal(reach, 0.0)
-    east, north = plume.lonlat_to_local_m(
+    east, north = coords.lonlat_to_local_m(
         np.concatenate([wells["reinjection_lon"].to_numpy(float), wells["lon"].to_numpy(float)]),
         np.concatenate([wells["reinjection_lat"].to_numpy(float), wells["lat"].to_numpy(float)]),
         float(wells["lon"].mean()), float(wells["lat"].mean()),
@@ -303,11 +301,9 @@ def _notes(scenario: Scenario, matrix: np.ndarray, rate: np.ndarray, delta: np.n
             aquifer_heat_capacity_j_per_m3_k=aquifer.aquifer_heat_capacity_mj_per_m3_k * 1e6,
             water_heat_capacity_j_per_m3_k=aquifer.water_heat_capacity_mj_per_m3_k * 1e6,
         )
-        for text in pair:
-            if text in notes or text.startswith("Assumes") or text == plume.SCREENING_CAUTION:
-                continue
-            if "point of interest" in text or "distance (" in text or "thermal front" in text:
-                notes.append(f"{ids[i]} -> {ids[j]}: {text}")
+        for note in pair:
+            if note.code in plume.POINT_NOTES:  # the aquifer-wide notes are already in the list
+                notes.append(plume.ValidityNote(note.code, f"{ids[i]} -> {ids[j]}: {note}"))
     with np.errstate(invalid="ignore"):
         clipped = (strength[:, None] > 0) & (matrix * strength[:, None] >= np.abs(delta)[:, None])
     np.fill_diagonal(clipped, False)
@@ -374,7 +370,7 @@ def solve_with_interference(
     relaxation: float = 1.0,
     horizon_years: float = 1.0,
     plume_levels_k=DEFAULT_PLUME_LEVELS_K,
-    cancel: Callable[[], bool] | None = None,
+    cancel: Cancel | None = None,
     workers: int | None = None,
     solver: str = DIRECT,
 ) -> RunResult:
@@ -430,7 +426,7 @@ def solve_with_interference(
     levels = [float(level) for level in plume_levels_k]
     if any(not np.isfinite(level) or level <= 0 for level in levels):
         raise ValueError(f"plume_levels_k must hold positive numbers [K]; got {plume_levels_k!r}")
-    report = progress or (lambda share, text: None)
+    report = progress or no_progress
     started = time.perf_counter()
     ids = scenario.wells["well_id"].tolist()
     n = len(ids)
@@ -497,7 +493,7 @@ def solve_with_interference(
         "max_iterations": max_iterations,
         "method": "fixed-point iteration with under-relaxation; transient line-source plumes of each doublet's "
                   "annual net injection; own recirculation excluded",
-        "notes": _notes(scenario, matrix, rate, delta, shift, horizon_years) if n else [plume.SCREENING_CAUTION],
+        "notes": _notes(scenario, matrix, rate, delta, shift, horizon_years) if n else [plume.ValidityNote(plume.NoteCode.CAUTION, cautions.PLUME)],
         "wells": _wells_detail(scenario, rate, delta, shift, matrix) if n else [],
         "baseline": baseline,
         "seconds": 0.0,

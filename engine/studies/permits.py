@@ -25,9 +25,8 @@ import pandas as pd
 from engine.physics import water
 from engine.scenario.inputs import Scenario
 from engine.model.results import RunResult
+from engine.units import KWH_PER_MWH, SECONDS_PER_HOUR
 
-SECONDS_PER_HOUR = 3600.0
-KWH_PER_MWH = 1000.0
 
 FLOW_LIMIT_SHARE = 0.999
 """A step counts as *at the permitted flow* from this share of the permit on (the LP's optimum sits exactly on
@@ -43,11 +42,6 @@ BREACH_TOLERANCE_K = 0.01
 """Excess beyond the reinjection window that counts as a breach [K]."""
 
 STATUSES = ("ok", "at_limit", "breach")
-
-SCREENING_CAUTION = (
-    "Screening estimate: not a substitute for the numerical groundwater model and the permit procedure the "
-    "water authority requires. Defer to the water authority, local codes and licensed engineers."
-)
 
 _SEASONS = {12: "winter", 1: "winter", 2: "winter", 3: "spring", 4: "spring", 5: "spring", 6: "summer",
             7: "summer", 8: "summer", 9: "autumn", 10: "autumn", 11: "autumn"}
@@ -553,7 +547,6 @@ def screening_display_table(screening: pd.DataFrame, district_names: dict | None
 
 __all__ = [
     "FLOW_LIMIT_SHARE",
-    "SCREENING_CAUTION",
     "SCREENING_COLUMNS",
     "STATUSES",
     "STATUS_LABELS",

@@ -28,19 +28,17 @@ import os
 import uuid
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
-from typing import Callable
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from engine.scenario.inputs import CostCase, Scenario
+from engine.scenario.inputs import CostCase, Scenario, default_cost_case
+from engine.scenario.kinds import HEAT_PUMP_KINDS
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
 from engine.model.solvers import DIRECT
-
-Progress = Callable[[float, str], None]
-
-HEAT_PUMP_KINDS = ("air_heat_pump", "groundwater_heat_pump")
+from engine.progress import Cancel, Progress, SweepCancelled, no_progress
 
 
 @dataclass(frozen=True)
@@ -98,7 +96,7 @@ def _check_parameter(name: str) -> Parameter:
 
 
 def _base_case(scenario: Scenario, base_case: str | None) -> CostCase:
-    name = base_case or ("reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases)))
+    name = base_case or default_cost_case(scenario.cost_cases)
     if name not in scenario.cost_cases:
         known = ", ".join(sorted(scenario.cost_cases))
         raise ValueError(f"base_case '{name}' is not a cost case of the scenario (known: {known})")
@@ -295,10 +293,6 @@ def _solve_on_cluster(scenario, payload, typical_days, objective, keep_result, s
     return solve_task(scenario, _task(payload), typical_days, objective, keep_result, solver)
 
 
-class SweepCancelled(RuntimeError):
-    """A sweep stopped by its ``cancel`` callable before every run finished."""
-
-
 def run_sweep(
     scenario: Scenario,
     tasks: list[SweepTask],
@@ -309,7 +303,7 @@ def run_sweep(
     keep_results: bool = False,
     progress: Progress | None = None,
     sweep_id: str | None = None,
-    cancel: Callable[[], bool] | None = None,
+    cancel: Cancel | None = None,
     solver: str = DIRECT,
 ) -> SweepOutcome:
     """Solve every task and collect one record per run.
@@ -352,7 +346,7 @@ def run_sweep(
     names = [t.name for t in tasks]
     if len(set(names)) != len(names):
         raise ValueError("tasks must have distinct names")
-    report = progress or (lambda share, text: None)
+    report = progress or no_progress
     sweep_id = sweep_id or f"sweep-{uuid.uuid4().hex[:12]}"
     outputs: list = [None] * len(tasks)
     done = 0

@@ -16,17 +16,16 @@ from __future__ import annotations
 import dataclasses
 import math
 from dataclasses import dataclass, field
-from typing import Callable
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from engine.scenario.inputs import CostCase, Scenario
+from engine.scenario.inputs import CostCase, Scenario, default_cost_case
 from engine.model.results import RunResult
 from engine.model.solve import run_settings, solve_scenario
 from engine.model.solvers import DIRECT
-
-Progress = Callable[[float, str], None]
+from engine.progress import Cancel, Progress, no_progress
 
 TRADEOFF_COLUMNS = (
     "point", "kind", "co2_bound_t_per_a", "co2_t_per_a", "total_cost_eur_per_a", "unserved_heat_mwh_per_a",
@@ -41,7 +40,7 @@ def _default_case(scenario: Scenario, cost_case: str | None) -> str:
             known = ", ".join(sorted(scenario.cost_cases))
             raise ValueError(f"cost_case '{cost_case}' is not a cost case of the scenario (known: {known})")
         return cost_case
-    return "reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases))
+    return default_cost_case(scenario.cost_cases)
 
 
 def _row(point: int, kind: str, bound: float, result: RunResult) -> dict:
@@ -67,7 +66,7 @@ def tradeoff_curve_runs(
     n_points: int = 7,
     typical_days: int | None = None,
     progress: Progress | None = None,
-    cancel: Callable[[], bool] | None = None,
+    cancel: Cancel | None = None,
     solver: str = DIRECT,
 ) -> tuple[pd.DataFrame, list[RunResult]]:
     """The cost-CO2 trade-off curve and the run behind each of its points.
@@ -123,7 +122,7 @@ def tradeoff_curve_runs(
         raise ValueError(f"n_points must be a whole number >= 2, got {n_points!r}")
     n_points = int(n_points)
     case = _default_case(scenario, cost_case)
-    report = progress or (lambda share, text: None)
+    report = progress or no_progress
     stopped = cancel or (lambda: False)
     settings_cost = run_settings(scenario, "cost", 0.0, typical_days)
     settings_co2 = run_settings(scenario, "co2", 0.0, typical_days)
@@ -208,11 +207,11 @@ def point_scenario(scenario: Scenario, table: pd.DataFrame, point: int) -> Scena
     row = rows.iloc[0]
     settings = scenario.settings
     if row["kind"] == "co2_optimal":
-        settings = dataclasses.replace(settings, objective="co2", co2_cap_t_per_a=0.0)
+        settings = dataclasses.replace(settings, objective="co2", co2_cap_t_per_a=None)
     elif row["kind"] == "co2_bounded":
         settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=float(row["co2_bound_t_per_a"]))
     else:
-        settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=0.0)
+        settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=None)
     return dataclasses.replace(scenario, settings=settings)
 
 
@@ -331,7 +330,7 @@ def co2_price_for_cap(
     """
     if not (isinstance(cap_t_per_a, (int, float, np.floating)) and math.isfinite(cap_t_per_a) and cap_t_per_a > 0):
         raise ValueError(f"cap_t_per_a must be a number > 0, got {cap_t_per_a!r}")
-    if scenario.settings.network_plant_limit_kw and scenario.settings.network_plant_limit_kw > 0:
+    if scenario.settings.network_plant_limit_kw is not None:
         raise ValueError("co2_price_for_cap: the scenario has a network plant limit, which also couples the "
                          "districts; remove it or solve the capped LP in one piece")
     cap = float(cap_t_per_a)
@@ -339,7 +338,7 @@ def co2_price_for_cap(
     base = scenario.cost_cases[case_name]
     base_price = float(scenario.prices.co2_eur_per_t if base.co2_eur_per_t is None else base.co2_eur_per_t)
     settings = run_settings(scenario, "cost", 0.0, typical_days)
-    report = progress or (lambda share, text: None)
+    report = progress or no_progress
     history = []
 
     def solve_at(surcharge: float):

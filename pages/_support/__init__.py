@@ -1,1 +1,41 @@
+"""Plain helpers behind the dashboard pages; nothing here but ``shell.py`` imports streamlit.
 
+The Streamlit pages (``app.py`` and ``pages/``) only read widgets, keep state and lay out figures; what they
+compute comes from these modules or from the engine: ``inputs`` (input sets), ``edits`` (editable tables, their
+checks, the files with the edits), ``cache`` (the session's solve cache and saved runs), ``describe`` (runs in
+words), ``tables`` (result tables for reading), ``library`` (the saved runs, downloads), ``jobs`` (cancellable
+long jobs), ``shell`` (what every page does first).
+
+Session state of the dashboard
+------------------------------
+The pages keep their state under these keys of ``st.session_state`` (plain Python values, no widgets):
+
+``hm_input``
+    The input set the set-up page works on: an :class:`~pages._support.inputs.InputSet` (label, scenario
+    files as bytes, the validated :class:`~engine.scenario.inputs.Scenario` or None, the problems table, the
+    bundle manifest).
+``hm_setup``
+    The set-up choices, kept while the planner visits other pages: ``cost_case``, ``objective``,
+    ``co2_cap_t_per_a``, ``full_year``, ``typical_days``, ``technology_table``, ``well_table``
+    (the edited tables as DataFrames) and ``technology_base``, ``well_base`` (the data the table editors were
+    started from; it stays fixed while an editor lives, so the browser keeps the edits).
+``hm_solved``
+    The session's solve cache, ``{request key: SolvedRun}`` (see :func:`~pages._support.cache.request_key`
+    and :func:`~pages._support.cache.solve_with_cache`), so that going back to a cost case already solved is
+    instant.
+``hm_current``
+    The request key of the newest solve: the "current run", shown on the results page until it is saved.
+``hm_scenarios``
+    ``{files digest: Scenario}``: scenarios already read from a saved run's files (for maps and colours).
+``hm_loaded``
+    ``{run id: RunResult}``: saved runs already read from the library in this session.
+``hm_flash``
+    A short message (saved, renamed, deleted ...) shown once on the next page run.
+``hm_shell``, ``hm_goto``
+    True once ``app.py`` has set up the navigation in this session; the page to go to when a page was opened by
+    its address before that (Streamlit then runs the page file on its own, without the navigation).
+
+Widget keys start with the page's short name (``setup_``, ``results_``, ``compare_``, ``share_``).
+
+Everything shown is screening-level: :data:`engine.cautions.RESULTS_LINE` goes on every page.
+"""

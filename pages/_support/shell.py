@@ -9,6 +9,7 @@ import streamlit as st
 from streamlit.errors import StreamlitAPIException
 
 from engine.storage.store import ScenarioStore, StoreError
+from pages._support.jobs import run_cancellable
 
 
 def route_through_app(page_path: str) -> None:
@@ -42,8 +43,6 @@ def run_with_cancel(job, key: str, start_text: str = "Starting"):
     Pressing Cancel (or changing any widget) reruns the page, which stops the job at its next check; the next run
     of the page shows :func:`show_cancelled` for ``key``.
     """
-    from pages._support.workbench import run_cancellable
-
     state = st.session_state
     bar = st.progress(0.0, text=start_text)
     slot = st.empty()

@@ -33,7 +33,7 @@ SERIES_FILES = ("heat_demand_hourly.csv", "groundwater_temp_hourly.csv")
 """Optional year-long files left out of the copy unless a case keeps them."""
 
 SIZE_LIMIT_BYTES = 200 * 1024 * 1024
-"""The reader's MAX_FILE_BYTES (engine/io.py); the huge-file case writes a sparse file just above it."""
+"""The reader's MAX_FILE_BYTES (engine/scenario/tables.py); the huge-file case writes a sparse file just above it."""
 
 
 @dataclass(frozen=True)

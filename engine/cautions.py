@@ -1,0 +1,38 @@
+"""The cautions that go with every result: one home for their wording.
+
+Results of heatmosaic can hurt someone when read as more than they are (a well permit, an aquifer temperature, an
+investment), so every output carries one of these texts: the dashboard pages, the HTML report, a shared bundle's
+manifest, the map legends and the plume study's notes. Change the wording here and every output follows.
+"""
+
+RESULTS = (
+    "Screening-level results for early planning. Well yields, aquifer temperatures, permits and investment "
+    "figures must be confirmed against local codes, by the water authority and by licensed engineers before "
+    "any decision."
+)
+"""The long form: the report, a bundle's manifest and the dashboard's start page."""
+
+RESULTS_LINE = (
+    "Screening results for early planning only. Well permits, aquifer temperatures and investments must be "
+    "checked against local codes, with the water authority and by licensed engineers."
+)
+"""The one line every dashboard page shows."""
+
+WELLS = "Wells and plumes: screening estimate. Permits defer to the water authority."
+"""The short caution beside well markers, plume outlines and well tables."""
+
+WELL_POPUP = "Screening estimate; permits and designs defer to the water authority and licensed engineers."
+"""The last line of a well's popup on the map."""
+
+GROUNDWATER = (
+    "Screening estimate: not a substitute for the numerical groundwater model and the permit procedure the "
+    "water authority requires. Defer to the water authority, local codes and licensed engineers."
+)
+"""Permit screening and interference checks of well doublets (the groundwater page and its study)."""
+
+PLUME = (
+    "Screening estimate only: an analytic plume model in a uniform, homogeneous aquifer. It does not replace "
+    "the numerical groundwater model a well permit requires; defer to the water authority, local codes and "
+    "licensed engineers."
+)
+"""The first note of every plume result (:func:`engine.physics.plume.validity_notes`)."""

@@ -1,0 +1,198 @@
+"""A whole library of saved runs as one zip file, out of a store and into another.
+
+Layout: ``library.json`` (format, release, list of runs); per run ``runs/<n>/run.json`` (metadata),
+``runs/<n>/tables/<table>.json`` (typed, read back by :func:`import_library`), ``runs/<n>/tables/<table>.csv``
+(for spreadsheets) and ``runs/<n>/inputs/<file>``. No pickle. A library arrives from outside, so it is read
+through :class:`engine.storage.safezip.CheckedZip` under :data:`LIBRARY_LIMITS`.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+import sqlite3
+from datetime import datetime, timezone
+from pathlib import Path
+
+from engine import __version__
+from engine.model.results import RunResult
+from engine.storage.errors import StoreError
+from engine.storage.safezip import MIB, CheckedZip, ZipLimits, ZipRefused, write_checked_zip
+from engine.scenario.files import SCENARIO_FILES
+from engine.storage.store import RUN_COLUMNS, SCHEMA_VERSION, ScenarioStore
+from engine.storage.tablecodec import decode_table
+
+LIBRARY_FORMAT = "heatmosaic-library"
+LIBRARY_FORMAT_VERSION = 1
+
+LIBRARY_LIMITS = ZipLimits(max_entries=100_000, max_entry_bytes=512 * MIB, max_total_bytes=4096 * MIB)
+"""Limits of :func:`import_library` (a library holds many runs)."""
+
+_TABLE_NAME = re.compile(r"[a-z][a-z0-9_]{0,62}")
+
+_LIBRARY_ENTRY = re.compile(
+    r"library\.json|runs/\d{1,6}/run\.json|runs/\d{1,6}/tables/[a-z][a-z0-9_]{0,62}\.(?:json|csv)"
+    r"|runs/\d{1,6}/inputs/(?:" + "|".join(re.escape(n) for n in SCENARIO_FILES) + ")"
+)
+
+
+def export_library(store: ScenarioStore, path: str | Path, include_csv: bool = True) -> Path:
+    """Write every run of ``store`` to one zip file (JSON, CSV and the scenario files); returns its path.
+
+    ``include_csv`` adds a CSV copy of every table for spreadsheets.
+    """
+    with store.snapshot() as conn:
+        return write_checked_zip(path, _library_entries(conn, include_csv), LIBRARY_LIMITS)
+
+
+def _library_entries(conn: sqlite3.Connection, include_csv: bool):
+    """The (name, bytes) entries of a library zip, one run at a time."""
+    rows = conn.execute(f"SELECT {RUN_COLUMNS} FROM runs ORDER BY run_id").fetchall()
+    listing = []
+    for number, row in enumerate(rows, start=1):
+        folder = f"runs/{number:05d}"
+        meta = dict(zip(RUN_COLUMNS.split(", "), row))
+        run_id = meta["run_id"]
+        table_rows = conn.execute(
+            "SELECT name, payload FROM run_tables WHERE run_id = ? ORDER BY position", (run_id,)
+        ).fetchall()
+        input_rows = conn.execute(
+            "SELECT filename, content FROM run_inputs WHERE run_id = ? ORDER BY filename", (run_id,)
+        ).fetchall()
+        for table_name, _ in table_rows:
+            if not _TABLE_NAME.fullmatch(table_name):
+                raise StoreError(
+                    f"run {run_id}: table name '{table_name}' cannot be exported (use lower-case letters, "
+                    "digits and '_')"
+                )
+        run_doc = {key: meta[key] for key in (
+            "name", "note", "created_utc", "scenario_name", "cost_case", "objective", "status", "message",
+            "input_hash", "tags", "sweep_id")}
+        run_doc.update(
+            original_run_id=run_id,
+            settings=json.loads(meta["settings_json"] or "{}"),
+            timings_s=json.loads(meta["timings_json"] or "{}"),
+            model_size=json.loads(meta["model_size_json"] or "{}"),
+            extras=json.loads(meta["extras_json"] or "{}"),
+            tables=[table_name for table_name, _ in table_rows],
+            inputs=[filename for filename, _ in input_rows],
+        )
+        yield f"{folder}/run.json", json.dumps(run_doc, indent=1).encode()
+        for table_name, payload in table_rows:
+            yield f"{folder}/tables/{table_name}.json", payload.encode()
+            if include_csv:
+                frame = decode_table(payload, f"run {run_id}, table '{table_name}'")
+                yield f"{folder}/tables/{table_name}.csv", frame.to_csv(index=False).encode()
+        for filename, content in input_rows:
+            yield f"{folder}/inputs/{filename}", bytes(content)
+        listing.append({"folder": folder, "original_run_id": run_id, "name": meta["name"]})
+    library_doc = {
+        "format": LIBRARY_FORMAT,
+        "format_version": LIBRARY_FORMAT_VERSION,
+        "created_utc": datetime.now(timezone.utc).isoformat(timespec="seconds"),
+        "heatmosaic_version": __version__,
+        "schema_version": SCHEMA_VERSION,
+        "runs": listing,
+    }
+    yield "library.json", json.dumps(library_doc, indent=1).encode()
+
+
+def import_library(store: ScenarioStore, path: str | Path) -> list[int]:
+    """Add every run of a library zip (from :func:`export_library`) as new runs; returns their ids.
+
+    All or nothing: the whole library is checked first and written in one transaction. Names, notes,
+    tags and creation times are kept; run ids are new.
+
+    Raises
+    ------
+    StoreError
+        If the file is not a heatmosaic library, is damaged or breaks the safety limits of a zip file
+        (see :data:`LIBRARY_LIMITS`).
+    """
+
+    def allowed(name: str) -> bool:
+        return bool(_LIBRARY_ENTRY.fullmatch(name))
+
+    try:
+        with CheckedZip(path, allowed, LIBRARY_LIMITS, what="library") as checked:
+            library_doc = _parse_json(checked.read("library.json"), "library.json")
+            if library_doc.get("format") != LIBRARY_FORMAT:
+                raise StoreError(f"'{path}' is not a heatmosaic library (library.json has another format)")
+            version = library_doc.get("format_version")
+            if not isinstance(version, int) or version > LIBRARY_FORMAT_VERSION:
+                raise StoreError(f"'{path}' was written by a newer heatmosaic release (format {version!r})")
+            listing = library_doc.get("runs")
+            if not isinstance(listing, list):
+                raise StoreError("library.json: 'runs' must be a list")
+            prepared = []
+            for item in listing:
+                folder = item.get("folder") if isinstance(item, dict) else None
+                if not isinstance(folder, str) or not re.fullmatch(r"runs/\d{1,6}", folder):
+                    raise StoreError(f"library.json: run entry {item!r} has no valid folder")
+                prepared.append(_read_library_run(store, checked, folder))
+    except ZipRefused as exc:
+        raise StoreError(str(exc)) from None
+    return store.add_prepared(prepared)
+
+
+def _read_library_run(store: ScenarioStore, checked: CheckedZip, folder: str):
+    """One run of the library, checked and encoded for :meth:`ScenarioStore.add_prepared`."""
+    doc = _parse_json(checked.read(f"{folder}/run.json"), f"{folder}/run.json")
+    table_names = doc.get("tables", [])
+    input_names = doc.get("inputs", [])
+    if not isinstance(table_names, list) or not isinstance(input_names, list):
+        raise StoreError(f"{folder}/run.json: 'tables' and 'inputs' must be lists")
+    tables = {}
+    for table_name in table_names:
+        if not isinstance(table_name, str) or not _TABLE_NAME.fullmatch(table_name):
+            raise StoreError(f"{folder}/run.json: table name {table_name!r} is not allowed")
+        entry = f"{folder}/tables/{table_name}.json"
+        tables[table_name] = decode_table(checked.read(entry).decode("utf-8"), entry)
+    inputs = {}
+    for filename in input_names:
+        if filename not in SCENARIO_FILES:
+            raise StoreError(f"{folder}/run.json: input file {filename!r} is not a scenario file")
+        inputs[filename] = checked.read(f"{folder}/inputs/{filename}")
+
+    def text(key):
+        value = doc.get(key, "")
+        if value is None:
+            return ""
+        if not isinstance(value, str):
+            raise StoreError(f"{folder}/run.json: '{key}' must be text")
+        return value
+
+    def mapping(key):
+        value = doc.get(key, {})
+        if not isinstance(value, dict):
+            raise StoreError(f"{folder}/run.json: '{key}' must be an object")
+        return value
+
+    result = RunResult(
+        status=text("status"),
+        message=text("message"),
+        objective=text("objective"),
+        cost_case=text("cost_case"),
+        input_hash=text("input_hash"),
+        scenario_name=text("scenario_name"),
+        settings=mapping("settings"),
+        timings_s=mapping("timings_s"),
+        model_size=mapping("model_size"),
+        tables=tables,
+        extras=mapping("extras"),
+    )
+    name = text("name") or f"imported {folder}"
+    return store.prepare_run(
+        result, name, text("note"), inputs, text("tags"), doc.get("sweep_id"),
+        created_utc=text("created_utc") or None,
+    )
+
+
+def _parse_json(data: bytes, where: str) -> dict:
+    try:
+        value = json.loads(data.decode("utf-8"))
+    except (ValueError, RecursionError) as exc:
+        raise StoreError(f"{where} is not valid JSON: {exc}") from None
+    if not isinstance(value, dict):
+        raise StoreError(f"{where} must hold a JSON object")
+    return value

@@ -1,0 +1,78 @@
+"""Runs in words: their choices, a default name, key figures, the time resolution's accuracy; Markdown made safe."""
+
+from __future__ import annotations
+
+import re
+
+import pandas as pd
+
+from engine.model.results import RunResult
+from engine.outputs.figures import city_levelised_cost_eur_per_mwh
+from engine.studies.fidelity import fidelity_note, lookup_fidelity
+from pages._support.cache import choices_of_run
+
+
+_MARKDOWN_ACTIVE = re.compile(r"[\\`*_{}\[\]()<>#+\-.!|~$:&=\"']")
+
+
+def markdown_literal(text) -> str:
+    """``text`` for Streamlit's Markdown (``st.markdown``, ``st.caption``, alerts, widget labels), shown as typed.
+
+    Every character Markdown or Streamlit's extensions could act on (links, images, emphasis, HTML, LaTeX ``$``,
+    ``:icon:`` and ``:color[...]`` directives, list and heading markers) becomes a numeric character reference,
+    which Markdown prints as that character and never reads as syntax. Names, notes and descriptions come from
+    the planner's files, so a ``![x](http://...)`` in a run name must not fetch an image.
+    """
+    return _MARKDOWN_ACTIVE.sub(lambda m: f"&#{ord(m.group())};", str(text))
+
+def resolution_note(scenario, result: RunResult) -> str:
+    """What the time resolution of ``result`` costs in accuracy, from the cached typical-day fidelity table.
+
+    The table is measured once per input set (Trade-offs and sweeps page, or ``python -m engine.studies.fidelity``);
+    until then the note says where to measure it.
+    """
+    days = int(result.settings.get("typical_days", 0) or 0)
+    if scenario is None:
+        return ""
+    if days == 0:
+        return fidelity_note(pd.DataFrame(), 0)
+    try:
+        table = lookup_fidelity(scenario, result.cost_case, result.objective)
+    except Exception:  # a damaged cache file only costs the note
+        table = None
+    note = fidelity_note(table, days) if table is not None else ""
+    return note or (
+        f"Solved with {days} typical days. Their error against the full year has not been measured for these "
+        "inputs yet: the Trade-offs and sweeps page measures it once (fidelity tab)."
+    )
+
+def describe_choices(result: RunResult) -> str:
+    """One line (Markdown) with a run's cost case, objective, CO2 cap and time resolution."""
+    choice = choices_of_run(result)
+    objective = "lowest CO2" if choice["objective"] == "co2" else "lowest cost"
+    cap = choice["co2_cap_t_per_a"]
+    days = choice["typical_days"]
+    return (
+        f"Cost case **{markdown_literal(choice['cost_case'])}** · objective **{objective}** · CO2 cap "
+        f"{f'{cap:,.0f} t/a' if cap else 'none'} · {f'{days} typical days' if days else 'full year'}"
+    )
+
+def suggested_run_name(result: RunResult) -> str:
+    """A default name for saving: cost case, objective and resolution."""
+    days = int(result.settings.get("typical_days", 0) or 0)
+    cap = float(result.settings.get("co2_cap_t_per_a", 0) or 0)
+    parts = [result.cost_case, "lowest CO2" if result.objective == "co2" else "lowest cost"]
+    if cap > 0:
+        parts.append(f"cap {cap:,.0f} t/a")
+    parts.append(f"{days} typical days" if days else "full year")
+    return ", ".join(parts)
+
+def run_kpis(result: RunResult) -> dict[str, float]:
+    """City figures for the dashboard's metric tiles."""
+    return {
+        "total_cost_eur_per_a": result.total_cost_eur_per_a,
+        "co2_t_per_a": result.co2_t_per_a,
+        "heat_demand_mwh_per_a": result.heat_demand_mwh_per_a,
+        "unserved_heat_mwh_per_a": result.unserved_heat_mwh_per_a,
+        "levelised_cost_eur_per_mwh": city_levelised_cost_eur_per_mwh(result),
+    }
