@@ -25,7 +25,7 @@ if str(ROOT) not in sys.path:
 from engine.model import prepare as prepare_mod  # noqa: E402
 from engine.model.solve import run_settings, solve_scenario  # noqa: E402
 from engine.physics.timeseries import daily_features, grid_from_medoids, k_medoids  # noqa: E402
-from engine.scenario.reader import load_scenario, resolve_scenario_path  # noqa: E402
+from engine.scenario import load_scenario, resolve_scenario_path  # noqa: E402
 
 
 def _relative_pct(value: float, reference: float) -> float:
