@@ -294,6 +294,10 @@ def _child(spec: dict) -> None:
         record = run_demo()
     elif spec["kind"] == "ratios":
         record = run_ratios()
+    elif spec["kind"] == "fidelity":
+        from bench.typical_days import demo_fidelity
+
+        record = demo_fidelity()
     else:
         record = run_case(spec["districts"], spec["typical_days"], spec["path"], spec["workers"], spec["sample"])
     print("BENCH-JSON " + json.dumps(record), flush=True)
@@ -420,6 +424,12 @@ def main(argv=None) -> int:
           f"(load {d['load_s']:.2f} s, {d['linear_programs']} LPs, default workers); "
           f"{one['end_to_end_s']:.2f} s with one worker; command line incl. interpreter start "
           f"{demo['command_line_s']:.2f} s")
+    fidelity = _spawn({"kind": "fidelity"}, timeout_s=3600)
+    own = fidelity["own"]
+    print(f"demo city, {fidelity['typical_days']} typical days + extreme days against the full year "
+          f"(solved in {fidelity['full_year_s']:.0f} s): total cost {own['cost_error_pct']:+.3f} %, CO2 "
+          f"{own['co2_error_pct']:+.3f} %, largest error of a technology's heat {own['heat_error_max_pct']:.2f} % "
+          f"({own['heat_error_worst_technology']}; technologies above 100 MWh/a)")
     print(f"benchmark wall time {time.perf_counter() - started:.0f} s")
     if args.json:
         Path(args.json).write_text(json.dumps({"cases": records, "demo": demo}, indent=2))
@@ -432,6 +442,7 @@ def main(argv=None) -> int:
         print(f"study_ratio={ratios['study_ratio']:.3f}")
     mono = [r for r in records if r["path"] == "monolithic"] or records
     largest = max(mono, key=lambda r: r["variables"])
+    print(f"fidelity_cost_error_pct={own['cost_error_pct']:.3f}")
     print(f"overhead_ratio={largest['total_s'] / largest['highs_s']:.3f}")
     return 0
 

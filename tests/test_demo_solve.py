@@ -1,6 +1,6 @@
 """The district LP on the demo city: balances, permits, cost parts, cost cases, objectives and the CO2 cap.
 
-These are consistency checks of the optimum against the constraints of model.md section 3 (every one must hold in
+These are consistency checks of the optimum against the constraints of docs/model.md section 4 (every one must hold in
 any feasible solution) and against the defining property of each objective; the figures are not compared with
 stored numbers.
 """

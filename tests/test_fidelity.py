@@ -40,10 +40,16 @@ def periodic(city):
     return dataclasses.replace(city, hourly=hourly, wells=wells)
 
 
-def test_table_structure(table):
+def test_table_structure(table, city):
     """One row per tested count plus the full year last (typical_days 0), with the documented columns."""
+    from engine.model.prepare import demand_year_kw, extreme_days
+
+    heat, cool = demand_year_kw(city, city.settings)
+    extra = len(set(extreme_days(city, heat, cool).values()))
     assert list(table["typical_days"]) == [2, 5, 0]
-    assert list(table["model_steps"]) == [48, 120, 336]
+    # typical days plus the extreme days kept alone (here peak-heating = coldest day, and the peak-cooling day):
+    # 24 h for each typical day and each distinct extreme day
+    assert list(table["model_steps"]) == [24 * (2 + extra), 24 * (5 + extra), 336]
     for column in ("total_cost_eur_per_a", "co2_t_per_a", "total_cost_error_pct", "co2_error_pct",
                    "capacity_deviation_pct", "capacity_error_max_pct", "solve_s"):
         assert column in table.columns

@@ -2,7 +2,7 @@
 
 :func:`synthetic_result` makes a two-district :class:`RunResult` with two typical days, four technologies (two fuel
 boilers, an air-source heat pump, a heat store) and some unserved heat, whose tables obey the heat balance of
-the design notes (model.md, section 3, constraint 1: outputs + store discharge - charge + unserved = demand). The
+docs/model.md (section 4, constraint 1: outputs + store discharge - charge + unserved = demand). The
 figures are then checked against numbers recomputed here from the same construction, not against the figure
 itself.
 """
@@ -217,7 +217,7 @@ def test_technology_colours_are_stable_and_shade_a_shared_kind():
 def test_week_view_stack_equals_demand_minus_unserved_at_every_hour():
     """Sum of the technology areas (store discharge and charge included) = demand - unserved, hour by hour.
 
-    Source: the heat balance, design/model.md section 3 constraint 1; demand and unserved recomputed from the
+    Source: the heat balance, docs/model.md section 4, constraint 1; demand and unserved recomputed from the
     construction of the fixture, and the hours of week 3 mapped to their typical days by hand.
     """
     result = synthetic_result()

@@ -115,7 +115,7 @@ def _rho_kg_per_m3(temp_c: float) -> float:
 
 
 def test_extracted_power_is_mass_flow_times_cp_times_spread(seasonal_case):
-    """P = m_dot c_p dT (model.md section 2) with c_p from IAPWS-95 (``iapws``) at the groundwater temperature.
+    """P = m_dot c_p dT (docs/model.md section 2) with c_p from IAPWS-95 (``iapws``) at the groundwater temperature.
 
     Every heating step of the solved run: flow_kg_s * c_p(T_gw) * (T_gw - T_reinjection) == extracted_kw. The
     engine's c_p is a fit to IAPWS-95, hence the relative tolerance of 2e-4.

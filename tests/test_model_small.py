@@ -2,7 +2,7 @@
 
 The hand optimum follows from the screening-curve argument (a kW of capacity that runs h hours a year costs
 annuity * investment + h * marginal cost; the cheaper technology takes what its limit allows). The independent
-re-build writes the same instance as matrices directly from the equations of model.md section 3 and solves it with
+re-build writes the same instance as matrices directly from the equations of docs/model.md sections 4 and 5 and solves it with
 ``scipy.optimize.linprog`` (HiGHS through SciPy, a separate code path from the engine's model builder).
 """
 
@@ -92,7 +92,7 @@ def rich_instance(n_hours=HOURS):
 
 
 def independent_rebuild(scenario, demands, electricity):
-    """Build model.md section 3 for the rich instance as matrices, without the engine's builder."""
+    """Build docs/model.md sections 4 and 5 for the rich instance as matrices, without the engine's builder."""
     n = scenario.n_hours
     rate = scenario.settings.discount_rate
     techs = scenario.technologies.set_index("technology_id")
@@ -181,7 +181,7 @@ def test_matches_independent_linprog_rebuild():
 
 
 def test_heat_balance_closes_every_step_small():
-    """Heat balance (model.md section 3, constraint 1): supply + discharge - charge + unserved = demand."""
+    """Heat balance (docs/model.md section 4, constraint 1): supply + discharge - charge + unserved = demand."""
     scenario, demands, _ = rich_instance(24 * 28)
     result = solve_scenario(scenario, typical_days=0)
     dispatch = result.tables["dispatch"].groupby(["district_id", "step"])["heat_kw"].sum()

@@ -194,7 +194,7 @@ def solved_tiny_city():
 
 def test_engine_output_load_curve_balances_and_report_builds(solved_tiny_city):
     """On real engine output: the stacked technologies of every week equal demand - unserved at every hour
-    (heat balance, design/model.md section 3 constraint 1), and the report, map and workbook build."""
+    (heat balance, docs/model.md section 4, constraint 1), and the report, map and workbook build."""
     from engine.outputs.figures import load_curve_figure
     from engine.outputs.maps import district_map
 

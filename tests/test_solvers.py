@@ -62,7 +62,9 @@ def test_co2_objective_through_pulp(tiny):
     cbc = solve_scenario(tiny, typical_days=3, objective="co2", solver="cbc")
     assert direct.solved and cbc.solved
     assert cbc.co2_t_per_a == pytest.approx(direct.co2_t_per_a, rel=1e-5)
-    assert cbc.total_cost_eur_per_a == pytest.approx(direct.total_cost_eur_per_a, rel=1e-5)
+    # the cost at the CO2 optimum is steep (about 22 000 EUR per tonne on this city), so the two solvers'
+    # tolerances show in it more than in the CO2: measured 6e-5 apart since the extreme days were added
+    assert cbc.total_cost_eur_per_a == pytest.approx(direct.total_cost_eur_per_a, rel=2e-4)
 
 
 def _worked_lp() -> LinearProgram:

@@ -334,4 +334,4 @@ def test_time_grid_is_a_dataclass_with_documented_fields():
     """The grid exposes the fields the model builder reads (interface check)."""
     fields = set(TimeGrid.__dataclass_fields__)
     assert fields == {"n_steps", "weight_h", "period", "n_periods", "hour_of_day", "year_hour", "day_period",
-                      "is_full_year"}
+                      "is_full_year", "extreme_period"}

@@ -26,6 +26,8 @@ def add_parsers(sub) -> None:
     p.add_argument("--cost-case", default=None)
     p.add_argument("--objective", choices=("cost", "co2"), default=None)
     p.add_argument("--co2-cap-t", type=float, default=None, help="city-wide CO2 cap [t/a]")
+    p.add_argument("--co2-within-cost-pct", type=float, default=None, metavar="X",
+                   help="lowest CO2 at a cost at most X %% above the least cost (implies --objective co2)")
     add_resolution_arguments(p)
     p.add_argument("--interference", action="store_true", help="re-solve until well source temperatures settle")
     p.add_argument("--horizon-years", type=float, default=1.0,
@@ -60,11 +62,18 @@ def cmd_solve(args) -> int:
         problem = problem or "--co2-cap-t must be >= 0 (0 means no cap)"
     if args.interference and args.horizon_years <= 0:
         problem = problem or "--horizon-years must be > 0"
+    within = args.co2_within_cost_pct
+    if within is not None and within < 0:
+        problem = problem or "--co2-within-cost-pct must be >= 0"
+    if within is not None and args.objective == "cost":
+        problem = problem or "--co2-within-cost-pct goes with the CO2 objective, not --objective cost"
+    if within is not None and args.interference:
+        problem = problem or "--co2-within-cost-pct cannot be combined with --interference yet"
     if problem:
         return fail(problem)
     kwargs = dict(
         cost_case=args.cost_case,
-        objective=args.objective,
+        objective="co2" if within is not None else args.objective,
         co2_cap_t_per_a=args.co2_cap_t,
         typical_days=typical_days,
         progress=stderr_progress(args.quiet),
@@ -74,7 +83,7 @@ def cmd_solve(args) -> int:
     if args.interference:
         result = solve_with_interference(scenario, horizon_years=args.horizon_years, **kwargs)
     else:
-        result = solve_scenario(scenario, **kwargs)
+        result = solve_scenario(scenario, co2_within_cost_pct=within, **kwargs)
     out = result.write(Path(args.out))
     if not result.solved:
         print(f"Solver failed: {result.message}", file=sys.stderr)

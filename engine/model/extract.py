@@ -5,9 +5,15 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from engine.physics.economics import levelised_cost_eur_per_mwh
 from engine.model.lp import LpSolution
 from engine.model.formulation import DistrictModel
+from engine.scenario.kinds import COOLING_KINDS
 from engine.units import KG_PER_T, KWH_PER_MWH, SECONDS_PER_HOUR
+
+UNSERVED_TOLERANCE_MWH = 0.5
+"""Unserved heat above this in a year [MWh/a] marks a district (map class ``unserved``) and a run
+(status ``optimal_with_unserved``); below it, it is solver noise."""
 
 FLOW_BINDS_SHARE = 0.999
 """A well limit counts as binding when the flow reaches this share of the permit in some step."""
@@ -39,6 +45,15 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
     var_om_rate = scenario.technologies.set_index("technology_id").loc[units.technology_id, "variable_om_eur_per_mwh"]
     var_om = _annual_mwh(out, w) * var_om_rate.to_numpy(float)
     total_out_cost = (money[cols["out"]] * out).sum(axis=1)
+    lifted = cols.get("hot_water_units", np.zeros(0, int))
+    hot_water = np.zeros_like(out)
+    if len(lifted):
+        # hot water from heat pumps: the extra electricity (and its cost and CO2) of the higher sink temperature
+        hw = np.maximum(x[cols["hot_water"]], 0.0)
+        hot_water[lifted] = hw
+        elec[lifted] += hw * (units.electricity_hot_water[lifted] - units.electricity[lifted])
+        co2_t[lifted] += (model.emissions[cols["hot_water"]] * hw).sum(axis=1)
+        total_out_cost[lifted] += (money[cols["hot_water"]] * hw).sum(axis=1)
     co2_eur = co2_price * co2_t
     energy_eur = total_out_cost - var_om - co2_eur
     n_u = len(units.technology_id)
@@ -164,10 +179,11 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
     voll = prepared.settings.value_of_unserved_heat_eur_per_mwh
     unserved_heat_mwh = _annual_mwh(uns_h, w)
     unserved_cool_mwh = _annual_mwh(uns_c, w)
-    agg = supply.groupby("district_id", sort=False)[
-        ["investment_eur_per_a", "fixed_om_eur_per_a", "variable_om_eur_per_a", "energy_eur_per_a",
-         "co2_eur_per_a", "co2_t_per_a"]
-    ].sum()
+    parts = ["investment_eur_per_a", "fixed_om_eur_per_a", "variable_om_eur_per_a", "energy_eur_per_a",
+             "co2_eur_per_a"]
+    agg = supply.groupby("district_id", sort=False)[parts + ["co2_t_per_a"]].sum()
+    cooling_rows = supply["kind"].isin(COOLING_KINDS)
+    cooling_cost = supply[cooling_rows].groupby("district_id", sort=False)[parts].sum().sum(axis=1)
     heat_supply = supply[supply["kind"] != "heat_store"]
     main = (
         heat_supply[heat_supply["heat_mwh_per_a"] > 0]
@@ -177,6 +193,7 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
         .drop_duplicates("district_id")
         .set_index("district_id")["technology_id"]
     )
+    largest_heat = heat_supply.groupby("district_id")["heat_mwh_per_a"].max()
     rows = []
     for k, i in enumerate(d_idx):
         did = ids[i]
@@ -186,6 +203,14 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
         uns_eur = voll * (unserved_heat_mwh[k] + unserved_cool_mwh[k])
         total = float(a.sum() - a["co2_t_per_a"] + uns_eur)
         served = heat_mwh + cool_mwh
+        cool_eur = float(cooling_cost.get(did, 0.0))
+        # levelised cost of heat: the cost of the heat supply (no unserved-heat penalty, no cooling) per MWh served
+        heat_eur = total - float(uns_eur) - cool_eur
+        heat_served = max(heat_mwh - float(unserved_heat_mwh[k]), 0.0)
+        cool_served = max(cool_mwh - float(unserved_cool_mwh[k]), 0.0)
+        # unserved heat is the main "supply" where it exceeds the tolerance and the largest technology's heat
+        unserved_main = unserved_heat_mwh[k] > UNSERVED_TOLERANCE_MWH and unserved_heat_mwh[k] >= float(
+            largest_heat.get(did, 0.0))
         rows.append(
             {
                 "district_id": did,
@@ -202,9 +227,12 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
                 "unserved_eur_per_a": float(uns_eur),
                 "total_cost_eur_per_a": total,
                 "co2_t_per_a": float(a["co2_t_per_a"]),
-                "levelised_cost_eur_per_mwh": total / served if served > 0 else float("nan"),
+                "cooling_cost_eur_per_a": cool_eur,
+                "levelised_cost_eur_per_mwh": float(levelised_cost_eur_per_mwh(heat_eur, heat_served)),
+                "levelised_cost_of_cooling_eur_per_mwh": float(levelised_cost_eur_per_mwh(cool_eur, cool_served)),
                 "co2_kg_per_mwh": KG_PER_T * float(a["co2_t_per_a"]) / served if served > 0 else float("nan"),
-                "main_supply": str(main.get(did, "unserved" if unserved_heat_mwh[k] > 0 else "none")),
+                "main_supply": "unserved" if unserved_main else str(
+                    main.get(did, "unserved" if unserved_heat_mwh[k] > 0 else "none")),
             }
         )
     districts = pd.DataFrame(rows)
@@ -218,8 +246,8 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
         "supply": supply,
         "dispatch": dispatch,
         "demand": demand,
-        "wells": well_table(model, out, units.existing_kw + new),
-        "well_steps": well_steps_table(model, out),
+        "wells": well_table(model, out, units.existing_kw + new, hot_water),
+        "well_steps": well_steps_table(model, out, hot_water),
     }
     grid = prepared.grid
     tables["steps"] = pd.DataFrame(
@@ -235,7 +263,7 @@ def extract_tables(model: DistrictModel, solution: LpSolution) -> dict[str, pd.D
     return tables
 
 
-def _well_exchange(model: DistrictModel, out: np.ndarray):
+def _well_exchange(model: DistrictModel, out: np.ndarray, hot_water: np.ndarray | None = None):
     """Extracted and rejected heat [kW] per well of the model and step."""
     prepared, units = model.prepared, model.units
     n_w = len(prepared.well_ids)
@@ -246,6 +274,8 @@ def _well_exchange(model: DistrictModel, out: np.ndarray):
     for u in np.flatnonzero(units.well >= 0):
         j = units.well[u]
         exchange = out[u] * units.aquifer_exchange[u]
+        if hot_water is not None and units.aquifer_exchange_hot_water is not None:
+            exchange = exchange + hot_water[u] * (units.aquifer_exchange_hot_water[u] - units.aquifer_exchange[u])
         if units.serves_cooling[u]:
             rejected[j] += exchange
             cool[j] += out[u]
@@ -260,11 +290,11 @@ def _wells_in_model(model: DistrictModel) -> np.ndarray:
     return np.flatnonzero(np.isin(prepared.well_district, model.districts))
 
 
-def well_steps_table(model: DistrictModel, out: np.ndarray) -> pd.DataFrame:
+def well_steps_table(model: DistrictModel, out: np.ndarray, hot_water: np.ndarray | None = None) -> pd.DataFrame:
     prepared = model.prepared
     js = _wells_in_model(model)
     n_t = prepared.n_steps
-    extracted, rejected, _, _ = _well_exchange(model, out)
+    extracted, rejected, _, _ = _well_exchange(model, out, hot_water)
     flow_h = np.where(np.isfinite(prepared.well_flow_per_kw_heating), prepared.well_flow_per_kw_heating, 0.0)
     flow_c = np.where(np.isfinite(prepared.well_flow_per_kw_cooling), prepared.well_flow_per_kw_cooling, 0.0)
     flow = extracted * flow_h + rejected * flow_c  # kg/s
@@ -292,12 +322,13 @@ def well_steps_table(model: DistrictModel, out: np.ndarray) -> pd.DataFrame:
     )
 
 
-def well_table(model: DistrictModel, out: np.ndarray, capacity_kw: np.ndarray) -> pd.DataFrame:
+def well_table(model: DistrictModel, out: np.ndarray, capacity_kw: np.ndarray,
+               hot_water: np.ndarray | None = None) -> pd.DataFrame:
     prepared, units = model.prepared, model.units
     js = _wells_in_model(model)
     w = prepared.grid.weight_h
-    extracted, rejected, heat, cool = _well_exchange(model, out)
-    steps = well_steps_table(model, out)
+    extracted, rejected, heat, cool = _well_exchange(model, out, hot_water)
+    steps = well_steps_table(model, out, hot_water)
     rows = []
     ids = prepared.district_ids
     for j in js:

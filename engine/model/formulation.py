@@ -1,8 +1,8 @@
 """The district linear program: investment and dispatch of every district's heat and cooling supply.
 
-The formulation is that of ``model.md`` section 3. Every quantity is a block of variables indexed by supply unit
-(a technology in a district, or a heat pump bound to one well) and model step; every constraint family is added in
-one bulk call (:mod:`engine.model.lp`). Power is in kW and one step is one hour, so a step's energy in kWh equals its
+The formulation is written out in ``docs/model.md`` (sections 3 to 6). Every quantity is a block of variables
+indexed by supply unit (a technology in a district, or a heat pump bound to one well) and model step; every
+constraint family is added in one bulk call (:mod:`engine.model.lp`). Power is in kW and one step is one hour, so a step's energy in kWh equals its
 power; annual sums multiply by the step weights [h]. Prices are per MWh and per tonne, hence the factors 1/1000.
 
 Two refinements over the design document:
@@ -51,6 +51,9 @@ class SupplyUnits:
     aquifer_exchange: np.ndarray  # kWh extracted (heating) or rejected (cooling) per kWh of output
     output_upper: np.ndarray  # kW, inf where unbounded by physics
     fuel_name: list
+    # heat pumps making hot water at its own temperature: electricity and aquifer exchange per kWh of hot water
+    electricity_hot_water: np.ndarray | None = None
+    aquifer_exchange_hot_water: np.ndarray | None = None
 
 
 @dataclass
@@ -99,6 +102,20 @@ def _district_potential(prepared: PreparedRun) -> dict:
     return cached
 
 
+def split_existing_over_wells(existing_kw: float, permit_flow_kg_s: np.ndarray) -> np.ndarray:
+    """Existing capacity of a well-bound technology in a district, shared over the district's wells [kW].
+
+    district_technologies.csv states existing capacity per district; a district may hold several doublets. The
+    existing units are placed on the wells in proportion to their permitted flow (equal shares where no well has
+    a permit flow), so that each part stays within what its well can carry as far as the permits allow.
+    """
+    flows = np.asarray(permit_flow_kg_s, dtype=float)
+    if flows.size == 0:
+        return flows
+    weights = flows if flows.sum() > 0 else np.ones_like(flows)
+    return float(existing_kw) * weights / weights.sum()
+
+
 def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUnits, StoreUnits]:
     """List the units that may exist in ``districts`` with their per-step conversion factors."""
     scenario = prepared.scenario
@@ -111,7 +128,10 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
     ones = np.ones(n_t)
     zeros = np.zeros(n_t)
 
-    def add(i, tech, well, existing, max_new, cooling, elec, fuel, net, aquifer, upper):
+    def add(i, tech, well, existing, max_new, cooling, elec, fuel, net, aquifer, upper, elec_hw=None,
+            aquifer_hw=None):
+        rec["electricity_hot_water"].append(elec if elec_hw is None else elec_hw)
+        rec["aquifer_exchange_hot_water"].append(aquifer if aquifer_hw is None else aquifer_hw)
         rec["district"].append(i)
         rec["technology_id"].append(tech.technology_id)
         rec["kind"].append(tech.kind)
@@ -154,29 +174,33 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
                 srec["hours"].append(float(tech.store_hours))
                 continue
             if kind in WELL_KINDS:
-                for j in np.flatnonzero(prepared.well_district == i):
+                here = np.flatnonzero(prepared.well_district == i)
+                for j, existing_j in zip(here, split_existing_over_wells(existing, prepared.well_permit_flow_kg_s[here])):
                     if kind == "groundwater_heat_pump":
                         cop = prepared.well_cop[tech.technology_id][j]
+                        cop_hw = prepared.well_cop_hot_water.get(tech.technology_id, prepared.well_cop[tech.technology_id])[j]
                         usable = np.isfinite(prepared.well_flow_per_kw_heating[j])
-                        add(i, tech, j, 0.0, max_new, False, 1.0 / cop, zeros, zeros, 1.0 - 1.0 / cop,
-                            np.where(usable, INF, 0.0))
+                        add(i, tech, j, existing_j, max_new, False, 1.0 / cop, zeros, zeros, 1.0 - 1.0 / cop,
+                            np.where(usable, INF, 0.0), 1.0 / cop_hw, 1.0 - 1.0 / cop_hw)
                     else:
                         eer = float(tech.efficiency)
                         usable = np.isfinite(prepared.well_flow_per_kw_cooling[j])
-                        add(i, tech, j, 0.0, max_new, True, ones / eer, zeros, zeros, ones * (1.0 + 1.0 / eer),
+                        add(i, tech, j, existing_j, max_new, True, ones / eer, zeros, zeros, ones * (1.0 + 1.0 / eer),
                             np.where(usable, INF, 0.0))
                 continue
             cooling = kind in COOLING_KINDS
             elec, fuel, net = zeros, zeros, zeros
+            elec_hw = None
             if kind == "fuel_boiler":
                 fuel = ones / float(tech.efficiency)
             elif kind == "electric_boiler" or kind == "chiller":
                 elec = ones / float(tech.efficiency)
             elif kind == "air_heat_pump":
                 elec = 1.0 / prepared.air_cop[tech.technology_id][i]
+                elec_hw = 1.0 / prepared.air_cop_hot_water.get(tech.technology_id, prepared.air_cop[tech.technology_id])[i]
             elif kind == "network_connection":
                 net = ones
-            add(i, tech, -1, existing, max_new, cooling, elec, fuel, net, zeros, ones * INF)
+            add(i, tech, -1, existing, max_new, cooling, elec, fuel, net, zeros, ones * INF, elec_hw)
 
     units = SupplyUnits(
         district=np.array(rec["district"], dtype=int),
@@ -192,6 +216,8 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
         aquifer_exchange=np.array(rec["aquifer_exchange"], float).reshape(-1, n_t),
         output_upper=np.array(rec["output_upper"], float).reshape(-1, n_t),
         fuel_name=rec["fuel_name"],
+        electricity_hot_water=np.array(rec["electricity_hot_water"], float).reshape(-1, n_t),
+        aquifer_exchange_hot_water=np.array(rec["aquifer_exchange_hot_water"], float).reshape(-1, n_t),
     )
     stores = StoreUnits(
         district=np.array(srec["district"], dtype=int),
@@ -204,16 +230,6 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
         hours=np.array(srec["hours"], float),
     )
     return units, stores
-
-
-def previous_step(period: np.ndarray) -> np.ndarray:
-    """Index of the step before each step, cyclic within its period (a typical day, or the whole year)."""
-    n = len(period)
-    prev = np.arange(n) - 1
-    starts = np.flatnonzero(np.r_[True, period[1:] != period[:-1]])
-    ends = np.r_[starts[1:], n] - 1
-    prev[starts] = ends
-    return prev
 
 
 def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
@@ -271,6 +287,36 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
         lower=heat_demand.ravel(), upper=heat_demand.ravel(),
     ).reshape(n_d, n_t)
 
+    # ---------------------------------------------------------------- hot water at its own temperature
+    # A heat pump makes hot water at the hot-water temperature with its (lower) COP there: ``hot_water`` is the
+    # part of its output that is hot water, paying the extra electricity per kWh. Boilers and the network
+    # (supplying at or above the hot-water temperature) serve it at no extra cost; stores do not (their heat may
+    # come from a heat pump at the space-heating temperature). Only districts whose hot-water temperature lies
+    # above the supply temperature and that have a heat pump get these rows.
+    extra_elec = units.electricity_hot_water - units.electricity  # kWh of electricity per kWh of hot water
+    hw_demand = (prepared.hot_water_demand_kw[districts] if prepared.hot_water_demand_kw is not None
+                 else np.zeros((n_d, n_t)))
+    lifted_any = (~units.serves_cooling) & (extra_elec > 1e-12).any(axis=1)
+    hw_districts = np.array(sorted({int(unit_local[u]) for u in np.flatnonzero(lifted_any)
+                                    if hw_demand[unit_local[u]].sum() > 0}), dtype=int)
+    lifted = np.flatnonzero(lifted_any & np.isin(unit_local, hw_districts))
+    cols["hot_water_units"] = lifted
+    cols["hot_water"] = lp.add_variables("hot_water_kw", (len(lifted), n_t))
+    if len(lifted):
+        rows["hot_water_within_output"] = lp.add_rows(
+            "hot_water_within_output", [(cols["hot_water"], 1.0), (cols["out"][lifted], -1.0)], upper=0.0)
+        hpos = {int(k): p for p, k in enumerate(hw_districts)}
+        free = np.flatnonzero((~units.serves_cooling) & ~lifted_any & np.isin(unit_local, hw_districts))
+        r = [np.array([hpos[int(unit_local[u])] for u in free], int)[:, None] * n_t + t_idx[None, :],
+             np.array([hpos[int(unit_local[u])] for u in lifted], int)[:, None] * n_t + t_idx[None, :],
+             np.arange(len(hw_districts))[:, None] * n_t + t_idx[None, :]]
+        c = [cols["out"][free], cols["hot_water"], cols["unserved_heat"][hw_districts]]
+        rows["hot_water_balance"] = lp.add_rows_coo(
+            "hot_water_balance", len(hw_districts) * n_t,
+            *(np.concatenate([a.reshape(-1) for a in x]) for x in (r, c, [np.ones(cc.shape) for cc in c])),
+            lower=hw_demand[hw_districts].ravel(),
+        ).reshape(len(hw_districts), n_t)
+
     # ---------------------------------------------------------------- cooling balance
     cool_units = np.flatnonzero(units.serves_cooling)
     cooled_pos = {int(k): p for p, k in enumerate(cooled)}
@@ -300,12 +346,12 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
         groups.setdefault((int(units.district[u]), units.technology_id[u]), []).append(u)
     g_rows, g_cols, g_ub = [], [], []
     for g, ((i, tech), members) in enumerate(groups.items()):
-        _, potential = pot.get((prepared.district_ids[i], tech), (0.0, INF))
+        existing, potential = pot.get((prepared.district_ids[i], tech), (0.0, INF))
         if np.isfinite(potential):
             k = len(g_ub)
             g_rows += [k] * len(members)
             g_cols += list(cols["new"][members])
-            g_ub.append(potential)
+            g_ub.append(max(potential - existing, 0.0))  # new capacity on all the district's wells together
     if g_ub:
         rows["well_potential"] = lp.add_rows_coo(
             "well_potential", len(g_ub), g_rows, g_cols, np.ones(len(g_rows)), upper=np.array(g_ub)
@@ -313,7 +359,7 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
 
     # ---------------------------------------------------------------- stores
     if n_s:
-        prev = previous_step(prepared.grid.period)
+        prev = prepared.grid.previous_step()
         keep = 1.0 - stores.loss_per_h
         rows["store_balance"] = lp.add_rows(
             "store_balance",
@@ -349,9 +395,16 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
             ]
         )  # kg/s per kW of output, (well units, steps)
         wrow = np.array([wpos[int(units.well[u])] for u in well_units])
+        # hot water made by a groundwater heat pump extracts less per kWh (more of it comes from electricity)
+        hw_well = [k for k, u in enumerate(lifted) if units.well[u] >= 0]
+        hw_rows = np.array([wpos[int(units.well[lifted[k]])] for k in hw_well], dtype=int)
+        hw_coef = np.array([(units.aquifer_exchange_hot_water[lifted[k]] - units.aquifer_exchange[lifted[k]])
+                            * flow_h[units.well[lifted[k]]] for k in hw_well]).reshape(len(hw_well), n_t)
+        hw_cols = cols["hot_water"][hw_well] if hw_well else np.zeros((0, n_t), int)
         rows["well_flow"] = lp.add_rows_coo(
             "well_flow", len(wells_here) * n_t,
-            (wrow[:, None] * n_t + t_idx[None, :]).ravel(), cols["out"][well_units].ravel(), flow_coef.ravel(),
+            np.r_[(wrow[:, None] * n_t + t_idx[None, :]).ravel(), (hw_rows[:, None] * n_t + t_idx[None, :]).ravel()],
+            np.r_[cols["out"][well_units].ravel(), hw_cols.ravel()], np.r_[flow_coef.ravel(), hw_coef.ravel()],
             upper=np.repeat(prepared.well_permit_flow_kg_s[wells_here], n_t),
         ).reshape(len(wells_here), n_t)
         volume = prepared.well_annual_volume_m3[wells_here]
@@ -362,8 +415,13 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
             vpos = {int(p): k for k, p in enumerate(limited)}
             vrow = np.array([vpos[int(p)] for p in wrow[sel]])
             coef = flow_coef[sel] * w[None, :] * m3_per_kg[units.well[well_units][sel]]
+            hsel = np.isin(hw_rows, limited)
+            hvrow = np.array([vpos[int(p)] for p in hw_rows[hsel]], dtype=int)
+            hcoef = hw_coef[hsel] * w[None, :] * m3_per_kg[units.well[lifted[np.array(hw_well, int)[hsel]]]] \
+                if hsel.any() else np.zeros((0, n_t))
             rows["well_volume"] = lp.add_rows_coo(
-                "well_volume", len(limited), np.repeat(vrow, n_t), cols["out"][well_units][sel].ravel(), coef.ravel(),
+                "well_volume", len(limited), np.r_[np.repeat(vrow, n_t), np.repeat(hvrow, n_t)],
+                np.r_[cols["out"][well_units][sel].ravel(), hw_cols[hsel].ravel()], np.r_[coef.ravel(), hcoef.ravel()],
                 upper=volume[limited],
             )
         cols["wells_here"] = wells_here
@@ -398,6 +456,12 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
     out_cols = cols["out"]
     money[out_cols] = w[None, :] * (unit_energy_eur + var_om[:, None] / KWH_PER_MWH + co2_price * unit_co2)
     emis[out_cols] = w[None, :] * unit_co2
+    if len(lifted):
+        extra = extra_elec[lifted]
+        hw_co2 = extra * prepared.grid_co2_kg_per_mwh[None, :] / KWH_PER_MWH / KG_PER_T
+        money[cols["hot_water"]] = w[None, :] * (extra * prepared.electricity_eur_per_mwh[None, :] / KWH_PER_MWH
+                                                 + co2_price * hw_co2)
+        emis[cols["hot_water"]] = w[None, :] * hw_co2
     annuity = np.array([prepared.annuity[t] for t in units.technology_id])
     net_inv = np.array([prices.investment_eur_per_kw[t] for t in units.technology_id])
     gross_inv = np.array([prices.gross_investment_eur_per_kw[t] for t in units.technology_id])
@@ -431,6 +495,18 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
     return model
 
 
+CO2_STAGE_RELATIVE_SLACK = 1e-7
+"""The second CO2 stage holds emissions at most this share above the first stage's optimum ..."""
+CO2_STAGE_ABSOLUTE_SLACK_T = 1e-4
+"""... plus this many tonnes (so that HiGHS' feasibility tolerance cannot make the second stage infeasible)."""
+UNSERVED_STAGE_ABSOLUTE_SLACK_MWH = 1e-3
+"""Unserved heat in the second CO2 stage: at most 1e-7 relative plus this many MWh above the first stage's."""
+ABATEMENT_STEP_SHARE = 1e-3
+"""The abatement cost of the last tonnes is measured by relaxing the CO2 optimum by this share of it ..."""
+ABATEMENT_STEP_MIN_T = 1.0
+"""... and at least by this many tonnes [t/a]."""
+
+
 def co2_stage_objective(model: DistrictModel) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """The first stage of the CO2 objective: emissions with unserved heat and cooling counted at
     :data:`UNSERVED_CO2_EQUIVALENT_T_PER_MWH`; returns (objective, unserved columns, their weights [h])."""
@@ -446,20 +522,19 @@ def co2_stage_objective(model: DistrictModel) -> tuple[np.ndarray, np.ndarray, n
     return first, unserved_cols, unserved_weight
 
 
-def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None, cancel=None,
-                solver: str = DIRECT) -> LpSolution:
-    """Solve for least cost, or for least CO2 and then least cost at that CO2 (lexicographic).
+def _staged_co2(model: DistrictModel, time_limit_s, cancel, cost_limit_eur=None, solver: str = DIRECT) -> LpSolution:
+    """Least CO2 (unserved heat weighted by :data:`UNSERVED_CO2_EQUIVALENT_T_PER_MWH`), then least cost at it.
 
-    ``solver`` names the solver (:mod:`engine.model.solvers`; HiGHS directly by default).
+    ``cost_limit_eur`` (the LP's cost objective, constant fixed O&M left out) bounds the cost in both stages.
+    The result carries in ``info`` the CO2 optimum [t/a] and the cost saved by allowing
+    ``max(ABATEMENT_STEP_MIN_T, ABATEMENT_STEP_SHARE * optimum)`` more tonnes: their quotient is the abatement
+    cost of the last tonnes [EUR/t].
     """
     lp = model.lp
-    if objective == "cost":
-        lp.set_objective(model.money)
-        return solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
-    if objective != "co2":
-        raise ValueError(f"objective must be 'cost' or 'co2', got {objective!r}")
+    if cost_limit_eur is not None:
+        nz = np.flatnonzero(model.money)
+        lp.add_rows_coo("cost_limit", 1, np.zeros(len(nz)), nz, model.money[nz], upper=np.array([cost_limit_eur]))
     first, unserved_cols, unserved_weight = co2_stage_objective(model)
-    # a small cost term keeps the first stage well posed where emissions are flat (e.g. zero-carbon supplies)
     lp.set_objective(first)
     stage1 = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
     if stage1.status != "optimal":
@@ -468,13 +543,26 @@ def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None
     co2_opt = float(model.emissions @ x)
     unserved_opt = float(unserved_weight @ x[unserved_cols])
     nz = np.flatnonzero(model.emissions)
-    lp.add_rows_coo("co2_optimum", 1, np.zeros(len(nz)), nz, model.emissions[nz],
-                    upper=np.array([co2_opt * (1 + 1e-7) + 1e-4]))
+    co2_bound = co2_opt * (1 + CO2_STAGE_RELATIVE_SLACK) + CO2_STAGE_ABSOLUTE_SLACK_T
+    lp.add_rows_coo("co2_optimum", 1, np.zeros(len(nz)), nz, model.emissions[nz], upper=np.array([co2_bound]))
     lp.add_rows_coo("unserved_optimum", 1, np.zeros(len(unserved_cols)), unserved_cols, unserved_weight,
-                    upper=np.array([unserved_opt * (1 + 1e-7) + 1e-3]))
+                    upper=np.array([unserved_opt * (1 + CO2_STAGE_RELATIVE_SLACK) + UNSERVED_STAGE_ABSOLUTE_SLACK_MWH]))
     lp.set_objective(model.money)
     stage2 = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
     stage2.solve_s += stage1.solve_s
+    if stage2.status != "optimal":
+        return stage2
+    co2_at = float(model.emissions @ stage2.x)
+    step = max(ABATEMENT_STEP_MIN_T, ABATEMENT_STEP_SHARE * co2_at)
+    lp.set_row_upper("co2_optimum", co2_bound + step)
+    relaxed = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
+    lp.set_row_upper("co2_optimum", co2_bound)
+    stage2.solve_s += relaxed.solve_s
+    stage2.info = {"co2_optimum_t_per_a": co2_at, "abatement_step_t_per_a": 0.0, "abatement_saving_eur_per_a": 0.0}
+    if relaxed.status == "optimal":
+        # the tonnes the relaxed plan actually adds (the full step where the cost falls; less where it is flat)
+        stage2.info["abatement_step_t_per_a"] = max(float(model.emissions @ relaxed.x) - co2_at, 0.0) or step
+        stage2.info["abatement_saving_eur_per_a"] = max(float(model.money @ stage2.x - model.money @ relaxed.x), 0.0)
     return stage2
 
 
@@ -514,3 +602,35 @@ def capacity_columns(model: DistrictModel) -> CapacityColumns:
         existing=np.r_[units.existing_kw, stores.existing_kwh],
         max_new=np.r_[units.max_new_kw, stores.max_new_kwh],
     )
+
+
+def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None, cancel=None,
+                solver: str = DIRECT, co2_within_cost_pct: float = 0.0) -> LpSolution:
+    """Solve for least cost, or for least CO2 and then least cost at that CO2 (lexicographic).
+
+    ``solver`` names the solver (:mod:`engine.model.solvers`; HiGHS directly by default). With
+    ``objective="co2"`` and ``co2_within_cost_pct > 0`` the CO2 is the least reachable at a cost no more than
+    that many percent above the least cost of this LP (the cost optimum is solved first).
+    """
+    lp = model.lp
+    if objective == "cost":
+        lp.set_objective(model.money)
+        return solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
+    if objective != "co2":
+        raise ValueError(f"objective must be 'cost' or 'co2', got {objective!r}")
+    limit = None
+    extra_s = 0.0
+    if co2_within_cost_pct and co2_within_cost_pct > 0:
+        lp.set_objective(model.money)
+        cheapest = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
+        if cheapest.status != "optimal":
+            return cheapest
+        constant = float(model.constant_fixed_om.sum())
+        least = float(model.money @ cheapest.x) + constant
+        limit = least * (1 + co2_within_cost_pct / 100.0) - constant + 1e-6 * abs(least)
+        extra_s = cheapest.solve_s
+    solution = _staged_co2(model, time_limit_s, cancel, limit, solver)
+    solution.solve_s += extra_s
+    if limit is not None and solution.status == "optimal":
+        solution.info["cost_limit_eur_per_a"] = limit + float(model.constant_fixed_om.sum())
+    return solution

@@ -14,7 +14,7 @@ from __future__ import annotations
 import os
 import sys
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import highspy
 import numpy as np
@@ -40,6 +40,8 @@ class LpSolution:
     x: np.ndarray | None = None
     row_dual: np.ndarray | None = None
     solve_s: float = 0.0
+    info: dict = field(default_factory=dict)
+    """Figures a staged solve adds (e.g. the CO2 optimum and the abatement cost of its last tonnes)."""
 
 
 class LinearProgram:
@@ -128,6 +130,12 @@ class LinearProgram:
         self.n_rows += n_rows
         self._matrix = None
         return index
+
+    def set_row_upper(self, name: str, upper) -> None:
+        """Change the upper bounds of the row block ``name`` (e.g. to relax a stage's limit and solve again)."""
+        position = list(self.row_blocks).index(name)
+        block = self.row_blocks[name]
+        self._row_upper[position] = np.broadcast_to(np.asarray(upper, float), (block.stop - block.start,)).copy()
 
     # ------------------------------------------------------------------ assembled arrays
     def _cat(self, parts, dtype=float) -> np.ndarray:

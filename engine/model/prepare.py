@@ -19,9 +19,9 @@ from engine.physics import economics
 from engine.physics import heatpump
 from engine.physics import water
 from engine.physics import wells as wells_mod
-from engine.scenario.inputs import EffectivePrices, Scenario, Settings, apply_cost_case
-from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, typical_day_grid
-from engine.units import SECONDS_PER_HOUR, W_PER_KW
+from engine.scenario.inputs import EffectivePrices, Scenario, Settings, apply_cost_case, hot_water_temp_c
+from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, rescale_to_annual, typical_day_grid
+from engine.units import SECONDS_PER_HOUR
 
 
 @dataclass
@@ -53,6 +53,12 @@ class PreparedRun:
     grid_co2_kg_per_mwh: np.ndarray
     network_co2_kg_per_mwh: np.ndarray
     annuity: dict  # technology_id -> annuity factor [1/a]
+    hot_water_demand_kw: np.ndarray | None = None  # (districts, steps), part of heat_demand_kw
+    hot_water_temp_c: np.ndarray | None = None  # (districts,)
+    air_cop_hot_water: dict = dataclasses.field(default_factory=dict)  # COP at the hot-water temperature
+    well_cop_hot_water: dict = dataclasses.field(default_factory=dict)
+    aggregation: dict = dataclasses.field(default_factory=dict)  # what the typical days change (summary)
+    cop_bounds: dict = dataclasses.field(default_factory=dict)  # hours at the COP clips (summary)
 
     @property
     def n_steps(self) -> int:
@@ -84,6 +90,40 @@ def demand_year_kw(scenario: Scenario, settings: Settings) -> tuple[np.ndarray, 
     return heat, cool
 
 
+def flow_per_kw_kg_s(spread_k: np.ndarray, groundwater_temp_c: np.ndarray) -> np.ndarray:
+    """Pumped water needed per kW exchanged at the usable spread [kg/s per kW]; inf where no spread is left.
+
+    The inverse of :func:`engine.physics.wells.well_thermal_power_kw` at 1 kg/s (P = m_dot c_p dT, c_p from
+    IAPWS-95 at the groundwater temperature, clipped to 0.5..99 °C where the property fit holds).
+    """
+    spread = np.asarray(spread_k, dtype=float)
+    if spread.size == 0:
+        return np.zeros_like(spread)
+    usable = spread > 1e-9
+    kw_per_kg_s = wells_mod.well_thermal_power_kw(1.0, np.where(usable, spread, 1.0), np.clip(groundwater_temp_c, 0.5, 99.0))
+    return np.where(usable, 1.0 / kw_per_kg_s, np.inf)
+
+
+def hot_water_year_kw(scenario: Scenario, heat_year_kw: np.ndarray) -> np.ndarray:
+    """Hourly hot-water part of every district's heat demand [kW], shape (districts, hours).
+
+    From the annual figure, the part :func:`engine.physics.demand.heat_demand_profile_kw` puts in; for a measured
+    hourly series, ``hot_water_share`` of its sum spread with the daily hot-water shape, never above the hour's
+    measured demand.
+    """
+    districts = scenario.districts
+    n = heat_year_kw.shape[1]
+    out = np.zeros_like(heat_year_kw)
+    measured = scenario.heat_demand_hourly_kw
+    for i, row in enumerate(districts.itertuples(index=False)):
+        if measured is not None and row.district_id in measured.columns:
+            total = float(heat_year_kw[i].sum()) / 1000.0
+            out[i] = np.minimum(demand_mod.hot_water_profile_kw(total, n, row.hot_water_share), heat_year_kw[i])
+        else:
+            out[i] = demand_mod.hot_water_profile_kw(row.heat_demand_mwh_per_a, n, row.hot_water_share)
+    return out
+
+
 def groundwater_year_c(scenario: Scenario) -> np.ndarray:
     """Hourly groundwater temperature at every well's extraction [°C], shape (wells, hours)."""
     wells = scenario.wells
@@ -102,78 +142,170 @@ def groundwater_year_c(scenario: Scenario) -> np.ndarray:
     return out
 
 
-def build_time_grid(scenario: Scenario, settings: Settings, heat_year_kw: np.ndarray) -> TimeGrid:
-    """Full year when ``settings.typical_days`` is 0, else k-medoids typical days with the peak day kept."""
+def extreme_days(scenario: Scenario, heat_year_kw: np.ndarray, cool_year_kw: np.ndarray) -> dict:
+    """The days kept on their own beside the typical days: the day of the city's peak heating hour, of its peak
+    cooling hour (if it has cooling) and the coldest day (lowest daily mean outdoor temperature)."""
+    outdoor = scenario.hourly["outdoor_temp_c"].to_numpy(float)
+    days = {"peak_heating_day": int(np.argmax(heat_year_kw.sum(axis=0)) // 24),
+            "coldest_day": int(np.argmin(outdoor.reshape(-1, 24).mean(axis=1)))}
+    city_cool = cool_year_kw.sum(axis=0)
+    if city_cool.max(initial=0.0) > 0:
+        days["peak_cooling_day"] = int(np.argmax(city_cool) // 24)
+    return days
+
+
+def build_time_grid(scenario: Scenario, settings: Settings, heat_year_kw: np.ndarray,
+                    cool_year_kw: np.ndarray | None = None) -> TimeGrid:
+    """Full year when ``settings.typical_days`` is 0, else k-medoids typical days plus the extreme days
+    (:func:`extreme_days`, weight one day each)."""
     n_hours = scenario.n_hours
     n_days = n_hours // 24
     if settings.typical_days <= 0 or settings.typical_days >= n_days:
         return full_year_grid(n_hours)
+    if cool_year_kw is None:
+        cool_year_kw = np.zeros_like(heat_year_kw)
     hourly = scenario.hourly
     city_heat = heat_year_kw.sum(axis=0)
-    series = np.column_stack(
-        [
-            hourly["outdoor_temp_c"].to_numpy(float),
-            city_heat,
-            hourly["electricity_price_eur_per_mwh"].to_numpy(float),
-            hourly["network_price_eur_per_mwh"].to_numpy(float),
-            hourly["grid_co2_kg_per_mwh"].to_numpy(float),
-        ]
-    )
-    features = daily_features(series)
-    peak_day = int(np.argmax(city_heat.reshape(n_days, 24).sum(axis=1)))
-    # the grid depends on these three alone: a cost case, an objective or a study's re-solve finds it again
-    key = (hashlib.sha256(np.ascontiguousarray(features).tobytes()).hexdigest(), int(settings.typical_days), peak_day)
+    city_cool = cool_year_kw.sum(axis=0)
+    columns = [
+        hourly["outdoor_temp_c"].to_numpy(float),
+        city_heat,
+        hourly["electricity_price_eur_per_mwh"].to_numpy(float),
+        hourly["network_price_eur_per_mwh"].to_numpy(float),
+        hourly["grid_co2_kg_per_mwh"].to_numpy(float),
+    ]
+    if city_cool.max(initial=0.0) > 0:
+        columns.append(city_cool)
+    features = daily_features(np.column_stack(columns))
+    extremes = tuple(sorted(set(extreme_days(scenario, heat_year_kw, cool_year_kw).values())))
+    # the grid depends on these alone: a cost case, an objective or a study's re-solve finds it again
+    key = (hashlib.sha256(np.ascontiguousarray(features).tobytes()).hexdigest(), int(settings.typical_days), extremes)
     if key not in _GRID_MEMO:
         while len(_GRID_MEMO) >= 8:
             del _GRID_MEMO[next(iter(_GRID_MEMO))]
-        _GRID_MEMO[key] = typical_day_grid(features, settings.typical_days, peak_day)
+        _GRID_MEMO[key] = typical_day_grid(features, settings.typical_days, None, extreme_days=list(extremes))
     return _GRID_MEMO[key]
 
 
 _GRID_MEMO: dict = {}
-"""Typical-day grids of this process by (features digest, typical days, peak day); the oldest of 8 goes first.
-:func:`clear_grid_memo` empties it (the benchmark does, to time a first solve)."""
+"""Typical-day grids of this process by (features digest, typical days, extreme days); the oldest of 8 goes
+first. :func:`clear_grid_memo` empties it (the benchmark does, to time a first solve)."""
 
 
 def clear_grid_memo() -> None:
     _GRID_MEMO.clear()
 
 
+def aggregation_report(grid: TimeGrid, heat_year: np.ndarray, cool_year: np.ndarray, heat_steps: np.ndarray,
+                       cool_steps: np.ndarray, heat_error_pct: np.ndarray, cool_error_pct: np.ndarray,
+                       extremes: dict) -> dict:
+    """What the typical days change, for the run's summary: sums before rescaling, peaks, the profile error."""
+    if grid.is_full_year:
+        return {"typical_days": 0}
+    w = grid.weight_h
+    city_heat_year = heat_year.sum(axis=0)
+    city_heat_rebuilt = grid.rebuild(heat_steps.sum(axis=0))
+    rms = float(np.sqrt(np.mean((city_heat_rebuilt - city_heat_year) ** 2)))
+    mean = float(city_heat_year.mean()) if city_heat_year.size else 0.0
+
+    def worst(errors):
+        finite = errors[np.isfinite(errors)]
+        return float(finite[np.argmax(np.abs(finite))]) if finite.size else 0.0
+
+    return {
+        "typical_days": int((~grid.extreme_period).sum()) if grid.extreme_period is not None else grid.n_periods,
+        "extreme_days": extremes,
+        "periods": int(grid.n_periods),
+        "heat_sum_error_before_rescaling_pct_worst_district": worst(heat_error_pct),
+        "cooling_sum_error_before_rescaling_pct_worst_district": worst(cool_error_pct),
+        "heat_sum_error_after_rescaling_pct": float(
+            100 * ((heat_steps @ w).sum() - heat_year.sum()) / heat_year.sum()) if heat_year.sum() > 0 else 0.0,
+        "cooling_sum_error_after_rescaling_pct": float(
+            100 * ((cool_steps @ w).sum() - cool_year.sum()) / cool_year.sum()) if cool_year.sum() > 0 else 0.0,
+        "peak_heat_kept_pct": float(100 * heat_steps.sum(axis=0).max() / city_heat_year.max())
+        if city_heat_year.max() > 0 else 100.0,
+        "city_heat_profile_rms_error_pct_of_mean": 100 * rms / mean if mean > 0 else 0.0,
+    }
+
+
+COP_MIN = 1.0
+"""Lower clip of every heat pump COP the model uses (no worse than direct electric heating) [-]."""
+COP_MAX = 8.0
+"""Upper clip: a tiny lift (mild weather, warm source) gives no unbounded COP [-]."""
+
+
+def cop_bound_report(cops: dict, weight_h: np.ndarray, label: str) -> dict:
+    """Per technology: hours (step weights summed over the districts or wells) at the COP clips, and the
+    districts or wells that reach a clip at least once. ``cops``: technology_id -> (units, steps)."""
+    out = {}
+    for tech, values in cops.items():
+        values = np.asarray(values, dtype=float)
+        if values.size == 0:
+            continue
+        low = np.isclose(values, COP_MIN, rtol=0, atol=1e-12)
+        high = np.isclose(values, COP_MAX, rtol=0, atol=1e-12)
+        out[tech] = {
+            f"{label}_hours_at_cop_min": float((low * weight_h[None, :]).sum()),
+            f"{label}_hours_at_cop_max": float((high * weight_h[None, :]).sum()),
+            f"{label}s_at_a_bound": int((low | high).any(axis=1).sum()),
+            "cop_min": COP_MIN,
+            "cop_max": COP_MAX,
+        }
+    return out
+
+
 def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = None) -> PreparedRun:
     settings = settings or scenario.settings
     prices = apply_cost_case(scenario, cost_case)
     heat_year, cool_year = demand_year_kw(scenario, settings)
-    grid = build_time_grid(scenario, settings, heat_year)
+    grid = build_time_grid(scenario, settings, heat_year, cool_year)
     steps = grid.year_hour
+    # demand at the steps, rescaled so that the weighted sums are the year's sums exactly
+    heat_steps, heat_error = rescale_to_annual(heat_year, grid)
+    cool_steps, cool_error = rescale_to_annual(cool_year, grid)
+    hot_water_year = hot_water_year_kw(scenario, heat_year)
+    hot_water_steps = np.minimum(rescale_to_annual(hot_water_year, grid)[0], heat_steps)
+    aggregation = aggregation_report(grid, heat_year, cool_year, heat_steps, cool_steps, heat_error, cool_error,
+                                     {} if grid.is_full_year else extreme_days(scenario, heat_year, cool_year))
     districts = scenario.districts
     techs = scenario.technologies
     outdoor = scenario.hourly["outdoor_temp_c"].to_numpy(float)[steps]
     supply = districts["supply_temp_c"].to_numpy(float)
 
-    air_cop = {}
+    hot_water_c = hot_water_temp_c(districts)
+    # hot water is made at its own temperature, at least the space-heating supply temperature
+    hot_water_sink = np.maximum(hot_water_c, supply)
+    air_cop, air_cop_hw = {}, {}
     for row in techs[techs["kind"] == "air_heat_pump"].itertuples(index=False):
         air_cop[row.technology_id] = heatpump.heat_pump_cop(
-            supply[:, None], outdoor[None, :], row.cop_quality_grade, row.sink_approach_k, row.source_approach_k
+            supply[:, None], outdoor[None, :], row.cop_quality_grade, row.sink_approach_k, row.source_approach_k,
+            COP_MIN, COP_MAX,
+        )
+        air_cop_hw[row.technology_id] = heatpump.heat_pump_cop(
+            hot_water_sink[:, None], outdoor[None, :], row.cop_quality_grade, row.sink_approach_k,
+            row.source_approach_k, COP_MIN, COP_MAX,
         )
 
     wells = scenario.wells
     district_index = {d: i for i, d in enumerate(districts["district_id"])}
     well_district = np.array([district_index[d] for d in wells["district_id"]], dtype=int)
     gw = groundwater_year_c(scenario)[:, steps] if len(wells) else np.zeros((0, len(steps)))
-    well_cop = {}
+    well_cop, well_cop_hw = {}, {}
     for row in techs[techs["kind"] == "groundwater_heat_pump"].itertuples(index=False):
         well_cop[row.technology_id] = heatpump.heat_pump_cop(
-            supply[well_district][:, None], gw, row.cop_quality_grade, row.sink_approach_k, row.source_approach_k
+            supply[well_district][:, None], gw, row.cop_quality_grade, row.sink_approach_k, row.source_approach_k,
+            COP_MIN, COP_MAX,
+        )
+        well_cop_hw[row.technology_id] = heatpump.heat_pump_cop(
+            hot_water_sink[well_district][:, None], gw, row.cop_quality_grade, row.sink_approach_k,
+            row.source_approach_k, COP_MIN, COP_MAX,
         )
     design = wells["design_spread_k"].to_numpy(float)[:, None] if len(wells) else np.zeros((0, 1))
     spread_h = wells_mod.usable_spread_heating_k(gw, design, settings.reinjection_min_temp_c)
     spread_c = wells_mod.usable_spread_cooling_k(gw, design, settings.reinjection_max_temp_c)
-    cp = water.water_specific_heat_j_per_kg_k(np.clip(gw, 0.5, 99.0)) if len(wells) else np.zeros_like(gw)
     rho = water.water_density_kg_per_m3(np.clip(gw, 0.5, 99.0)) if len(wells) else np.zeros_like(gw)
-    with np.errstate(divide="ignore"):
-        # kg/s needed per kW exchanged at the largest spread the window allows
-        flow_h = np.where(spread_h > 1e-9, W_PER_KW / (cp * np.maximum(spread_h, 1e-9)), np.inf)
-        flow_c = np.where(spread_c > 1e-9, W_PER_KW / (cp * np.maximum(spread_c, 1e-9)), np.inf)
+    flow_h = flow_per_kw_kg_s(spread_h, gw)
+    flow_c = flow_per_kw_kg_s(spread_c, gw)
     if len(wells):
         rho_mean = water.water_density_kg_per_m3(np.clip(wells["groundwater_temp_c"].to_numpy(float), 0.5, 99))
         permit_kg_s = wells["permit_flow_m3_per_h"].to_numpy(float) * rho_mean / SECONDS_PER_HOUR
@@ -195,8 +327,12 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
         prices=prices,
         grid=grid,
         district_ids=list(districts["district_id"]),
-        heat_demand_kw=heat_year[:, steps],
-        cooling_demand_kw=cool_year[:, steps],
+        heat_demand_kw=heat_steps,
+        cooling_demand_kw=cool_steps,
+        hot_water_demand_kw=hot_water_steps,
+        hot_water_temp_c=hot_water_c,
+        air_cop_hot_water=air_cop_hw,
+        well_cop_hot_water=well_cop_hw,
         heat_demand_year_kw=heat_year,
         cooling_demand_year_kw=cool_year,
         air_cop=air_cop,
@@ -216,6 +352,13 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
         grid_co2_kg_per_mwh=hourly["grid_co2_kg_per_mwh"].to_numpy(float)[steps],
         network_co2_kg_per_mwh=hourly["network_co2_kg_per_mwh"].to_numpy(float)[steps],
         annuity=annuity,
+        aggregation=aggregation,
+        cop_bounds={
+            "space_heating": {**cop_bound_report(air_cop, grid.weight_h, "district"),
+                              **cop_bound_report(well_cop, grid.weight_h, "well")},
+            "hot_water": {**cop_bound_report(air_cop_hw, grid.weight_h, "district"),
+                          **cop_bound_report(well_cop_hw, grid.weight_h, "well")},
+        },
     )
 
 

@@ -11,7 +11,9 @@ Tables (``result.tables[name]``):
     one row per district: district_id, name, heat_demand_mwh_per_a, cooling_demand_mwh_per_a,
     unserved_heat_mwh_per_a, unserved_cooling_mwh_per_a, investment_eur_per_a, fixed_om_eur_per_a,
     variable_om_eur_per_a, energy_eur_per_a, co2_eur_per_a, unserved_eur_per_a, total_cost_eur_per_a,
-    co2_t_per_a, levelised_cost_eur_per_mwh, co2_kg_per_mwh, main_supply.
+    co2_t_per_a, cooling_cost_eur_per_a, levelised_cost_eur_per_mwh (cost of the heat supply per MWh of heat
+    served: without the unserved-heat penalty and the cooling units), levelised_cost_of_cooling_eur_per_mwh,
+    co2_kg_per_mwh, main_supply ("unserved" where more heat is unserved than the largest technology supplies).
 ``supply``
     one row per district, technology and well (well_id is "" for technologies not on a well): kind, existing_kw,
     new_kw, capacity_kw (kWh for stores), heat_mwh_per_a, cooling_mwh_per_a, electricity_mwh_per_a,
@@ -55,6 +57,10 @@ COST_PARTS = ("investment", "fixed_om", "variable_om", "energy", "co2", "unserve
 """Parts of the annual cost; each district table has a column ``<part>_eur_per_a``."""
 
 STATUS_SOLVED = "optimal"
+STATUS_WITH_UNSERVED = "optimal_with_unserved"
+"""The LP reached its optimum but leaves heat unserved above the tolerance
+(:data:`engine.model.extract.UNSERVED_TOLERANCE_MWH`): tables are complete, the plan does not supply the city."""
+SOLVED_STATUSES = (STATUS_SOLVED, STATUS_WITH_UNSERVED)
 
 
 @dataclass
@@ -73,7 +79,7 @@ class RunResult:
 
     @property
     def solved(self) -> bool:
-        return self.status == STATUS_SOLVED
+        return self.status in SOLVED_STATUSES
 
     # ------------------------------------------------------------------ city figures
     def _district_sum(self, column: str) -> float:
@@ -184,6 +190,11 @@ class RunResult:
                     "total_cost_eur_per_a": float(row.total_cost_eur_per_a),
                     "co2_t_per_a": float(row.co2_t_per_a),
                     "levelised_cost_eur_per_mwh": float(row.levelised_cost_eur_per_mwh),
+                    # beside the levelised cost of heat, which leaves them out
+                    "unserved_eur_per_a": float(row.unserved_eur_per_a),
+                    "cooling_cost_eur_per_a": float(getattr(row, "cooling_cost_eur_per_a", 0.0)),
+                    "levelised_cost_of_cooling_eur_per_mwh": float(
+                        getattr(row, "levelised_cost_of_cooling_eur_per_mwh", float("nan"))),
                     "unserved_heat_mwh_per_a": float(row.unserved_heat_mwh_per_a),
                     "heat_by_technology_mwh_per_a": self.heat_by_technology_mwh_per_a(row.district_id),
                 }

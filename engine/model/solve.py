@@ -20,14 +20,14 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 
-from engine.model.extract import extract_tables
+from engine.model.extract import UNSERVED_TOLERANCE_MWH, extract_tables
 from engine.scenario.defaults import limit_from_entry
 from engine.scenario.inputs import Scenario, Settings, default_cost_case, input_hash
 from engine.model.formulation import DistrictModel, build_model, co2_stage_objective, solve_model, supply_units
 from engine.model.lp import LpSolution
 from engine.model.prepare import prepare_run
-from engine.model.results import RunResult
-from engine.model.solvers import DIRECT, resolve_solver
+from engine.model.results import STATUS_SOLVED, STATUS_WITH_UNSERVED, RunResult
+from engine.model.solvers import DIRECT, resolve_solver, solve_lp
 from engine.progress import Cancel, Progress, no_progress
 from engine.studies.permits import add_well_status
 
@@ -65,16 +65,59 @@ class PartOutcome:
     extract_s: float = 0.0
     size: dict | None = None
     """``variables``, ``constraints`` and ``nonzeros`` of the part's LP."""
+    info: dict | None = None
+    """What a staged CO2 solve adds (CO2 optimum, abatement step and saving)."""
 
 
 def _solve_part(prepared, districts, objective, time_limit_s, cancel=None, solver=DIRECT) -> PartOutcome:
     model = build_model(prepared, districts)
-    solution = solve_model(model, objective, time_limit_s=time_limit_s, cancel=cancel, solver=solver)
+    within = float(getattr(prepared.settings, "co2_within_cost_pct", 0.0) or 0.0)
+    solution = solve_model(model, objective, time_limit_s=time_limit_s, cancel=cancel, solver=solver,
+                           co2_within_cost_pct=within)
     started = time.perf_counter()
     tables = extract_tables(model, solution) if solution.status == "optimal" else None
     extract_s = time.perf_counter() - started
     size = {"variables": model.lp.n_cols, "constraints": model.lp.n_rows, "nonzeros": model.lp.n_nonzeros}
-    return PartOutcome(solution.status, solution.message, tables, model.build_s, solution.solve_s, extract_s, size)
+    return PartOutcome(solution.status, solution.message, tables, model.build_s, solution.solve_s, extract_s, size,
+                       solution.info)
+
+
+def lowest_co2_without_unserved(prepared, time_limit_s=None, cancel=None, solver=DIRECT) -> tuple[float | None, list[str]]:
+    """The least CO2 [t/a] any plan reaches that serves all heat and cooling (no CO2 cap), or None and the
+    districts where no plan serves everything with the allowed supply."""
+    settings = dataclasses.replace(prepared.settings, allow_unserved_heat=False, co2_cap_t_per_a=None)
+    strict = dataclasses.replace(prepared, settings=settings)
+    coupled = settings.network_plant_limit_kw is not None
+    n_d = len(prepared.district_ids)
+    parts = [list(range(n_d))] if coupled else [[i] for i in range(n_d)]
+    total, failed = 0.0, []
+    for part in parts:
+        model = build_model(strict, part)
+        model.lp.set_objective(model.emissions)
+        solution = solve_lp(model.lp, solver, time_limit_s=time_limit_s, cancel=cancel)
+        if solution.status != "optimal":
+            failed += [prepared.district_ids[i] for i in part]
+            continue
+        total += float(model.emissions @ solution.x)
+    return (None if failed else total), failed
+
+
+def unserved_message(result: RunResult, prepared, settings: Settings, time_limit_s=None, cancel=None,
+                     solver=DIRECT) -> str:
+    """The warning of a run that leaves heat unserved, with the lowest CO2 reachable without unserved heat."""
+    unserved = result.unserved_heat_mwh_per_a
+    share = 100 * unserved / result.heat_demand_mwh_per_a if result.heat_demand_mwh_per_a > 0 else 0.0
+    text = (f"Solved, but {unserved:,.0f} MWh/a of heat demand ({share:.1f} %) is left unserved (priced at "
+            f"{settings.value_of_unserved_heat_eur_per_mwh:,.0f} EUR/MWh): this is not a plan that supplies the city.")
+    floor, failed = lowest_co2_without_unserved(prepared, time_limit_s, cancel, solver)
+    if floor is None:
+        return text + (" No plan serves all the heat with the allowed supply in district(s) " + ", ".join(failed)
+                       + " (see potential_kw, the connection limits and the well permits).")
+    text += f" The lowest CO2 reachable without unserved heat is {floor:,.0f} t/a"
+    if settings.co2_cap_t_per_a is not None and settings.co2_cap_t_per_a < floor:
+        text += f"; the CO2 cap of {settings.co2_cap_t_per_a:,.0f} t/a lies below it and is met only by leaving heat unserved"
+    result.extras["lowest_co2_without_unserved_t_per_a"] = floor
+    return text + "."
 
 
 STITCH_MAX_COLUMNS = 2_000_000
@@ -372,18 +415,25 @@ def solve_scenario(
     time_limit_s: float | None = None,
     settings: Settings | None = None,
     solver: str = DIRECT,
+    co2_within_cost_pct: float | None = None,
 ) -> RunResult:
     """Solve ``scenario`` under ``cost_case`` and return the result (never raises for solver failures).
 
     ``solver`` is ``"highs"`` (HiGHS directly, the default) or a pulp solver (``"cbc"``, ``"pulp:NAME"``; see
     :mod:`engine.model.solvers`); an unknown or unavailable name raises
     :class:`engine.model.solvers.SolverChoiceError` before anything is solved. ``model_size["solver"]`` records it.
+    ``co2_within_cost_pct`` (with the CO2 objective): the least CO2 at a cost at most that many percent above
+    the least cost, bounded per solved LP (each district when decomposed).
     """
     started = time.perf_counter()
     solver = resolve_solver(solver)
     report = progress or no_progress
     cost_case = cost_case or default_cost_case(scenario.cost_cases)
-    settings = settings or run_settings(scenario, objective, co2_cap_t_per_a, typical_days)
+    settings = settings or run_settings(scenario, objective, co2_cap_t_per_a, typical_days,
+                                        **({} if co2_within_cost_pct is None else
+                                           {"co2_within_cost_pct": float(co2_within_cost_pct)}))
+    if settings.co2_within_cost_pct < 0:
+        raise ValueError(f"co2_within_cost_pct must be >= 0, got {settings.co2_within_cost_pct!r}")
     if settings.objective not in ("cost", "co2"):
         raise ValueError(f"objective must be 'cost' or 'co2', got {settings.objective!r}")
     result = RunResult(
@@ -397,6 +447,8 @@ def solve_scenario(
     )
     report(0.02, "Preparing demand, COPs and the time grid")
     prepared = prepare_run(scenario, cost_case, settings)
+    result.extras["time_aggregation"] = prepared.aggregation
+    result.extras["cop_bounds"] = prepared.cop_bounds
     prepare_s = time.perf_counter() - started
     decompose, parts = plan_parts(prepared, settings, decompose)
     workers = choose_workers(prepared, parts, workers)
@@ -462,12 +514,26 @@ def finish_result(result: RunResult, scenario: Scenario, prepared, settings: Set
         result.message = failure_message(o.status, o.message, where)
     else:
         result.tables = merge_tables([done[k].tables for k in range(len(parts))])
-        result.status = "optimal"
+        result.status = STATUS_SOLVED
         add_well_status(result, scenario)
-        unserved = result.unserved_heat_mwh_per_a
-        result.message = "Optimal solution found." + (
-            f" {unserved:,.0f} MWh/a of heat demand cannot be served with the allowed supply." if unserved > 0.5 else ""
-        )
+        abatement_text = ""
+        if settings.objective == "co2":
+            infos = [o.info for o in outcomes if o.info]
+            step = sum(i.get("abatement_step_t_per_a", 0.0) for i in infos)
+            saving = sum(i.get("abatement_saving_eur_per_a", 0.0) for i in infos)
+            co2_info = {"abatement_step_t_per_a": step,
+                        "last_tonnes_abatement_cost_eur_per_t": saving / step if step > 0 else None}
+            if any("cost_limit_eur_per_a" in i for i in infos):
+                co2_info["within_cost_pct"] = settings.co2_within_cost_pct
+            result.extras["co2_objective"] = co2_info
+            if step > 0:
+                abatement_text = (f" The last {step:,.1f} t/a of CO2 avoided cost {saving / step:,.0f} EUR/t "
+                                  "(abatement cost of the last tonnes).")
+        result.message = "Optimal solution found." + abatement_text
+        if result.unserved_heat_mwh_per_a > UNSERVED_TOLERANCE_MWH:
+            result.status = STATUS_WITH_UNSERVED
+            result.message = unserved_message(result, prepared, settings, time_limit_s, cancel,
+                                              solver) + abatement_text
     result.timings_s = {
         "build": round(sum(o.build_s for o in outcomes), 4),
         "solve": round(sum(o.solve_s for o in outcomes), 4),

@@ -164,6 +164,37 @@ def heat_demand_profile_kw(annual_mwh, outdoor_temp_c, hot_water_share=0.15, bas
     return _scaled_to_total(weights, total_kwh)
 
 
+def hot_water_profile_kw(annual_mwh, n_hours: int, hot_water_share=0.15) -> np.ndarray:
+    """Hourly hot-water part of a district's heat demand [kW]: the part :func:`heat_demand_profile_kw` adds.
+
+    ``hot_water_share * annual`` is the same on every day and follows :func:`hot_water_daily_shape` within the
+    day; the series sums to ``hot_water_share * annual_mwh * 1000`` kWh.
+
+    Parameters
+    ----------
+    annual_mwh : float
+        Annual heat demand (space heating and hot water), >= 0. [MWh/a]
+    n_hours : int
+        Hours of the year, a positive multiple of 24. [h]
+    hot_water_share : float, default 0.15
+        Share of the annual heat demand that is hot water, in [0, 1]. [-]
+
+    Raises
+    ------
+    ValueError
+        If ``annual_mwh`` is negative or not finite, ``hot_water_share`` lies outside [0, 1] or ``n_hours`` is
+        not a positive multiple of 24.
+    """
+    annual = _checked_annual(annual_mwh, "annual_mwh")
+    share = float(hot_water_share)
+    if not 0.0 <= share <= 1.0:
+        raise ValueError(f"hot_water_share must lie in [0, 1]; got {share:g}")
+    if int(n_hours) != n_hours or n_hours <= 0 or n_hours % HOURS_PER_DAY:
+        raise ValueError(f"n_hours must be a positive multiple of 24; got {n_hours!r}")
+    weights = np.tile(hot_water_daily_shape(), int(n_hours) // HOURS_PER_DAY)
+    return _scaled_to_total(weights, share * annual * 1000.0) if annual * share > 0 else np.zeros(int(n_hours))
+
+
 def cooling_demand_profile_kw(annual_mwh, outdoor_temp_c, base_temp_c=20.0) -> np.ndarray:
     """Hourly cooling demand from the annual demand by the cooling-degree-hour method.
 

@@ -14,8 +14,9 @@ Rousseeuw 2021), run from its BUILD start and from a few seeded random starts th
 in well under a second for the usual 8 to 24 typical days.
 
 Typical days keep the sequence of hours inside a day but not the sequence of days: seasonal storage and
-multi-day cold spells are not represented. The peak day can be forced to be a typical day so that the supply
-is sized for it.
+multi-day cold spells are not represented. Extreme days (peak heating, peak cooling, coldest) are kept as periods
+of their own with weight one day (:func:`typical_day_grid` ``extreme_days``), and :func:`rescale_to_annual` keeps
+the annual sums of demand exactly (Kotzur et al. 2018, see docs/model.md section 8).
 
 References
 ----------
@@ -338,6 +339,15 @@ class TimeGrid:
     year_hour: np.ndarray
     day_period: np.ndarray
     is_full_year: bool
+    extreme_period: np.ndarray | None = None
+    """True for each period that is an extreme day kept on its own (weight one day), shape (n_periods,)."""
+
+    @property
+    def is_extreme_step(self) -> np.ndarray:
+        """True for every step of an extreme period, shape (n_steps,)."""
+        if self.extreme_period is None:
+            return np.zeros(self.n_steps, dtype=bool)
+        return np.asarray(self.extreme_period, dtype=bool)[self.period]
 
     @property
     def n_hours(self) -> int:
@@ -457,12 +467,19 @@ def full_year_grid(n_hours: int) -> TimeGrid:
     )
 
 
-def typical_day_grid(day_features, n_days_wanted: int, peak_day: int | None) -> TimeGrid:
-    """Time grid of typical days chosen by k-medoids clustering of the calendar days.
+def typical_day_grid(day_features, n_days_wanted: int, peak_day: int | None, extreme_days=()) -> TimeGrid:
+    """Time grid of typical days chosen by k-medoids clustering of the calendar days, plus extreme days.
 
     Each column of ``day_features`` is scaled to zero mean and unit standard deviation (constant columns become
     0), the days are clustered with :func:`k_medoids`, and each medoid day becomes a period of 24 hourly steps
     whose weight is the number of calendar days in its cluster. Periods are numbered in calendar order.
+
+    ``extreme_days`` (e.g. the peak-heating, peak-cooling and coldest days) are taken out of the clustering and
+    each kept as a period of its own with weight one day, on top of the ``n_days_wanted`` clustered days: the
+    extreme-period practice of the typical-period literature (Kotzur, L., Markewitz, P., Robinius, M. and
+    Stolten, D. (2018). Impact of different time series aggregation methods on optimal energy system design.
+    Renewable Energy 117, 474-487), so that the supply is sized for them and nothing that happens on them is
+    multiplied by a cluster's weight.
 
     Parameters
     ----------
@@ -498,6 +515,11 @@ def typical_day_grid(day_features, n_days_wanted: int, peak_day: int | None) -> 
             f"{n_days_wanted!r}"
         ) from None
     n_days = features.shape[0]
+    extremes = sorted({int(d) for d in extreme_days})
+    if any(not 0 <= d < n_days for d in extremes):
+        raise ValueError(f"extreme_days must be day indices between 0 and {n_days - 1}; got {extremes}")
+    if extremes and n_days - len(extremes) >= 1:
+        return _grid_with_extremes(features, wanted, extremes)
     forced: tuple = ()
     if peak_day is not None:
         try:
@@ -524,6 +546,85 @@ def typical_day_grid(day_features, n_days_wanted: int, peak_day: int | None) -> 
         day_period=labels.astype(int),
         is_full_year=False,
     )
+
+
+def _grid_with_extremes(features: np.ndarray, wanted: int, extremes: list) -> TimeGrid:
+    """Cluster the days other than ``extremes`` into ``wanted`` typical days and add each extreme day alone."""
+    n_days = features.shape[0]
+    rest = np.setdiff1d(np.arange(n_days), extremes)
+    part = features[rest]
+    spread = part.std(axis=0)
+    scaled = (part - part.mean(axis=0)) / np.where(spread > 0.0, spread, 1.0)
+    medoids, labels = k_medoids(scaled, min(wanted, rest.size), seed=0)
+    return grid_from_medoids(rest[medoids], rest, labels, extremes, n_days)
+
+
+def grid_from_medoids(medoid_days, clustered_days, labels, extremes, n_days: int) -> TimeGrid:
+    """A :class:`TimeGrid` from chosen representative days: medoid ``k`` stands for the days of
+    ``clustered_days`` whose label is ``k``; each of ``extremes`` stands for itself (weight one day)."""
+    medoid_days = np.asarray(medoid_days, dtype=int)
+    representative = np.r_[medoid_days, np.asarray(extremes, dtype=int)]
+    is_extreme = np.r_[np.zeros(medoid_days.size, bool), np.ones(len(extremes), bool)]
+    order = np.argsort(representative, kind="stable")  # periods in calendar order
+    rank = np.empty(order.size, dtype=int)
+    rank[order] = np.arange(order.size)
+    day_period = np.empty(n_days, dtype=int)
+    day_period[np.asarray(clustered_days, dtype=int)] = rank[np.asarray(labels, dtype=int)]
+    for k, day in enumerate(extremes):
+        day_period[day] = rank[medoid_days.size + k]
+    n_periods = representative.size
+    days_per_period = np.bincount(day_period, minlength=n_periods)
+    hours = np.arange(HOURS_PER_DAY)
+    return TimeGrid(
+        n_steps=n_periods * HOURS_PER_DAY,
+        weight_h=np.repeat(days_per_period, HOURS_PER_DAY).astype(float),
+        period=np.repeat(np.arange(n_periods), HOURS_PER_DAY),
+        n_periods=int(n_periods),
+        hour_of_day=np.tile(hours, n_periods),
+        year_hour=(representative[order][:, None] * HOURS_PER_DAY + hours[None, :]).ravel(),
+        day_period=day_period,
+        is_full_year=False,
+        extreme_period=is_extreme[order],
+    )
+
+
+def rescale_to_annual(year_values, grid: TimeGrid):
+    """Values at the model steps whose weighted sums equal the hourly year's sums, row by row.
+
+    ``year_values`` has shape (rows, n_hours). The clustered (non-extreme) steps of each row are multiplied by
+    one factor so that ``sum_t weight_t * value_t`` equals the year's sum exactly; extreme days keep their
+    values (the peak stays the peak). Where the clustered days hold nothing of a row that the year holds outside
+    the extreme days, the factor would be undefined: then every step of the row is scaled, extremes included.
+    The cluster-period rescaling of the typical-period literature (e.g. Kotzur et al. 2018).
+
+    Returns
+    -------
+    values : numpy.ndarray
+        Shape (rows, n_steps).
+    error_before_pct : numpy.ndarray
+        Per row, ``100 * (weighted sum before rescaling - year's sum) / year's sum`` (NaN where the year is 0).
+    """
+    year = np.atleast_2d(np.asarray(year_values, dtype=float))
+    values = year[:, grid.year_hour]
+    w = grid.weight_h
+    target = year.sum(axis=1)
+    before = values @ w
+    with np.errstate(divide="ignore", invalid="ignore"):
+        error = np.where(target != 0, 100.0 * (before - target) / target, np.nan)
+    if grid.is_full_year:
+        return values, error
+    extreme = grid.is_extreme_step
+    fixed = values[:, extreme] @ w[extreme]
+    free = values[:, ~extreme] @ w[~extreme]
+    out = values.copy()
+    for r in range(year.shape[0]):
+        if target[r] == 0:
+            continue
+        if free[r] > 0 and target[r] - fixed[r] >= 0:
+            out[r, ~extreme] *= (target[r] - fixed[r]) / free[r]
+        elif before[r] > 0:
+            out[r] *= target[r] / before[r]
+    return out, error
 
 
 def daily_features(hourly_table) -> np.ndarray:

@@ -41,6 +41,9 @@ a water-cooled condenser runs 2 to 5 K above the water it heats)."""
 HOT_WATER_SHARE = 0.15
 """Share of a district's annual heat demand that is domestic hot water when ``hot_water_share`` is blank [-]
 (common practice for a mixed housing stock, from memory: 10 to 20 %)."""
+HOT_WATER_TEMP_C = 60.0
+"""Temperature hot water is made at when ``hot_water_temp_c`` is blank [°C]: about 60 °C at the store against
+legionella (common practice; local hygiene rules decide)."""
 
 
 @dataclass(frozen=True)
@@ -104,6 +107,7 @@ DEFAULTS = (
         20.0,
         "a frequent permit condition on warm reinjection (common practice; defer to the water authority)",
     ),
+    Default(_SCENARIO, "run.co2_within_cost_pct", 0.0, "no cost bound: the CO2 objective at any cost"),
     Default(
         _SCENARIO,
         "co2_factors.gas_kg_per_mwh",
@@ -138,6 +142,7 @@ DEFAULTS = (
     Default(_SCENARIO, "aquifer.reinjection_offset_m", 100.0, _CHOICE),
     Default(_DISTRICTS, "cooling_demand_mwh_per_a", 0.0, _NONE_GIVEN),
     Default(_DISTRICTS, "hot_water_share", HOT_WATER_SHARE, "mixed housing stock (common practice, from memory)"),
+    Default(_DISTRICTS, "hot_water_temp_c", HOT_WATER_TEMP_C, "against legionella (common practice; local hygiene rules)"),
     Default(_DISTRICTS, "network_available", False, _NONE_GIVEN),
     Default(_DISTRICTS, "network_connection_limit_kw", NO_LIMIT, "limit rule"),
     Default(_TECHNOLOGIES, "cop_quality_grade", HEAT_PUMP_QUALITY_GRADE, "textbook range 0.4 to 0.55 (from memory)"),

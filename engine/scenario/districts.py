@@ -50,6 +50,7 @@ DISTRICT_PROPERTIES = (
     Column("cooling_demand_mwh_per_a", in_header=False, default=_district_default("cooling_demand_mwh_per_a"), low=0),
     Column("supply_temp_c", in_header=False, low=25, high=130),
     Column("hot_water_share", in_header=False, default=_district_default("hot_water_share"), low=0, high=1),
+    Column("hot_water_temp_c", in_header=False, default=_district_default("hot_water_temp_c"), low=30, high=95),
     Column("network_available", "bool", in_header=False, default=_district_default("network_available")),
     Column(
         "network_connection_limit_kw",

@@ -22,7 +22,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from engine.scenario.defaults import DEFAULT_CO2_KG_PER_MWH, section_defaults
+from engine.scenario.defaults import DEFAULT_CO2_KG_PER_MWH, HOT_WATER_TEMP_C as DEFAULT_HOT_WATER_TEMP_C, section_defaults
 from engine.scenario.kinds import FUELS
 
 _RUN = section_defaults("run")
@@ -52,6 +52,14 @@ def default_cost_case(case_names) -> str:
     return DEFAULT_COST_CASE if DEFAULT_COST_CASE in names else names[0]
 
 
+def hot_water_temp_c(districts: pd.DataFrame) -> np.ndarray:
+    """Hot-water temperature of every district [°C] (column ``hot_water_temp_c``, blank or absent: 60 °C)."""
+    if "hot_water_temp_c" not in districts.columns:
+        return np.full(len(districts), DEFAULT_HOT_WATER_TEMP_C)
+    values = pd.to_numeric(districts["hot_water_temp_c"], errors="coerce").to_numpy(float)
+    return np.where(np.isnan(values), DEFAULT_HOT_WATER_TEMP_C, values)
+
+
 @dataclass
 class Settings:
     """Run settings (``scenario.toml`` section ``[run]``); defaults from :mod:`engine.scenario.defaults`.
@@ -72,6 +80,9 @@ class Settings:
     cooling_base_temp_c: float = _RUN["cooling_base_temp_c"]
     reinjection_min_temp_c: float = _RUN["reinjection_min_temp_c"]
     reinjection_max_temp_c: float = _RUN["reinjection_max_temp_c"]
+    co2_within_cost_pct: float = _RUN["co2_within_cost_pct"]
+    """With the CO2 objective: the least CO2 at a cost at most this many percent above the least cost (0: no
+    cost bound, the lowest CO2 at any cost)."""
 
 
 @dataclass

@@ -49,6 +49,7 @@ RUN_KEYS = (
     Column("cooling_base_temp_c", default=_RUN["cooling_base_temp_c"], low=0, high=40),
     Column("reinjection_min_temp_c", default=_RUN["reinjection_min_temp_c"], low=0, high=40),
     Column("reinjection_max_temp_c", default=_RUN["reinjection_max_temp_c"], low=0, high=40),
+    Column("co2_within_cost_pct", default=_RUN["co2_within_cost_pct"], low=0, high=1000),
 )
 PRICE_KEYS = (
     Column("gas_eur_per_mwh", low=0, high=MAX_FUEL_PRICE_EUR_PER_MWH),

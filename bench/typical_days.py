@@ -1,0 +1,173 @@
+"""Typical days on the demo city: fidelity against the full hourly year, and our clustering against ``tsam``.
+
+    python bench/typical_days.py            # default resolution against the full year (about a minute)
+    python bench/typical_days.py --tsam     # also the same typical-day count chosen by tsam's clustering
+
+Both clusterings get the same inputs (the daily features the engine clusters, the extreme days taken out and kept
+alone, the demand rescaled to the year's sums by the engine); only the choice of the representative days
+differs. Figures are printed, never asserted: they hold for the demo's inputs.
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parents[1]
+if str(ROOT) not in sys.path:
+    sys.path.insert(0, str(ROOT))
+
+from engine.model import prepare as prepare_mod  # noqa: E402
+from engine.model.solve import run_settings, solve_scenario  # noqa: E402
+from engine.physics.timeseries import daily_features, grid_from_medoids, k_medoids  # noqa: E402
+from engine.scenario import load_scenario, resolve_scenario_path  # noqa: E402
+
+
+def _relative_pct(value: float, reference: float) -> float:
+    return 100.0 * (value - reference) / abs(reference) if abs(reference) > 1e-9 else math.nan
+
+
+def compare(result, reference, floor_mwh: float = 100.0) -> dict:
+    """Cost error and the largest error of a technology's annual heat (technologies above ``floor_mwh``) [%]."""
+    heat = result.heat_by_technology_mwh_per_a()
+    ref_heat = reference.heat_by_technology_mwh_per_a()
+    errors = {t: _relative_pct(heat.get(t, 0.0), v) for t, v in ref_heat.items() if abs(v) >= floor_mwh}
+    worst = max(errors, key=lambda t: abs(errors[t])) if errors else ""
+    return {
+        "cost_error_pct": _relative_pct(result.total_cost_eur_per_a, reference.total_cost_eur_per_a),
+        "co2_error_pct": _relative_pct(result.co2_t_per_a, reference.co2_t_per_a),
+        "heat_error_max_pct": abs(errors[worst]) if worst else 0.0,
+        "heat_error_worst_technology": worst,
+        "heat_errors_pct": errors,
+    }
+
+
+def _features(scenario, settings):
+    heat, cool = prepare_mod.demand_year_kw(scenario, settings)
+    hourly = scenario.hourly
+    columns = [hourly["outdoor_temp_c"].to_numpy(float), heat.sum(axis=0),
+               hourly["electricity_price_eur_per_mwh"].to_numpy(float),
+               hourly["network_price_eur_per_mwh"].to_numpy(float), hourly["grid_co2_kg_per_mwh"].to_numpy(float)]
+    if cool.sum() > 0:
+        columns.append(cool.sum(axis=0))
+    extremes = sorted(set(prepare_mod.extreme_days(scenario, heat, cool).values()))
+    return daily_features(np.column_stack(columns)), extremes
+
+
+def tsam_grid(scenario, settings, method: str = "hierarchical"):
+    """The time grid with the representative days chosen by tsam (medoid representation), extremes as ours."""
+    import pandas as pd
+    import tsam
+
+    features, extremes = _features(scenario, settings)
+    n_days = features.shape[0]
+    rest = np.setdiff1d(np.arange(n_days), extremes)
+    # tsam wants the hourly series; rebuild them from the days that are clustered
+    n_series = features.shape[1] // 24
+    hourly = features[rest].reshape(rest.size, n_series, 24).transpose(0, 2, 1).reshape(-1, n_series)
+    frame = pd.DataFrame(hourly, columns=[f"s{k}" for k in range(n_series)],
+                         index=pd.date_range("2030-01-01", periods=len(hourly), freq="h"))
+    result = tsam.aggregate(frame, n_clusters=settings.typical_days, period_duration=24,
+                            cluster=tsam.ClusterConfig(method=method, representation="medoid"),
+                            preserve_column_means=False)
+    clustering = result.clustering
+    medoids = np.asarray(clustering.cluster_centers, dtype=int)
+    labels = np.asarray(clustering.cluster_assignments, dtype=int)
+    return grid_from_medoids(rest[medoids], rest, labels, extremes, n_days)
+
+
+def own_grid_seconds(scenario, settings) -> float:
+    features, extremes = _features(scenario, settings)
+    rest = np.setdiff1d(np.arange(features.shape[0]), extremes)
+    part = features[rest]
+    spread = part.std(axis=0)
+    scaled = (part - part.mean(axis=0)) / np.where(spread > 0, spread, 1.0)
+    started = time.perf_counter()
+    k_medoids(scaled, settings.typical_days, seed=0)
+    return time.perf_counter() - started
+
+
+def solve_with_grid(scenario, settings, grid):
+    original = prepare_mod.build_time_grid
+    prepare_mod.build_time_grid = lambda *args, **kwargs: grid
+    try:
+        return solve_scenario(scenario, settings=settings)
+    finally:
+        prepare_mod.build_time_grid = original
+
+
+def full_year(scenario):
+    """The full-year run, kept in a pickle under the temporary folder keyed by the input hash (it takes long)."""
+    import pickle
+    import tempfile
+
+    from engine.scenario.inputs import input_hash
+
+    settings = run_settings(scenario, typical_days=0)
+    cache = Path(tempfile.gettempdir()) / f"heatmosaic-full-year-{input_hash(scenario, 'reference', settings)[:16]}.pkl"
+    if cache.exists():
+        with cache.open("rb") as handle:
+            return pickle.load(handle)
+    started = time.perf_counter()
+    reference = solve_scenario(scenario, settings=settings)
+    seconds = time.perf_counter() - started
+    with cache.open("wb") as handle:
+        pickle.dump((reference, seconds), handle)
+    return reference, seconds
+
+
+def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None) -> dict:
+    """The demo at its default resolution (or ``typical_days``) against the full year; optionally tsam's days."""
+    scenario = load_scenario(resolve_scenario_path("demo"))
+    settings = run_settings(scenario, typical_days=typical_days)
+    reference, year_s = full_year(scenario)
+    if not reference.solved:
+        raise RuntimeError(f"full-year demo did not solve: {reference.message}")
+    started = time.perf_counter()
+    ours = solve_scenario(scenario, settings=settings)
+    out = {"typical_days": settings.typical_days, "full_year_s": year_s,
+           "own": {**compare(ours, reference), "solve_s": time.perf_counter() - started,
+                   "cluster_s": own_grid_seconds(scenario, settings)}}
+    if with_tsam:
+        for method in ("hierarchical", "kmedoids"):
+            try:
+                started = time.perf_counter()
+                grid = tsam_grid(scenario, settings, method)
+                cluster_s = time.perf_counter() - started
+            except Exception as error:  # tsam's MILP k-medoids needs a solver it may not find
+                out[f"tsam_{method}"] = {"error": f"{type(error).__name__}: {error}"[:200]}
+                continue
+            result = solve_with_grid(scenario, settings, grid)
+            out[f"tsam_{method}"] = {**compare(result, reference), "cluster_s": cluster_s}
+    return out
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--tsam", action="store_true")
+    parser.add_argument("--typical-days", type=int, default=None)
+    args = parser.parse_args(argv)
+    figures = demo_fidelity(args.tsam, args.typical_days)
+    print(f"demo, {figures['typical_days']} typical days + extreme days; full year solved in "
+          f"{figures['full_year_s']:.1f} s")
+    for name, row in figures.items():
+        if not isinstance(row, dict):
+            continue
+        if "error" in row:
+            print(f"  {name}: {row['error']}")
+            continue
+        print(f"  {name}: cost {row['cost_error_pct']:+.3f} %, CO2 {row['co2_error_pct']:+.3f} %, worst heat "
+              f"{row['heat_error_max_pct']:.3f} % ({row['heat_error_worst_technology']}), clustering "
+              f"{row['cluster_s']:.3f} s; heat errors " + ", ".join(
+                  f"{t} {e:+.2f} %" for t, e in sorted(row["heat_errors_pct"].items())))
+    print(f"fidelity_cost_error_pct={figures['own']['cost_error_pct']:.3f}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
