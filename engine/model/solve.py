@@ -15,7 +15,6 @@ import os
 import time
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass
-from typing import Callable
 
 import numpy as np
 import pandas as pd
@@ -233,7 +232,7 @@ def _outcome(model, solution) -> PartOutcome:
     tables = extract_tables(model, solution) if solution.status == "optimal" else None
     size = {"variables": model.lp.n_cols, "constraints": model.lp.n_rows, "nonzeros": model.lp.n_nonzeros}
     return PartOutcome(solution.status, solution.message, tables, model.build_s, solution.solve_s,
-                       time.perf_counter() - started, size)
+                       time.perf_counter() - started, size, solution.info)
 
 
 def part_work(prepared, districts) -> float:
@@ -468,11 +467,13 @@ def solve_scenario(
                         f.cancel()
                     break
     else:
-        if decompose and len(parts) > 1 and solver == DIRECT:
+        # one-pass reading for cost runs; a CO2 run's stages carry per-district information read part by part
+        if decompose and len(parts) > 1 and solver == DIRECT and settings.objective == "cost":
             city, outcomes = _solve_serial_stitched(prepared, parts, settings.objective, time_limit_s, cancel, solver,
                                                     report)
             if city:
-                finish_result(result, scenario, prepared, settings, [sum(parts, [])], outcomes, decompose, solver)
+                finish_result(result, scenario, prepared, settings, [sum(parts, [])], outcomes, decompose, solver,
+                              time_limit_s, cancel)
                 result.model_size["linear_programs"] = len(parts)
                 result.timings_s = {"prepare": round(prepare_s, 4), **result.timings_s,
                                     "total": round(time.perf_counter() - started, 4)}
@@ -484,7 +485,7 @@ def solve_scenario(
             report(0.1 + 0.85 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)}")
             if done[k].status != "optimal":
                 break
-    finish_result(result, scenario, prepared, settings, parts, done, decompose, solver)
+    finish_result(result, scenario, prepared, settings, parts, done, decompose, solver, time_limit_s, cancel)
     result.timings_s = {"prepare": round(prepare_s, 4), **result.timings_s,
                         "total": round(time.perf_counter() - started, 4)}
     report(1.0, "Done")
@@ -492,9 +493,11 @@ def solve_scenario(
 
 
 def finish_result(result: RunResult, scenario: Scenario, prepared, settings: Settings, parts: list[list[int]],
-                  done: dict[int, PartOutcome], decompose: bool, solver: str) -> RunResult:
+                  done: dict[int, PartOutcome], decompose: bool, solver: str, time_limit_s=None,
+                  cancel: Cancel | None = None) -> RunResult:
     """Fill ``result`` from the outcomes of its parts: model size, status and message, merged tables and well
-    status, and the summed stage timings (``prepare`` and ``total`` are the caller's)."""
+    status, and the summed stage timings (``prepare`` and ``total`` are the caller's). ``time_limit_s`` and
+    ``cancel`` apply to the extra solve that finds the lowest CO2 without unserved heat, when heat is unserved."""
     outcomes = [done[k] for k in sorted(done)]
     size = {key: int(sum(o.size[key] for o in outcomes if o.size)) for key in ("variables", "constraints", "nonzeros")}
     size["linear_programs"] = len(parts)
