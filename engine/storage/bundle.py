@@ -43,6 +43,7 @@ import pandas as pd
 from engine import __version__, cautions
 from engine.jsonsafe import json_value
 from engine.model.results import RunResult
+from engine.outputs.csvfile import csv_text, restore_text
 from engine.scenario.files import REQUIRED_FILES, SCENARIO_FILES
 from engine.storage.safezip import DEFAULT_LIMITS, MIB, CheckedZip, ZipLimits, ZipRefused, write_checked_zip
 from engine.storage.store import StoreError, check_scenario_files
@@ -108,8 +109,11 @@ def _table_to_csv(frame: pd.DataFrame, table: str) -> tuple[bytes, dict]:
             spec["missing"] = missing
         columns.append(spec)
         out[label] = series
-    text = pd.DataFrame(out, index=pd.RangeIndex(len(frame)), columns=labels).to_csv(
-        index=False, lineterminator="\n", quoting=csv.QUOTE_NONNUMERIC  # quoted text keeps a bare "\r" in its cell
+    # Formula-leading text is defused (engine.outputs.csvfile) so the CSV is safe to open in a spreadsheet;
+    # _table_from_csv undoes it, so the round trip stays exact.
+    text = csv_text(
+        pd.DataFrame(out, index=pd.RangeIndex(len(frame)), columns=labels),
+        index=False, lineterminator="\n", quoting=csv.QUOTE_NONNUMERIC,  # quoted text keeps a bare "\r" in its cell
     )
     data = text.encode("utf-8")
     return data, {"rows": int(len(frame)), "columns": columns, "sha256": hashlib.sha256(data).hexdigest()}
@@ -159,7 +163,7 @@ def _parse_column(values: np.ndarray, spec: dict, table: str):
             raise _bad_cell(table, values[values != ""], parse, column, f"a value of type {dtype}") from None
         return pd.array(items, dtype=dtype)
     if dtype in ("string", "object", "text"):
-        items = values.copy()
+        items = np.array([restore_text(v) for v in values], dtype=object)
         if len(missing) and (min(missing) < 0 or max(missing) >= len(items)):
             raise BundleError(f"manifest.json: the missing cells of table '{table}', column '{column}' are out of range")
         items[np.asarray(missing, dtype=np.int64)] = None
@@ -211,7 +215,7 @@ def _table_from_csv(path: Path, spec: dict, table: str) -> pd.DataFrame:
             raw = pd.read_csv(path, dtype=object, na_filter=False, **options)
         except (ValueError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
             raise BundleError(f"results/{table}.csv cannot be read as CSV: {exc}") from None
-    if [str(v) for v in raw.columns] != names:
+    if [restore_text(str(v)) for v in raw.columns] != names:
         raise BundleError(f"results/{table}.csv: the header row does not match manifest.json")
     if len(raw) != rows:
         raise BundleError(f"results/{table}.csv has {len(raw)} data rows, manifest.json says {rows}")

@@ -2,7 +2,7 @@
 
 Layout: ``library.json`` (format, release, list of runs); per run ``runs/<n>/run.json`` (metadata),
 ``runs/<n>/tables/<table>.json`` (typed, read back by :func:`import_library`), ``runs/<n>/tables/<table>.csv``
-(for spreadsheets) and ``runs/<n>/inputs/<file>``. No pickle. A library arrives from outside, so it is read
+(for spreadsheets: formula-leading text defused by :mod:`engine.outputs.csvfile`; never read back) and ``runs/<n>/inputs/<file>``. No pickle. A library arrives from outside, so it is read
 through :class:`engine.storage.safezip.CheckedZip` under :data:`LIBRARY_LIMITS`.
 """
 
@@ -16,6 +16,7 @@ from pathlib import Path
 
 from engine import __version__
 from engine.model.results import RunResult
+from engine.outputs.csvfile import csv_bytes
 from engine.storage.errors import StoreError
 from engine.storage.safezip import MIB, CheckedZip, ZipLimits, ZipRefused, write_checked_zip
 from engine.scenario.files import SCENARIO_FILES
@@ -82,7 +83,7 @@ def _library_entries(conn: sqlite3.Connection, include_csv: bool):
             yield f"{folder}/tables/{table_name}.json", payload.encode()
             if include_csv:
                 frame = decode_table(payload, f"run {run_id}, table '{table_name}'")
-                yield f"{folder}/tables/{table_name}.csv", frame.to_csv(index=False).encode()
+                yield f"{folder}/tables/{table_name}.csv", csv_bytes(frame, index=False)
         for filename, content in input_rows:
             yield f"{folder}/inputs/{filename}", bytes(content)
         listing.append({"folder": folder, "original_run_id": run_id, "name": meta["name"]})
