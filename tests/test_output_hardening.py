@@ -26,7 +26,8 @@ from engine.outputs.outfolder import RECORD_NAME, publish_files
 from engine.storage.bundle import export_bundle, read_bundle
 from engine.storage.library import export_library
 from engine.storage.store import ScenarioStore
-from test_store import synthetic_result
+from engine.model.solve import solve_scenario
+from engine.scenario import load_scenario
 
 TINY = Path(__file__).parent / "fixtures" / "tiny_city"
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")  # OWASP "CSV Injection"
@@ -47,8 +48,16 @@ def formula_cells(data: bytes) -> list[str]:
     return [cell for row in rows for cell in row if cell.startswith(FORMULA_START) and not _is_number(cell)]
 
 
+_SOLVED = {}
+
+
 def hostile_result() -> RunResult:
-    result = synthetic_result()
+    """The tiny city solved (once per session), with formula-leading text in its tables."""
+    if "tiny" not in _SOLVED:
+        _SOLVED["tiny"] = solve_scenario(load_scenario(TINY), typical_days=2)
+    solved = _SOLVED["tiny"]
+    assert solved.solved
+    result = RunResult(**{**solved.__dict__, "tables": dict(solved.tables)})
     districts = result.tables["districts"].copy()
     districts["name"] = [HOSTILE[i % len(HOSTILE)] for i in range(len(districts))]
     result.tables["districts"] = districts
