@@ -225,7 +225,8 @@ class CheckedZip:
         try:
             counted = _directory_entry_count(handle, limits.max_entries)
             if counted is not None and counted > limits.max_entries:
-                self._refuse(f"its directory lists more than the {limits.max_entries} entries allowed")
+                self._refuse(f"its directory lists at least {counted} entries, more than the {limits.max_entries} "
+                             "allowed")
             try:
                 self._zip = zipfile.ZipFile(handle)
             except (zipfile.BadZipFile, zipfile.LargeZipFile, ValueError, EOFError, OSError) as exc:
