@@ -242,8 +242,8 @@ def _parse_text_column(report: Report, table: Table, spec: Column, raw: pd.Serie
         foreign = np.array([not cell.isascii() for cell in values], dtype=bool) & ~long
         report_rows(report, table, spec.name, foreign,
                     lambda i: f"'{printable(values[i])}' holds the non-ASCII character "
-                              f"'{next(c for c in values[i] if not c.isascii())}'; ids may hold only ASCII letters "
-                              "(A-Z, a-z), digits (0-9), '_' and '-'")
+                              f"'{next(c for c in values[i] if not c.isascii())}'; ids may hold only ASCII "
+                              "letters, digits, '_' and '-' (A-Z, a-z, 0-9)")
     _fill_blanks(report, table, spec, blank, values, "a value")
     return values
 

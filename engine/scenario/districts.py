@@ -217,8 +217,8 @@ def _check_district_ids(report: Report, table: Table, frame: pd.DataFrame) -> No
         table,
         "district_id",
         bad,
-        lambda i: f"'{printable(frame['district_id'].iloc[i])}' may hold only ASCII letters (A-Z, a-z), digits (0-9), "
-        f"'_' and '-'{_first_bad_character(frame['district_id'].iloc[i])}",
+        lambda i: f"'{printable(frame['district_id'].iloc[i])}' may hold only letters, digits, '_' and '-' (ASCII: "
+        f"A-Z, a-z, 0-9){_first_bad_character(frame['district_id'].iloc[i])}",
     )
     check_unique(report, table, list(frame["district_id"]), "district_id", "district_id '{}'")
 
