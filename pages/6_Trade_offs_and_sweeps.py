@@ -24,6 +24,7 @@ from engine.studies.fidelity import DEFAULT_DAY_COUNTS, cached_fidelity, fidelit
 from engine.studies.fidelity import recommend_typical_days
 from engine.storage.store import ScenarioStore, StoreError
 from engine.outputs.study_figures import tornado_figure, tradeoff_figure, tradeoff_mix_figure
+from engine.outputs.csvfile import csv_bytes
 from engine.scenario.inputs import default_cost_case
 from engine.studies.sweep import (
     PARAMETERS, default_ranges, random_samples, run_sweep, save_sweep, tasks_from_cost_cases, tasks_from_samples,
@@ -195,7 +196,7 @@ with tab_sweep:
         })
         with st.expander("Main supply of each district in each run"):
             st.dataframe(outcome.main_supply, width="stretch")
-        st.download_button("Download the sweep (CSV)", outcome.table.to_csv(index=False).encode(),
+        st.download_button("Download the sweep (CSV)", csv_bytes(outcome.table),
                            file_name="sweep.csv", mime="text/csv", key=f"tradeoffs_sweep_csv_{sweep_key}")
 
 # ------------------------------------------------------------------------------------------------ fidelity

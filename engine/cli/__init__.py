@@ -42,7 +42,10 @@ def parser() -> argparse.ArgumentParser:
 
 def main(argv=None) -> int:
     """Run one command; returns its exit code (argparse itself exits with 2 on a malformed command line)."""
-    args = parser().parse_args(argv)
+    try:
+        args = parser().parse_args(argv)
+    except SystemExit as stop:  # argparse printed its sentence (or the help); hand back its exit code
+        return stop.code if isinstance(stop.code, int) else EXIT_INPUT
     try:
         return COMMANDS[args.command](args)
     except KeyboardInterrupt:

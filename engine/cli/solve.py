@@ -7,14 +7,17 @@ import sys
 from pathlib import Path
 
 from engine.cli.common import (
-    EXIT_INPUT, EXIT_OK, EXIT_SOLVER, add_resolution_arguments, add_solver_argument, cost_case_error, fail,
-    load_for_command, solver_of, stderr_progress, typical_days_of,
+    EXIT_INPUT, EXIT_OK, EXIT_SOLVER, TYPICAL_DAYS, add_resolution_arguments, add_solver_argument, cost_case_error,
+    fail, load_for_command, number, out_file_error, out_folder_error, solver_of, stderr_progress, typical_days_of,
 )
 from engine.model.solve import build_programs, run_settings, solve_scenario
 from engine.scenario import validate_command
 from engine.studies.interference import solve_with_interference
 
 LP_SUFFIXES = (".lp", ".mps")
+
+MAX_HORIZON_YEARS = 100.0
+"""Longest look-ahead of the plume screening [a] (a permit term is far shorter; common practice)."""
 
 
 def add_parsers(sub) -> None:
@@ -25,15 +28,18 @@ def add_parsers(sub) -> None:
     p.add_argument("scenario", help="scenario folder, or 'demo'")
     p.add_argument("--cost-case", default=None)
     p.add_argument("--objective", choices=("cost", "co2"), default=None)
-    p.add_argument("--co2-cap-t", type=float, default=None, help="city-wide CO2 cap [t/a]")
-    p.add_argument("--co2-within-cost-pct", type=float, default=None, metavar="X",
+    p.add_argument("--co2-cap-t", type=number(float, 0.0, what=" (t/a; 0 means no cap)"), default=None,
+                   help="city-wide CO2 cap [t/a], a finite number >= 0 (0 means no cap)")
+    p.add_argument("--co2-within-cost-pct", type=number(float, 0.0, what=" (%)"), default=None, metavar="X",
                    help="lowest CO2 at a cost at most X %% above the least cost (implies --objective co2)")
     add_resolution_arguments(p)
     p.add_argument("--interference", action="store_true", help="re-solve until well source temperatures settle")
-    p.add_argument("--horizon-years", type=float, default=1.0,
+    p.add_argument("--horizon-years", type=number(float, 0.0, MAX_HORIZON_YEARS, low_open=True, what=" (years)"),
+                   default=1.0,
                    help="operating time the plume screening looks ahead [a] (with --interference)")
     p.add_argument("--out", default="out")
-    p.add_argument("--time-limit-s", type=float, default=None)
+    p.add_argument("--time-limit-s", type=number(float, 0.0, low_open=True, what=" (seconds)"), default=None,
+                   help="solver time limit [s], above 0")
     add_solver_argument(p)
     p.add_argument("--quiet", action="store_true")
 
@@ -42,7 +48,7 @@ def add_parsers(sub) -> None:
     p.add_argument("--out", required=True, metavar="FILE.lp|FILE.mps",
                    help="the file; a run decomposed by district writes one file per district, FILE_<district>.lp")
     p.add_argument("--cost-case", default=None)
-    p.add_argument("--typical-days", type=int, default=None, help="time resolution (0 = the full year)")
+    p.add_argument("--typical-days", type=TYPICAL_DAYS, default=None, help="time resolution (0 = the full year)")
     p.add_argument("--quiet", action="store_true")
 
 
@@ -51,20 +57,20 @@ def cmd_validate(args) -> int:
 
 
 def cmd_solve(args) -> int:
-    """``python -m engine solve DIR``: exit 0 solved, 2 input errors, 3 the solver failed."""
+    """``python -m engine solve DIR``: exit 0 solved, 2 input errors, 3 the solver failed.
+
+    Every flag is checked before the scenario is read (argparse checks the numbers: finite, in range).
+    """
+    typical_days, problem = typical_days_of(args)
+    solver, solver_problem = solver_of(args)
+    problem = problem or solver_problem or out_folder_error(args.out)
+    if problem:
+        return fail(problem)
     scenario = load_for_command(args.scenario)
     if scenario is None:
         return EXIT_INPUT
-    typical_days, problem = typical_days_of(args)
-    solver, solver_problem = solver_of(args)
-    problem = cost_case_error(scenario, args.cost_case) or problem or solver_problem
-    if args.co2_cap_t is not None and args.co2_cap_t < 0:
-        problem = problem or "--co2-cap-t must be >= 0 (0 means no cap)"
-    if args.interference and args.horizon_years <= 0:
-        problem = problem or "--horizon-years must be > 0"
+    problem = cost_case_error(scenario, args.cost_case)
     within = args.co2_within_cost_pct
-    if within is not None and within < 0:
-        problem = problem or "--co2-within-cost-pct must be >= 0"
     if within is not None and args.objective == "cost":
         problem = problem or "--co2-within-cost-pct goes with the CO2 objective, not --objective cost"
     if within is not None and args.interference:
@@ -84,7 +90,11 @@ def cmd_solve(args) -> int:
         result = solve_with_interference(scenario, horizon_years=args.horizon_years, **kwargs)
     else:
         result = solve_scenario(scenario, co2_within_cost_pct=within, **kwargs)
-    out = result.write(Path(args.out))
+    try:
+        out = result.write(Path(args.out))
+    except OSError as error:
+        print(f"The results could not be written to '{args.out}': {error}", file=sys.stderr)
+        return EXIT_SOLVER
     if not result.solved:
         print(f"Solver failed: {result.message}", file=sys.stderr)
         return EXIT_SOLVER
@@ -106,10 +116,9 @@ def part_path(out: Path, label: str) -> Path:
 def cmd_export_lp(args) -> int:
     """``python -m engine export-lp DIR --out FILE.lp|FILE.mps``: exit 0 written, 2 input errors."""
     out = Path(args.out)
-    if out.suffix.lower() not in LP_SUFFIXES:
-        return fail(f"--out must end in .lp or .mps, got '{args.out}'")
-    if args.typical_days is not None and args.typical_days < 0:
-        return fail("--typical-days must be >= 0 (0 means the full year)")
+    problem = out_file_error(args.out, LP_SUFFIXES)
+    if problem:
+        return fail(problem)
     scenario = load_for_command(args.scenario)
     if scenario is None:
         return EXIT_INPUT

@@ -52,6 +52,8 @@ import numpy as np
 import pandas as pd
 
 from engine.jsonsafe import json_value
+from engine.outputs.csvfile import csv_bytes
+from engine.outputs.outfolder import publish_files
 
 COST_PARTS = ("investment", "fixed_om", "variable_om", "energy", "co2", "unserved")
 """Parts of the annual cost; each district table has a column ``<part>_eur_per_a``."""
@@ -61,6 +63,12 @@ STATUS_WITH_UNSERVED = "optimal_with_unserved"
 """The LP reached its optimum but leaves heat unserved above the tolerance
 (:data:`engine.model.extract.UNSERVED_TOLERANCE_MWH`): tables are complete, the plan does not supply the city."""
 SOLVED_STATUSES = (STATUS_SOLVED, STATUS_WITH_UNSERVED)
+
+RUN_TABLE_NAMES = ("districts", "supply", "wells", "dispatch", "demand", "well_steps", "plumes", "steps", "day_map")
+"""The tables a run may hold (the module docstring)."""
+
+RUN_OUTPUT_FILES = ("summary.json",) + tuple(f"{name}.csv" for name in RUN_TABLE_NAMES)
+"""Files :meth:`RunResult.write` may write; one a run did not write is removed from the output folder."""
 
 
 @dataclass
@@ -169,7 +177,7 @@ class RunResult:
             "settings": self.settings,
         }
         if "districts" not in self.tables:
-            return out
+            return json_value(out, where="the run summary")
         out.update(
             total_cost_eur_per_a=self.total_cost_eur_per_a,
             co2_t_per_a=self.co2_t_per_a,
@@ -207,12 +215,14 @@ class RunResult:
         return json_value(out, where="the run summary")
 
     def write(self, out_dir: str | Path) -> Path:
-        """Write summary.json and one CSV per table into ``out_dir``."""
-        out = Path(out_dir)
-        out.mkdir(parents=True, exist_ok=True)
-        (out / "summary.json").write_text(json.dumps(self.summary(), indent=2))
+        """Write summary.json and one CSV per table into ``out_dir``; returns the folder.
+
+        The files are written into a fresh folder beside ``out_dir`` and moved in together
+        (:func:`engine.outputs.outfolder.publish_files`), so tables an earlier run left in ``out_dir`` never stay
+        beside this run's summary (a failed run leaves summary.json alone). summary.json is strict JSON (no NaN:
+        missing figures are null). The CSV files defuse spreadsheet formulas (:mod:`engine.outputs.csvfile`).
+        """
+        files = {"summary.json": json.dumps(self.summary(), indent=2, allow_nan=False).encode("utf-8")}
         for name, table in self.tables.items():
-            table.to_csv(out / f"{name}.csv", index=False)
-        return out
-
-
+            files[f"{name}.csv"] = csv_bytes(table, index=False)
+        return publish_files(out_dir, files, owned=RUN_OUTPUT_FILES)

@@ -9,23 +9,22 @@ Spreadsheet cells are written as typed values: numbers as numbers, text always a
 a sheet allows (1 048 576 rows) continues on sheets ``<table> 2``, ``<table> 3`` ... The CSV files keep numbers
 exactly as the result holds them; a text cell that a spreadsheet program would read as a formula (one starting with
 ``=``, ``+``, ``-``, ``@``, a tab or a carriage return) gets a leading apostrophe, as the OWASP "CSV Injection"
-page advises. :meth:`engine.model.results.RunResult.write` keeps every value verbatim for machine reading.
+page advises. Every CSV the tool writes follows that rule (:mod:`engine.outputs.csvfile`).
 """
 
 from __future__ import annotations
 
 import io
 import json
-import math
 import re
 import zipfile
 from collections.abc import Mapping
 
-import numpy as np
 import pandas as pd
 
 from engine.model.results import RunResult
 from engine.outputs.xlsx_writer import workbook_bytes
+from engine.outputs.csvfile import FORMULA_START, csv_bytes, defuse_frame  # noqa: F401 (FORMULA_START re-exported)
 
 TABLE_ORDER = ("districts", "supply", "wells", "dispatch", "demand", "well_steps", "steps", "day_map")
 MAX_SHEET_NAME = 31
@@ -118,26 +117,12 @@ def tables_xlsx(results: Mapping[str, RunResult]) -> bytes:
     return workbook_bytes(sheets, to_text=_cell_text)
 
 
-FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
-
-
 def neutralise_formulas(frame: pd.DataFrame) -> pd.DataFrame:
-    """``frame`` with an apostrophe before every text cell (and header) that starts like a formula.
+    """``frame`` with formula-leading text cells and headers defused (:func:`engine.outputs.csvfile.defuse_frame`).
 
     Only text is touched: numeric columns, and numbers that sit in a text column, stay as they are.
     """
-
-    def guard(value):
-        if isinstance(value, str) and value.startswith(FORMULA_START):
-            return "'" + value
-        return value
-
-    out = frame.copy()
-    for column in out.columns:
-        if out[column].dtype == object or pd.api.types.is_string_dtype(out[column].dtype):
-            out[column] = out[column].map(guard)
-    out.columns = [guard(c) for c in out.columns]
-    return out
+    return defuse_frame(frame)
 
 
 def _file_name(name: str, used: set[str]) -> str:
@@ -162,5 +147,5 @@ def tables_csv_zip(results: Mapping[str, RunResult]) -> bytes:
     with zipfile.ZipFile(buffer, "w", compression=zipfile.ZIP_DEFLATED) as archive:
         tables = {"runs": run_overview(results), "kpi": kpi_table(results), **combined_tables(results)}
         for name, frame in tables.items():
-            archive.writestr(_file_name(name, used), neutralise_formulas(frame).to_csv(index=False))
+            archive.writestr(_file_name(name, used), csv_bytes(frame, index=False))
     return buffer.getvalue()

@@ -218,9 +218,32 @@ def _parse_bool_column(report: Report, table: Table, spec: Column, raw: pd.Serie
     return values.astype(bool)
 
 
+MAX_ID_CHARS = 64
+"""Longest id (district_id, technology_id, well_id, building_id ...): ids name columns, files and LP rows."""
+
+MAX_TEXT_CHARS = 200
+"""Longest other text cell (names, kinds, carriers); documented in docs/input_format.md."""
+
+
+def text_length_limit(column: str) -> int:
+    """The most characters a text cell (or a TOML text) of ``column`` may hold."""
+    return MAX_ID_CHARS if column.endswith("_id") else MAX_TEXT_CHARS
+
+
 def _parse_text_column(report: Report, table: Table, spec: Column, raw: pd.Series) -> np.ndarray:
     values = raw.to_numpy(dtype=object).copy()
     blank = np.array([cell == "" for cell in values], dtype=bool)
+    limit = text_length_limit(spec.name)
+    long = np.array([len(cell) > limit for cell in values], dtype=bool)
+    report_rows(report, table, spec.name, long,
+                lambda i: f"is {len(values[i]):,} characters long; at most {limit} are allowed "
+                          f"('{printable(values[i])}')")
+    if spec.name.endswith("_id"):
+        foreign = np.array([not cell.isascii() for cell in values], dtype=bool) & ~long
+        report_rows(report, table, spec.name, foreign,
+                    lambda i: f"'{printable(values[i])}' holds the non-ASCII character "
+                              f"'{next(c for c in values[i] if not c.isascii())}'; ids may hold only ASCII "
+                              "letters, digits, '_' and '-' (A-Z, a-z, 0-9)")
     _fill_blanks(report, table, spec, blank, values, "a value")
     return values
 

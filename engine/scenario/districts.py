@@ -12,10 +12,12 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
+import shapely
 
 import engine.scenario.city_inputs as city_inputs
 import engine.scenario.geometry as geometry
 from engine.scenario.cells import (
+    MAX_ID_CHARS,
     KEEP,
     MAX_BUILDING_DEMAND_MWH_PER_A,
     MAX_DISTRICT_DEMAND_MWH_PER_A,
@@ -41,6 +43,9 @@ def _building_default(field: str):
 
 
 DISTRICT_ID_PATTERN = re.compile(r"^[A-Za-z0-9_-]+$")
+
+OVERLAP_TOLERANCE = 0.01
+"""Share of the smaller district's area two district polygons may overlap by (slivers from digitising)."""
 
 # ============================================================================= districts.geojson
 DISTRICT_PROPERTIES = (
@@ -205,15 +210,58 @@ def _check_district_geometries(report: Report, table: Table, geometries: list[An
 
 
 def _check_district_ids(report: Report, table: Table, frame: pd.DataFrame) -> None:
-    bad = np.array([bool(v) and not DISTRICT_ID_PATTERN.match(v) for v in frame["district_id"]], dtype=bool)
+    # non-ASCII ids are reported by the text rule of engine.scenario.cells already
+    bad = np.array([bool(v) and v.isascii() and len(v) <= MAX_ID_CHARS and not DISTRICT_ID_PATTERN.match(v)
+                    for v in frame["district_id"]], dtype=bool)
     report_rows(
         report,
         table,
         "district_id",
         bad,
-        lambda i: f"'{frame['district_id'].iloc[i]}' may hold only letters, digits, '_' and '-'",
+        lambda i: f"'{printable(frame['district_id'].iloc[i])}' may hold only letters, digits, '_' and '-' (ASCII: "
+        f"A-Z, a-z, 0-9){_first_bad_character(frame['district_id'].iloc[i])}",
     )
     check_unique(report, table, list(frame["district_id"]), "district_id", "district_id '{}'")
+
+
+def _first_bad_character(value: str) -> str:
+    for character in value:
+        if not re.fullmatch(r"[A-Za-z0-9_-]", character):
+            kind = "a non-ASCII letter" if character.isalpha() else "not allowed"
+            return f"; '{character}' is {kind} (write e.g. 'ue' for 'ü')" if character.isalpha() else \
+                f"; '{printable(character)}' is {kind}"
+    return ""
+
+
+def _check_district_overlaps(report: Report, table: Table, frame: pd.DataFrame, geometries: list,
+                             shapes: list) -> None:
+    """Two district polygons that overlap by more than :data:`OVERLAP_TOLERANCE` of the smaller one, with the
+    overlap's area (a building in the overlap would count for one district only)."""
+    usable = [k for k, shape in enumerate(shapes) if shape is not None and shape.area > 0]
+    if len(usable) < 2:
+        return
+    tree = shapely.STRtree([shapes[k] for k in usable])
+    pairs = tree.query([shapes[k] for k in usable], predicate="intersects")
+    ids = frame["district_id"].tolist()
+    for a, b in zip(*pairs):
+        if a >= b:
+            continue
+        first, second = usable[a], usable[b]
+        overlap = shapes[first].intersection(shapes[second]).area
+        smaller = min(shapes[first].area, shapes[second].area)
+        if overlap <= OVERLAP_TOLERANCE * smaller:
+            continue
+        km2 = overlap / shapes[second].area * geometry.area_km2(geometries[second])
+        row, prefix = table.place(second)
+        report(
+            table.file,
+            row,
+            None,
+            f"{prefix or f'district {printable(ids[second])!r}: '}overlaps district '{printable(ids[first])}' by "
+            f"{km2:.3g} km² ({overlap / smaller:.0%} of the smaller one); district polygons must not overlap by "
+            f"more than {OVERLAP_TOLERANCE:.0%} (heat demand and buildings in the overlap would count for one of "
+            "them only): correct the boundaries",
+        )
 
 
 def _check_district_network(report: Report, table: Table, frame: pd.DataFrame) -> None:
@@ -315,6 +363,7 @@ def _district_frame(report: Report, features: list, file: str) -> Districts:
     _check_district_ids(report, table, frame)
     _check_district_network(report, table, frame)
     _check_district_units(report, table, frame, geometries, shapes)
+    _check_district_overlaps(report, table, frame, geometries, shapes)
     # Usable geometries keep only their type and coordinates, in that order, so that the same polygon written
     # with its keys in another order (or with a bbox) gives the same scenario and the same input hash.
     geometries = [
@@ -438,8 +487,36 @@ def load_buildings(
         lambda i: f"building '{printable(frame['building_id'].iloc[i])}' at ({lons[i]:g}, {lats[i]:g}) lies outside "
         "every district" + (swapped[i] or f"; move it or extend a district polygon{note}"),
     )
+    _check_buildings_in_overlaps(report, table, frame, districts, found, usable)
     frame["district_index"] = found
     return frame
+
+
+def _check_buildings_in_overlaps(report, table, frame, districts: Districts, found: np.ndarray,
+                                 usable: np.ndarray) -> None:
+    """A building inside two districts' polygons counts for the first one only: say so."""
+    lons, lats = frame["lon"].to_numpy(dtype=float), frame["lat"].to_numpy(dtype=float)
+    ok = usable & (found >= 0)
+    second = np.full(len(frame), -1, dtype=int)
+    for index, shape in enumerate(districts.shapes):
+        if shape is None:
+            continue
+        todo = ok & (second < 0) & (found != index)
+        if not todo.any():
+            continue
+        inside = np.zeros(len(frame), dtype=bool)
+        inside[todo] = shapely.contains_xy(shape, lons[todo], lats[todo])  # interiors: a shared edge is no overlap
+        second[inside & (found != index)] = index
+    ids = districts.ids
+    report_rows(
+        report,
+        table,
+        None,
+        second >= 0,
+        lambda i: f"building '{printable(frame['building_id'].iloc[i])}' lies in the overlap of districts "
+        f"'{printable(ids[found[i]])}' and '{printable(ids[second[i]])}'; it counts for "
+        f"'{printable(ids[found[i]])}' only: correct the district boundaries",
+    )
 
 
 def add_buildings(districts: pd.DataFrame, buildings: pd.DataFrame | None) -> None:

@@ -10,6 +10,7 @@ from typing import Any
 import numpy as np
 
 from engine.scenario.cells import (
+    MAX_TEXT_CHARS,
     MAX_CO2_PRICE_EUR_PER_T,
     MAX_FUEL_PRICE_EUR_PER_MWH,
     MAX_PRICE_EUR_PER_MWH,
@@ -91,11 +92,19 @@ SCENARIO_SECTIONS = {
 REQUIRED_SECTIONS = ("run", "prices")
 OBJECTIVES = ("cost", "co2")
 
+MAX_TOML_TEXT_CHARS = {"name": 200, "description": 1000}
+"""Longest scenario name and cost-case description (other texts: :data:`engine.scenario.cells.MAX_TEXT_CHARS`)."""
+
 
 def toml_value_problem(value: Any, spec: Column) -> str | None:
     """Why a TOML value does not fit ``spec``, or None."""
     if spec.kind == "text":
-        return None if isinstance(value, str) else f"must be a text in quotes, got {value!r}"
+        if not isinstance(value, str):
+            return f"must be a text in quotes, got {value!r}"
+        limit = MAX_TOML_TEXT_CHARS.get(spec.name, MAX_TEXT_CHARS)
+        if len(value) > limit:
+            return f"is {len(value):,} characters long; at most {limit} are allowed"
+        return None
     if spec.kind == "bool":
         return None if isinstance(value, bool) else f"must be true or false, got {value!r}"
     if isinstance(value, bool) or not isinstance(value, (int, float)):

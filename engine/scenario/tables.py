@@ -37,6 +37,19 @@ from engine.scenario.problems import InputError, Problem
 MAX_FILE_BYTES = 200 * 1024 * 1024
 """Largest input file read [bytes]; a bigger file is refused with a message rather than exhausting memory."""
 
+HOURLY_ROW_LIMIT = 4 * 8784
+"""Most data rows of an hourly file read in full (a quarter-hourly leap year, so that the reader can say what a
+half- or quarter-hourly file is); a longer file is refused from its line count, before parsing."""
+
+MAX_CSV_ROWS = 2_000_000
+"""Most data rows of any other CSV file (a city's buildings fit well within it)."""
+
+MAX_CSV_COLUMNS = 10_000
+"""Most columns of a CSV file (an hourly file has one per district or well)."""
+
+MAX_CSV_CELLS = 20_000_000
+"""Most cells (rows times columns) of a CSV file; parsing keeps every cell as text, so this bounds memory."""
+
 CELL_REPORT_LIMIT = 5
 """Bad cells listed per column and kind of problem before the rest are summed up in one line."""
 
@@ -139,8 +152,39 @@ def _size_text(size: int) -> str:
     return f"{size} bytes"
 
 
-def read_text(folder: Path, name: str, report: Report, required: bool) -> str | None:
-    """The file's text (UTF-8, a BOM allowed), or None after reporting why it cannot be used."""
+def csv_shape_problem(name: str, data: bytes) -> str | None:
+    """Why a CSV file is too long or too wide to parse, judged from its bytes alone, or None.
+
+    Lines are counted by their newlines and columns by the separators of the first non-blank line, without
+    decoding or splitting the file, so an oversized file is refused at the cost of one pass over its bytes.
+    """
+    lines = data.count(b"\n") + (0 if data.endswith(b"\n") else 1)
+    start = re.match(rb"\s*", data).end()
+    end = data.find(b"\n", start)
+    header = data[start : end if end >= 0 else len(data)]
+    columns = header.count(b",") + 1
+    head_line = data[:start].count(b"\n")
+    rows = max(lines - head_line - 1, 0) - data.count(b"\n\n")  # blank lines do not count as rows
+    hourly = name in (HOURLY_FILE, HEAT_DEMAND_HOURLY_FILE, GROUNDWATER_TEMP_HOURLY_FILE)
+    limit = HOURLY_ROW_LIMIT if hourly else MAX_CSV_ROWS
+    if rows > limit:
+        if hourly:
+            return (f"has {rows} hourly rows; a year needs 8760 rows (8784 in a leap year), one per hour: keep one "
+                    "year of hourly values (the file was not read further)")
+        return f"has {rows:,} rows, more than the {limit:,} rows allowed for one file; aggregate the data first"
+    if columns > MAX_CSV_COLUMNS:
+        return f"has {columns:,} columns, more than the {MAX_CSV_COLUMNS:,} allowed"
+    if rows * columns > MAX_CSV_CELLS:
+        return (f"has {rows:,} rows of {columns:,} columns, more than the {MAX_CSV_CELLS:,} cells allowed for one "
+                "file; aggregate the data first")
+    return None
+
+
+def read_text(folder: Path, name: str, report: Report, required: bool, check_bytes=None) -> str | None:
+    """The file's text (UTF-8, a BOM allowed), or None after reporting why it cannot be used.
+
+    ``check_bytes(data) -> str | None`` may refuse the file from its raw bytes before it is decoded.
+    """
     path = folder / name
     if not path.exists():
         if required:
@@ -163,7 +207,7 @@ def read_text(folder: Path, name: str, report: Report, required: bool) -> str | 
         )
         return None
     data = path.read_bytes()
-    if not data.strip():
+    if re.fullmatch(rb"\s*", data):  # blank (without copying the bytes, as data.strip() would)
         report(name, None, None, _empty_message(name, required))
         return None
     geojson = name.lower().endswith((".geojson", ".json"))
@@ -173,6 +217,11 @@ def read_text(folder: Path, name: str, report: Report, required: bool) -> str | 
             if name.lower().endswith(".toml"):
                 fix = "write it as plain text (see docs/input_format.md)"
             report(name, None, None, f"is not a text file but {what}; {fix}")
+            return None
+    if check_bytes is not None:
+        problem = check_bytes(data)
+        if problem:
+            report(name, None, None, problem)
             return None
     utf16 = data[:2] in (b"\xff\xfe", b"\xfe\xff") or (len(data) > 3 and data[1::2].count(0) > len(data) // 4)
     utf16_hint = " (it looks like UTF-16)" if utf16 else ""
@@ -235,12 +284,28 @@ class Table:
         return len(self.rows)
 
 
+def _lines(text: str):
+    """The lines of ``text`` with their endings, one at a time (an ``io.StringIO`` would hold a copy of the text
+    at four bytes per character). Text with bare carriage returns as line ends goes through ``io.StringIO``."""
+    if "\r" in text and text.count("\r") != text.count("\r\n"):
+        yield from io.StringIO(text, newline="")
+        return
+    start, end = 0, len(text)
+    while start < end:
+        stop = text.find("\n", start)
+        stop = end if stop < 0 else stop + 1
+        yield text[start:stop]
+        start = stop
+
+
 def read_csv(folder: Path, name: str, report: Report, required: bool) -> Table | None:
     """Parse a CSV file into a :class:`Table`; reports layout problems (separator, ragged rows, header)."""
-    text = read_text(folder, name, report, required)
+    text = read_text(folder, name, report, required, check_bytes=lambda data: csv_shape_problem(name, data))
     if text is None:
         return None
-    reader = csv.reader(io.StringIO(text, newline=""))
+    has_quotes = '"' in text
+    reader = csv.reader(_lines(text))
+    del text  # the line generator holds it while the records are built; freed with the reader
     records: list[list[str]] = []
     last_line = 0  # line where the last complete record ended
     try:
@@ -304,7 +369,8 @@ def read_csv(folder: Path, name: str, report: Report, required: bool) -> Table |
         kept.append(record)
     if ragged > CELL_REPORT_LIMIT:
         report(name, None, None, f"... and {ragged - CELL_REPORT_LIMIT} more rows with the wrong number of cells")
-    if '"' in text:
+    del reader
+    if has_quotes:
         _check_open_quotes(report, name, header, rows, kept)
     columns: dict[str, pd.Series] = {}
     for position, values in enumerate(zip(*kept) if kept else [()] * width):
@@ -362,12 +428,32 @@ def read_toml(folder: Path, name: str, report: Report, required: bool) -> tuple[
         return None
     try:
         return tomllib.loads(text), text
+    except RecursionError:
+        line = _deepest_line(text)
+        report(name, line, None, "is nested too deeply (arrays or inline tables inside one another, more levels "
+               "than any scenario needs); write the values as plain key = value lines (see docs/input_format.md)")
+        return None
     except tomllib.TOMLDecodeError as error:
         match = _TOML_LINE.search(str(error))
         line = int(match.group(1)) if match else None
         message = _TOML_LINE.sub("", str(error)).strip()
         report(name, line, None, f"TOML syntax error: {message}; {_toml_hint(message)}")
         return None
+
+
+def _deepest_line(text: str, depth_limit: int = 100) -> int | None:
+    """The line where brackets and braces first nest ``depth_limit`` levels deep (quotes not followed)."""
+    depth, line = 0, 1
+    for character in text:
+        if character == "\n":
+            line += 1
+        elif character in "[{":
+            depth += 1
+            if depth >= depth_limit:
+                return line
+        elif character in "]}":
+            depth -= 1
+    return None
 
 
 _TOML_HINTS = (

@@ -43,7 +43,9 @@ import pandas as pd
 from engine import __version__, cautions
 from engine.jsonsafe import json_value
 from engine.model.results import RunResult
+from engine.outputs.csvfile import csv_text, restore_text
 from engine.scenario.files import REQUIRED_FILES, SCENARIO_FILES
+from engine.storage.schema import Checker, MAX_COLUMNS, MAX_ROWS, check_number_map, check_run_settings, loads
 from engine.storage.safezip import DEFAULT_LIMITS, MIB, CheckedZip, ZipLimits, ZipRefused, write_checked_zip
 from engine.storage.store import StoreError, check_scenario_files
 
@@ -108,8 +110,11 @@ def _table_to_csv(frame: pd.DataFrame, table: str) -> tuple[bytes, dict]:
             spec["missing"] = missing
         columns.append(spec)
         out[label] = series
-    text = pd.DataFrame(out, index=pd.RangeIndex(len(frame)), columns=labels).to_csv(
-        index=False, lineterminator="\n", quoting=csv.QUOTE_NONNUMERIC  # quoted text keeps a bare "\r" in its cell
+    # Formula-leading text is defused (engine.outputs.csvfile) so the CSV is safe to open in a spreadsheet;
+    # _table_from_csv undoes it, so the round trip stays exact.
+    text = csv_text(
+        pd.DataFrame(out, index=pd.RangeIndex(len(frame)), columns=labels),
+        index=False, lineterminator="\n", quoting=csv.QUOTE_NONNUMERIC,  # quoted text keeps a bare "\r" in its cell
     )
     data = text.encode("utf-8")
     return data, {"rows": int(len(frame)), "columns": columns, "sha256": hashlib.sha256(data).hexdigest()}
@@ -159,7 +164,7 @@ def _parse_column(values: np.ndarray, spec: dict, table: str):
             raise _bad_cell(table, values[values != ""], parse, column, f"a value of type {dtype}") from None
         return pd.array(items, dtype=dtype)
     if dtype in ("string", "object", "text"):
-        items = values.copy()
+        items = np.array([restore_text(v) for v in values], dtype=object)
         if len(missing) and (min(missing) < 0 or max(missing) >= len(items)):
             raise BundleError(f"manifest.json: the missing cells of table '{table}', column '{column}' are out of range")
         items[np.asarray(missing, dtype=np.int64)] = None
@@ -211,7 +216,7 @@ def _table_from_csv(path: Path, spec: dict, table: str) -> pd.DataFrame:
             raw = pd.read_csv(path, dtype=object, na_filter=False, **options)
         except (ValueError, pd.errors.ParserError, pd.errors.EmptyDataError) as exc:
             raise BundleError(f"results/{table}.csv cannot be read as CSV: {exc}") from None
-    if [str(v) for v in raw.columns] != names:
+    if [restore_text(str(v)) for v in raw.columns] != names:
         raise BundleError(f"results/{table}.csv: the header row does not match manifest.json")
     if len(raw) != rows:
         raise BundleError(f"results/{table}.csv has {len(raw)} data rows, manifest.json says {rows}")
@@ -285,7 +290,8 @@ def export_bundle(result: RunResult, inputs: Mapping[str, bytes] | None, path: s
         summary = result.summary()
     except (KeyError, AttributeError, TypeError, ValueError) as exc:
         raise BundleError(f"the result cannot be summarised for the bundle: {exc!r}") from None
-    entries.append(("results/summary.json", json.dumps(_json_safe(summary, "the summary"), indent=2).encode()))
+    summary_bytes = json.dumps(_json_safe(summary, "the summary"), indent=2, allow_nan=False).encode()
+    entries.append(("results/summary.json", summary_bytes))
     manifest = {
         "format": BUNDLE_FORMAT,
         "format_version": BUNDLE_FORMAT_VERSION,
@@ -309,6 +315,7 @@ def export_bundle(result: RunResult, inputs: Mapping[str, bytes] | None, path: s
             filename: {"bytes": len(content), "sha256": hashlib.sha256(content).hexdigest()}
             for filename, content in files.items()
         },
+        "results_summary": {"bytes": len(summary_bytes), "sha256": hashlib.sha256(summary_bytes).hexdigest()},
         "missing_required_inputs": [f for f in REQUIRED_FILES if f not in files],
         "tables": table_specs,
         "caution": cautions.RESULTS,
@@ -379,10 +386,7 @@ _BUNDLE_ENTRY = re.compile(
 
 
 def _load_json(path: Path, name: str) -> dict:
-    try:
-        value = json.loads(path.read_text(encoding="utf-8"))
-    except (ValueError, RecursionError) as exc:
-        raise BundleError(f"bundle refused: {name} is not valid JSON ({exc})") from None
+    value = loads(path.read_bytes(), f"bundle refused: {name}", BundleError)
     if not isinstance(value, dict):
         raise BundleError(f"bundle refused: {name} must hold a JSON object")
     return value
@@ -442,6 +446,57 @@ def read_bundle(path_or_bytes, dest_folder: str | Path, *, limits: ZipLimits = D
     return contents
 
 
+_TABLE_DTYPES = ("bool", "object", "string", "text") + tuple(sorted(_INT_NAMES | _FLOAT_NAMES | _MASKED_NAMES))
+_MANIFEST_TEXT = {"created_utc": 64, "heatmosaic_version": 64, "scenario_name": 200, "input_hash": 128,
+                  "cost_case": 200, "objective": 16, "status": 64, "message": 10_000, "caution": 10_000}
+
+
+def check_manifest(manifest: dict) -> None:
+    """Every field of manifest.json against its schema (types, ranges, sizes); BundleError names the field."""
+    check = Checker("bundle refused: manifest.json", BundleError)
+    for key, limit in _MANIFEST_TEXT.items():
+        check.text(manifest.get(key), key, max_chars=limit)
+    check_run_settings(manifest.get("settings"), "bundle refused: manifest.json", BundleError)
+    for key in ("timings_s", "model_size", "extras"):
+        check_number_map(manifest.get(key), key, check)
+    summary = check.mapping(manifest.get("summary"), "summary")
+    for key, value in summary.items():
+        check.number(value, f"summary.{key}", optional=True)
+    inputs = check.mapping(manifest.get("inputs"), "inputs")
+    for name, entry in inputs.items():
+        entry = check.mapping(entry, f"inputs.{name}", optional=False)
+        check.integer(entry.get("bytes"), f"inputs.{name}.bytes", 0, 2**40)
+        check.sha256(entry.get("sha256"), f"inputs.{name}.sha256")
+    if manifest.get("results_summary") is not None:
+        entry = check.mapping(manifest.get("results_summary"), "results_summary")
+        check.integer(entry.get("bytes"), "results_summary.bytes", 0, 2**40)
+        check.sha256(entry.get("sha256"), "results_summary.sha256")
+    check.listing(manifest.get("missing_required_inputs"), "missing_required_inputs", 100)
+    tables = check.mapping(manifest.get("tables"), "tables")
+    if len(tables) > 1000:
+        check.fail("tables", f"lists {len(tables):,} tables; at most 1,000 are allowed")
+    for table, spec in tables.items():
+        where = f"tables.{table}"
+        spec = check.mapping(spec, where, optional=False)
+        rows = check.integer(spec.get("rows"), f"{where}.rows", 0, MAX_ROWS)
+        check.sha256(spec.get("sha256"), f"{where}.sha256")
+        columns = check.listing(spec.get("columns"), f"{where}.columns", MAX_COLUMNS, optional=False)
+        for k, column in enumerate(columns):
+            field = f"{where}.columns[{k}]"
+            column = check.mapping(column, field, optional=False)
+            check.text(column.get("name"), f"{field}.name", max_chars=256, optional=False)
+            dtype = check.choice(column.get("dtype"), f"{field}.dtype", _TABLE_DTYPES)
+            if dtype in ("string", "object", "text"):
+                missing = check.listing(column.get("missing", []), f"{field}.missing", rows)
+                for m in missing:
+                    check.integer(m, f"{field}.missing", 0, max(rows - 1, 0))
+            if dtype == "string":
+                check.choice(column.get("storage"), f"{field}.storage", ("python", "pyarrow", None))
+                check.choice(column.get("na", "nan"), f"{field}.na", ("nan", "NA"))
+            if dtype == "text":
+                check.text(column.get("original"), f"{field}.original", max_chars=200)
+
+
 def _check_staged(manifest: dict, staging: Path, root: Path) -> BundleContents:
     """Validate the unpacked files against the manifest and read the tables."""
     if manifest.get("format") != BUNDLE_FORMAT:
@@ -453,6 +508,7 @@ def _check_staged(manifest: dict, staging: Path, root: Path) -> BundleContents:
         raise BundleError(
             f"bundle refused: it has format version {version}, written by a newer heatmosaic release "
             f"(this one reads up to {BUNDLE_FORMAT_VERSION})")
+    check_manifest(manifest)
     listed_inputs = manifest.get("inputs", {})
     listed_tables = manifest.get("tables", {})
     if not isinstance(listed_inputs, dict) or not isinstance(listed_tables, dict):
@@ -488,5 +544,16 @@ def _check_staged(manifest: dict, staging: Path, root: Path) -> BundleContents:
                 "(the bundle was altered or damaged)")
         tables[table] = _table_from_csv(csv_path, spec, table)
     summary_path = results_dir / "summary.json"
-    summary = _load_json(summary_path, "results/summary.json") if summary_path.exists() else {}
+    summary = {}
+    if summary_path.exists():
+        listed = manifest.get("results_summary")
+        if not isinstance(listed, dict):
+            raise BundleError("bundle refused: results/summary.json is not described in manifest.json")
+        if hashlib.sha256(summary_path.read_bytes()).hexdigest() != listed.get("sha256"):
+            raise BundleError(
+                "bundle refused: results/summary.json does not match its checksum in manifest.json "
+                "(the bundle was altered or damaged)")
+        summary = _load_json(summary_path, "results/summary.json")
+    elif manifest.get("results_summary") is not None:
+        raise BundleError("bundle refused: manifest.json lists results/summary.json, which is missing")
     return BundleContents(manifest=manifest, input_folder=root / "inputs", tables=tables, summary=summary)

@@ -3,3 +3,7 @@
 
 class StoreError(Exception):
     """A store operation failed; the message says why in plain words."""
+
+
+class StoreDamaged(StoreError):
+    """The store file is damaged; it was left as it is (the message says what to do)."""

@@ -2,7 +2,7 @@
 
 Layout: ``library.json`` (format, release, list of runs); per run ``runs/<n>/run.json`` (metadata),
 ``runs/<n>/tables/<table>.json`` (typed, read back by :func:`import_library`), ``runs/<n>/tables/<table>.csv``
-(for spreadsheets) and ``runs/<n>/inputs/<file>``. No pickle. A library arrives from outside, so it is read
+(for spreadsheets: formula-leading text defused by :mod:`engine.outputs.csvfile`; never read back) and ``runs/<n>/inputs/<file>``. No pickle. A library arrives from outside, so it is read
 through :class:`engine.storage.safezip.CheckedZip` under :data:`LIBRARY_LIMITS`.
 """
 
@@ -16,7 +16,9 @@ from pathlib import Path
 
 from engine import __version__
 from engine.model.results import RunResult
+from engine.outputs.csvfile import csv_bytes
 from engine.storage.errors import StoreError
+from engine.storage.schema import MAX_TEXT_CHARS, Checker, check_number_map, check_run_settings, loads
 from engine.storage.safezip import MIB, CheckedZip, ZipLimits, ZipRefused, write_checked_zip
 from engine.scenario.files import SCENARIO_FILES
 from engine.storage.store import RUN_COLUMNS, SCHEMA_VERSION, ScenarioStore
@@ -82,7 +84,7 @@ def _library_entries(conn: sqlite3.Connection, include_csv: bool):
             yield f"{folder}/tables/{table_name}.json", payload.encode()
             if include_csv:
                 frame = decode_table(payload, f"run {run_id}, table '{table_name}'")
-                yield f"{folder}/tables/{table_name}.csv", frame.to_csv(index=False).encode()
+                yield f"{folder}/tables/{table_name}.csv", csv_bytes(frame, index=False)
         for filename, content in input_rows:
             yield f"{folder}/inputs/{filename}", bytes(content)
         listing.append({"folder": folder, "original_run_id": run_id, "name": meta["name"]})
@@ -118,12 +120,13 @@ def import_library(store: ScenarioStore, path: str | Path) -> list[int]:
             library_doc = _parse_json(checked.read("library.json"), "library.json")
             if library_doc.get("format") != LIBRARY_FORMAT:
                 raise StoreError(f"'{path}' is not a heatmosaic library (library.json has another format)")
+            check = Checker("library.json", StoreError)
             version = library_doc.get("format_version")
-            if not isinstance(version, int) or version > LIBRARY_FORMAT_VERSION:
+            if isinstance(version, bool) or not isinstance(version, int) or version < 1:
+                check.fail("format_version", "must be a whole number from 1")
+            if version > LIBRARY_FORMAT_VERSION:
                 raise StoreError(f"'{path}' was written by a newer heatmosaic release (format {version!r})")
-            listing = library_doc.get("runs")
-            if not isinstance(listing, list):
-                raise StoreError("library.json: 'runs' must be a list")
+            listing = check.listing(library_doc.get("runs"), "runs", LIBRARY_LIMITS.max_entries, optional=False)
             prepared = []
             for item in listing:
                 folder = item.get("folder") if isinstance(item, dict) else None
@@ -138,10 +141,13 @@ def import_library(store: ScenarioStore, path: str | Path) -> list[int]:
 def _read_library_run(store: ScenarioStore, checked: CheckedZip, folder: str):
     """One run of the library, checked and encoded for :meth:`ScenarioStore.add_prepared`."""
     doc = _parse_json(checked.read(f"{folder}/run.json"), f"{folder}/run.json")
-    table_names = doc.get("tables", [])
-    input_names = doc.get("inputs", [])
-    if not isinstance(table_names, list) or not isinstance(input_names, list):
-        raise StoreError(f"{folder}/run.json: 'tables' and 'inputs' must be lists")
+    check = Checker(f"{folder}/run.json", StoreError)
+    table_names = check.listing(doc.get("tables", []), "tables", 1000)
+    input_names = check.listing(doc.get("inputs", []), "inputs", len(SCENARIO_FILES))
+    sweep_id = doc.get("sweep_id")
+    if sweep_id is not None and not isinstance(sweep_id, str):
+        check.integer(sweep_id, "sweep_id", -(2**63), 2**63 - 1)
+    check.text(sweep_id if isinstance(sweep_id, str) else None, "sweep_id", max_chars=200)
     tables = {}
     for table_name in table_names:
         if not isinstance(table_name, str) or not _TABLE_NAME.fullmatch(table_name):
@@ -155,18 +161,12 @@ def _read_library_run(store: ScenarioStore, checked: CheckedZip, folder: str):
         inputs[filename] = checked.read(f"{folder}/inputs/{filename}")
 
     def text(key):
-        value = doc.get(key, "")
-        if value is None:
-            return ""
-        if not isinstance(value, str):
-            raise StoreError(f"{folder}/run.json: '{key}' must be text")
-        return value
+        return check.text(doc.get(key, ""), key, max_chars=TEXT_LIMITS.get(key, MAX_TEXT_CHARS))
 
     def mapping(key):
-        value = doc.get(key, {})
-        if not isinstance(value, dict):
-            raise StoreError(f"{folder}/run.json: '{key}' must be an object")
-        return value
+        if key == "settings":
+            return check_run_settings(doc.get(key, {}), f"{folder}/run.json", StoreError)
+        return check_number_map(doc.get(key, {}), key, check)
 
     result = RunResult(
         status=text("status"),
@@ -183,16 +183,18 @@ def _read_library_run(store: ScenarioStore, checked: CheckedZip, folder: str):
     )
     name = text("name") or f"imported {folder}"
     return store.prepare_run(
-        result, name, text("note"), inputs, text("tags"), doc.get("sweep_id"),
+        result, name, text("note"), inputs, text("tags"), sweep_id,
         created_utc=text("created_utc") or None,
     )
 
 
+TEXT_LIMITS = {"name": 200, "created_utc": 64, "cost_case": 200, "objective": 16, "status": 64, "input_hash": 128,
+               "tags": 2000, "scenario_name": 200}
+"""Longest text of each field of an imported run.json (others: :data:`MAX_TEXT_CHARS`)."""
+
+
 def _parse_json(data: bytes, where: str) -> dict:
-    try:
-        value = json.loads(data.decode("utf-8"))
-    except (ValueError, RecursionError) as exc:
-        raise StoreError(f"{where} is not valid JSON: {exc}") from None
+    value = loads(data, where, StoreError)
     if not isinstance(value, dict):
         raise StoreError(f"{where} must hold a JSON object")
     return value

@@ -5,7 +5,8 @@ with a plain message and before writing anything, entries with absolute paths, d
 ``..``; symbolic links and other non-regular entries; encrypted entries; more than :attr:`ZipLimits.max_entries`
 entries; an entry or a total larger than the limits; an entry compressed more than :attr:`ZipLimits.max_ratio`
 times (a "zip bomb"); archives inside the archive; and names the caller does not allow. Sizes are read from the zip
-directory and enforced again while streaming, so a header that lies does not help. Text must be UTF-8. Files are
+directory and enforced again while streaming, so a header that lies does not help; the number of entries is
+counted from the directory's own records before it is parsed, not taken from the end record's claim. Text must be UTF-8. Files are
 written only below the destination folder (checked after resolving every path). :func:`write_checked_zip` writes
 zips that such a reader accepts.
 """
@@ -142,19 +143,56 @@ def _looks_like_archive(head: bytes) -> bool:
     return head[257:262] == b"ustar"
 
 
-def _declared_entry_count(handle) -> int | None:
-    """Entry count from the end-of-central-directory record, read before the directory itself is parsed."""
+def _directory_entry_count(handle, stop_after: int) -> int | None:
+    """Entries of the central directory, counted by walking its records (not the end record's claim).
+
+    The end-of-central-directory record gives the directory's size; the directory is taken to end where that
+    record starts (as zipfile itself does) and its file headers (signature ``PK\\x01\\x02``, 46 bytes plus
+    name, extra field and comment; PKWARE APPNOTE.TXT section 4.3.12) are walked one by one. Counting stops
+    after ``stop_after``. None when there is no readable end record (zipfile then says why).
+    """
     handle.seek(0, os.SEEK_END)
     size = handle.tell()
     tail_length = min(size, 22 + 65535)
     handle.seek(size - tail_length)
     tail = handle.read(tail_length)
-    handle.seek(0)
     position = tail.rfind(b"PK\x05\x06")
     if position < 0 or position + 22 > len(tail):
+        handle.seek(0)
         return None
-    total = int.from_bytes(tail[position + 10 : position + 12], "little")
-    return None if total == 0xFFFF else total
+    end_record = size - tail_length + position
+    directory_size = int.from_bytes(tail[position + 12 : position + 16], "little")
+    claimed = int.from_bytes(tail[position + 10 : position + 12], "little")
+    if position >= 20 + 56 and tail[position - 20 : position - 16] == b"PK\x06\x07":
+        # zip64: the directory ends where the zip64 end record (56 bytes, APPNOTE 4.3.14) starts
+        record = position - 20 - 56
+        if tail[record : record + 4] == b"PK\x06\x06":
+            end_record = size - tail_length + record
+            directory_size = int.from_bytes(tail[record + 40 : record + 48], "little")
+            claimed = 0xFFFF
+    if directory_size == 0xFFFFFFFF or directory_size > end_record:
+        # zip64 or a size that cannot be: scan the whole file before the end record for directory headers
+        start = 0
+        directory_size = end_record
+    else:
+        start = end_record - directory_size
+    handle.seek(start)
+    directory = handle.read(min(directory_size, 256 * MIB))
+    handle.seek(0)
+    count = 0
+    offset = 0
+    while offset + 46 <= len(directory) and directory[offset : offset + 4] == b"PK\x01\x02":
+        name_length = int.from_bytes(directory[offset + 28 : offset + 30], "little")
+        extra_length = int.from_bytes(directory[offset + 30 : offset + 32], "little")
+        comment_length = int.from_bytes(directory[offset + 32 : offset + 34], "little")
+        offset += 46 + name_length + extra_length + comment_length
+        count += 1
+        if count > stop_after:
+            break
+    if start == 0 and count == 0:
+        # the walk could not start at the file's beginning: count the header signatures instead
+        count = directory.count(b"PK\x01\x02")
+    return max(count, 0 if claimed == 0xFFFF else claimed)
 
 
 class CheckedZip:
@@ -185,9 +223,10 @@ class CheckedZip:
         self._own_handle = None
         handle = self._open_source(source)
         try:
-            declared = _declared_entry_count(handle)
-            if declared is not None and declared > limits.max_entries:
-                self._refuse(f"it lists {declared} entries, more than the {limits.max_entries} allowed")
+            counted = _directory_entry_count(handle, limits.max_entries)
+            if counted is not None and counted > limits.max_entries:
+                self._refuse(f"its directory lists at least {counted} entries, more than the {limits.max_entries} "
+                             "allowed")
             try:
                 self._zip = zipfile.ZipFile(handle)
             except (zipfile.BadZipFile, zipfile.LargeZipFile, ValueError, EOFError, OSError) as exc:

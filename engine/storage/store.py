@@ -50,7 +50,7 @@ import pandas as pd
 from engine.jsonsafe import json_value
 from engine.model.results import RunResult
 from engine.scenario.files import SCENARIO_FILES
-from engine.storage.errors import StoreError
+from engine.storage.errors import StoreDamaged, StoreError
 from engine.storage.tablecodec import decode_table, encode_table
 
 SCHEMA_VERSION = 2
@@ -277,6 +277,74 @@ def migrate(conn: sqlite3.Connection) -> int:
     return found
 
 
+# ====================================================================================== damage
+_SQLITE_MAGIC = b"SQLite format 3\x00"
+
+_CHECKED: dict[tuple, bool] = {}
+"""Files found intact by ``PRAGMA quick_check`` in this process, keyed by path, size and modification time of
+the file and its write-ahead log (a dashboard opens the store on every rerun; an unchanged file is not read
+again)."""
+
+
+def damaged_store_message(path: Path, detail: str) -> str:
+    """The sentence a planner reads about a damaged store: what happened, that the file is kept, what to do."""
+    copy = path.with_name(path.name + ".damaged-copy")
+    detail = " ".join(detail.split())[:300]
+    return (
+        f"the scenario store '{path}' is damaged (SQLite reports: {detail}). It was left exactly as "
+        f"it is and nothing is read from or written into it. Keep a copy of it (for example as '{copy}'), then "
+        f"move the damaged file away or set ${ENV_STORE_PATH} to a new file to start an empty store; the sqlite3 "
+        "program's '.recover' command may rescue runs from the copy"
+    )
+
+
+def is_damage(exc: sqlite3.DatabaseError) -> bool:
+    """Whether an SQLite error means a damaged file (not a busy or read-only one, not a constraint)."""
+    text = str(exc).lower()
+    if "malformed" in text or "not a database" in text or "corrupt" in text or "disk i/o" in text:
+        return True
+    return type(exc) is sqlite3.DatabaseError
+
+
+def _has_sqlite_header(path: Path) -> bool:
+    try:
+        with open(path, "rb") as handle:
+            return handle.read(len(_SQLITE_MAGIC)) == _SQLITE_MAGIC
+    except OSError:
+        return False
+
+
+def _file_key(path: Path) -> tuple:
+    parts = [str(path.resolve())]
+    for candidate in (path, path.with_name(path.name + "-wal")):
+        try:
+            info = candidate.stat()
+            parts += [info.st_size, info.st_mtime_ns]
+        except OSError:
+            parts += [None, None]
+    return tuple(parts)
+
+
+def _integrity_problem(conn: sqlite3.Connection, path: Path) -> str | None:
+    """What ``PRAGMA quick_check`` finds wrong with the file, or None when it is intact."""
+    key = _file_key(path)
+    if _CHECKED.get(key):
+        return None
+    try:
+        rows = conn.execute("PRAGMA quick_check(5)").fetchall()
+    except sqlite3.DatabaseError as exc:
+        if is_damage(exc):
+            return str(exc)
+        raise StoreError(f"the store '{path}' is busy ({exc}); try again") from None
+    findings = [str(row[0]) for row in rows]
+    if findings != ["ok"]:
+        return "; ".join(findings) or "the integrity check gave no answer"
+    if len(_CHECKED) > 64:
+        _CHECKED.clear()
+    _CHECKED[key] = True
+    return None
+
+
 # ====================================================================================== the store
 RUN_COLUMNS = (
     "run_id, name, note, created_utc, scenario_name, cost_case, objective, status, message, input_hash, "
@@ -299,6 +367,10 @@ class ScenarioStore:
     StoreError
         If the file is not a heatmosaic store (not SQLite, or another program's SQLite file) or was written by
         a newer release.
+
+    Notes on damage: opening runs SQLite's ``PRAGMA quick_check``. A damaged file (intact header, damaged pages,
+    or cut short) opens, but :attr:`damage` holds a plain message and every read or write raises
+    :class:`StoreDamaged` with it; the file is never written to (not even its journal mode).
 
     Notes
     -----
@@ -333,11 +405,16 @@ class ScenarioStore:
     # ------------------------------------------------------------------ opening
     def _prepare(self) -> None:
         conn = self._conn
+        self.damage = None
         try:
             application_id = conn.execute("PRAGMA application_id").fetchone()[0]
             version = conn.execute("PRAGMA user_version").fetchone()[0]
             n_objects = conn.execute("SELECT count(*) FROM sqlite_master").fetchone()[0]
         except sqlite3.DatabaseError as exc:
+            if _has_sqlite_header(self.path):
+                self._mark_damaged(str(exc))
+                self.journal_mode, self.migrated_from = None, None
+                return
             raise StoreError(
                 f"'{self.path}' is not a heatmosaic scenario store (it is not an SQLite database: {exc})"
             ) from None
@@ -352,6 +429,13 @@ class ScenarioStore:
                 f"the store '{self.path}' has schema version {version}, written by a newer heatmosaic release "
                 f"(this one knows up to {SCHEMA_VERSION}); update heatmosaic to open it"
             )
+        # Integrity before anything that writes (the journal mode is written into the header): a damaged file is
+        # kept exactly as it is.
+        problem = _integrity_problem(conn, self.path)
+        if problem:
+            self._mark_damaged(problem)
+            self.journal_mode, self.migrated_from = None, version
+            return
         try:
             self.journal_mode = conn.execute("PRAGMA journal_mode = WAL").fetchone()[0]
             conn.execute("PRAGMA foreign_keys = ON")
@@ -364,6 +448,20 @@ class ScenarioStore:
             with self._write() as write:
                 self.migrated_from = migrate(write)
 
+    # ------------------------------------------------------------------ damage
+    def _mark_damaged(self, detail: str) -> None:
+        self.damage = damaged_store_message(self.path, detail)
+
+    def _damaged_error(self, exc: BaseException | None = None) -> StoreError:
+        if self.damage is None:
+            self._mark_damaged(str(exc) if exc is not None else "integrity check failed")
+        _CHECKED.pop(_file_key(self.path), None)
+        return StoreDamaged(self.damage)
+
+    def _refuse_if_damaged(self) -> None:
+        if self.damage is not None:
+            raise StoreDamaged(self.damage)
+
     # ------------------------------------------------------------------ plumbing
     def _connection(self) -> sqlite3.Connection:
         if self._conn is None:
@@ -372,32 +470,47 @@ class ScenarioStore:
 
     @contextmanager
     def _write(self):
-        """One write transaction; rolled back on any error."""
+        """One write transaction; rolled back on any error; refused on a damaged store."""
         with self._lock:
+            self._refuse_if_damaged()
             conn = self._connection()
             try:
                 conn.execute("BEGIN IMMEDIATE")
-            except sqlite3.OperationalError as exc:
+            except sqlite3.DatabaseError as exc:
+                if is_damage(exc):
+                    raise self._damaged_error(exc) from None
                 raise StoreError(f"the store '{self.path}' is busy or read-only ({exc}); try again") from None
             try:
                 yield conn
                 conn.execute("COMMIT")
-            except BaseException:
+            except BaseException as exc:
                 if conn.in_transaction:
-                    conn.execute("ROLLBACK")
+                    try:
+                        conn.execute("ROLLBACK")
+                    except sqlite3.DatabaseError:
+                        pass
+                if isinstance(exc, sqlite3.DatabaseError) and is_damage(exc):
+                    raise self._damaged_error(exc) from None
                 raise
 
     @contextmanager
     def _read(self):
-        """A read transaction: one consistent view of the file."""
+        """A read transaction: one consistent view of the file. A damaged store is refused (a damaged file may
+        lose runs from a listing without an error, and absence must never stand in for damage)."""
         with self._lock:
+            self._refuse_if_damaged()
             conn = self._connection()
-            conn.execute("BEGIN")
             try:
-                yield conn
-            finally:
-                if conn.in_transaction:
-                    conn.execute("COMMIT")
+                conn.execute("BEGIN")
+                try:
+                    yield conn
+                finally:
+                    if conn.in_transaction:
+                        conn.execute("COMMIT")
+            except sqlite3.DatabaseError as exc:
+                if is_damage(exc):
+                    raise self._damaged_error(exc) from None
+                raise StoreError(f"the store '{self.path}' could not be read: {exc}") from None
 
     def _hook(self, stage: str) -> None:
         if self._fault_hook is not None:
@@ -469,6 +582,8 @@ class ScenarioStore:
             with self._write() as conn:
                 return self._insert_run(conn, record, tables, files)
         except sqlite3.Error as exc:
+            if isinstance(exc, sqlite3.DatabaseError) and is_damage(exc):
+                raise self._damaged_error(exc) from None
             raise StoreError(f"the run could not be saved to '{self.path}': {exc}") from None
 
     def prepare_run(self, result, name, note, inputs, tags, sweep_id, created_utc=None):
@@ -540,6 +655,8 @@ class ScenarioStore:
             with self._write() as conn:
                 return [self._insert_run(conn, *parts) for parts in prepared]
         except sqlite3.Error as exc:
+            if isinstance(exc, sqlite3.DatabaseError) and is_damage(exc):
+                raise self._damaged_error(exc) from None
             raise StoreError(f"the runs could not be added to '{self.path}': {exc}") from None
 
     @contextmanager

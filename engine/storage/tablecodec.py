@@ -21,6 +21,11 @@ from engine.storage.errors import StoreError
 TABLE_CODEC_VERSION = 1
 """Version of the payload written by :func:`encode_table`."""
 
+MAX_TABLE_ROWS = 200_000_000
+"""Most rows a payload may claim (a full year of 200 districts with ten technologies is 17.5 million)."""
+MAX_EMPTY_ROWS = 1_000_000
+"""Most rows a payload without columns may claim (no data in the payload backs the claim)."""
+
 
 def encode_table(frame: pd.DataFrame, where: str = "table") -> str:
     """A DataFrame as JSON text that :func:`decode_table` turns back into an equal frame.
@@ -67,7 +72,13 @@ def decode_table(text: str | bytes, where: str = "table") -> pd.DataFrame:
             raise ValueError("not a heatmosaic table payload")
         if payload.get("version") != TABLE_CODEC_VERSION:
             raise ValueError(f"table codec version {payload.get('version')!r} is not known to this release")
-        n_rows = int(payload["n_rows"])
+        n_rows = payload["n_rows"]
+        if isinstance(n_rows, bool) or not isinstance(n_rows, int) or not 0 <= n_rows <= MAX_TABLE_ROWS:
+            raise ValueError(f"the row count {str(n_rows)[:40]} is not a whole number from 0 to {MAX_TABLE_ROWS:,}")
+        if not isinstance(payload["data"], list):
+            raise ValueError("the columns are not a list")
+        if not payload["data"] and n_rows > MAX_EMPTY_ROWS:
+            raise ValueError(f"a table without columns claims {n_rows:,} rows")
         columns = _decode_index(payload["columns"])
         index = _decode_index(payload["index"])
         arrays = [_decode_values(spec) for spec in payload["data"]]
@@ -82,7 +93,8 @@ def decode_table(text: str | bytes, where: str = "table") -> pd.DataFrame:
         return frame
     except StoreError:
         raise
-    except (ValueError, TypeError, KeyError, IndexError, AttributeError, RecursionError) as exc:
+    except (ValueError, TypeError, KeyError, IndexError, AttributeError, RecursionError, OverflowError,
+            MemoryError) as exc:
         raise StoreError(f"{where} cannot be read back ({exc}); the store may be damaged") from None
 
 
@@ -216,7 +228,9 @@ def _encode_values(values: pd.Series | pd.Index, where: str) -> dict:
 def _decode_values(spec: dict):
     """Inverse of :func:`_encode_values`: a numpy array or pandas extension array."""
     dtype = spec["dtype"]
-    n = int(spec["n"])
+    n = spec["n"]
+    if isinstance(n, bool) or not isinstance(n, int) or not 0 <= n <= MAX_TABLE_ROWS:
+        raise ValueError(f"the value count {str(n)[:40]} is not a whole number from 0 to {MAX_TABLE_ROWS:,}")
     if dtype == "object":
         values = spec["values"]
         if len(values) != n:
@@ -279,7 +293,10 @@ def _encode_index(index: pd.Index, where: str) -> dict:
 def _decode_index(spec: dict) -> pd.Index:
     kind = spec["kind"]
     if kind == "range":
-        return pd.RangeIndex(spec["start"], spec["stop"], spec["step"], name=_decode_object(spec["name"]))
+        bounds = (spec["start"], spec["stop"], spec["step"])
+        if any(isinstance(b, bool) or not isinstance(b, int) or abs(b) > 2**62 for b in bounds):
+            raise ValueError("a range index needs whole-number bounds")
+        return pd.RangeIndex(*bounds, name=_decode_object(spec["name"]))
     if kind == "multi":
         levels = [_decode_values(level) for level in spec["levels"]]
         names = [_decode_object(n) for n in spec["names"]]

@@ -31,10 +31,15 @@ def route_through_app(page_path: str) -> None:
 def open_store() -> ScenarioStore:
     """The scenario library, or a plain message and the end of the page when it cannot be opened."""
     try:
-        return ScenarioStore()
+        store = ScenarioStore()
     except StoreError as error:
         st.error(f"The library could not be opened: {error}")
         st.stop()
+    if store.damage is not None:  # every read and write would be refused: say so once, plainly
+        st.error(f"The library cannot be used: {store.damage}")
+        store.close()
+        st.stop()
+    return store
 
 
 def run_with_cancel(job, key: str, start_text: str = "Starting"):
