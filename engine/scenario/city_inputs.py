@@ -50,7 +50,7 @@ def scenario_crs(folder: Path) -> tuple[str | None, list[Problem]]:
     """
     try:
         data = tomllib.loads((Path(folder) / SCENARIO_FILE).read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+    except (OSError, UnicodeDecodeError, RecursionError, tomllib.TOMLDecodeError):  # the reader reports these
         return None, []
     section = data.get(GIS_SECTION)
     if not isinstance(section, dict) or "crs" not in section:

@@ -135,7 +135,7 @@ def _read_table(folder: Path, problems: list[Problem]) -> dict | None:
     try:
         text = path.read_text(encoding="utf-8")
         data = tomllib.loads(text)
-    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+    except (OSError, UnicodeDecodeError, RecursionError, tomllib.TOMLDecodeError):  # the reader reports these
         return None  # the scenario reader reports an unreadable scenario.toml
     section = data.get("pathway")
     if section is None:

@@ -85,7 +85,7 @@ def thresholds_from_folder(folder) -> GradeThresholds:
     path = Path(folder) / "scenario.toml"
     try:
         data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+    except (OSError, UnicodeDecodeError, RecursionError, tomllib.TOMLDecodeError):  # the reader reports these
         return GradeThresholds()
     section = data.get("designation")
     if section is None:
