@@ -37,6 +37,14 @@ WIDGETS = {  # widget key -> hm_setup entry it starts from
 
 state = st.session_state
 route_through_app("pages/1_Plan_a_run.py")
+
+
+def forget_editors() -> None:
+    for key in list(state.keys()):
+        if str(key).startswith(("setup_tech_", "setup_wells_")):
+            del state[key]
+
+
 st.title("Plan a run")
 st.caption(cautions.RESULTS_LINE)
 
@@ -49,6 +57,7 @@ setup = state.get("hm_setup")
 if setup is None or setup.get("digest") != inputs.digest or setup.get("fresh"):
     if setup is None or setup.get("digest") != inputs.digest:
         setup = initial_setup(inputs)
+    forget_editors()  # new starting tables: editors left from an earlier visit must not keep their old state
     setup.pop("fresh", None)
     state["hm_setup"] = setup
     for widget, name in WIDGETS.items():
@@ -68,9 +77,7 @@ def reset_tables() -> None:
         return
     setup["technology_table"] = editable_technology_table(inputs.scenario)
     setup["well_table"] = editable_well_table(inputs.scenario)
-    for key in list(state.keys()):
-        if str(key).startswith(("setup_tech_", "setup_wells_")):
-            del state[key]
+    forget_editors()
 
 
 # ------------------------------------------------------------------------------------------------ 1 inputs
@@ -97,9 +104,11 @@ with st.container(border=True):
     with right:
         if inputs.label != "Demo city":
             st.button("Use the demo city instead", on_click=use_demo, icon=":material/location_city:")
+        uploader_key = f"setup_bundle_{state.get('setup_bundle_round', 0)}"
         upload = st.file_uploader(
-            "Or open a bundle (.zip) exported from heatmosaic", type=["zip"], key="setup_bundle",
-            help="A bundle holds a run's scenario files and results (Share page → bundle download).",
+            "Or open a run bundle (.zip) to solve it again", type=["zip"], key=uploader_key,
+            help="A run bundle holds one run's scenario files and results; download it on the Share page "
+                 "(Bundles). A whole library (.zip) is imported on the Share page instead.",
         )
         if upload is not None and state.get("setup_bundle_seen") != upload.file_id:
             state["setup_bundle_seen"] = upload.file_id
@@ -109,6 +118,8 @@ with st.container(border=True):
             if opened.ok:  # start from the choices of the run inside the bundle
                 state["hm_setup"] = {**initial_setup(opened, opened.manifest.get("settings"),
                                                         opened.manifest.get("cost_case")), "fresh": True}
+            else:  # a refused file leaves the uploader: a new key gives an empty one
+                state["setup_bundle_round"] = state.get("setup_bundle_round", 0) + 1
             st.rerun()
     if not inputs.problems.empty:
         st.error(f"{len(inputs.problems)} problem(s) in these inputs. Fix them in the files and upload again.")
@@ -157,9 +168,11 @@ token = inputs.digest[:12]
 tech_key, wells_key = f"setup_tech_{token}", f"setup_wells_{token}"
 # An editor's data must stay the same while it lives, or the browser drops its edits (and a click with them). It
 # starts from the kept edits whenever it is new: first visit, back from another page, or after a reset.
-if tech_key not in state:
+if tech_key not in state or "technology_base" not in setup:
+    state.pop(tech_key, None)
     setup["technology_base"] = setup["technology_table"]
-if wells_key not in state:
+if wells_key not in state or "well_base" not in setup:
+    state.pop(wells_key, None)
     setup["well_base"] = setup["well_table"]
 with st.container(border=True):
     st.subheader("3 · Technology costs and well permits")

@@ -49,7 +49,7 @@ choices = run_choices(store)
 current = solved.get(state.get("hm_current"))
 options = ([CURRENT] if current is not None else []) + list(choices)
 if not options:
-    st.info("No run yet. Solve one on the set-up page first.")
+    st.info("No run yet. Solve one on the Plan a run page first.")
     st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/tune:")
     st.stop()
 
@@ -82,7 +82,9 @@ if accuracy_note:
 if info is not None:
     note = f" · note: {markdown_literal(info['note'])}" if info["note"] else ""
     saved = str(info["created_utc"])[:16].replace("T", " ")
-    st.caption(f"Saved {saved} UTC{note} · input hash {result.input_hash[:12]}")
+    st.caption(f"Saved {saved} UTC{note} · input fingerprint {result.input_hash[:12]}",
+               help="A fingerprint (SHA-256 hash) of the run's input files: two runs with the same fingerprint "
+                    "were solved from the very same files.")
 
 
 def numbers(table, first: int, last: int | None = None) -> dict:
@@ -162,7 +164,7 @@ def show_tables() -> None:
 
 def show_manage() -> None:
     if info is None:
-        st.info("This run is not in the library yet; save it on the set-up page.")
+        st.info("This run is not in the library yet; save it on the Plan a run page.")
         st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/save:")
         return
     left, right = st.columns(2, gap="large")
@@ -185,8 +187,8 @@ def show_manage() -> None:
             state["hm_flash"] = f"Deleted “{markdown_literal(info['name'])}”."
             st.rerun()
     with right:
-        st.markdown("**Re-open on the set-up page**")
-        st.caption("Puts this run's files and choices back on the set-up page, to change and solve again.")
+        st.markdown("**Re-open on the Plan a run page**")
+        st.caption("Puts this run's files and choices back on the Plan a run page, to change and solve again.")
         if st.button("Re-open", key="results_reopen", icon=":material/edit:", disabled=scenario is None):
             reopened = input_set_from_files(files, f"Saved run “{info['name']}”")
             state["hm_input"] = reopened

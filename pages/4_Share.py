@@ -31,7 +31,7 @@ store = open_store()
 choices = run_choices(store)
 
 if not choices:
-    st.info("No saved runs yet. Save a run on the set-up page to share it.")
+    st.info("No saved runs yet. Save a run on the Plan a run page to share it.")
     st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/tune:")
 else:
     kept = [r for r in state.get("share_runs", []) if r in choices]
@@ -76,7 +76,7 @@ else:
         with st.container(border=True):
             st.subheader("Bundles")
             st.caption("A bundle holds one run's scenario files, settings and results. A colleague opens it on "
-                       "the set-up page and can solve it again.")
+                       "the Plan a run page and can solve it again.")
             for run_id in picked:
                 result = results[names[run_id]]
 

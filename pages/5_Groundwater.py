@@ -51,7 +51,7 @@ choices = run_choices(store)
 current = solved.get(state.get("hm_current"))
 options = ([CURRENT] if current is not None else []) + list(choices)
 if not options:
-    st.info("No run yet. Solve one on the set-up page first.")
+    st.info("No run yet. Solve one on the Plan a run page first.")
     st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/tune:")
     st.stop()
 
@@ -247,7 +247,7 @@ with tab_check:
         st.dataframe(
             iterations.rename(columns={
                 "iteration": "iteration", "max_shift_k": "largest change of a source shift [K]",
-                "largest_source_shift_k": "largest source shift used [K]", "relaxation": "relaxation [-]",
+                "largest_source_shift_k": "largest source shift used [K]", "relaxation": "step damping [-]",
                 "status": "solver status", "total_cost_eur_per_a": "total cost [€/a]", "co2_t_per_a": "CO2 [t/a]",
                 "unserved_heat_mwh_per_a": "unserved heat [MWh/a]", "seconds": "time [s]"}),
             hide_index=True, width="stretch",

@@ -70,7 +70,9 @@ tab_curve, tab_sweep, tab_fidelity = st.tabs(["Cost-CO2 trade-off", "Price sweep
 with tab_curve:
     st.markdown(
         "From the least-cost plan to the least-CO2 plan: each point in between is the cheapest plan whose CO2 "
-        "stays below a bound (epsilon-constraint method). Click a point to see and save it."
+        "stays below a limit. Click a point to see and save it.",
+        help="The epsilon-constraint method (Haimes, Lasdon and Wismer 1971): minimise cost with CO2 bounded, for "
+             "a series of bounds.",
     )
     n_points = st.slider("Points on the curve", 2, 12, 6, key="tradeoffs_points")
     curve_key = f"{inputs.digest[:16]}|{cost_case}|{days}|{n_points}"
@@ -138,10 +140,13 @@ with tab_curve:
 
 # ------------------------------------------------------------------------------------------------ price sweep
 with tab_sweep:
-    st.markdown("Solve many price futures at once, on this computer's cores or on a Dask cluster.")
-    modes = {"cases": "The scenario's cost cases", "sample": "Random sample of prices (Latin hypercube)",
+    st.markdown("Solve many price futures at once, on this computer's cores or on a cluster of computers.",
+                help="Clusters are reached through a Dask scheduler address.")
+    modes = {"cases": "The scenario's cost cases", "sample": "Random mixes of prices, spread evenly",
              "tornado": "One price at a time, low and high (tornado)"}
-    mode = st.radio("Runs", list(modes), format_func=modes.get, key="tradeoffs_sweep_mode", horizontal=True)
+    mode = st.radio("Runs", list(modes), format_func=modes.get, key="tradeoffs_sweep_mode", horizontal=True,
+                    help="Random mixes are drawn by Latin hypercube sampling (McKay, Beckman and Conover 1979): "
+                         "each price's range is cut into as many equal slices as samples, each slice used once.")
     left, right = st.columns(2)
     names = left.multiselect("Prices to vary", list(PARAMETERS), default=list(PARAMETERS),
                              format_func=lambda k: f"{PARAMETERS[k].label} ({PARAMETERS[k].low:g} to "
@@ -149,10 +154,10 @@ with tab_sweep:
                              key="tradeoffs_sweep_parameters", disabled=mode == "cases")
     n_samples = left.number_input("Samples", 2, 500, 8, key="tradeoffs_sweep_samples", disabled=mode != "sample")
     seed = left.number_input("Seed", 0, 10_000, 0, key="tradeoffs_sweep_seed", disabled=mode != "sample")
-    scheduler = right.text_input("Dask scheduler (optional)", placeholder="tcp://scheduler:8786",
+    scheduler = right.text_input("Cluster address (optional)", placeholder="tcp://scheduler:8786",
                                  key="tradeoffs_sweep_scheduler",
-                                 help="Blank: the runs share this computer's cores. The cluster's workers need "
-                                      "heatmosaic installed.").strip() or None
+                                 help="The address of a Dask scheduler. Blank: the runs share this computer's "
+                                      "cores. The cluster's workers need heatmosaic installed.").strip() or None
     keep = right.checkbox("Save every run to the library, tagged with the sweep id", key="tradeoffs_sweep_keep")
     sweep_key = f"{inputs.digest[:16]}|{cost_case}|{days}|{mode}|{','.join(names)}|{n_samples}|{seed}"
     show_cancelled("tradeoffs_sweep_job", "sweep")
