@@ -15,7 +15,6 @@ Runs that did not solve (no tables) are left out of the figures and kept, with t
 from __future__ import annotations
 
 import html
-import math
 from collections.abc import Mapping
 
 import numpy as np
@@ -31,6 +30,8 @@ from engine.outputs.palette import (
     technology_colors,
 )
 from engine.model.results import COST_PARTS, RunResult
+from engine.outputs.formats import format_number
+from engine.outputs.labels import cost_case_label, objective_label, status_label
 
 STACK_ORDER = (
     "groundwater_heat_pump",
@@ -478,7 +479,7 @@ def _technology_labels(technologies, results) -> dict[str, str]:
 def kpi_table(results: Mapping[str, RunResult], technologies=None) -> pd.DataFrame:
     """One row per run: the city's key figures.
 
-    Columns: run, status, cost case, objective, total cost [€/a], CO2 [t/a], heat demand [MWh/a],
+    Columns: run, status, cost case, objective (the last three in words), total cost [€/a], CO2 [t/a], heat demand [MWh/a],
     unserved heat [MWh/a], levelised cost [€/MWh] (city: total cost over heat and cooling demand), then
     ``heat <technology> [MWh/a]`` for every technology that supplies heat in some run (by id, or by name when the
     catalogue is given). Runs that did not solve keep their row with NaN figures.
@@ -494,9 +495,9 @@ def kpi_table(results: Mapping[str, RunResult], technologies=None) -> pd.DataFra
         ok = str(run) in solved
         row = {
             "run": str(run),
-            "status": r.status,
-            "cost case": r.cost_case,
-            "objective": r.objective,
+            "status": status_label(r.status),
+            "cost case": cost_case_label(r.cost_case),
+            "objective": objective_label(r.objective),
             "total cost [€/a]": r.total_cost_eur_per_a if ok else float("nan"),
             "CO2 [t/a]": r.co2_t_per_a if ok else float("nan"),
             "heat demand [MWh/a]": r.heat_demand_mwh_per_a if ok else float("nan"),
@@ -584,27 +585,12 @@ def difference_table(results: Mapping[str, RunResult], baseline: str, technologi
 
 
 def format_value(value, column: str) -> str:
-    """A table value as the report and the dashboard print it.
+    """A table value as the report and the dashboard print it (:func:`engine.outputs.formats.format_number`).
 
-    Costs per MWh with two decimals, every other number whole with thousands separators, missing values as '–'.
+    The decimals follow the unit in the header (costs per MWh with one decimal, amounts whole, with thousands
+    separators), missing values as '–'.
     """
-    if value is None or value is pd.NA:
-        return "–"
-    if isinstance(value, (bool, np.bool_)):
-        return "yes" if value else "no"
-    if isinstance(value, (int, float, np.integer, np.floating)):
-        number = float(value)
-        if math.isnan(number):
-            return "–"
-        if math.isinf(number):
-            return "∞" if number > 0 else "−∞"
-        if "€/MWh" in column or "kg/MWh" in column:
-            return f"{number:,.2f}"
-        if isinstance(value, (int, np.integer)):
-            return f"{int(value):,d}"
-        text = f"{number:,.0f}"
-        return "0" if text == "-0" else text
-    return str(value)
+    return format_number(value, column)
 
 
 def format_table(table: pd.DataFrame) -> pd.DataFrame:
