@@ -10,6 +10,7 @@ import streamlit as st
 
 
 from engine import cautions
+from engine.outputs.labels import kind_label
 from pages._support.inputs import (
     InputSet, cost_case_descriptions, demo_input_set, input_set_from_bundle, problems_for_display,
 )
@@ -18,7 +19,7 @@ from pages._support.edits import (
     scenario_files_with_edits,
 )
 from pages._support.cache import SolvedRun, request_key, solve_with_cache
-from pages._support.describe import markdown_literal, run_kpis, suggested_run_name
+from pages._support.describe import demand_note, markdown_literal, run_kpis, suggested_run_name
 from pages._support.tables import district_results_table, table_height
 from engine.model.solvers import DIRECT, solver_choices
 from engine.scenario.problems import problems_frame
@@ -180,16 +181,17 @@ with st.container(border=True):
     tab_tech, tab_wells = st.tabs(["Technology costs", f"Well permits ({len(scenario.wells)})"])
     with tab_tech:
         technology_table = st.data_editor(
-            setup["technology_base"], key=tech_key, hide_index=True, num_rows="fixed", placeholder="–",
+            setup["technology_base"].assign(kind=[kind_label(k) for k in setup["technology_base"]["kind"]]),
+            key=tech_key, hide_index=True, num_rows="fixed", placeholder="–",
             width="stretch", disabled=["technology_id", "name", "kind"],
             column_order=[c for c in setup["technology_table"].columns if c != "technology_id"],
             column_config={
                 "technology_id": st.column_config.TextColumn("Id", width="small"),
                 "name": st.column_config.TextColumn("Technology", width=180),
-                "kind": st.column_config.TextColumn("Kind", width=110),
+                "kind": st.column_config.TextColumn("Kind", width=170),
                 "investment_eur_per_kw": st.column_config.NumberColumn(
-                    "Investment [€/kW]", min_value=0.0, format="%.0f", width=120,
-                    help="Specific investment; per kWh of storage for heat stores."),
+                    "Investment [€/kW; stores €/kWh]", min_value=0.0, format="%.0f", width=190,
+                    help="Specific investment per kW of capacity; heat stores per kWh of storage."),
                 "fixed_om_pct_per_a": st.column_config.NumberColumn(
                     "Fixed O&M [%/a]", min_value=0.0, max_value=100.0, format="%.2f", width=120,
                     help="Fixed operation and maintenance, % of the investment per year."),
@@ -291,6 +293,8 @@ with st.container(border=True):
                 st.warning(result.message)
             else:
                 st.success(result.message)
+            if demand_note(scenario, result):
+                st.caption(demand_note(scenario, result))
             districts = district_results_table(result, scenario.technologies)[
                 ["district", "main supply", "heat demand [MWh/a]", "total cost [€/a]", "levelised cost [€/MWh]",
                  "CO2 [t/a]"]

@@ -9,7 +9,9 @@ from engine import cautions
 from pages._support.inputs import input_set_from_files
 from pages._support.edits import initial_setup
 from pages._support.cache import load_saved_run, resolve_saved_run, scenario_for_files
-from pages._support.describe import describe_choices, markdown_literal, resolution_note, run_kpis, suggested_run_name
+from pages._support.describe import (
+    demand_note, describe_choices, markdown_literal, resolution_note, run_kpis, suggested_run_name,
+)
 from pages._support.tables import district_results_table, supply_results_table, table_height, well_results_table
 from pages._support.library import run_choices
 from engine.outputs.figures import (
@@ -224,6 +226,8 @@ m[3].metric("Levelised cost [€/MWh]", f"{kpis['levelised_cost_eur_per_mwh']:,.
 m[4].metric("Unserved heat [MWh/a]", f"{kpis['unserved_heat_mwh_per_a']:,.0f}")
 if kpis["unserved_heat_mwh_per_a"] > 0.5:
     st.warning(result.message)
+if demand_note(scenario, result):
+    st.caption(demand_note(scenario, result))
 
 # The tabs keep their selection across reruns (rename, re-solve ...), and only the open one is drawn.
 tabs = st.tabs(TABS, key="results_tab", on_change="rerun")

@@ -30,6 +30,8 @@ from engine.studies.sweep import (
     tornado_table, tornado_tasks,
 )
 from engine.studies.tradeoff import tradeoff_curve_runs
+from engine.outputs.labels import status_label, tradeoff_point_label
+from pages._support.tables import main_supply_display_table, sweep_display_table
 from pages._support.shell import route_through_app, run_with_cancel, show_cancelled
 
 state = st.session_state
@@ -107,14 +109,18 @@ with tab_curve:
             state[select_key] = clicked
             st.rerun()
         chosen = st.selectbox("Point", points, key=select_key,
-                              format_func=lambda p: f"{p}: {table.loc[p, 'kind'].replace('_', ' ')}, "
+                              format_func=lambda p: f"{p}: {tradeoff_point_label(table.loc[p, 'kind'])}, "
                               f"{table.loc[p, 'co2_t_per_a']:,.0f} t/a, "
                               f"{table.loc[p, 'total_cost_eur_per_a'] / 1e6:,.2f} M€/a")
         st.plotly_chart(tradeoff_mix_figure(table, scenario.technologies), key=f"tradeoffs_mix_{curve_key}",
                         width="stretch")
         shown = table[["point", "kind", "co2_bound_t_per_a", "co2_t_per_a", "total_cost_eur_per_a",
-                       "abatement_cost_eur_per_t", "unserved_heat_mwh_per_a", "status"]]
+                       "abatement_cost_eur_per_t", "unserved_heat_mwh_per_a", "status"]].assign(
+            kind=[tradeoff_point_label(k) for k in table["kind"]], status=[status_label(v) for v in table["status"]])
         st.dataframe(shown, hide_index=True, width="stretch", column_config={
+            "point": st.column_config.NumberColumn("Point"),
+            "kind": st.column_config.TextColumn("Point of the curve", width="medium"),
+            "status": st.column_config.TextColumn("Status"),
             "co2_bound_t_per_a": st.column_config.NumberColumn("CO2 bound [t/a]", format="localized"),
             "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
             "total_cost_eur_per_a": st.column_config.NumberColumn("Total cost [€/a]", format="localized"),
@@ -193,13 +199,10 @@ with tab_sweep:
             st.plotly_chart(tornado_figure(tornado), key=f"tradeoffs_tornado_{sweep_key}", width="stretch")
             st.caption("Bars: change in the city's total annual cost when one price moves to its low or high "
                        "value, the others at the reference; labels: districts whose main supply changes.")
-        shown = outcome.table.drop(columns=["message"])
-        st.dataframe(shown, hide_index=True, width="stretch", column_config={
-            "total_cost_eur_per_a": st.column_config.NumberColumn("Total cost [€/a]", format="localized"),
-            "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
-        })
+        st.dataframe(sweep_display_table(outcome.table, scenario), hide_index=True, width="stretch")
         with st.expander("Main supply of each district in each run"):
-            st.dataframe(outcome.main_supply, width="stretch")
+            st.dataframe(main_supply_display_table(outcome.main_supply, scenario), hide_index=True,
+                         width="stretch")
         st.download_button("Download the sweep (CSV)", outcome.table.to_csv(index=False).encode(),
                            file_name="sweep.csv", mime="text/csv", key=f"tradeoffs_sweep_csv_{sweep_key}")
 

@@ -303,7 +303,8 @@ def test_cost_bars_add_up_to_the_total_cost():
         total = sum(float(t.y[k]) for t in fig.data) * divisor
         assert total == pytest.approx(runs[run].tables["districts"]["total_cost_eur_per_a"].sum())
     grouped = cost_breakdown_figure(runs, by="district")
-    districts, run_axis = grouped.data[0].x
+    districts, run_axis = grouped.data[0].y  # horizontal bars: district and run on the y axis
+    assert grouped.data[0].orientation == "h"
     assert len(districts) == 4 and set(run_axis) == {"reference", "more heat pumps"}
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in districts
     with pytest.raises(ValueError, match="by"):

@@ -363,8 +363,9 @@ def test_names_and_labels():
     """Small display helpers (common practice)."""
     assert unique_run_names({1: "a", 2: "b", 3: "a"}) == {1: "a (#1)", 2: "b", 3: "a (#3)"}
     assert safe_file_name("High CO2 / 2040 ", ".zip") == "High_CO2___2040.zip"
-    runs = {3: RunResult("optimal", "", cost_case="high_co2"), 5: RunResult("optimal", "", cost_case="reference"),
-            7: RunResult("optimal", "", cost_case="reference")}
+    # the first saved least-cost run is the baseline (issue 14), whatever its cost case; least-CO2 runs are not
+    runs = {3: RunResult("optimal", "", objective="co2", cost_case="high_co2"),
+            5: RunResult("optimal", "", cost_case="high_co2"), 7: RunResult("optimal", "", cost_case="reference")}
     assert default_baseline(runs) == 5
     assert default_baseline({4: runs[3], 2: runs[3]}) == 2
     frame = pd.DataFrame({"a": range(3)})

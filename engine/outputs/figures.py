@@ -26,6 +26,7 @@ from engine.outputs.palette import (
     COST_PART_LABELS,
     DEMAND_LINE_DASH,
     RUN_LINE_DASHES,
+    STORE_CHARGE_COLOR,
     TECHNOLOGY_KIND_COLORS,
     technology_colors,
 )
@@ -54,6 +55,48 @@ FIGURE_CONFIG = {"displaylogo": False, "responsive": True}
 
 
 # ---------------------------------------------------------------------------------------------------- helpers
+MIN_FIGURE_PX = 200
+"""No figure is drawn shorter than this."""
+
+
+def figure_height(n_bars: int, bar_px: int = 28, extra_px: int = 160) -> int:
+    """Height [px] of a bar chart: a fixed share per bar plus room for title, legend and axis, at least
+    :data:`MIN_FIGURE_PX` (common practice: bars about 20 to 30 px)."""
+    return max(MIN_FIGURE_PX + 100, int(extra_px + bar_px * max(int(n_bars), 1)))
+
+
+def label_margin(longest_label_chars: int) -> int:
+    """Left margin [px] that fits the longest category label (about 7 px a character at plotly's 12 px font)."""
+    return int(min(420, max(60, 20 + 7 * int(longest_label_chars))))
+
+
+def shared_y_range(figures) -> None:
+    """Give figures shown side by side one y range (in place): stacked areas summed, lines by their values.
+
+    Figures whose y axis titles differ (another unit) are left alone.
+    """
+    figures = [f for f in figures if f is not None and len(f.data)]
+    if len(figures) < 2 or len({f.layout.yaxis.title.text for f in figures}) > 1:
+        return
+    low, high = 0.0, 0.0
+    for fig in figures:
+        stacks: dict[str, np.ndarray] = {}
+        for trace in fig.data:
+            y = np.asarray(trace.y if trace.y is not None else [], dtype=float)
+            if not len(y):
+                continue
+            group = getattr(trace, "stackgroup", None)
+            if group:
+                stacks[group] = stacks.get(group, np.zeros_like(y)) + np.nan_to_num(y)
+            else:
+                low, high = min(low, float(np.nanmin(y))), max(high, float(np.nanmax(y)))
+        for total in stacks.values():
+            low, high = min(low, float(total.min())), max(high, float(total.max()))
+    pad = 0.05 * (high - low or 1.0)
+    for fig in figures:
+        fig.update_yaxes(range=[low - (pad if low < 0 else 0.0), high + pad])
+
+
 def escape(text) -> str:
     """``text`` made safe for plotly labels and HTML (``&``, ``<``, ``>`` and quotes become entities)."""
     return html.escape(str(text), quote=True)
@@ -125,7 +168,7 @@ def _district_label(result: RunResult, district_id) -> str:
 
 def _empty_figure(title: str, text: str) -> go.Figure:
     fig = go.Figure()
-    fig.update_layout(template=_FIGURE_TEMPLATE, title=title, height=300)
+    fig.update_layout(template=_FIGURE_TEMPLATE, title=title, height=MIN_FIGURE_PX + 100)
     fig.add_annotation(text=escape(text), showarrow=False, x=0.5, y=0.5, xref="paper", yref="paper")
     fig.update_xaxes(visible=False)
     fig.update_yaxes(visible=False)
@@ -230,6 +273,8 @@ def load_curve_figure(
             continue  # idle in the shown period: kept out of the legend
         y = window_values / divisor
         color = colors.get(key, TECHNOLOGY_KIND_COLORS["unserved"] if key == "unserved" else "#5F5F5F")
+        if group == "charge":
+            color = STORE_CHARGE_COLOR
         fig.add_trace(
             go.Scatter(
                 x=x, y=y, name=label, mode="lines", stackgroup=group, line={"width": 0.5, "color": color},
@@ -364,19 +409,29 @@ def cost_breakdown_figure(results: Mapping[str, RunResult], by: str = "run") -> 
         table["_order"] = table["district_id"].map({d: i for i, d in enumerate(order)})
         table = table.sort_values(["_order", "run"], kind="stable")
         district_axis = [labels.get(d, escape(d)) for d in table["district_id"]]
-        x = [district_axis, [escape(r) for r in table["run"]]] if len(solved) > 1 else district_axis
+        y = [district_axis, [escape(r) for r in table["run"]]] if len(solved) > 1 else district_axis
         for part in COST_PARTS:
             fig.add_trace(
-                go.Bar(x=x, y=table[f"{part}_eur_per_a"].to_numpy(float) / divisor, name=COST_PART_LABELS[part],
-                       marker_color=COST_PART_COLORS[part],
-                       hovertemplate=f"{COST_PART_LABELS[part]}: %{{y:,.2f}} {unit}<extra>%{{x}}</extra>")
+                go.Bar(y=y, x=table[f"{part}_eur_per_a"].to_numpy(float) / divisor, name=COST_PART_LABELS[part],
+                       marker_color=COST_PART_COLORS[part], orientation="h",
+                       hovertemplate=f"{COST_PART_LABELS[part]}: %{{x:,.2f}} {unit}<extra>%{{y}}</extra>")
             )
         title = "Annual cost by part and district" + (", grouped by run" if len(solved) > 1 else "")
-        x_title = "District" + (" and run" if len(solved) > 1 else "")
+        longest = max(len(str(v)) for v in district_axis) + (
+            max(len(str(r)) for r in table["run"]) + 2 if len(solved) > 1 else 0)
+        fig.update_layout(
+            template=_FIGURE_TEMPLATE, barmode="relative", title=_title(title),
+            height=figure_height(len(table), bar_px=22 if len(solved) > 1 else 28, extra_px=170),
+            legend={"orientation": "h", "yanchor": "bottom", "y": 1.0, "x": 0},
+            margin={"t": 110, "l": label_margin(longest), "r": 20, "b": 50},
+        )
+        fig.update_yaxes(title_text=None, autorange="reversed")
+        fig.update_xaxes(title_text=f"Annual cost [{unit}]", tickformat=",")
+        return fig
     fig.update_layout(
         template=_FIGURE_TEMPLATE, barmode="relative", height=500, title=_title(title),
-        legend={"orientation": "h", "yanchor": "top", "y": -0.22, "x": 0},
-        margin={"t": 80, "l": 70, "r": 20, "b": 60},
+        legend={"orientation": "h", "yanchor": "bottom", "y": 1.0, "x": 0},
+        margin={"t": 110, "l": 70, "r": 20, "b": 60},
     )
     fig.update_xaxes(title_text=x_title)
     fig.update_yaxes(title_text=f"Annual cost [{unit}]", tickformat=",")
@@ -414,10 +469,11 @@ def supply_mix_figure(results: Mapping[str, RunResult], technologies=None) -> go
     fig = go.Figure()
     _mix_traces(fig, rows, catalogue)
     fig.update_layout(
-        template=_FIGURE_TEMPLATE, barmode="relative", height=max(320, 160 + 45 * len(rows)),
+        template=_FIGURE_TEMPLATE, barmode="relative", height=figure_height(len(rows), 45, 230),
         title=_title("Heat supply by technology", "Annual heat [MWh/a]; heat stores shift heat in time and are not shown"),
-        legend={"orientation": "v", "x": 1.01, "xanchor": "left", "y": 1.0, "traceorder": "normal"},
-        margin={"t": 90, "l": 160, "r": 20, "b": 50},
+        legend={"orientation": "h", "yanchor": "top", "y": -0.12 if len(rows) > 3 else -0.3, "x": 0,
+                "traceorder": "normal"},
+        margin={"t": 90, "l": label_margin(max(len(r[0]) for r in rows)), "r": 20, "b": 50},
     )
     fig.update_xaxes(title_text="Heat [MWh/a]", tickformat=",")
     fig.update_yaxes(title_text="Run", autorange="reversed")
@@ -438,14 +494,14 @@ def district_supply_figure(result: RunResult, technologies=None) -> go.Figure:
     fig = go.Figure()
     _mix_traces(fig, rows, catalogue)
     fig.update_layout(
-        template=_FIGURE_TEMPLATE, barmode="relative", height=200 + 30 * len(rows),
+        template=_FIGURE_TEMPLATE, barmode="relative", height=figure_height(len(rows), 30, 200),
         title=_title("Heat supply by district and technology",
                      "Annual heat [MWh/a], districts by heat demand; heat stores are not shown"),
         legend={"orientation": "v", "x": 1.01, "xanchor": "left", "y": 1.0, "traceorder": "normal"},
-        margin={"t": 90, "l": 200, "r": 20, "b": 50},
+        margin={"t": 90, "l": label_margin(max(len(r[0]) for r in rows)), "r": 20, "b": 50},
     )
     fig.update_xaxes(title_text="Heat [MWh/a]", tickformat=",")
-    fig.update_yaxes(title_text="District", autorange="reversed")
+    fig.update_yaxes(title_text=None, autorange="reversed")
     return fig
 
 

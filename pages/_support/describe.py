@@ -76,3 +76,24 @@ def run_kpis(result: RunResult) -> dict[str, float]:
         "unserved_heat_mwh_per_a": result.unserved_heat_mwh_per_a,
         "levelised_cost_eur_per_mwh": city_levelised_cost_eur_per_mwh(result),
     }
+
+
+def demand_note(scenario, result: RunResult) -> str:
+    """Why the heat demand of a run differs from the sum of the districts' annual demand in the input files.
+
+    The model's demand is the typical days' hourly demand times the days each stands for; the typical days are
+    real days of the year, not rescaled, so their sum differs a little from the annual figure of the files (the
+    full year matches it exactly). Empty when the two agree to 0.05 %.
+    """
+    if scenario is None or result.tables.get("districts") is None:
+        return ""
+    files = float(scenario.districts["heat_demand_mwh_per_a"].sum())
+    model = float(result.heat_demand_mwh_per_a)
+    if files <= 0 or abs(model - files) <= 5e-4 * files:
+        return ""
+    days = int(result.settings.get("typical_days", 0) or 0)
+    why = (f"the {days} typical days each stand for the days like them and are not rescaled, so their sum "
+           "differs from the annual figure; the full year matches it exactly") if days else (
+        "measured hourly demand in the inputs replaces the annual figure")
+    return (f"Heat demand {model:,.0f} MWh/a in this run against {files:,.0f} MWh/a in the district file "
+            f"({100 * (model - files) / files:+.1f} %): {why}.")

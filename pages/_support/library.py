@@ -49,10 +49,12 @@ def unique_run_names(labels: Mapping[int, str]) -> dict[int, str]:
     return {run_id: (name if counts[name] == 1 else f"{name} (#{run_id})") for run_id, name in labels.items()}
 
 def default_baseline(results: Mapping[int, RunResult]) -> int:
-    """The run to compare against: the oldest run of the reference cost case, else the oldest run."""
+    """The run to compare against: the first saved least-cost run (objective cost, no CO2 cap), else the first
+    saved run (run ids grow with saving)."""
     ids = sorted(results)
     for run_id in ids:
-        if results[run_id].cost_case == "reference":
+        result = results[run_id]
+        if result.objective == "cost" and not float(result.settings.get("co2_cap_t_per_a", 0) or 0):
             return run_id
     return ids[0]
 

@@ -6,6 +6,8 @@ import numpy as np
 import pandas as pd
 
 from engine.model.results import RunResult
+from engine.outputs.formats import format_number
+from engine.outputs.labels import blank, column_label, cost_case_label, status_label, words
 
 
 def technology_names(technologies: pd.DataFrame | None) -> dict[str, str]:
@@ -111,3 +113,37 @@ def _rounded(frame: pd.DataFrame) -> pd.DataFrame:
 def table_height(frame: pd.DataFrame, max_rows: int = 25) -> int:
     """Pixel height that shows ``frame`` without an inner scroll bar, up to ``max_rows`` rows."""
     return 38 + 35 * min(len(frame), max_rows)
+
+
+def sweep_display_table(table: pd.DataFrame, scenario=None) -> pd.DataFrame:
+    """A sweep's table for reading: headers in words with units, technology names, numbers in one format."""
+    names = technology_names(scenario.technologies if scenario is not None else None)
+    out = table.drop(columns=[c for c in ("message", "run") if c in table.columns]).copy()
+    headers = {}
+    for column in out.columns:
+        if column.startswith("heat_") and column.endswith("_mwh_per_a"):
+            tech = column[5:-10]
+            headers[column] = f"Heat {names.get(tech, words(tech))} [MWh/a]"
+        else:
+            headers[column] = column_label(column)
+    if "status" in out:
+        out["status"] = [status_label(v) for v in out["status"]]
+    if "cost_case" in out:
+        out["cost_case"] = [cost_case_label(v) for v in out["cost_case"]]
+    if "name" in out:
+        out["name"] = [cost_case_label(v) if ":" not in str(v) else words(v) for v in out["name"]]
+    out = out.rename(columns=headers)
+    return pd.DataFrame({c: [format_number(v, c) if not isinstance(v, str) else blank(v) for v in out[c]]
+                         for c in out.columns})
+
+
+def main_supply_display_table(main: pd.DataFrame, scenario=None) -> pd.DataFrame:
+    """Main supply per district (columns) and run (rows) with district and technology names, "–" for none."""
+    names = technology_names(scenario.technologies if scenario is not None else None)
+    districts = {}
+    if scenario is not None:
+        districts = dict(zip(scenario.districts["district_id"].astype(str), scenario.districts["name"].astype(str)))
+    out = pd.DataFrame({districts.get(str(c), words(c)): [blank(names.get(str(v), v)) for v in main[c]]
+                        for c in main.columns})
+    out.insert(0, "Price future", [cost_case_label(n) if ":" not in str(n) else words(n) for n in main.index])
+    return out
