@@ -210,3 +210,149 @@ def test_cancel_stops_a_full_year_solve_in_chromium(server):
             assert page.get_by_role("button", name="Cancel").count() == 0
         finally:
             browser.close()
+
+
+# ------------------------------------------------------------------------------------------ every page, as a planner
+def _demo_ids() -> set[str]:
+    """Internal ids of the demo that a reader must never meet in a table: kinds, cost cases, districts."""
+    from engine.scenario import DEMO_DIR, load_scenario
+    from engine.scenario.kinds import TECHNOLOGY_KINDS
+
+    demo = load_scenario(DEMO_DIR)
+    return set(TECHNOLOGY_KINDS) | set(demo.cost_cases) | set(demo.districts["district_id"].astype(str))
+
+
+def _page_faults(page, ids: set[str], where: str) -> list[str]:
+    """What is wrong on the page now: exception elements, figures under 200 px, internal ids in table cells."""
+    _settled(page)
+    faults = []
+    if page.locator("[data-testid=stException]").count():
+        faults.append(f"{where}: an exception is shown")
+    charts = page.locator("[data-testid=stPlotlyChart]")
+    for k in range(charts.count()):
+        chart = charts.nth(k)
+        chart.scroll_into_view_if_needed()
+        box = chart.bounding_box()
+        if box is not None and box["height"] < 200:
+            faults.append(f"{where}: figure {k + 1} is {box['height']:.0f} px tall")
+    cells = page.evaluate(
+        "() => Array.from(document.querySelectorAll('[data-testid=stDataFrame] th, [data-testid=stDataFrame] td,"
+        " [data-testid=stTable] th, [data-testid=stTable] td')).map(c => c.textContent.trim())")
+    for text in cells:
+        if text in ids or text == "None" or any("_" in i and i in text for i in ids):
+            faults.append(f"{where}: a table shows {text!r}")
+    return faults
+
+
+def _click_tab(page, name: str) -> None:
+    page.get_by_role("tab", name=name).click()
+    _settled(page)
+
+
+@pytest.mark.slow
+def test_every_page_after_a_refused_upload_reads_cleanly_in_chromium(server, tmp_path):
+    """In Chromium, as a planner: a refused upload, then the demo at 3 typical days solved and saved under two
+    cost cases, compared, every results tab, the groundwater page with its interactive map, a 3-point trade-off
+    curve, a 2-sample sweep and the share page. Nowhere an exception element, a browser page error, a figure
+    under 200 px (common practice: a readable chart) or an internal id of the demo in a table (issue 14)."""
+    sync_api = _require_browser()
+    ids = _demo_ids()
+    errors: list[str] = []
+    faults: list[str] = []
+    bad_upload = tmp_path / "notes.zip"
+    bad_upload.write_bytes(b"this is not a zip file")
+    ARTIFACTS.mkdir(exist_ok=True)
+    with sync_api.sync_playwright() as playwright:
+        browser = playwright.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
+        try:
+            context = browser.new_context(viewport={"width": 1440, "height": 1000})
+            page = context.new_page()
+            page.on("pageerror", lambda error: errors.append(str(error)))
+            page.set_default_timeout(STEP_TIMEOUT_MS)
+            page.goto(f"{server}/Plan_a_run")
+            page.get_by_role("heading", name="Plan a run").wait_for()
+            _settled(page)
+            page.locator("input[type=file]").first.set_input_files(str(bad_upload))
+            page.get_by_text("cannot be used").wait_for()
+            _settled(page)
+            assert page.locator("[data-testid=stFileUploaderFile]").count() == 0, "the refused file stayed"
+            faults += _page_faults(page, ids, "plan after the refused upload")
+            page.get_by_role("button", name="Use the demo city instead").click()
+            page.get_by_role("button", name="Solve").wait_for()
+            _settled(page)
+            days = page.get_by_role("spinbutton", name="Typical days")
+            days.fill("3")
+            days.press("Enter")
+            _settled(page)
+            _solve_and_save(page, "Reference prices")
+            faults += _page_faults(page, ids, "plan")
+            _choose(page, "Cost case", "high_co2")
+            _settled(page)
+            _solve_and_save(page, "High CO2 price")
+
+            page.goto(f"{server}/Compare_runs")
+            page.get_by_role("heading", name="Key figures").wait_for()
+            faults += _page_faults(page, ids, "compare")
+            page.screenshot(path=str(ARTIFACTS / "walk_compare.png"), full_page=True)
+
+            page.goto(f"{server}/Run_results")
+            page.get_by_role("heading", name="Run results").wait_for()
+            for tab in ("Map", "Load curves", "Costs", "Tables", "Manage run"):
+                _click_tab(page, tab)
+                faults += _page_faults(page, ids, f"results {tab}")
+
+            page.goto(f"{server}/Groundwater")
+            page.get_by_role("heading", name="Groundwater check").wait_for()
+            faults += _page_faults(page, ids, "groundwater")
+            _click_tab(page, "Map")
+            page.get_by_text("Interactive with popups").click()
+            _settled(page)
+            frame = page.locator("iframe[title='streamlit_folium.st_folium']").first
+            frame.wait_for()
+            frame.scroll_into_view_if_needed()
+            leaflet = page.frame_locator("iframe[title='streamlit_folium.st_folium']").first
+            leaflet.locator(".leaflet-container").first.wait_for()
+            page.wait_for_timeout(1500)
+            assert frame.bounding_box()["height"] > 200, "the groundwater map has no height"
+            assert leaflet.locator("path.leaflet-interactive").count() > 0, "no district drawn on the groundwater map"
+            faults += _page_faults(page, ids, "groundwater map")
+            page.screenshot(path=str(ARTIFACTS / "walk_groundwater_map.png"), full_page=True)
+            _click_tab(page, "Interference check")
+            faults += _page_faults(page, ids, "groundwater check tab")
+
+            page.goto(f"{server}/Trade_offs_and_sweeps")
+            page.get_by_role("heading", name="Trade-offs and sweeps").wait_for()
+            _settled(page)
+            slider = page.get_by_role("slider").first
+            slider.focus()
+            slider.press("Home")
+            slider.press("ArrowRight")  # 2 -> 3 points
+            _settled(page)
+            page.get_by_role("button", name="Compute the curve").click()
+            page.get_by_role("button", name="Save point").wait_for(timeout=4 * STEP_TIMEOUT_MS)
+            faults += _page_faults(page, ids, "trade-off")
+            page.screenshot(path=str(ARTIFACTS / "walk_tradeoff.png"), full_page=True)
+            _click_tab(page, "Price sweep")
+            page.get_by_text("Random mixes of prices, spread evenly").click()
+            _settled(page)
+            samples = page.get_by_role("spinbutton", name="Samples")
+            samples.fill("2")
+            samples.press("Enter")
+            _settled(page)
+            page.get_by_role("button", name="Run the sweep").click()
+            page.get_by_role("button", name="Download the sweep (CSV)").wait_for(timeout=4 * STEP_TIMEOUT_MS)
+            faults += _page_faults(page, ids, "sweep")
+            page.get_by_text("Main supply of each district in each run").click()
+            faults += _page_faults(page, ids, "sweep main supply")
+            page.screenshot(path=str(ARTIFACTS / "walk_sweep.png"), full_page=True)
+
+            page.goto(f"{server}/Share")
+            page.get_by_role("heading", name="Share").wait_for()
+            faults += _page_faults(page, ids, "share")
+            page.goto(server)
+            page.get_by_role("heading", name="heatmosaic").wait_for()
+            faults += _page_faults(page, ids, "overview")
+        finally:
+            browser.close()
+    assert errors == [], f"browser page errors: {errors[:5]}"
+    assert faults == [], "\n".join(faults)

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import io
 import tempfile
+import zipfile
 from collections.abc import Mapping
 from pathlib import Path
 
@@ -68,6 +70,19 @@ def library_bytes(store: ScenarioStore) -> bytes:
     """The whole library (:func:`engine.storage.library.export_library`) as zip bytes."""
     with tempfile.TemporaryDirectory(prefix="heatmosaic-library-") as folder:
         return export_library(store, Path(folder) / "library.zip").read_bytes()
+
+def zip_purpose(data: bytes) -> str:
+    """What an uploaded file is, from its zip directory only: "bundle" (one run: manifest.json and inputs/),
+    "zip" (some other zip, a library perhaps) or "not a zip"."""
+    try:
+        with zipfile.ZipFile(io.BytesIO(bytes(data))) as archive:
+            names = archive.namelist()
+    except (zipfile.BadZipFile, OSError, ValueError):
+        return "not a zip"
+    if "manifest.json" in names and any(n.startswith("inputs/") for n in names):
+        return "bundle"
+    return "zip"
+
 
 def import_library_bytes(store: ScenarioStore, data: bytes) -> tuple[list[int], str | None]:
     """Add the runs of an uploaded library zip; returns the new run ids and an error message (or None)."""
