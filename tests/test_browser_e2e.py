@@ -103,7 +103,7 @@ def _settled(page) -> None:
 
 
 def _solve_and_save(page, name: str) -> None:
-    page.get_by_role("button", name="Solve").click()
+    page.get_by_role("button", name="Solve", exact=True).click()
     page.get_by_text("5 · Save to the library").wait_for(timeout=STEP_TIMEOUT_MS)
     _settled(page)
     page.get_by_label("Name").fill(name)
@@ -197,7 +197,7 @@ def test_cancel_stops_a_full_year_solve_in_chromium(server):
             _settled(page)
             page.get_by_text("Full year (8760 hours)").click()
             _settled(page)
-            page.get_by_role("button", name="Solve").click()
+            page.get_by_role("button", name="Solve", exact=True).click()
             cancel = page.get_by_role("button", name="Cancel")
             cancel.wait_for(timeout=STEP_TIMEOUT_MS)
             page.wait_for_timeout(3000)  # well inside the solve: HiGHS is running
@@ -278,7 +278,7 @@ def test_every_page_after_a_refused_upload_reads_cleanly_in_chromium(server, tmp
             assert page.locator("[data-testid=stFileUploaderFile]").count() == 0, "the refused file stayed"
             faults += _page_faults(page, ids, "plan after the refused upload")
             page.get_by_role("button", name="Use the demo city instead").click()
-            page.get_by_role("button", name="Solve").wait_for()
+            page.get_by_role("button", name="Solve", exact=True).wait_for()
             _settled(page)
             days = page.get_by_role("spinbutton", name="Typical days")
             days.fill("3")
