@@ -10,7 +10,7 @@ import streamlit as st
 
 
 from engine import cautions
-from engine.outputs.labels import kind_label
+from engine.outputs.labels import cost_case_label, kind_label, objective_label
 from pages._support.inputs import (
     InputSet, cost_case_descriptions, demo_input_set, input_set_from_bundle, problems_for_display,
 )
@@ -100,7 +100,8 @@ with st.container(border=True):
             st.caption(
                 f"Bundle written by heatmosaic {inputs.manifest.get('heatmosaic_version', '?')} on "
                 f"{str(inputs.manifest.get('created_utc', '?'))[:10]}; run inside: cost case "
-                f"{inputs.manifest.get('cost_case', '?')}, objective {inputs.manifest.get('objective', '?')}."
+                f"{cost_case_label(inputs.manifest.get('cost_case', '?'))}, objective "
+                f"{objective_label(inputs.manifest.get('objective', '?'))}."
             )
     with right:
         if inputs.label != "Demo city":
@@ -136,7 +137,7 @@ with st.container(border=True):
     descriptions = cost_case_descriptions(scenario)
     c1, c2, c3 = st.columns([2, 1.3, 1.5], gap="large")
     with c1:
-        cost_case = st.selectbox("Cost case", list(descriptions), key="setup_cost_case")
+        cost_case = st.selectbox("Cost case", list(descriptions), key="setup_cost_case", format_func=cost_case_label)
         st.caption(markdown_literal(descriptions.get(cost_case, "")))
     with c2:
         objective = st.radio("Objective", list(OBJECTIVES), format_func=OBJECTIVES.get, key="setup_objective")

@@ -12,7 +12,9 @@ from pages._support.cache import load_saved_run, resolve_saved_run, scenario_for
 from pages._support.describe import (
     demand_note, describe_choices, markdown_literal, resolution_note, run_kpis, suggested_run_name,
 )
-from pages._support.tables import district_results_table, supply_results_table, table_height, well_results_table
+from pages._support.tables import (
+    district_results_table, styled, supply_results_table, table_height, well_results_table,
+)
 from pages._support.library import run_choices
 from engine.outputs.figures import (
     FIGURE_CONFIG,
@@ -89,9 +91,13 @@ if info is not None:
                     "were solved from the very same files.")
 
 
-def numbers(table, first: int, last: int | None = None) -> dict:
-    """Thousands separators for the number columns ``first:last`` of a table."""
-    return {c: st.column_config.NumberColumn(format="localized") for c in list(table.columns)[first:last]}
+def numbers(table, first: int = 0, last: int | None = None) -> dict:
+    """Name columns wide enough to read (the numbers are formatted by :func:`styled`)."""
+    config = {}
+    for name in ("district", "technology", "main supply"):
+        if name in table.columns:
+            config[name] = st.column_config.TextColumn(width="medium")
+    return config
 
 
 def show_map() -> None:
@@ -143,14 +149,14 @@ def show_load_curves() -> None:
 def show_costs() -> None:
     st.plotly_chart(cost_breakdown_figure({run_name: result}, by="district"), width="stretch", config=FIGURE_CONFIG)
     table = district_results_table(result, technologies)
-    st.dataframe(table, hide_index=True, width="stretch", height=table_height(table),
+    st.dataframe(styled(table), hide_index=True, width="stretch", height=table_height(table),
                  column_config=numbers(table, 2))
 
 
 def show_tables() -> None:
     st.markdown("**Supply per district and technology**")
     table = supply_results_table(result, technologies)
-    st.dataframe(table, hide_index=True, width="stretch", height=table_height(table, 20),
+    st.dataframe(styled(table), hide_index=True, width="stretch", height=table_height(table, 20),
                  column_config=numbers(table, 3))
     st.caption("Technologies a district neither has nor builds are left out. Heat stores: capacity in kWh, heat is "
                "discharge minus charge (their loss).")
@@ -159,7 +165,7 @@ def show_tables() -> None:
     if wells.empty:
         st.caption("No well doublets in this run.")
         return
-    st.dataframe(wells, hide_index=True, width="stretch", height=table_height(wells),
+    st.dataframe(styled(wells), hide_index=True, width="stretch", height=table_height(wells),
                  column_config=numbers(wells, 2, 10))
     st.caption(cautions.WELLS + " A binding limit means the permit, not the heat pump, sets the well's output.")
 

@@ -30,8 +30,8 @@ from engine.studies.sweep import (
     tornado_table, tornado_tasks,
 )
 from engine.studies.tradeoff import tradeoff_curve_runs
-from engine.outputs.labels import status_label, tradeoff_point_label
-from pages._support.tables import main_supply_display_table, sweep_display_table
+from engine.outputs.labels import cost_case_label, status_label, tradeoff_point_label
+from pages._support.tables import main_supply_display_table, styled, sweep_display_table, technology_names
 from pages._support.shell import route_through_app, run_with_cancel, show_cancelled
 
 state = st.session_state
@@ -58,7 +58,7 @@ top = st.columns([2, 1, 1])
 cases = list(scenario.cost_cases)
 default_case = setup.get("cost_case") or default_cost_case(cases)
 cost_case = top[0].selectbox("Cost case", cases, index=cases.index(default_case) if default_case in cases else 0,
-                             key="tradeoffs_cost_case")
+                             key="tradeoffs_cost_case", format_func=cost_case_label)
 full_year = top[1].toggle("Full year", value=bool(setup.get("full_year", False)), key="tradeoffs_full_year",
                           help="Every hour of the year: far slower; typical days are usually close enough "
                                "(see the fidelity tab).")
@@ -117,18 +117,15 @@ with tab_curve:
         shown = table[["point", "kind", "co2_bound_t_per_a", "co2_t_per_a", "total_cost_eur_per_a",
                        "abatement_cost_eur_per_t", "unserved_heat_mwh_per_a", "status"]].assign(
             kind=[tradeoff_point_label(k) for k in table["kind"]], status=[status_label(v) for v in table["status"]])
-        st.dataframe(shown, hide_index=True, width="stretch", column_config={
-            "point": st.column_config.NumberColumn("Point"),
-            "kind": st.column_config.TextColumn("Point of the curve", width="medium"),
-            "status": st.column_config.TextColumn("Status"),
-            "co2_bound_t_per_a": st.column_config.NumberColumn("CO2 bound [t/a]", format="localized"),
-            "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
-            "total_cost_eur_per_a": st.column_config.NumberColumn("Total cost [€/a]", format="localized"),
-            "abatement_cost_eur_per_t": st.column_config.NumberColumn("Abatement cost [€/t]", format="%.0f",
-                                                                      help="Extra cost per tonne avoided "
-                                                                           "against the previous point."),
-            "unserved_heat_mwh_per_a": st.column_config.NumberColumn("Unserved heat [MWh/a]", format="%.1f"),
-        })
+        st.dataframe(styled(shown, {
+            "point": "Point", "kind": "Point of the curve", "co2_bound_t_per_a": "CO2 limit [t/a]",
+            "co2_t_per_a": "CO2 [t/a]", "total_cost_eur_per_a": "Total cost [€/a]",
+            "abatement_cost_eur_per_t": "Abatement cost [€/t]", "unserved_heat_mwh_per_a": "Unserved heat [MWh/a]",
+            "status": "Status"}), hide_index=True, width="stretch", column_config={
+            "Abatement cost [€/t]": st.column_config.NumberColumn(
+                help="Extra cost per tonne avoided against the previous point.")})
+        st.caption("Points sit where the curve bends, where each further tonne starts to cost more. The last "
+                   "point is the extreme end: the least CO2 the city can reach, whatever it costs.")
         with st.form(f"tradeoffs_save_{curve_key}", border=True):
             st.markdown(f"**Save point {chosen} as a run in the library**")
             result = results[chosen]
@@ -244,18 +241,17 @@ with tab_fidelity:
                    "check final figures over the full year.")
         columns = ["typical_days", "model_steps", "total_cost_eur_per_a", "total_cost_error_pct", "co2_t_per_a",
                    "co2_error_pct", "capacity_deviation_pct", "capacity_error_max_pct", "solve_s"]
-        st.dataframe(table[columns], hide_index=True, width="stretch", column_config={
-            "typical_days": st.column_config.NumberColumn("Typical days (0 = full year)"),
-            "model_steps": st.column_config.NumberColumn("Model hours"),
-            "total_cost_eur_per_a": st.column_config.NumberColumn("Total cost [€/a]", format="localized"),
-            "total_cost_error_pct": st.column_config.NumberColumn("Cost error [%]", format="%+.2f"),
-            "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
-            "co2_error_pct": st.column_config.NumberColumn("CO2 error [%]", format="%+.2f"),
-            "capacity_deviation_pct": st.column_config.NumberColumn("Capacity placed differently [%]",
-                                                                    format="%.1f"),
-            "capacity_error_max_pct": st.column_config.NumberColumn("Largest capacity error [%]", format="%.1f"),
-            "solve_s": st.column_config.NumberColumn("Solve time [s]", format="%.1f"),
-        })
+        st.dataframe(styled(table[columns], {
+            "typical_days": "Typical days (0 = full year)", "model_steps": "Model hours",
+            "total_cost_eur_per_a": "Total cost [€/a]", "total_cost_error_pct": "Cost error [%]",
+            "co2_t_per_a": "CO2 [t/a]", "co2_error_pct": "CO2 error [%]",
+            "capacity_deviation_pct": "Capacity placed differently [%]",
+            "capacity_error_max_pct": "Largest capacity error [%]", "solve_s": "Solve time [s]"}),
+            hide_index=True, width="stretch")
         with st.expander("Capacity per technology"):
-            st.dataframe(table[[c for c in table.columns if c.startswith("capacity_") and c.endswith("_kw")]
-                               + ["typical_days"]], hide_index=True, width="stretch")
+            tech_names = technology_names(scenario.technologies)
+            capacity = [c for c in table.columns if c.startswith("capacity_") and c.endswith("_kw")]
+            st.dataframe(styled(table[["typical_days"] + capacity], {
+                "typical_days": "Typical days (0 = full year)",
+                **{c: f"{tech_names.get(c[9:-3], c[9:-3])} [kW]" for c in capacity}}),
+                hide_index=True, width="stretch")

@@ -307,9 +307,9 @@ def test_choices_of_a_run_restore_the_set_up(tiny, tiny_cache):
     year = initial_setup(tiny, {**run.result.settings, "typical_days": 0, "objective": "co2"}, "high_co2")
     assert (year["cost_case"], year["objective"], year["full_year"]) == ("high_co2", "co2", True)
     assert initial_setup(tiny, None, "no such case")["cost_case"] == "reference"
-    assert suggested_run_name(run.result) == f"reference, lowest cost, {TINY_DAYS} typical days"
+    assert suggested_run_name(run.result) == f"Reference, lowest cost, {TINY_DAYS} typical days"
     assert describe_choices(run.result) == (
-        f"Cost case **reference** · objective **lowest cost** · CO2 cap none · {TINY_DAYS} typical days")
+        f"Cost case **Reference** · objective **lowest cost** · CO2 cap none · {TINY_DAYS} typical days")
 
 
 def test_result_tables_for_reading_add_up_to_the_city_figures(tiny, tiny_cache):

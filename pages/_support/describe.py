@@ -8,6 +8,7 @@ import pandas as pd
 
 from engine.model.results import RunResult
 from engine.outputs.figures import city_levelised_cost_eur_per_mwh
+from engine.outputs.labels import cost_case_label, objective_label
 from engine.studies.fidelity import fidelity_note, lookup_fidelity
 from pages._support.cache import choices_of_run
 
@@ -53,7 +54,7 @@ def describe_choices(result: RunResult) -> str:
     cap = choice["co2_cap_t_per_a"]
     days = choice["typical_days"]
     return (
-        f"Cost case **{markdown_literal(choice['cost_case'])}** · objective **{objective}** · CO2 cap "
+        f"Cost case **{markdown_literal(cost_case_label(choice['cost_case']))}** · objective **{objective}** · CO2 cap "
         f"{f'{cap:,.0f} t/a' if cap else 'none'} · {f'{days} typical days' if days else 'full year'}"
     )
 
@@ -61,7 +62,7 @@ def suggested_run_name(result: RunResult) -> str:
     """A default name for saving: cost case, objective and resolution."""
     days = int(result.settings.get("typical_days", 0) or 0)
     cap = float(result.settings.get("co2_cap_t_per_a", 0) or 0)
-    parts = [result.cost_case, "lowest CO2" if result.objective == "co2" else "lowest cost"]
+    parts = [cost_case_label(result.cost_case), objective_label(result.objective)]
     if cap > 0:
         parts.append(f"cap {cap:,.0f} t/a")
     parts.append(f"{days} typical days" if days else "full year")

@@ -11,6 +11,7 @@ from pathlib import Path
 import pandas as pd
 
 from engine.model.results import RunResult
+from engine.outputs.labels import cost_case_label, objective_label, status_label
 from engine.storage.bundle import export_bundle
 from engine.storage.library import export_library, import_library
 from engine.storage.store import ScenarioStore, StoreError
@@ -24,13 +25,13 @@ def library_table(store: ScenarioStore) -> pd.DataFrame:
         {
             "run_id": runs["run_id"].to_numpy(),
             "name": runs["name"].to_numpy(),
-            "cost case": runs["cost_case"].to_numpy(),
-            "objective": ["lowest CO2" if o == "co2" else "lowest cost" for o in runs["objective"]],
+            "cost case": [cost_case_label(c) for c in runs["cost_case"]],
+            "objective": [objective_label(o) for o in runs["objective"]],
             "total cost [M€/a]": runs["total_cost_eur_per_a"].to_numpy(float) / 1e6,
             "CO2 [t/a]": runs["co2_t_per_a"].to_numpy(float).round(0),
             "created (UTC)": [str(c)[:16].replace("T", " ") for c in runs["created_utc"]],
             "note": runs["note"].to_numpy(),
-            "status": runs["status"].to_numpy(),
+            "status": [status_label(v) for v in runs["status"]],
         }
     )
     return table
@@ -39,7 +40,7 @@ def run_choices(store: ScenarioStore) -> dict[int, str]:
     """run id -> a label for pickers ("name · cost case · #id"), newest first."""
     runs = store.list_runs()
     return {
-        int(row.run_id): f"{row.name} · {row.cost_case} · #{int(row.run_id)}"
+        int(row.run_id): f"{row.name} · {cost_case_label(row.cost_case)} · #{int(row.run_id)}"
         for row in runs.itertuples(index=False)
     }
 
