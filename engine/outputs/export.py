@@ -24,6 +24,8 @@ from collections.abc import Mapping
 import numpy as np
 import pandas as pd
 
+from engine.outputs.formats import engine_column_decimals, excel_format, unit_of
+
 from engine.model.results import RunResult
 
 TABLE_ORDER = ("districts", "supply", "wells", "dispatch", "demand", "well_steps", "steps", "day_map")
@@ -108,6 +110,22 @@ def _cell_value(value):
     return _ILLEGAL_XML.sub("", str(value))
 
 
+STYLED_ROWS = 20_000
+"""Sheets up to this many rows get a number format per column."""
+
+
+def _number_style(column, values: pd.Series) -> str | None:
+    """The spreadsheet number format of a float column: from the unit of its header or of its engine name."""
+    if values.dtype.kind != "f":
+        return None
+    if unit_of(column) is not None:
+        return excel_format(column)
+    places = engine_column_decimals(str(column))
+    if places is None:
+        return None
+    return "#,##0" + ("." + "0" * places if places else "")
+
+
 def _write_sheet(book, name: str, frame: pd.DataFrame, used: set[str]) -> list[str]:
     from openpyxl.cell import WriteOnlyCell
 
@@ -119,13 +137,20 @@ def _write_sheet(book, name: str, frame: pd.DataFrame, used: set[str]) -> list[s
         titles.append(sheet.title)
         sheet.append([_cell_value(c) for c in frame.columns])
         columns = [frame[c].tolist() for c in frame.columns]
+        # the number format of each quantity (engine/outputs/formats.py), on sheets small enough to style cell
+        # by cell; the hourly sheets keep plain numbers
+        styles = [_number_style(c, frame[c]) for c in frame.columns] if len(frame) <= STYLED_ROWS else []
         for i in range(start, min(start + limit, len(frame))):
             row = []
-            for column in columns:
+            for k, column in enumerate(columns):
                 value = _cell_value(column[i])
                 if isinstance(value, str) and value.startswith("="):
                     cell = WriteOnlyCell(sheet, value=value)
                     cell.data_type = "s"  # text, never a formula
+                    row.append(cell)
+                elif styles and styles[k] and isinstance(value, float):
+                    cell = WriteOnlyCell(sheet, value=value)
+                    cell.number_format = styles[k]
                     row.append(cell)
                 else:
                     row.append(value)

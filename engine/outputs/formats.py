@@ -75,12 +75,13 @@ def excel_format(column) -> str:
     return "#,##0" + ("." + "0" * places if places else "")
 
 
-def engine_column_decimals(column: str) -> int:
-    """Decimals for an engine-style column name (``total_cost_eur_per_a``), as the spreadsheet writes it."""
+def engine_column_decimals(column: str) -> int | None:
+    """Decimals for an engine-style column name (``total_cost_eur_per_a``), as the spreadsheet writes it; None
+    for a name without a known unit (coordinates, shares, counts keep their digits)."""
     for suffix, unit in (("_eur_per_mwh", "€/MWh"), ("_eur_per_kw", "€/kW"), ("_eur_per_t", "€/t"),
                          ("_eur_per_a", "€/a"), ("_mwh_per_a", "MWh/a"), ("_kg_per_mwh", "kg/MWh"),
                          ("_t_per_a", "t/a"), ("_m3_per_h", "m³/h"), ("_m3", "m³"), ("_kwh", "kWh"), ("_kw", "kW"),
                          ("_pct", "%"), ("_c", "°C"), ("_k", "K")):
         if column.endswith(suffix):
             return DECIMALS[unit]
-    return 2
+    return None
