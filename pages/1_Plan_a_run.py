@@ -188,20 +188,20 @@ with st.container(border=True):
             column_order=[c for c in setup["technology_table"].columns if c != "technology_id"],
             column_config={
                 "technology_id": st.column_config.TextColumn("Id", width="small"),
-                "name": st.column_config.TextColumn("Technology", width=180),
-                "kind": st.column_config.TextColumn("Kind", width=170),
+                "name": st.column_config.TextColumn("Technology", width=175),
+                "kind": st.column_config.TextColumn("Kind", width=160),
                 "investment_eur_per_kw": st.column_config.NumberColumn(
-                    "Investment [€/kW; stores €/kWh]", min_value=0.0, format="%.0f", width=190,
+                    "Investment [€/kW or €/kWh]", min_value=0.0, format="%.0f", width=215,
                     help="Specific investment per kW of capacity; heat stores per kWh of storage."),
                 "fixed_om_pct_per_a": st.column_config.NumberColumn(
-                    "Fixed O&M [%/a]", min_value=0.0, max_value=100.0, format="%.2f", width=120,
+                    "Fixed O&M [%/a]", min_value=0.0, max_value=100.0, format="%.2f", width=140,
                     help="Fixed operation and maintenance, % of the investment per year."),
                 "variable_om_eur_per_mwh": st.column_config.NumberColumn(
-                    "Var. O&M [€/MWh]", min_value=0.0, format="%.2f", width=120),
+                    "Var. O&M [€/MWh]", min_value=0.0, format="%.2f", width=150),
                 "lifetime_a": st.column_config.NumberColumn("Lifetime [a]", min_value=1, max_value=100, format="%d",
-                                                           width=120),
+                                                           width=105),
                 "efficiency_or_grade": st.column_config.NumberColumn(
-                    "Eff. or COP grade", min_value=0.0, format="%.2f", width=120,
+                    "Eff. or COP grade [-]", min_value=0.0, format="%.2f", width=170,
                     help="[-] Boilers: thermal efficiency; chillers and groundwater cooling: EER; heat pumps: share of "
                          "the Carnot COP reached. Blank for network connections and stores."),
             },

@@ -407,7 +407,8 @@ def cost_breakdown_figure(results: Mapping[str, RunResult], by: str = "run") -> 
         peak = float(table["total_cost_eur_per_a"].max())
         divisor, unit = _scale(peak, "€/a")
         table["_order"] = table["district_id"].map({d: i for i, d in enumerate(order)})
-        table = table.sort_values(["_order", "run"], kind="stable")
+        table["_run_order"] = table["run"].map({run: k for k, run in enumerate(solved)})
+        table = table.sort_values(["_order", "_run_order"], kind="stable")  # runs in the order given
         district_axis = [labels.get(d, escape(d)) for d in table["district_id"]]
         y = [district_axis, [escape(r) for r in table["run"]]] if len(solved) > 1 else district_axis
         for part in COST_PARTS:
