@@ -325,6 +325,10 @@ def test_every_page_after_a_refused_upload_reads_cleanly_in_chromium(server, tmp
             page.goto(f"{server}/Trade_offs_and_sweeps")
             page.get_by_role("heading", name="Trade-offs and sweeps").wait_for()
             _settled(page)
+            days = page.get_by_role("spinbutton", name="Typical days")
+            days.fill("3")
+            days.press("Enter")
+            _settled(page)
             slider = page.get_by_role("slider").first
             slider.focus()
             slider.press("Home")
