@@ -250,8 +250,11 @@ with tab_fidelity:
             hide_index=True, width="stretch")
         with st.expander("Capacity per technology"):
             tech_names = technology_names(scenario.technologies)
+            store_kind = {str(t): k == "heat_store" for t, k in zip(scenario.technologies["technology_id"],
+                                                                    scenario.technologies["kind"])}
             capacity = [c for c in table.columns if c.startswith("capacity_") and c.endswith("_kw")]
             st.dataframe(styled(table[["typical_days"] + capacity], {
                 "typical_days": "Typical days (0 = full year)",
-                **{c: f"{tech_names.get(c[9:-3], c[9:-3])} [kW]" for c in capacity}}),
+                **{c: f"{tech_names.get(c[9:-3], c[9:-3])} [{'kWh' if store_kind.get(c[9:-3]) else 'kW'}]"
+                   for c in capacity}}),
                 hide_index=True, width="stretch")

@@ -246,6 +246,12 @@ def _page_faults(page, ids: set[str], where: str) -> list[str]:
     return faults
 
 
+def _nav(page, title: str) -> None:
+    """Open a page through the sidebar navigation (the session and its state stay; a new address would not)."""
+    page.locator("[data-testid=stSidebarNav] a", has_text=title).first.click()
+    page.wait_for_timeout(500)
+
+
 def _click_tab(page, name: str) -> None:
     page.get_by_role("tab", name=name).click()
     _settled(page)
@@ -292,18 +298,20 @@ def test_every_page_after_a_refused_upload_reads_cleanly_in_chromium(server, tmp
             _settled(page)
             _solve_and_save(page, "High CO2 price")
 
-            page.goto(f"{server}/Compare_runs")
+            _nav(page, "Compare runs")
             page.get_by_role("heading", name="Key figures").wait_for()
             faults += _page_faults(page, ids, "compare")
             page.screenshot(path=str(ARTIFACTS / "walk_compare.png"), full_page=True)
+            _choose(page, "Baseline run", "High CO2 price")
+            page.get_by_role("heading", name="Differences against the baseline “High CO2 price”").wait_for()
 
-            page.goto(f"{server}/Run_results")
+            _nav(page, "Run results")
             page.get_by_role("heading", name="Run results").wait_for()
             for tab in ("Map", "Load curves", "Costs", "Tables", "Manage run"):
                 _click_tab(page, tab)
                 faults += _page_faults(page, ids, f"results {tab}")
 
-            page.goto(f"{server}/Groundwater")
+            _nav(page, "Groundwater check")
             page.get_by_role("heading", name="Groundwater check").wait_for()
             faults += _page_faults(page, ids, "groundwater")
             _click_tab(page, "Map")
@@ -322,7 +330,7 @@ def test_every_page_after_a_refused_upload_reads_cleanly_in_chromium(server, tmp
             _click_tab(page, "Interference check")
             faults += _page_faults(page, ids, "groundwater check tab")
 
-            page.goto(f"{server}/Trade_offs_and_sweeps")
+            _nav(page, "Trade-offs and sweeps")
             page.get_by_role("heading", name="Trade-offs and sweeps").wait_for()
             _settled(page)
             days = page.get_by_role("spinbutton", name="Typical days")
@@ -352,9 +360,14 @@ def test_every_page_after_a_refused_upload_reads_cleanly_in_chromium(server, tmp
             faults += _page_faults(page, ids, "sweep main supply")
             page.screenshot(path=str(ARTIFACTS / "walk_sweep.png"), full_page=True)
 
-            page.goto(f"{server}/Share")
+            _nav(page, "Share")
             page.get_by_role("heading", name="Share").wait_for()
             faults += _page_faults(page, ids, "share")
+            _nav(page, "Compare runs")  # through the navigation: same session
+            page.get_by_role("heading", name="Key figures").wait_for()
+            _settled(page)
+            assert page.get_by_role("heading", name="Differences against the baseline “High CO2 price”").count(), \
+                "the comparison forgot its baseline after a page switch"
             page.goto(server)
             page.get_by_role("heading", name="heatmosaic").wait_for()
             faults += _page_faults(page, ids, "overview")
@@ -362,3 +375,30 @@ def test_every_page_after_a_refused_upload_reads_cleanly_in_chromium(server, tmp
             browser.close()
     assert errors == [], f"browser page errors: {errors[:5]}"
     assert faults == [], "\n".join(faults)
+
+
+@pytest.mark.slow
+def test_the_page_check_finds_what_it_looks_for_in_chromium():
+    """The checks of the walk above can fail: on a page made to look like the dashboard's output, an exception
+    element, a figure 120 px tall, a kind id, a district id and a literal "None" in table cells are all found."""
+    sync_api = _require_browser()
+    markup = (
+        "<div data-testid='stApp' data-test-script-state='notRunning'>"
+        "<div data-testid='stException'>Traceback</div>"
+        "<div data-testid='stPlotlyChart' style='height:120px;width:300px'></div>"
+        "<div data-testid='stDataFrame'><table><tr><th>kind</th><th>district</th><th>note</th></tr>"
+        "<tr><td>fuel_boiler</td><td>old_town</td><td>None</td></tr>"
+        "<tr><td>Fuel boiler</td><td>Old Kelmsvoort</td><td>–</td></tr></table></div></div>"
+    )
+    with sync_api.sync_playwright() as playwright:
+        browser = playwright.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS)
+        try:
+            page = browser.new_page()
+            page.set_content(markup)
+            faults = _page_faults(page, _demo_ids(), "made-up page")
+        finally:
+            browser.close()
+    assert any("exception" in f for f in faults)
+    assert any("120 px" in f for f in faults)
+    assert {"'fuel_boiler'", "'old_town'", "'None'"} <= {f.split("shows ")[-1] for f in faults if "shows" in f}
+    assert len([f for f in faults if "shows" in f]) == 3

@@ -536,8 +536,8 @@ def _technology_labels(technologies, results) -> dict[str, str]:
 def kpi_table(results: Mapping[str, RunResult], technologies=None) -> pd.DataFrame:
     """One row per run: the city's key figures.
 
-    Columns: run, status, cost case, objective (the last three in words), total cost [€/a], CO2 [t/a], heat demand [MWh/a],
-    unserved heat [MWh/a], levelised cost [€/MWh] (city: total cost over heat and cooling demand), then
+    Columns: run, status, cost case, objective (the last three in words), total cost [€/a], CO2 [t/a],
+    heat demand [MWh/a], unserved heat [MWh/a], levelised cost [€/MWh] (city: total cost over heat and cooling demand), then
     ``heat <technology> [MWh/a]`` for every technology that supplies heat in some run (by id, or by name when the
     catalogue is given). Runs that did not solve keep their row with NaN figures.
     """

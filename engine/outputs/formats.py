@@ -20,8 +20,8 @@ DECIMALS = {
 }
 """Decimals per unit (the text between the last brackets of a header)."""
 
-UNIT_SPELLINGS = {"million EUR/a": "M€/a", "M EUR/a": "M€/a", "EUR/MWh": "€/MWh", "EUR/t": "€/t", "EUR/a": "€/a",
-                  "EUR/kW": "€/kW", "EUR": "€"}
+UNIT_SPELLINGS = {"million EUR/a": "M€/a", "M EUR/a": "M€/a", "EUR/MWh": "€/MWh", "EUR/t": "€/t",
+                  "EUR/a": "€/a", "EUR/kW": "€/kW", "EUR": "€"}
 """Other spellings of a unit -> the one used everywhere."""
 
 _UNIT = re.compile(r"\[([^\[\]]+)\]\s*$")
