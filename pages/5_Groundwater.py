@@ -22,7 +22,7 @@ from streamlit_folium import st_folium
 from engine import cautions
 from pages._support.cache import choices_of_run, load_saved_run, scenario_for_files
 from pages._support.describe import markdown_literal, suggested_run_name
-from pages._support.tables import table_height
+from pages._support.tables import blanks_as_text, table_height
 from pages._support.library import run_choices
 from engine.outputs.figures import FIGURE_CONFIG
 from engine.outputs.groundwater_maps import STATUS_COLORS, groundwater_map_figure, well_status_layer, well_year_figure
@@ -149,6 +149,7 @@ if counts.get("breach", 0):
              "after solving, or a neighbour's plume shifts its source temperature. Solve again with the new "
              "inputs, or change the doublet's design or permit.")
 table = screening_display_table(screening, district_names)
+table = blanks_as_text(table)  # the grid would print a blank number as "None"
 status_colors = {label: STATUS_COLORS[key] for key, label in STATUS_LABELS.items()}
 number_formats = {
     column: ("{:.2f}" if ("[K]" in column or "COP" in column) else "{:.1f}" if ("°C" in column or "%" in column)

@@ -171,5 +171,18 @@ def styled(frame: pd.DataFrame, headers: dict | None = None):
     dashboard still sorts by the numbers."""
     renamed = frame.rename(columns={c: (headers or {}).get(c, column_label(c) if "_" in str(c) else c)
                                     for c in frame.columns})
+    renamed = blanks_as_text(renamed)
     formats = {c: python_format(c) for c in renamed.columns if renamed[c].dtype.kind == "f"}
     return renamed.style.format(formats, na_rep="–")
+
+
+def blanks_as_text(frame: pd.DataFrame) -> pd.DataFrame:
+    """Number columns with a blank cell as text in the format of their unit, blanks as "–".
+
+    Streamlit's grid prints a blank number as "None" whatever a Styler says; a column of text does not.
+    """
+    out = frame.copy()
+    for column in out.columns:
+        if out[column].dtype.kind == "f" and out[column].isna().any():
+            out[column] = [format_number(v, column) for v in out[column]]
+    return out
