@@ -47,3 +47,9 @@ def test_spreadsheet_numbers_carry_the_format_of_their_unit():
     lcoh = sheet.cell(row=2, column=headers.index("levelised cost [€/MWh]") + 1)
     assert cost.number_format == "#,##0" and lcoh.number_format == "#,##0.0"
     assert isinstance(cost.value, float) and np.isfinite(cost.value)
+
+
+def test_a_planners_own_name_is_kept_as_typed():
+    """Only snake-case ids become words; a name with other characters is the planner's and stays literal."""
+    assert cost_case_label("fossil <svg/onload=window.__pwned=1>") == "fossil <svg/onload=window.__pwned=1>"
+    assert cost_case_label("Mein Fall 2") == "Mein Fall 2"

@@ -79,6 +79,7 @@ _UNITS = (
     ("_m3_per_h", "m³/h"), ("_m3", "m³"), ("_kwh", "kWh"), ("_kw", "kW"), ("_pct", "%"), ("_c", "°C"),
     ("_k", "K"), ("_factor", "×"), ("_share", "-"), ("_s", "s"), ("_a", "a"),
 )
+_SNAKE = re.compile(r"[a-z0-9]+(?:_[a-z0-9]+)*")
 _WORDS = {"co2": "CO2", "om": "O&M", "cop": "COP", "eer": "EER", "hp": "heat pump"}
 
 
@@ -121,10 +122,13 @@ def tradeoff_point_label(kind) -> str:
 
 
 def cost_case_label(case, description: str | None = None) -> str:
-    """A cost case's id as words (``high_co2`` -> ``High CO2``); the description is only used when it is short."""
+    """A cost case's id as words (``high_co2`` -> ``High CO2``); the description only when it is short.
+
+    Only an id in snake case is turned into words; any other name is the planner's own and is kept as typed.
+    """
     if description and len(description) <= 40:
         return str(description)
-    return words(case)
+    return words(case) if _SNAKE.fullmatch(str(case)) else str(case)
 
 
 def blank(value) -> str:
