@@ -21,7 +21,7 @@ from engine.outputs.figures import (
     shared_y_range,
     supply_mix_figure,
 )
-from engine.outputs.maps import MEASURES, district_map, shared_value_range
+from engine.outputs.maps import MEASURES, district_map, map_legend_html, shared_value_range
 from pages._support.shell import open_store, route_through_app
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
@@ -113,9 +113,11 @@ for column, run_id in zip(columns, picked):
         if scenario is None:
             st.info("The scenario files of this run are not available.")
             continue
+        # the legend below the map: side by side, a legend inside would cover the districts
         fmap = district_map(scenario, results[name], measure=measure, baseline=base, technologies=technologies,
-                            legend_open=True, value_range=scale)
+                            value_range=scale, legend_inside=False)
         st_folium(fmap, height=480, use_container_width=True, returned_objects=[], key=f"compare_map_{run_id}")
+        st.html(map_legend_html(scenario, results[name], measure, base, technologies, scale))
 st.caption(cautions.WELLS)
 
 # ------------------------------------------------------------------------------------------------ load curves

@@ -329,7 +329,7 @@ def legend_html(legend: dict, wells: bool = False, plumes: bool = False) -> str:
         stops = ", ".join(scale_stops(scale))
         parts.append(f"<div style='width:180px;height:12px;border:1px solid #555;"
                      f"background:linear-gradient(to right, {stops})'></div>")
-        fmt = "{:,.2f}" if legend["kind"] == "sequential" and abs(legend["vmax"] or 0) < 1e4 else "{:,.0f}"
+        fmt = "{:,.1f}" if legend["kind"] == "sequential" and abs(legend["vmax"] or 0) < 1e4 else "{:,.0f}"
         low, high = _number(legend["vmin"], fmt), _number(legend["vmax"], fmt)
         if legend["kind"] == "diverging":
             low, high = _number(legend["vmin"], "{:+,.0f}"), _number(legend["vmax"], "{:+,.0f}")
@@ -352,6 +352,15 @@ def legend_html(legend: dict, wells: bool = False, plumes: bool = False) -> str:
     if wells or plumes:
         parts.append(f"<div style='margin-top:4px;color:#8a3b00;max-width:220px'>{escape(cautions.WELLS)}</div>")
     return "".join(parts)
+
+
+def map_legend_html(scenario, result: RunResult | None = None, measure: str = "main_supply",
+                    baseline: RunResult | None = None, technologies=None,
+                    value_range: tuple[float, float] | None = None, wells: bool = True) -> str:
+    """The legend of :func:`district_map` with the same arguments, as an HTML fragment to show beside the map."""
+    _, legend = district_values(scenario, result, measure, baseline, technologies, value_range)
+    return ("<div style='font:13px/1.45 sans-serif;border:1px solid #ccc;border-radius:4px;padding:6px 10px'>"
+            + legend_html(legend, wells=wells and len(scenario.wells) > 0) + "</div>")
 
 
 def _bounds(districts: pd.DataFrame, wells: pd.DataFrame) -> tuple[float, float, float, float]:
@@ -431,7 +440,7 @@ def use_bundled_leaflet(fmap) -> None:
 def district_map(scenario, result: RunResult | None = None, measure: str = "main_supply",
                  baseline: RunResult | None = None, technologies=None, show_wells: bool = True,
                  plume_polygons=None, tiles: bool = False, legend_open: bool = True,
-                 value_range: tuple[float, float] | None = None, extra_layers=()):
+                 value_range: tuple[float, float] | None = None, extra_layers=(), legend_inside: bool = True):
     """Interactive map of the districts coloured by ``measure``, with wells and optional plume outlines.
 
     Parameters
@@ -457,6 +466,9 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
         Whether the legend starts unfolded.
     value_range : (float, float), optional
         A colour scale shared with other maps (:func:`shared_value_range`).
+    legend_inside : bool
+        False leaves the legend off the map, for a page that shows :func:`map_legend_html` beside it (small maps
+        side by side, where a legend inside would cover the districts).
     extra_layers : iterable of folium layers
         Further layers (a permit status layer ...), added before the layer switch so that it lists them: a layer
         added after the switch leaves the switch pointing at a layer not yet created, and the map fails to draw.
@@ -534,8 +546,11 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
         extra.add_to(fmap)
     if len(wells) or plumes or tiles or extra_layers:
         folium.LayerControl(collapsed=False).add_to(fmap)
-    # room at the bottom right for the legend, so that it does not cover districts
-    fmap.fit_bounds([[south, west], [north, east]], padding_bottom_right=(250 if legend_open else 90, 10))
+    # room at the bottom right for a legend inside the map, so that it does not cover districts
+    fmap.fit_bounds([[south, west], [north, east]],
+                    padding_bottom_right=((250 if legend_open else 90) if legend_inside else 10, 10))
+    if not legend_inside:
+        return fmap
 
     control = MacroElement()
     control._template = Template(
