@@ -108,7 +108,7 @@ with st.container(border=True):
             st.button("Use the demo city instead", on_click=use_demo, icon=":material/location_city:")
         uploader_key = f"setup_bundle_{state.get('setup_bundle_round', 0)}"
         upload = st.file_uploader(
-            "Or open a run bundle (.zip) to solve it again", type=["zip"], key=uploader_key,
+            "Or open a run bundle (.zip) made on the Share page", type=["zip"], key=uploader_key,
             help="A run bundle holds one run's scenario files and results; download it on the Share page "
                  "(Bundles). A whole library (.zip) is imported on the Share page instead.",
         )

@@ -114,7 +114,7 @@ def test_two_sessions_solve_and_save_at_once_without_mixing(shared_server):
                 pages.append(page)
 
             for page in pages:  # both solves are sent before either has finished
-                page.get_by_role("button", name="Solve").click()
+                page.get_by_role("button", name="Solve", exact=True).click()
             for page in pages:
                 page.get_by_text("5 · Save to the library").wait_for()
                 _settled(page)
