@@ -18,14 +18,16 @@ PLAN_PAGE = "pages/1_Plan_a_run.py"
 RESULTS_PAGE = "pages/2_Run_results.py"
 COMPARE_PAGE = "pages/3_Compare_runs.py"
 SHARE_PAGE = "pages/4_Share.py"
+GROUNDWATER_PAGE = "pages/5_Groundwater.py"
+TRADEOFF_PAGE = "pages/6_Trade_offs_and_sweeps.py"
 # Titles and icons of the known pages; any other pages/*.py joins the navigation under its file name.
 PAGE_TITLES = {
     PLAN_PAGE: ("Plan a run", ":material/tune:"),
     RESULTS_PAGE: ("Run results", ":material/map:"),
     COMPARE_PAGE: ("Compare runs", ":material/compare_arrows:"),
     SHARE_PAGE: ("Share", ":material/ios_share:"),
-    "pages/5_Groundwater.py": ("Groundwater check", ":material/water_drop:"),
-    "pages/6_Trade_offs_and_sweeps.py": ("Trade-offs and sweeps", ":material/ssid_chart:"),
+    GROUNDWATER_PAGE: ("Groundwater check", ":material/water_drop:"),
+    TRADEOFF_PAGE: ("Trade-offs and sweeps", ":material/ssid_chart:"),
 }
 HERE = Path(__file__).resolve().parent
 
@@ -53,16 +55,23 @@ def overview() -> None:
     )
     st.warning(cautions.RESULTS, icon=":material/warning:")
 
-    steps = st.columns(4)
-    steps[0].page_link(PLAN_PAGE, label="Plan a run", icon=":material/tune:",
+    steps = st.columns(3)
+    steps[0].page_link(PLAN_PAGE, label="1 · Plan a run", icon=":material/tune:",
                        help="Open the demo city or a bundle, choose a cost case and solve")
     steps[0].caption("Choose the inputs, the cost case and the objective; edit costs and permits; solve; save.")
-    steps[1].page_link(RESULTS_PAGE, label="Run results", icon=":material/map:")
+    steps[1].page_link(RESULTS_PAGE, label="2 · Run results", icon=":material/map:")
     steps[1].caption("Map, load curves, costs per district and the well table of one run.")
-    steps[2].page_link(COMPARE_PAGE, label="Compare runs", icon=":material/compare_arrows:")
+    steps[2].page_link(COMPARE_PAGE, label="3 · Compare runs", icon=":material/compare_arrows:")
     steps[2].caption("Two to four saved runs against a baseline run.")
-    steps[3].page_link(SHARE_PAGE, label="Share", icon=":material/ios_share:")
-    steps[3].caption("HTML summary, tables, bundles and the whole library.")
+    steps = st.columns(3)
+    steps[0].page_link(SHARE_PAGE, label="4 · Share", icon=":material/ios_share:")
+    steps[0].caption("HTML summary, tables, bundles and the whole library.")
+    steps[1].page_link(GROUNDWATER_PAGE, label="5 · Groundwater check", icon=":material/water_drop:")
+    steps[1].caption("Each well doublet against its permit and the reinjection temperatures; neighbouring wells' "
+                     "plumes.")
+    steps[2].page_link(TRADEOFF_PAGE, label="6 · Trade-offs and sweeps", icon=":material/ssid_chart:")
+    steps[2].caption("What each tonne of CO2 less costs; how prices change the plan; how close typical days come to "
+                     "the full year.")
 
     st.subheader("Your library of saved runs")
     try:
@@ -86,7 +95,9 @@ def overview() -> None:
             },
         )
         st.page_link(PLAN_PAGE, label="Plan another run", icon=":material/add:")
-    st.caption(f"Library file: `{where}` (set the environment variable HEATMOSAIC_STORE to use another file).")
+    st.caption(f"Library file: `{where}`.",
+               help="Your administrator can point heatmosaic at another library file with the environment "
+                    "variable HEATMOSAIC_STORE.")
 
 
 def main() -> None:
@@ -100,7 +111,20 @@ def main() -> None:
     goto = st.session_state.pop("hm_goto", None)
     if goto:
         st.switch_page(goto)  # a page opened by its address before the navigation existed
-    navigation.run()
+    try:
+        navigation.run()
+    except Exception as error:  # st.stop, st.rerun and page switches are BaseExceptions and pass through
+        report_page_error(error)
+
+
+def report_page_error(error: Exception) -> None:
+    """A sentence instead of a traceback when a page action fails; the page's widgets drawn so far stay usable."""
+    what = str(error).strip() or type(error).__name__
+    st.error(
+        f"This step could not be completed ({type(error).__name__}: {what}). Nothing was saved by it; change a "
+        "choice or open another page to go on. If it happens again, note what you did and tell your administrator.",
+        icon=":material/error:",
+    )
 
 
 main()

@@ -10,6 +10,7 @@ import streamlit as st
 
 
 from engine import cautions
+from engine.outputs.labels import cost_case_label, kind_label, objective_label
 from pages._support.inputs import (
     InputSet, cost_case_descriptions, demo_input_set, input_set_from_bundle, problems_for_display,
 )
@@ -18,7 +19,7 @@ from pages._support.edits import (
     scenario_files_with_edits,
 )
 from pages._support.cache import SolvedRun, request_key, solve_with_cache
-from pages._support.describe import markdown_literal, run_kpis, suggested_run_name
+from pages._support.describe import demand_note, markdown_literal, run_kpis, suggested_run_name
 from pages._support.tables import district_results_table, table_height
 from engine.model.solvers import DIRECT, solver_choices
 from engine.scenario.problems import problems_frame
@@ -37,6 +38,14 @@ WIDGETS = {  # widget key -> hm_setup entry it starts from
 
 state = st.session_state
 route_through_app("pages/1_Plan_a_run.py")
+
+
+def forget_editors() -> None:
+    for key in list(state.keys()):
+        if str(key).startswith(("setup_tech_", "setup_wells_")):
+            del state[key]
+
+
 st.title("Plan a run")
 st.caption(cautions.RESULTS_LINE)
 
@@ -49,6 +58,7 @@ setup = state.get("hm_setup")
 if setup is None or setup.get("digest") != inputs.digest or setup.get("fresh"):
     if setup is None or setup.get("digest") != inputs.digest:
         setup = initial_setup(inputs)
+    forget_editors()  # new starting tables: editors left from an earlier visit must not keep their old state
     setup.pop("fresh", None)
     state["hm_setup"] = setup
     for widget, name in WIDGETS.items():
@@ -68,9 +78,7 @@ def reset_tables() -> None:
         return
     setup["technology_table"] = editable_technology_table(inputs.scenario)
     setup["well_table"] = editable_well_table(inputs.scenario)
-    for key in list(state.keys()):
-        if str(key).startswith(("setup_tech_", "setup_wells_")):
-            del state[key]
+    forget_editors()
 
 
 # ------------------------------------------------------------------------------------------------ 1 inputs
@@ -92,14 +100,17 @@ with st.container(border=True):
             st.caption(
                 f"Bundle written by heatmosaic {inputs.manifest.get('heatmosaic_version', '?')} on "
                 f"{str(inputs.manifest.get('created_utc', '?'))[:10]}; run inside: cost case "
-                f"{inputs.manifest.get('cost_case', '?')}, objective {inputs.manifest.get('objective', '?')}."
+                f"{cost_case_label(inputs.manifest.get('cost_case', '?'))}, objective "
+                f"{objective_label(inputs.manifest.get('objective', '?'))}."
             )
     with right:
         if inputs.label != "Demo city":
             st.button("Use the demo city instead", on_click=use_demo, icon=":material/location_city:")
+        uploader_key = f"setup_bundle_{state.get('setup_bundle_round', 0)}"
         upload = st.file_uploader(
-            "Or open a bundle (.zip) exported from heatmosaic", type=["zip"], key="setup_bundle",
-            help="A bundle holds a run's scenario files and results (Share page → bundle download).",
+            "Or open a run bundle (.zip) made on the Share page", type=["zip"], key=uploader_key,
+            help="A run bundle holds one run's scenario files and results; download it on the Share page "
+                 "(Bundles). A whole library (.zip) is imported on the Share page instead.",
         )
         if upload is not None and state.get("setup_bundle_seen") != upload.file_id:
             state["setup_bundle_seen"] = upload.file_id
@@ -109,6 +120,8 @@ with st.container(border=True):
             if opened.ok:  # start from the choices of the run inside the bundle
                 state["hm_setup"] = {**initial_setup(opened, opened.manifest.get("settings"),
                                                         opened.manifest.get("cost_case")), "fresh": True}
+            else:  # a refused file leaves the uploader: a new key gives an empty one
+                state["setup_bundle_round"] = state.get("setup_bundle_round", 0) + 1
             st.rerun()
     if not inputs.problems.empty:
         st.error(f"{len(inputs.problems)} problem(s) in these inputs. Fix them in the files and upload again.")
@@ -124,7 +137,7 @@ with st.container(border=True):
     descriptions = cost_case_descriptions(scenario)
     c1, c2, c3 = st.columns([2, 1.3, 1.5], gap="large")
     with c1:
-        cost_case = st.selectbox("Cost case", list(descriptions), key="setup_cost_case")
+        cost_case = st.selectbox("Cost case", list(descriptions), key="setup_cost_case", format_func=cost_case_label)
         st.caption(markdown_literal(descriptions.get(cost_case, "")))
     with c2:
         objective = st.radio("Objective", list(OBJECTIVES), format_func=OBJECTIVES.get, key="setup_objective")
@@ -157,9 +170,11 @@ token = inputs.digest[:12]
 tech_key, wells_key = f"setup_tech_{token}", f"setup_wells_{token}"
 # An editor's data must stay the same while it lives, or the browser drops its edits (and a click with them). It
 # starts from the kept edits whenever it is new: first visit, back from another page, or after a reset.
-if tech_key not in state:
+if tech_key not in state or "technology_base" not in setup:
+    state.pop(tech_key, None)
     setup["technology_base"] = setup["technology_table"]
-if wells_key not in state:
+if wells_key not in state or "well_base" not in setup:
+    state.pop(wells_key, None)
     setup["well_base"] = setup["well_table"]
 with st.container(border=True):
     st.subheader("3 · Technology costs and well permits")
@@ -167,25 +182,26 @@ with st.container(border=True):
     tab_tech, tab_wells = st.tabs(["Technology costs", f"Well permits ({len(scenario.wells)})"])
     with tab_tech:
         technology_table = st.data_editor(
-            setup["technology_base"], key=tech_key, hide_index=True, num_rows="fixed", placeholder="–",
+            setup["technology_base"].assign(kind=[kind_label(k) for k in setup["technology_base"]["kind"]]),
+            key=tech_key, hide_index=True, num_rows="fixed", placeholder="–",
             width="stretch", disabled=["technology_id", "name", "kind"],
             column_order=[c for c in setup["technology_table"].columns if c != "technology_id"],
             column_config={
                 "technology_id": st.column_config.TextColumn("Id", width="small"),
-                "name": st.column_config.TextColumn("Technology", width=180),
-                "kind": st.column_config.TextColumn("Kind", width=110),
+                "name": st.column_config.TextColumn("Technology", width=175),
+                "kind": st.column_config.TextColumn("Kind", width=160),
                 "investment_eur_per_kw": st.column_config.NumberColumn(
-                    "Investment [€/kW]", min_value=0.0, format="%.0f", width=120,
-                    help="Specific investment; per kWh of storage for heat stores."),
+                    "Investment [€/kW or €/kWh]", min_value=0.0, format="%.0f", width=215,
+                    help="Specific investment per kW of capacity; heat stores per kWh of storage."),
                 "fixed_om_pct_per_a": st.column_config.NumberColumn(
-                    "Fixed O&M [%/a]", min_value=0.0, max_value=100.0, format="%.2f", width=120,
+                    "Fixed O&M [%/a]", min_value=0.0, max_value=100.0, format="%.2f", width=140,
                     help="Fixed operation and maintenance, % of the investment per year."),
                 "variable_om_eur_per_mwh": st.column_config.NumberColumn(
-                    "Var. O&M [€/MWh]", min_value=0.0, format="%.2f", width=120),
+                    "Var. O&M [€/MWh]", min_value=0.0, format="%.2f", width=150),
                 "lifetime_a": st.column_config.NumberColumn("Lifetime [a]", min_value=1, max_value=100, format="%d",
-                                                           width=120),
+                                                           width=105),
                 "efficiency_or_grade": st.column_config.NumberColumn(
-                    "Eff. or COP grade", min_value=0.0, format="%.2f", width=120,
+                    "Eff. or COP grade [-]", min_value=0.0, format="%.2f", width=170,
                     help="[-] Boilers: thermal efficiency; chillers and groundwater cooling: EER; heat pumps: share of "
                          "the Carnot COP reached. Blank for network connections and stores."),
             },
@@ -278,6 +294,8 @@ with st.container(border=True):
                 st.warning(result.message)
             else:
                 st.success(result.message)
+            if demand_note(scenario, result):
+                st.caption(demand_note(scenario, result))
             districts = district_results_table(result, scenario.technologies)[
                 ["district", "main supply", "heat demand [MWh/a]", "total cost [€/a]", "levelised cost [€/MWh]",
                  "CO2 [t/a]"]

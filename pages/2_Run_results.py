@@ -9,8 +9,12 @@ from engine import cautions
 from pages._support.inputs import input_set_from_files
 from pages._support.edits import initial_setup
 from pages._support.cache import load_saved_run, resolve_saved_run, scenario_for_files
-from pages._support.describe import describe_choices, markdown_literal, resolution_note, run_kpis, suggested_run_name
-from pages._support.tables import district_results_table, supply_results_table, table_height, well_results_table
+from pages._support.describe import (
+    demand_note, describe_choices, markdown_literal, resolution_note, run_kpis, suggested_run_name,
+)
+from pages._support.tables import (
+    district_results_table, styled, supply_results_table, table_height, well_results_table,
+)
 from pages._support.library import run_choices
 from engine.outputs.figures import (
     FIGURE_CONFIG,
@@ -49,7 +53,7 @@ choices = run_choices(store)
 current = solved.get(state.get("hm_current"))
 options = ([CURRENT] if current is not None else []) + list(choices)
 if not options:
-    st.info("No run yet. Solve one on the set-up page first.")
+    st.info("No run yet. Solve one on the Plan a run page first.")
     st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/tune:")
     st.stop()
 
@@ -82,12 +86,18 @@ if accuracy_note:
 if info is not None:
     note = f" · note: {markdown_literal(info['note'])}" if info["note"] else ""
     saved = str(info["created_utc"])[:16].replace("T", " ")
-    st.caption(f"Saved {saved} UTC{note} · input hash {result.input_hash[:12]}")
+    st.caption(f"Saved {saved} UTC{note} · input fingerprint {result.input_hash[:12]}",
+               help="A fingerprint (SHA-256 hash) of the run's input files: two runs with the same fingerprint "
+                    "were solved from the very same files.")
 
 
-def numbers(table, first: int, last: int | None = None) -> dict:
-    """Thousands separators for the number columns ``first:last`` of a table."""
-    return {c: st.column_config.NumberColumn(format="localized") for c in list(table.columns)[first:last]}
+def numbers(table, first: int = 0, last: int | None = None) -> dict:
+    """Name columns wide enough to read (the numbers are formatted by :func:`styled`)."""
+    config = {}
+    for name in ("district", "technology", "main supply"):
+        if name in table.columns:
+            config[name] = st.column_config.TextColumn(width="medium")
+    return config
 
 
 def show_map() -> None:
@@ -139,14 +149,14 @@ def show_load_curves() -> None:
 def show_costs() -> None:
     st.plotly_chart(cost_breakdown_figure({run_name: result}, by="district"), width="stretch", config=FIGURE_CONFIG)
     table = district_results_table(result, technologies)
-    st.dataframe(table, hide_index=True, width="stretch", height=table_height(table),
+    st.dataframe(styled(table), hide_index=True, width="stretch", height=table_height(table),
                  column_config=numbers(table, 2))
 
 
 def show_tables() -> None:
     st.markdown("**Supply per district and technology**")
     table = supply_results_table(result, technologies)
-    st.dataframe(table, hide_index=True, width="stretch", height=table_height(table, 20),
+    st.dataframe(styled(table), hide_index=True, width="stretch", height=table_height(table, 20),
                  column_config=numbers(table, 3))
     st.caption("Technologies a district neither has nor builds are left out. Heat stores: capacity in kWh, heat is "
                "discharge minus charge (their loss).")
@@ -155,14 +165,14 @@ def show_tables() -> None:
     if wells.empty:
         st.caption("No well doublets in this run.")
         return
-    st.dataframe(wells, hide_index=True, width="stretch", height=table_height(wells),
+    st.dataframe(styled(wells), hide_index=True, width="stretch", height=table_height(wells),
                  column_config=numbers(wells, 2, 10))
     st.caption(cautions.WELLS + " A binding limit means the permit, not the heat pump, sets the well's output.")
 
 
 def show_manage() -> None:
     if info is None:
-        st.info("This run is not in the library yet; save it on the set-up page.")
+        st.info("This run is not in the library yet; save it on the Plan a run page.")
         st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/save:")
         return
     left, right = st.columns(2, gap="large")
@@ -185,8 +195,8 @@ def show_manage() -> None:
             state["hm_flash"] = f"Deleted “{markdown_literal(info['name'])}”."
             st.rerun()
     with right:
-        st.markdown("**Re-open on the set-up page**")
-        st.caption("Puts this run's files and choices back on the set-up page, to change and solve again.")
+        st.markdown("**Re-open on the Plan a run page**")
+        st.caption("Puts this run's files and choices back on the Plan a run page, to change and solve again.")
         if st.button("Re-open", key="results_reopen", icon=":material/edit:", disabled=scenario is None):
             reopened = input_set_from_files(files, f"Saved run “{info['name']}”")
             state["hm_input"] = reopened
@@ -222,6 +232,8 @@ m[3].metric("Levelised cost [€/MWh]", f"{kpis['levelised_cost_eur_per_mwh']:,.
 m[4].metric("Unserved heat [MWh/a]", f"{kpis['unserved_heat_mwh_per_a']:,.0f}")
 if kpis["unserved_heat_mwh_per_a"] > 0.5:
     st.warning(result.message)
+if demand_note(scenario, result):
+    st.caption(demand_note(scenario, result))
 
 # The tabs keep their selection across reruns (rename, re-solve ...), and only the open one is drawn.
 tabs = st.tabs(TABS, key="results_tab", on_change="rerun")

@@ -18,9 +18,10 @@ from engine.outputs.figures import (
     load_curve_figure,
     load_duration_figure,
     main_supply_changes,
+    shared_y_range,
     supply_mix_figure,
 )
-from engine.outputs.maps import MEASURES, district_map
+from engine.outputs.maps import MEASURES, district_map, map_legend_html, shared_value_range
 from pages._support.shell import open_store, route_through_app
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
@@ -45,19 +46,31 @@ if len(choices) < 2:
     st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/tune:")
     st.stop()
 
-kept = [r for r in state.get("compare_runs", []) if r in choices]
-state["compare_runs"] = kept if len(kept) >= 2 else list(choices)[:2]
+# The choice lives in hm_compare (not only in the widgets, whose state Streamlit drops on another page).
+memory = state.setdefault("hm_compare", {})
+wanted = state.get("compare_runs", memory.get("runs", []))
+gone = [r for r in wanted if r not in choices]
+if gone:
+    st.warning("No longer in the library (deleted elsewhere), so left out of the comparison: "
+               + ", ".join(f"run #{r}" for r in gone) + ".", icon=":material/info:")
+kept = [r for r in wanted if r in choices]
+state["compare_runs"] = kept if len(kept) >= 2 else (kept + [r for r in reversed(list(choices)) if r not in kept])[:2]
 c1, c2 = st.columns([3, 2], gap="large")
 picked = c1.multiselect("Runs to compare (2 to 4)", list(choices), format_func=choices.get, max_selections=4,
                         key="compare_runs")
+memory["runs"] = list(picked)
 if len(picked) < 2:
     st.info("Choose at least two runs.")
     st.stop()
 names = unique_run_names({r: store.run_info(r)["name"] for r in picked})
 runs = {r: load_saved_run(store, loaded, r) for r in picked}
-if state.get("compare_baseline") not in picked:
+if state.get("compare_baseline", memory.get("baseline")) in picked:
+    state["compare_baseline"] = state.get("compare_baseline", memory.get("baseline"))
+else:
     state["compare_baseline"] = default_baseline(runs)
-baseline_id = c2.selectbox("Baseline run", picked, format_func=names.get, key="compare_baseline")
+baseline_id = c2.selectbox("Baseline run", picked, format_func=names.get, key="compare_baseline",
+                           help="First choice: the first saved least-cost run.")
+memory["baseline"] = baseline_id
 baseline = names[baseline_id]
 picked = [baseline_id] + [r for r in picked if r != baseline_id]  # the baseline first in tables, maps and figures
 results = {names[r]: runs[r] for r in picked}
@@ -79,12 +92,18 @@ with st.expander("Districts whose main supply changed"):
         changes = main_supply_changes(result, results[baseline], technologies)
         st.markdown(f"**{markdown_literal(name)}**: {len(changes)} district(s)")
         if not changes.empty:
-            st.dataframe(changes, hide_index=True, width="stretch")
+            st.dataframe(changes.drop(columns=["district_id"]).rename(columns={"name": "district"}),
+                         hide_index=True, width="stretch")
 
 # ------------------------------------------------------------------------------------------------ maps
 st.subheader("Maps")
 measure = st.selectbox("Colour the districts by", list(MEASURES), format_func=MEASURE_LABELS.get,
                        key="compare_measure")
+base = results[baseline] if measure == "change_total_cost" else None
+scale = shared_value_range(None, [(run_scenarios[r], results[names[r]]) for r in picked], measure, base,
+                           technologies)
+if scale is not None:
+    st.caption("All maps share one colour scale, so one colour means one value in every map.")
 columns = st.columns(len(picked))
 for column, run_id in zip(columns, picked):
     with column:
@@ -94,10 +113,11 @@ for column, run_id in zip(columns, picked):
         if scenario is None:
             st.info("The scenario files of this run are not available.")
             continue
-        base = results[baseline] if measure == "change_total_cost" else None
+        # the legend below the map: side by side, a legend inside would cover the districts
         fmap = district_map(scenario, results[name], measure=measure, baseline=base, technologies=technologies,
-                            legend_open=len(picked) < 2)
+                            value_range=scale, legend_inside=False)
         st_folium(fmap, height=480, use_container_width=True, returned_objects=[], key=f"compare_map_{run_id}")
+        st.html(map_legend_html(scenario, results[name], measure, base, technologies, scale))
 st.caption(cautions.WELLS)
 
 # ------------------------------------------------------------------------------------------------ load curves
@@ -119,11 +139,14 @@ week = c4.slider("Week of the year", 1, 52, 3, key="compare_week", disabled=layo
 week = "year" if period == "year" else week
 if layout == "side":
     columns = st.columns(min(len(solved_runs), 2))
-    for k, (name, result) in enumerate(solved_runs.items()):
+    curves = {name: load_curve_figure(result, technologies, district_id=district,
+                                      week=None if week == "year" else int(week))
+              for name, result in solved_runs.items()}
+    shared_y_range(curves.values())  # side by side: one y range, so heights compare
+    st.caption("The load curves share one y range.")
+    for k, (name, fig) in enumerate(curves.items()):
         with columns[k % len(columns)]:
             st.markdown(f"**{markdown_literal(name)}**")
-            fig = load_curve_figure(result, technologies, district_id=district,
-                                    week=None if week == "year" else int(week))
             st.plotly_chart(fig, width="stretch", config=FIGURE_CONFIG, key=f"compare_curve_{k}")
 else:
     st.plotly_chart(load_duration_figure(results, district_id=district, technologies=technologies),
@@ -131,8 +154,7 @@ else:
 
 # ------------------------------------------------------------------------------------------------ costs and mix
 st.subheader("Costs and supply mix")
-c1, c2 = st.columns(2)
-c1.plotly_chart(cost_breakdown_figure(results, by="run"), width="stretch", config=FIGURE_CONFIG)
-c2.plotly_chart(supply_mix_figure(results, technologies), width="stretch", config=FIGURE_CONFIG)
+st.plotly_chart(cost_breakdown_figure(results, by="run"), width="stretch", config=FIGURE_CONFIG)
+st.plotly_chart(supply_mix_figure(results, technologies), width="stretch", config=FIGURE_CONFIG)
 with st.expander("Annual cost per district and run"):
     st.plotly_chart(cost_breakdown_figure(results, by="district"), width="stretch", config=FIGURE_CONFIG)

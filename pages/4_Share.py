@@ -9,7 +9,7 @@ from engine import cautions
 from pages._support.cache import load_saved_run, scenario_for_files
 from pages._support.describe import markdown_literal
 from pages._support.library import (
-    bundle_bytes, import_library_bytes, library_bytes, run_choices, safe_file_name, unique_run_names,
+    bundle_bytes, import_library_bytes, library_bytes, run_choices, safe_file_name, unique_run_names, zip_purpose,
 )
 from engine.outputs.export import tables_csv_zip, tables_xlsx
 from engine.outputs.report import html_report
@@ -26,12 +26,14 @@ loaded = state.setdefault("hm_loaded", {})
 scenarios = state.setdefault("hm_scenarios", {})
 if state.get("hm_flash"):
     st.success(state.pop("hm_flash"))
+if state.get("hm_flash_error"):
+    st.error(state.pop("hm_flash_error"))
 
 store = open_store()
 choices = run_choices(store)
 
 if not choices:
-    st.info("No saved runs yet. Save a run on the set-up page to share it.")
+    st.info("No saved runs yet. Save a run on the Plan a run page to share it.")
     st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/tune:")
 else:
     kept = [r for r in state.get("share_runs", []) if r in choices]
@@ -76,7 +78,7 @@ else:
         with st.container(border=True):
             st.subheader("Bundles")
             st.caption("A bundle holds one run's scenario files, settings and results. A colleague opens it on "
-                       "the set-up page and can solve it again.")
+                       "the Plan a run page and can solve it again.")
             for run_id in picked:
                 result = results[names[run_id]]
 
@@ -102,13 +104,23 @@ with st.container(border=True):
                                mime="application/zip", icon=":material/download:", key="share_library",
                                on_click="ignore")
     with c2:
-        upload = st.file_uploader("Import a library (.zip) exported from heatmosaic", type=["zip"],
-                                  key="share_import_file")
-        if upload is not None and st.button("Add its runs to the library", key="share_import",
-                                            icon=":material/upload:"):
+        upload = st.file_uploader("Import a whole library (.zip) exported from heatmosaic, to add its runs",
+                                  type=["zip"], key=f"share_import_file_{state.get('share_import_round', 0)}",
+                                  help="A library export holds many runs (the button on the left). A bundle of "
+                                       "one run is opened on the Plan a run page instead.")
+        purpose = zip_purpose(upload.getvalue()) if upload is not None else None
+        if purpose == "bundle":
+            st.warning("This is a run bundle (one run), not a library: open it on the Plan a run page.")
+            st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/tune:")
+        elif purpose == "not a zip":
+            st.error(f"“{markdown_literal(upload.name)}” is not a zip file, so it cannot be a library export.")
+        elif upload is not None and st.button("Add its runs to the library", key="share_import",
+                                              icon=":material/upload:"):
             added, error = import_library_bytes(store, upload.getvalue())
             if error:
-                st.error(f"The library was not imported: {error}")
+                state["share_import_round"] = state.get("share_import_round", 0) + 1  # clear the refused file
+                state["hm_flash_error"] = f"The library was not imported: {error}"
+                st.rerun()
             else:
                 state["hm_flash"] = f"Added {len(added)} run(s) to the library."
                 st.rerun()

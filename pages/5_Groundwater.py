@@ -22,7 +22,7 @@ from streamlit_folium import st_folium
 from engine import cautions
 from pages._support.cache import choices_of_run, load_saved_run, scenario_for_files
 from pages._support.describe import markdown_literal, suggested_run_name
-from pages._support.tables import table_height
+from pages._support.tables import blanks_as_text, table_height
 from pages._support.library import run_choices
 from engine.outputs.figures import FIGURE_CONFIG
 from engine.outputs.groundwater_maps import STATUS_COLORS, groundwater_map_figure, well_status_layer, well_year_figure
@@ -51,7 +51,7 @@ choices = run_choices(store)
 current = solved.get(state.get("hm_current"))
 options = ([CURRENT] if current is not None else []) + list(choices)
 if not options:
-    st.info("No run yet. Solve one on the set-up page first.")
+    st.info("No run yet. Solve one on the Plan a run page first.")
     st.page_link(PLAN_PAGE, label="Plan a run", icon=":material/tune:")
     st.stop()
 
@@ -149,6 +149,7 @@ if counts.get("breach", 0):
              "after solving, or a neighbour's plume shifts its source temperature. Solve again with the new "
              "inputs, or change the doublet's design or permit.")
 table = screening_display_table(screening, district_names)
+table = blanks_as_text(table)  # the grid would print a blank number as "None"
 status_colors = {label: STATUS_COLORS[key] for key, label in STATUS_LABELS.items()}
 number_formats = {
     column: ("{:.2f}" if ("[K]" in column or "COP" in column) else "{:.1f}" if ("°C" in column or "%" in column)
@@ -168,8 +169,12 @@ st.caption("“At a limit”: the permit or the window, not the heat pump, sets 
            "year; the optimum uses what the permit allows. A breach shows only against inputs changed after "
            "solving or shifted source temperatures. " + cautions.WELLS)
 
-tab_year, tab_map, tab_check = st.tabs(["Over the year", "Map", "Interference check"])
-with tab_year:
+# Only the open tab is drawn: a map drawn in a hidden tab gets no size and stays blank.
+tab_year, tab_map, tab_check = st.tabs(["Over the year", "Map", "Interference check"], key="groundwater_tab",
+                                       on_change="rerun")
+
+
+def show_year() -> None:
     well_district = dict(zip(screening["well_id"], screening["district_id"].astype(str)))
     well_id = st.selectbox("Doublet", list(well_district), key="groundwater_well",
                            format_func=lambda w: f"{w} ({district_names.get(well_district[w], well_district[w])})")
@@ -178,12 +183,11 @@ with tab_year:
     if len(shown.tables["steps"]) < len(profiles):
         st.caption("Rebuilt to the calendar year from typical days: each day shows its typical day.")
 
-with tab_map:
+def show_map() -> None:
     c1, c2 = st.columns([1.2, 2])
     style = c2.radio("Map style", ["plain", "interactive"], horizontal=True, key="groundwater_map_style",
-                     format_func={"plain": "Plain (works offline)",
-                                  "interactive": "Interactive with popups (loads its map library from the "
-                                                 "internet)"}.get)
+                     format_func={"plain": "Plain", "interactive": "Interactive with popups"}.get,
+                     help="Both work offline: the interactive map's library ships with heatmosaic.")
     polygons = plume_polygons(shown)
     if not polygons:
         draw = st.checkbox("Draw the plume isotherms of this run (takes some seconds)", key="groundwater_draw_plumes")
@@ -204,20 +208,20 @@ with tab_map:
                    "the doublet's status colour. Dashed: 1 K, dotted: 3 K isotherms of the reinjection plumes after "
                    "the horizon, from each doublet's annual net injection. Point at a well for its figures.")
     else:
-        fmap = district_map(scenario, shown, technologies=scenario.technologies, plume_polygons=polygons)
-        well_status_layer(scenario, screening).add_to(fmap)
+        fmap = district_map(scenario, shown, technologies=scenario.technologies, plume_polygons=polygons,
+                            extra_layers=[well_status_layer(scenario, screening)])
         st_folium(fmap, height=580, use_container_width=True, returned_objects=[], key="groundwater_map")
         st.markdown(
             f"Ring around both wells of a doublet: <span style='color:{STATUS_COLORS['ok']}'>■ ok</span> · "
             f"<span style='color:{STATUS_COLORS['at_limit']}'>■ at a limit</span> · "
             f"<span style='color:{STATUS_COLORS['breach']}'>■ breach</span>. Dashed outlines: 1 K and 3 K "
-            "isotherms of the reinjection plumes after the horizon. No map? Your network may block the map "
-            "library: choose the plain map.",
+            "isotherms of the reinjection plumes after the horizon.",
             unsafe_allow_html=True,
         )
     st.caption(cautions.GROUNDWATER)
 
-with tab_check:
+
+def show_check() -> None:
     if checked is None:
         st.info("Run the interference check (button above) to see how the doublets' plumes change the plan.")
     else:
@@ -247,7 +251,7 @@ with tab_check:
         st.dataframe(
             iterations.rename(columns={
                 "iteration": "iteration", "max_shift_k": "largest change of a source shift [K]",
-                "largest_source_shift_k": "largest source shift used [K]", "relaxation": "relaxation [-]",
+                "largest_source_shift_k": "largest source shift used [K]", "relaxation": "step damping [-]",
                 "status": "solver status", "total_cost_eur_per_a": "total cost [€/a]", "co2_t_per_a": "CO2 [t/a]",
                 "unserved_heat_mwh_per_a": "unserved heat [MWh/a]", "seconds": "time [s]"}),
             hide_index=True, width="stretch",
@@ -282,3 +286,9 @@ with tab_check:
             for note in info["notes"]:
                 st.markdown(f"- {note}")
         st.caption(cautions.GROUNDWATER)
+
+
+for tab, draw in zip((tab_year, tab_map, tab_check), (show_year, show_map, show_check)):
+    if tab.open:
+        with tab:
+            draw()

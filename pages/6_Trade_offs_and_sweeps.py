@@ -31,6 +31,8 @@ from engine.studies.sweep import (
     tornado_table, tornado_tasks,
 )
 from engine.studies.tradeoff import tradeoff_curve_runs
+from engine.outputs.labels import cost_case_label, status_label, tradeoff_point_label
+from pages._support.tables import main_supply_display_table, styled, sweep_display_table, technology_names
 from pages._support.shell import route_through_app, run_with_cancel, show_cancelled
 
 state = st.session_state
@@ -57,7 +59,7 @@ top = st.columns([2, 1, 1])
 cases = list(scenario.cost_cases)
 default_case = setup.get("cost_case") or default_cost_case(cases)
 cost_case = top[0].selectbox("Cost case", cases, index=cases.index(default_case) if default_case in cases else 0,
-                             key="tradeoffs_cost_case")
+                             key="tradeoffs_cost_case", format_func=cost_case_label)
 full_year = top[1].toggle("Full year", value=bool(setup.get("full_year", False)), key="tradeoffs_full_year",
                           help="Every hour of the year: far slower; typical days are usually close enough "
                                "(see the fidelity tab).")
@@ -71,7 +73,9 @@ tab_curve, tab_sweep, tab_fidelity = st.tabs(["Cost-CO2 trade-off", "Price sweep
 with tab_curve:
     st.markdown(
         "From the least-cost plan to the least-CO2 plan: each point in between is the cheapest plan whose CO2 "
-        "stays below a bound (epsilon-constraint method). Click a point to see and save it."
+        "stays below a limit. Click a point to see and save it.",
+        help="The epsilon-constraint method (Haimes, Lasdon and Wismer 1971): minimise cost with CO2 bounded, for "
+             "a series of bounds.",
     )
     n_points = st.slider("Points on the curve", 2, 12, 6, key="tradeoffs_points")
     curve_key = f"{inputs.digest[:16]}|{cost_case}|{days}|{n_points}"
@@ -106,22 +110,23 @@ with tab_curve:
             state[select_key] = clicked
             st.rerun()
         chosen = st.selectbox("Point", points, key=select_key,
-                              format_func=lambda p: f"{p}: {table.loc[p, 'kind'].replace('_', ' ')}, "
+                              format_func=lambda p: f"{p}: {tradeoff_point_label(table.loc[p, 'kind'])}, "
                               f"{table.loc[p, 'co2_t_per_a']:,.0f} t/a, "
                               f"{table.loc[p, 'total_cost_eur_per_a'] / 1e6:,.2f} M€/a")
         st.plotly_chart(tradeoff_mix_figure(table, scenario.technologies), key=f"tradeoffs_mix_{curve_key}",
                         width="stretch")
         shown = table[["point", "kind", "co2_bound_t_per_a", "co2_t_per_a", "total_cost_eur_per_a",
-                       "abatement_cost_eur_per_t", "unserved_heat_mwh_per_a", "status"]]
-        st.dataframe(shown, hide_index=True, width="stretch", column_config={
-            "co2_bound_t_per_a": st.column_config.NumberColumn("CO2 bound [t/a]", format="localized"),
-            "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
-            "total_cost_eur_per_a": st.column_config.NumberColumn("Total cost [€/a]", format="localized"),
-            "abatement_cost_eur_per_t": st.column_config.NumberColumn("Abatement cost [€/t]", format="%.0f",
-                                                                      help="Extra cost per tonne avoided "
-                                                                           "against the previous point."),
-            "unserved_heat_mwh_per_a": st.column_config.NumberColumn("Unserved heat [MWh/a]", format="%.1f"),
-        })
+                       "abatement_cost_eur_per_t", "unserved_heat_mwh_per_a", "status"]].assign(
+            kind=[tradeoff_point_label(k) for k in table["kind"]], status=[status_label(v) for v in table["status"]])
+        st.dataframe(styled(shown, {
+            "point": "Point", "kind": "Point of the curve", "co2_bound_t_per_a": "CO2 limit [t/a]",
+            "co2_t_per_a": "CO2 [t/a]", "total_cost_eur_per_a": "Total cost [€/a]",
+            "abatement_cost_eur_per_t": "Abatement cost [€/t]", "unserved_heat_mwh_per_a": "Unserved heat [MWh/a]",
+            "status": "Status"}), hide_index=True, width="stretch", column_config={
+            "Abatement cost [€/t]": st.column_config.NumberColumn(
+                help="Extra cost per tonne avoided against the previous point.")})
+        st.caption("Points sit where the curve bends, where each further tonne starts to cost more. The last "
+                   "point is the extreme end: the least CO2 the city can reach, whatever it costs.")
         with st.form(f"tradeoffs_save_{curve_key}", border=True):
             st.markdown(f"**Save point {chosen} as a run in the library**")
             result = results[chosen]
@@ -139,10 +144,13 @@ with tab_curve:
 
 # ------------------------------------------------------------------------------------------------ price sweep
 with tab_sweep:
-    st.markdown("Solve many price futures at once, on this computer's cores or on a Dask cluster.")
-    modes = {"cases": "The scenario's cost cases", "sample": "Random sample of prices (Latin hypercube)",
+    st.markdown("Solve many price futures at once, on this computer's cores or on a cluster of computers.",
+                help="Clusters are reached through a Dask scheduler address.")
+    modes = {"cases": "The scenario's cost cases", "sample": "Random mixes of prices, spread evenly",
              "tornado": "One price at a time, low and high (tornado)"}
-    mode = st.radio("Runs", list(modes), format_func=modes.get, key="tradeoffs_sweep_mode", horizontal=True)
+    mode = st.radio("Runs", list(modes), format_func=modes.get, key="tradeoffs_sweep_mode", horizontal=True,
+                    help="Random mixes are drawn by Latin hypercube sampling (McKay, Beckman and Conover 1979): "
+                         "each price's range is cut into as many equal slices as samples, each slice used once.")
     left, right = st.columns(2)
     names = left.multiselect("Prices to vary", list(PARAMETERS), default=list(PARAMETERS),
                              format_func=lambda k: f"{PARAMETERS[k].label} ({PARAMETERS[k].low:g} to "
@@ -150,10 +158,10 @@ with tab_sweep:
                              key="tradeoffs_sweep_parameters", disabled=mode == "cases")
     n_samples = left.number_input("Samples", 2, 500, 8, key="tradeoffs_sweep_samples", disabled=mode != "sample")
     seed = left.number_input("Seed", 0, 10_000, 0, key="tradeoffs_sweep_seed", disabled=mode != "sample")
-    scheduler = right.text_input("Dask scheduler (optional)", placeholder="tcp://scheduler:8786",
+    scheduler = right.text_input("Cluster address (optional)", placeholder="tcp://scheduler:8786",
                                  key="tradeoffs_sweep_scheduler",
-                                 help="Blank: the runs share this computer's cores. The cluster's workers need "
-                                      "heatmosaic installed.").strip() or None
+                                 help="The address of a Dask scheduler. Blank: the runs share this computer's "
+                                      "cores. The cluster's workers need heatmosaic installed.").strip() or None
     keep = right.checkbox("Save every run to the library, tagged with the sweep id", key="tradeoffs_sweep_keep")
     sweep_key = f"{inputs.digest[:16]}|{cost_case}|{days}|{mode}|{','.join(names)}|{n_samples}|{seed}"
     show_cancelled("tradeoffs_sweep_job", "sweep")
@@ -189,13 +197,10 @@ with tab_sweep:
             st.plotly_chart(tornado_figure(tornado), key=f"tradeoffs_tornado_{sweep_key}", width="stretch")
             st.caption("Bars: change in the city's total annual cost when one price moves to its low or high "
                        "value, the others at the reference; labels: districts whose main supply changes.")
-        shown = outcome.table.drop(columns=["message"])
-        st.dataframe(shown, hide_index=True, width="stretch", column_config={
-            "total_cost_eur_per_a": st.column_config.NumberColumn("Total cost [€/a]", format="localized"),
-            "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
-        })
+        st.dataframe(sweep_display_table(outcome.table, scenario), hide_index=True, width="stretch")
         with st.expander("Main supply of each district in each run"):
-            st.dataframe(outcome.main_supply, width="stretch")
+            st.dataframe(main_supply_display_table(outcome.main_supply, scenario), hide_index=True,
+                         width="stretch")
         st.download_button("Download the sweep (CSV)", csv_bytes(outcome.table),
                            file_name="sweep.csv", mime="text/csv", key=f"tradeoffs_sweep_csv_{sweep_key}")
 
@@ -237,18 +242,20 @@ with tab_fidelity:
                    "check final figures over the full year.")
         columns = ["typical_days", "model_steps", "total_cost_eur_per_a", "total_cost_error_pct", "co2_t_per_a",
                    "co2_error_pct", "capacity_deviation_pct", "capacity_error_max_pct", "solve_s"]
-        st.dataframe(table[columns], hide_index=True, width="stretch", column_config={
-            "typical_days": st.column_config.NumberColumn("Typical days (0 = full year)"),
-            "model_steps": st.column_config.NumberColumn("Model hours"),
-            "total_cost_eur_per_a": st.column_config.NumberColumn("Total cost [€/a]", format="localized"),
-            "total_cost_error_pct": st.column_config.NumberColumn("Cost error [%]", format="%+.2f"),
-            "co2_t_per_a": st.column_config.NumberColumn("CO2 [t/a]", format="localized"),
-            "co2_error_pct": st.column_config.NumberColumn("CO2 error [%]", format="%+.2f"),
-            "capacity_deviation_pct": st.column_config.NumberColumn("Capacity placed differently [%]",
-                                                                    format="%.1f"),
-            "capacity_error_max_pct": st.column_config.NumberColumn("Largest capacity error [%]", format="%.1f"),
-            "solve_s": st.column_config.NumberColumn("Solve time [s]", format="%.1f"),
-        })
+        st.dataframe(styled(table[columns], {
+            "typical_days": "Typical days (0 = full year)", "model_steps": "Model hours",
+            "total_cost_eur_per_a": "Total cost [€/a]", "total_cost_error_pct": "Cost error [%]",
+            "co2_t_per_a": "CO2 [t/a]", "co2_error_pct": "CO2 error [%]",
+            "capacity_deviation_pct": "Capacity placed differently [%]",
+            "capacity_error_max_pct": "Largest capacity error [%]", "solve_s": "Solve time [s]"}),
+            hide_index=True, width="stretch")
         with st.expander("Capacity per technology"):
-            st.dataframe(table[[c for c in table.columns if c.startswith("capacity_") and c.endswith("_kw")]
-                               + ["typical_days"]], hide_index=True, width="stretch")
+            tech_names = technology_names(scenario.technologies)
+            store_kind = {str(t): k == "heat_store" for t, k in zip(scenario.technologies["technology_id"],
+                                                                    scenario.technologies["kind"])}
+            capacity = [c for c in table.columns if c.startswith("capacity_") and c.endswith("_kw")]
+            st.dataframe(styled(table[["typical_days"] + capacity], {
+                "typical_days": "Typical days (0 = full year)",
+                **{c: f"{tech_names.get(c[9:-3], c[9:-3])} [{'kWh' if store_kind.get(c[9:-3]) else 'kW'}]"
+                   for c in capacity}}),
+                hide_index=True, width="stretch")

@@ -18,6 +18,7 @@ import pytest
 
 from engine.scenario import DEMO_DIR, load_scenario
 from engine.model.solve import run_settings, solve_scenario
+from engine.outputs.labels import cost_case_label
 from engine.storage.store import ScenarioStore
 from test_browser_e2e import (
     CHROMIUM,
@@ -107,13 +108,13 @@ def test_two_sessions_solve_and_save_at_once_without_mixing(shared_server):
                 page.get_by_role("heading", name="Plan a run").wait_for()
                 _settled(page)
                 if case != "reference":
-                    _choose(page, "Cost case", case)
+                    _choose(page, "Cost case", cost_case_label(case))  # the page shows the case in words
                     _settled(page)
                 _set_typical_days(page, TYPICAL_DAYS)
                 pages.append(page)
 
             for page in pages:  # both solves are sent before either has finished
-                page.get_by_role("button", name="Solve").click()
+                page.get_by_role("button", name="Solve", exact=True).click()
             for page in pages:
                 page.get_by_text("5 · Save to the library").wait_for()
                 _settled(page)

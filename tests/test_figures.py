@@ -303,7 +303,8 @@ def test_cost_bars_add_up_to_the_total_cost():
         total = sum(float(t.y[k]) for t in fig.data) * divisor
         assert total == pytest.approx(runs[run].tables["districts"]["total_cost_eur_per_a"].sum())
     grouped = cost_breakdown_figure(runs, by="district")
-    districts, run_axis = grouped.data[0].x
+    districts, run_axis = grouped.data[0].y  # horizontal bars: district and run on the y axis
+    assert grouped.data[0].orientation == "h"
     assert len(districts) == 4 and set(run_axis) == {"reference", "more heat pumps"}
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in districts
     with pytest.raises(ValueError, match="by"):
@@ -345,7 +346,7 @@ def test_kpi_table_figures():
     assert "heat Air heat pump [MWh/a]" in named.columns
     failed = RunResult(status="infeasible", message="no")
     with_failed = kpi_table({**runs, "broken": failed})
-    assert with_failed.iloc[-1]["status"] == "infeasible" and np.isnan(with_failed.iloc[-1]["total cost [€/a]"])
+    assert with_failed.iloc[-1]["status"] == "no feasible plan" and np.isnan(with_failed.iloc[-1]["total cost [€/a]"])
 
 
 def test_difference_table_and_main_supply_changes():
@@ -370,7 +371,7 @@ def test_difference_table_and_main_supply_changes():
 def test_format_value():
     """Thousands separators, two decimals for per-MWh figures, a dash for missing values (common practice)."""
     assert format_value(28792096.6, "total cost [€/a]") == "28,792,097"
-    assert format_value(82.5242, "levelised cost [€/MWh]") == "82.52"
+    assert format_value(82.5242, "levelised cost [€/MWh]") == "82.5"  # one decimal per €/MWh everywhere (engine/outputs/formats.py)
     assert format_value(float("nan"), "CO2 [t/a]") == "–"
     assert format_value(-0.2, "CO2 [t/a]") == "0"
     assert format_table(pd.DataFrame({"x [t/a]": [1234.4]})).iloc[0, 0] == "1,234"

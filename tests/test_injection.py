@@ -233,7 +233,7 @@ def test_kpi_and_difference_tables_keep_the_names_literally(hostile):
     technologies = scenario.technologies
     kpi = kpi_table(results, technologies)
     assert list(kpi["run"]) == list(RUN_NAMES)
-    assert list(kpi["cost case"]) == ["reference", CASE_NAME]
+    assert list(kpi["cost case"]) == ["Reference", CASE_NAME]  # snake-case ids read as words, names as typed
     assert f"heat {TEMPLATE_NAME} [MWh/a]" in kpi.columns
     assert list(format_table(kpi)["run"]) == list(RUN_NAMES)
     changes = main_supply_changes(results[RUN_NAMES[1]], results[RUN_NAMES[0]], technologies)

@@ -116,14 +116,14 @@ def test_report_states_the_assumptions(report):
     """Settings and cost-case parameters of each run are printed: objective, CO2 cap, typical days, discount
     rate, reinjection window, CO2 price of the case (values of the fixture and of synthetic_scenario)."""
     _, html = report
-    for text in ("least cost", "2 typical days", ">5.00<", "4.5 to 20.0", ">250<", ">100<", "none"):
+    for text in ("lowest cost", "2 typical days", ">5.00<", "4.5 to 20.0", ">250<", ">100<", "none"):
         assert text in html
 
 
 def test_report_with_a_failed_run_says_so():
     runs = {"ok": synthetic_result(), "broken": RunResult(status="infeasible", message="The model has no <x>.")}
     html = html_report(runs, synthetic_scenario(), TECHNOLOGIES)
-    assert "Run broken: infeasible. The model has no &lt;x&gt;." in html
+    assert "Run broken: no feasible plan. The model has no &lt;x&gt;." in html
     with pytest.raises(ValueError, match="results"):
         html_report({}, synthetic_scenario())
 

@@ -120,3 +120,14 @@ def test_command_reports_input_errors(tmp_path, capsys):
     assert cli_main(["tradeoff", "tests/fixtures/tiny_city", "--points", "1", "--out", str(tmp_path)]) == 2
     assert "--points" in capsys.readouterr().err
     assert cli_main(["tradeoff", str(tmp_path / "missing"), "--points", "3", "--out", str(tmp_path)]) == 2
+
+
+def test_next_bound_splits_the_longest_scaled_segment():
+    """Hand-checked placement: with ends (CO2 100, cost 0) and (0, 100) and a point at (50, 10), the scaled
+    segment from 50 to 0 t is the longer (hypot(0.5, 0.9) against hypot(0.5, 0.1)), so the next bound is its CO2
+    midpoint, 25 t; a segment next to a failed point (cost NaN) is never split."""
+    from engine.studies.tradeoff import _next_bound
+
+    assert _next_bound([(100.0, 0.0), (0.0, 100.0)]) == pytest.approx(50.0)
+    assert _next_bound([(100.0, 0.0), (0.0, 100.0), (50.0, 10.0)]) == pytest.approx(25.0)
+    assert _next_bound([(100.0, 0.0), (0.0, 100.0), (50.0, 10.0), (25.0, float("nan"))]) == pytest.approx(75.0)

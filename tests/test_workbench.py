@@ -325,9 +325,9 @@ def test_choices_of_a_run_restore_the_set_up(tiny, tiny_cache):
     year = initial_setup(tiny, {**run.result.settings, "typical_days": 0, "objective": "co2"}, "high_co2")
     assert (year["cost_case"], year["objective"], year["full_year"]) == ("high_co2", "co2", True)
     assert initial_setup(tiny, None, "no such case")["cost_case"] == "reference"
-    assert suggested_run_name(run.result) == f"reference, lowest cost, {TINY_DAYS} typical days"
+    assert suggested_run_name(run.result) == f"Reference, lowest cost, {TINY_DAYS} typical days"
     assert describe_choices(run.result) == (
-        f"Cost case **reference** · objective **lowest cost** · CO2 cap none · {TINY_DAYS} typical days")
+        f"Cost case **Reference** · objective **lowest cost** · CO2 cap none · {TINY_DAYS} typical days")
 
 
 def test_result_tables_for_reading_add_up_to_the_city_figures(tiny, tiny_cache):
@@ -381,8 +381,9 @@ def test_names_and_labels():
     """Small display helpers (common practice)."""
     assert unique_run_names({1: "a", 2: "b", 3: "a"}) == {1: "a (#1)", 2: "b", 3: "a (#3)"}
     assert safe_file_name("High CO2 / 2040 ", ".zip") == "High_CO2___2040.zip"
-    runs = {3: RunResult("optimal", "", cost_case="high_co2"), 5: RunResult("optimal", "", cost_case="reference"),
-            7: RunResult("optimal", "", cost_case="reference")}
+    # the first saved least-cost run is the baseline (issue 14), whatever its cost case; least-CO2 runs are not
+    runs = {3: RunResult("optimal", "", objective="co2", cost_case="high_co2"),
+            5: RunResult("optimal", "", cost_case="high_co2"), 7: RunResult("optimal", "", cost_case="reference")}
     assert default_baseline(runs) == 5
     assert default_baseline({4: runs[3], 2: runs[3]}) == 2
     frame = pd.DataFrame({"a": range(3)})

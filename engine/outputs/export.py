@@ -22,6 +22,8 @@ from collections.abc import Mapping
 
 import pandas as pd
 
+from engine.outputs.formats import engine_column_decimals, excel_format, unit_of
+
 from engine.model.results import RunResult
 from engine.outputs.xlsx_writer import workbook_bytes
 from engine.outputs.csvfile import FORMULA_START, csv_bytes, defuse_frame  # noqa: F401 (FORMULA_START re-exported)
@@ -93,6 +95,23 @@ def _cell_text(value) -> str:
     return str(value)
 
 
+STYLED_ROWS = 20_000
+"""Sheets up to this many rows get a number format per column; the hourly sheets keep plain numbers."""
+
+
+def _number_style(column, values: pd.Series) -> str | None:
+    """The spreadsheet number format of a float column: from the unit of its header or of its engine name
+    (:mod:`engine.outputs.formats`)."""
+    if values.dtype.kind != "f" or len(values) > STYLED_ROWS:
+        return None
+    if unit_of(column) is not None:
+        return excel_format(column)
+    places = engine_column_decimals(str(column))
+    if places is None:
+        return None
+    return "#,##0" + ("." + "0" * places if places else "")
+
+
 def _sheets(name: str, frame: pd.DataFrame, used: set[str]) -> list[tuple[str, pd.DataFrame]]:
     """``frame`` as one or more (sheet title, rows) pieces, a sheet's row limit apart (one row for the header)."""
     limit = MAX_SHEET_ROWS - 1
@@ -114,7 +133,7 @@ def tables_xlsx(results: Mapping[str, RunResult]) -> bytes:
     sheets = _sheets("runs", run_overview(results), used) + _sheets("kpi", kpi_table(results), used)
     for name, frame in combined_tables(results).items():
         sheets += _sheets(name, frame, used)
-    return workbook_bytes(sheets, to_text=_cell_text)
+    return workbook_bytes(sheets, to_text=_cell_text, number_format=_number_style)
 
 
 def neutralise_formulas(frame: pd.DataFrame) -> pd.DataFrame:

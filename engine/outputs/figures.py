@@ -15,7 +15,6 @@ Runs that did not solve (no tables) are left out of the figures and kept, with t
 from __future__ import annotations
 
 import html
-import math
 from collections.abc import Mapping
 
 import numpy as np
@@ -27,10 +26,13 @@ from engine.outputs.palette import (
     COST_PART_LABELS,
     DEMAND_LINE_DASH,
     RUN_LINE_DASHES,
+    STORE_CHARGE_COLOR,
     TECHNOLOGY_KIND_COLORS,
     technology_colors,
 )
 from engine.model.results import COST_PARTS, RunResult
+from engine.outputs.formats import format_number
+from engine.outputs.labels import cost_case_label, objective_label, status_label
 
 STACK_ORDER = (
     "groundwater_heat_pump",
@@ -53,6 +55,48 @@ FIGURE_CONFIG = {"displaylogo": False, "responsive": True}
 
 
 # ---------------------------------------------------------------------------------------------------- helpers
+MIN_FIGURE_PX = 200
+"""No figure is drawn shorter than this."""
+
+
+def figure_height(n_bars: int, bar_px: int = 28, extra_px: int = 160) -> int:
+    """Height [px] of a bar chart: a fixed share per bar plus room for title, legend and axis, at least
+    :data:`MIN_FIGURE_PX` (common practice: bars about 20 to 30 px)."""
+    return max(MIN_FIGURE_PX + 100, int(extra_px + bar_px * max(int(n_bars), 1)))
+
+
+def label_margin(longest_label_chars: int) -> int:
+    """Left margin [px] that fits the longest category label (about 7 px a character at plotly's 12 px font)."""
+    return int(min(420, max(60, 20 + 7 * int(longest_label_chars))))
+
+
+def shared_y_range(figures) -> None:
+    """Give figures shown side by side one y range (in place): stacked areas summed, lines by their values.
+
+    Figures whose y axis titles differ (another unit) are left alone.
+    """
+    figures = [f for f in figures if f is not None and len(f.data)]
+    if len(figures) < 2 or len({f.layout.yaxis.title.text for f in figures}) > 1:
+        return
+    low, high = 0.0, 0.0
+    for fig in figures:
+        stacks: dict[str, np.ndarray] = {}
+        for trace in fig.data:
+            y = np.asarray(trace.y if trace.y is not None else [], dtype=float)
+            if not len(y):
+                continue
+            group = getattr(trace, "stackgroup", None)
+            if group:
+                stacks[group] = stacks.get(group, np.zeros_like(y)) + np.nan_to_num(y)
+            else:
+                low, high = min(low, float(np.nanmin(y))), max(high, float(np.nanmax(y)))
+        for total in stacks.values():
+            low, high = min(low, float(total.min())), max(high, float(total.max()))
+    pad = 0.05 * (high - low or 1.0)
+    for fig in figures:
+        fig.update_yaxes(range=[low - (pad if low < 0 else 0.0), high + pad])
+
+
 def escape(text) -> str:
     """``text`` made safe for plotly labels and HTML (``&``, ``<``, ``>`` and quotes become entities)."""
     return html.escape(str(text), quote=True)
@@ -124,7 +168,7 @@ def _district_label(result: RunResult, district_id) -> str:
 
 def _empty_figure(title: str, text: str) -> go.Figure:
     fig = go.Figure()
-    fig.update_layout(template=_FIGURE_TEMPLATE, title=title, height=300)
+    fig.update_layout(template=_FIGURE_TEMPLATE, title=title, height=MIN_FIGURE_PX + 100)
     fig.add_annotation(text=escape(text), showarrow=False, x=0.5, y=0.5, xref="paper", yref="paper")
     fig.update_xaxes(visible=False)
     fig.update_yaxes(visible=False)
@@ -229,6 +273,8 @@ def load_curve_figure(
             continue  # idle in the shown period: kept out of the legend
         y = window_values / divisor
         color = colors.get(key, TECHNOLOGY_KIND_COLORS["unserved"] if key == "unserved" else "#5F5F5F")
+        if group == "charge":
+            color = STORE_CHARGE_COLOR
         fig.add_trace(
             go.Scatter(
                 x=x, y=y, name=label, mode="lines", stackgroup=group, line={"width": 0.5, "color": color},
@@ -361,21 +407,32 @@ def cost_breakdown_figure(results: Mapping[str, RunResult], by: str = "run") -> 
         peak = float(table["total_cost_eur_per_a"].max())
         divisor, unit = _scale(peak, "€/a")
         table["_order"] = table["district_id"].map({d: i for i, d in enumerate(order)})
-        table = table.sort_values(["_order", "run"], kind="stable")
+        table["_run_order"] = table["run"].map({run: k for k, run in enumerate(solved)})
+        table = table.sort_values(["_order", "_run_order"], kind="stable")  # runs in the order given
         district_axis = [labels.get(d, escape(d)) for d in table["district_id"]]
-        x = [district_axis, [escape(r) for r in table["run"]]] if len(solved) > 1 else district_axis
+        y = [district_axis, [escape(r) for r in table["run"]]] if len(solved) > 1 else district_axis
         for part in COST_PARTS:
             fig.add_trace(
-                go.Bar(x=x, y=table[f"{part}_eur_per_a"].to_numpy(float) / divisor, name=COST_PART_LABELS[part],
-                       marker_color=COST_PART_COLORS[part],
-                       hovertemplate=f"{COST_PART_LABELS[part]}: %{{y:,.2f}} {unit}<extra>%{{x}}</extra>")
+                go.Bar(y=y, x=table[f"{part}_eur_per_a"].to_numpy(float) / divisor, name=COST_PART_LABELS[part],
+                       marker_color=COST_PART_COLORS[part], orientation="h",
+                       hovertemplate=f"{COST_PART_LABELS[part]}: %{{x:,.2f}} {unit}<extra>%{{y}}</extra>")
             )
         title = "Annual cost by part and district" + (", grouped by run" if len(solved) > 1 else "")
-        x_title = "District" + (" and run" if len(solved) > 1 else "")
+        longest = max(len(str(v)) for v in district_axis) + (
+            max(len(str(r)) for r in table["run"]) + 2 if len(solved) > 1 else 0)
+        fig.update_layout(
+            template=_FIGURE_TEMPLATE, barmode="relative", title=_title(title),
+            height=figure_height(len(table), bar_px=22 if len(solved) > 1 else 28, extra_px=170),
+            legend={"orientation": "h", "yanchor": "bottom", "y": 1.0, "x": 0},
+            margin={"t": 110, "l": label_margin(longest), "r": 20, "b": 50},
+        )
+        fig.update_yaxes(title_text=None, autorange="reversed")
+        fig.update_xaxes(title_text=f"Annual cost [{unit}]", tickformat=",")
+        return fig
     fig.update_layout(
         template=_FIGURE_TEMPLATE, barmode="relative", height=500, title=_title(title),
-        legend={"orientation": "h", "yanchor": "top", "y": -0.22, "x": 0},
-        margin={"t": 80, "l": 70, "r": 20, "b": 60},
+        legend={"orientation": "h", "yanchor": "bottom", "y": 1.0, "x": 0},
+        margin={"t": 110, "l": 70, "r": 20, "b": 60},
     )
     fig.update_xaxes(title_text=x_title)
     fig.update_yaxes(title_text=f"Annual cost [{unit}]", tickformat=",")
@@ -413,10 +470,11 @@ def supply_mix_figure(results: Mapping[str, RunResult], technologies=None) -> go
     fig = go.Figure()
     _mix_traces(fig, rows, catalogue)
     fig.update_layout(
-        template=_FIGURE_TEMPLATE, barmode="relative", height=max(320, 160 + 45 * len(rows)),
+        template=_FIGURE_TEMPLATE, barmode="relative", height=figure_height(len(rows), 45, 230),
         title=_title("Heat supply by technology", "Annual heat [MWh/a]; heat stores shift heat in time and are not shown"),
-        legend={"orientation": "v", "x": 1.01, "xanchor": "left", "y": 1.0, "traceorder": "normal"},
-        margin={"t": 90, "l": 160, "r": 20, "b": 50},
+        legend={"orientation": "h", "yanchor": "top", "y": -0.12 if len(rows) > 3 else -0.3, "x": 0,
+                "traceorder": "normal"},
+        margin={"t": 90, "l": label_margin(max(len(r[0]) for r in rows)), "r": 20, "b": 50},
     )
     fig.update_xaxes(title_text="Heat [MWh/a]", tickformat=",")
     fig.update_yaxes(title_text="Run", autorange="reversed")
@@ -437,14 +495,14 @@ def district_supply_figure(result: RunResult, technologies=None) -> go.Figure:
     fig = go.Figure()
     _mix_traces(fig, rows, catalogue)
     fig.update_layout(
-        template=_FIGURE_TEMPLATE, barmode="relative", height=200 + 30 * len(rows),
+        template=_FIGURE_TEMPLATE, barmode="relative", height=figure_height(len(rows), 30, 200),
         title=_title("Heat supply by district and technology",
                      "Annual heat [MWh/a], districts by heat demand; heat stores are not shown"),
         legend={"orientation": "v", "x": 1.01, "xanchor": "left", "y": 1.0, "traceorder": "normal"},
-        margin={"t": 90, "l": 200, "r": 20, "b": 50},
+        margin={"t": 90, "l": label_margin(max(len(r[0]) for r in rows)), "r": 20, "b": 50},
     )
     fig.update_xaxes(title_text="Heat [MWh/a]", tickformat=",")
-    fig.update_yaxes(title_text="District", autorange="reversed")
+    fig.update_yaxes(title_text=None, autorange="reversed")
     return fig
 
 
@@ -478,8 +536,8 @@ def _technology_labels(technologies, results) -> dict[str, str]:
 def kpi_table(results: Mapping[str, RunResult], technologies=None) -> pd.DataFrame:
     """One row per run: the city's key figures.
 
-    Columns: run, status, cost case, objective, total cost [€/a], CO2 [t/a], heat demand [MWh/a],
-    unserved heat [MWh/a], levelised cost [€/MWh] (city: total cost over heat and cooling demand), then
+    Columns: run, status, cost case, objective (the last three in words), total cost [€/a], CO2 [t/a],
+    heat demand [MWh/a], unserved heat [MWh/a], levelised cost [€/MWh] (city: total cost over heat and cooling demand), then
     ``heat <technology> [MWh/a]`` for every technology that supplies heat in some run (by id, or by name when the
     catalogue is given). Runs that did not solve keep their row with NaN figures.
     """
@@ -494,9 +552,9 @@ def kpi_table(results: Mapping[str, RunResult], technologies=None) -> pd.DataFra
         ok = str(run) in solved
         row = {
             "run": str(run),
-            "status": r.status,
-            "cost case": r.cost_case,
-            "objective": r.objective,
+            "status": status_label(r.status),
+            "cost case": cost_case_label(r.cost_case),
+            "objective": objective_label(r.objective),
             "total cost [€/a]": r.total_cost_eur_per_a if ok else float("nan"),
             "CO2 [t/a]": r.co2_t_per_a if ok else float("nan"),
             "heat demand [MWh/a]": r.heat_demand_mwh_per_a if ok else float("nan"),
@@ -584,27 +642,12 @@ def difference_table(results: Mapping[str, RunResult], baseline: str, technologi
 
 
 def format_value(value, column: str) -> str:
-    """A table value as the report and the dashboard print it.
+    """A table value as the report and the dashboard print it (:func:`engine.outputs.formats.format_number`).
 
-    Costs per MWh with two decimals, every other number whole with thousands separators, missing values as '–'.
+    The decimals follow the unit in the header (costs per MWh with one decimal, amounts whole, with thousands
+    separators), missing values as '–'.
     """
-    if value is None or value is pd.NA:
-        return "–"
-    if isinstance(value, (bool, np.bool_)):
-        return "yes" if value else "no"
-    if isinstance(value, (int, float, np.integer, np.floating)):
-        number = float(value)
-        if math.isnan(number):
-            return "–"
-        if math.isinf(number):
-            return "∞" if number > 0 else "−∞"
-        if "€/MWh" in column or "kg/MWh" in column:
-            return f"{number:,.2f}"
-        if isinstance(value, (int, np.integer)):
-            return f"{int(value):,d}"
-        text = f"{number:,.0f}"
-        return "0" if text == "-0" else text
-    return str(value)
+    return format_number(value, column)
 
 
 def format_table(table: pd.DataFrame) -> pd.DataFrame:

@@ -92,8 +92,12 @@ def _catalogue(scenario, technologies) -> pd.DataFrame:
 
 
 def district_values(scenario, result: RunResult | None = None, measure: str = "main_supply",
-                    baseline: RunResult | None = None, technologies=None) -> tuple[pd.DataFrame, dict]:
+                    baseline: RunResult | None = None, technologies=None,
+                    value_range: tuple[float, float] | None = None) -> tuple[pd.DataFrame, dict]:
     """District figures, colours and the legend of a map.
+
+    ``value_range`` (low, high) fixes the colour scale of a numeric measure, so that maps shown side by side
+    give one colour one value (:func:`shared_value_range`); by default the scale spans this map's values.
 
     Returns
     -------
@@ -160,12 +164,16 @@ def district_values(scenario, result: RunResult | None = None, measure: str = "m
         legend["no_data"] = bool(len(finite) < len(numbers))
         if measure == "change_total_cost":
             limit = float(np.max(np.abs(finite))) if len(finite) else 0.0
+            if value_range is not None:
+                limit = max(abs(float(value_range[0])), abs(float(value_range[1])))
             limit = limit if limit > 0 else 1.0
             districts["color"] = diverging_colors(numbers, limit)
             legend.update(kind="diverging", vmin=-limit, vmax=limit)
         else:
             vmin = float(finite.min()) if len(finite) else 0.0
             vmax = float(finite.max()) if len(finite) else 1.0
+            if value_range is not None:
+                vmin, vmax = float(value_range[0]), float(value_range[1])
             districts["color"] = sequential_colors(numbers, vmin, vmax)
             legend.update(kind="sequential", vmin=vmin, vmax=vmax)
 
@@ -174,6 +182,29 @@ def district_values(scenario, result: RunResult | None = None, measure: str = "m
         for did, name in zip(districts["district_id"], districts["name"])
     ]
     return districts.reset_index(drop=True), legend
+
+
+def shared_value_range(scenario, results, measure: str, baseline: RunResult | None = None,
+                       technologies=None) -> tuple[float, float] | None:
+    """One (low, high) colour scale over several runs' maps of a numeric measure; None for categories.
+
+    ``results`` is an iterable of RunResult (or of (scenario, RunResult) pairs when the runs' districts differ).
+    """
+    if measure == "main_supply":
+        return None
+    low, high = math.inf, -math.inf
+    for item in results:
+        own, result = item if isinstance(item, tuple) else (scenario, item)
+        if own is None or result is None or result.tables.get("districts") is None:
+            continue
+        values, _ = district_values(own, result, measure, baseline, technologies)
+        numbers = pd.to_numeric(values["value"], errors="coerce").to_numpy(float)
+        numbers = numbers[np.isfinite(numbers)]
+        if len(numbers):
+            low, high = min(low, float(numbers.min())), max(high, float(numbers.max()))
+    if not math.isfinite(low):
+        return None
+    return (low, high)
 
 
 def _district_popup(did, name, table, supply, base_table, names) -> str:
@@ -298,7 +329,7 @@ def legend_html(legend: dict, wells: bool = False, plumes: bool = False) -> str:
         stops = ", ".join(scale_stops(scale))
         parts.append(f"<div style='width:180px;height:12px;border:1px solid #555;"
                      f"background:linear-gradient(to right, {stops})'></div>")
-        fmt = "{:,.2f}" if legend["kind"] == "sequential" and abs(legend["vmax"] or 0) < 1e4 else "{:,.0f}"
+        fmt = "{:,.1f}" if legend["kind"] == "sequential" and abs(legend["vmax"] or 0) < 1e4 else "{:,.0f}"
         low, high = _number(legend["vmin"], fmt), _number(legend["vmax"], fmt)
         if legend["kind"] == "diverging":
             low, high = _number(legend["vmin"], "{:+,.0f}"), _number(legend["vmax"], "{:+,.0f}")
@@ -321,6 +352,15 @@ def legend_html(legend: dict, wells: bool = False, plumes: bool = False) -> str:
     if wells or plumes:
         parts.append(f"<div style='margin-top:4px;color:#8a3b00;max-width:220px'>{escape(cautions.WELLS)}</div>")
     return "".join(parts)
+
+
+def map_legend_html(scenario, result: RunResult | None = None, measure: str = "main_supply",
+                    baseline: RunResult | None = None, technologies=None,
+                    value_range: tuple[float, float] | None = None, wells: bool = True) -> str:
+    """The legend of :func:`district_map` with the same arguments, as an HTML fragment to show beside the map."""
+    _, legend = district_values(scenario, result, measure, baseline, technologies, value_range)
+    return ("<div style='font:13px/1.45 sans-serif;border:1px solid #ccc;border-radius:4px;padding:6px 10px'>"
+            + legend_html(legend, wells=wells and len(scenario.wells) > 0) + "</div>")
 
 
 def _bounds(districts: pd.DataFrame, wells: pd.DataFrame) -> tuple[float, float, float, float]:
@@ -399,7 +439,8 @@ def use_bundled_leaflet(fmap) -> None:
 
 def district_map(scenario, result: RunResult | None = None, measure: str = "main_supply",
                  baseline: RunResult | None = None, technologies=None, show_wells: bool = True,
-                 plume_polygons=None, tiles: bool = False, legend_open: bool = True):
+                 plume_polygons=None, tiles: bool = False, legend_open: bool = True,
+                 value_range: tuple[float, float] | None = None, extra_layers=(), legend_inside: bool = True):
     """Interactive map of the districts coloured by ``measure``, with wells and optional plume outlines.
 
     Parameters
@@ -422,7 +463,15 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
     tiles : bool
         False (default) draws no background, so the map works offline; True adds OpenStreetMap tiles.
     legend_open : bool
-        Whether the legend starts unfolded (fold it for small maps side by side).
+        Whether the legend starts unfolded.
+    value_range : (float, float), optional
+        A colour scale shared with other maps (:func:`shared_value_range`).
+    legend_inside : bool
+        False leaves the legend off the map, for a page that shows :func:`map_legend_html` beside it (small maps
+        side by side, where a legend inside would cover the districts).
+    extra_layers : iterable of folium layers
+        Further layers (a permit status layer ...), added before the layer switch so that it lists them: a layer
+        added after the switch leaves the switch pointing at a layer not yet created, and the map fails to draw.
 
     Returns
     -------
@@ -431,7 +480,7 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
     import folium
     from branca.element import MacroElement, Template
 
-    districts, legend = district_values(scenario, result, measure, baseline, technologies)
+    districts, legend = district_values(scenario, result, measure, baseline, technologies, value_range)
     wells = well_values(scenario, result) if show_wells else well_values(scenario, None).iloc[0:0]
     plumes = _check_plumes(plume_polygons)
     west, south, east, north = _bounds(districts, wells)
@@ -492,9 +541,16 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
                 tooltip=folium.Tooltip(f"Plume of well {escape(item['well_id'])}: {escape(level)} isotherm "
                                        "(screening estimate)"),
             ).add_to(plume_layer)
-    if len(wells) or plumes or tiles:
+    extra_layers = list(extra_layers)
+    for extra in extra_layers:
+        extra.add_to(fmap)
+    if len(wells) or plumes or tiles or extra_layers:
         folium.LayerControl(collapsed=False).add_to(fmap)
-    fmap.fit_bounds([[south, west], [north, east]])
+    # room at the bottom right for a legend inside the map, so that it does not cover districts
+    fmap.fit_bounds([[south, west], [north, east]],
+                    padding_bottom_right=((250 if legend_open else 90) if legend_inside else 10, 10))
+    if not legend_inside:
+        return fmap
 
     control = MacroElement()
     control._template = Template(
@@ -528,13 +584,16 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
 # ---------------------------------------------------------------------------------------------------- SVG
 def svg_district_map(scenario, result: RunResult | None = None, measure: str = "main_supply",
                      baseline: RunResult | None = None, technologies=None, show_wells: bool = True,
-                     width_px: int = 720, title: str | None = None) -> str:
+                     width_px: int = 720, title: str | None = None,
+                     value_range: tuple[float, float] | None = None) -> str:
     """The districts, wells and legend of :func:`district_map` as one self-contained HTML fragment (inline SVG).
+
+    ``value_range`` shares one colour scale among the maps of several runs (:func:`shared_value_range`).
 
     The projection is equirectangular about the map's mid latitude (longitudes shrunk by its cosine), which is
     true to shape at the size of a city. Hovering a district or well shows its figures (SVG ``<title>``).
     """
-    districts, legend = district_values(scenario, result, measure, baseline, technologies)
+    districts, legend = district_values(scenario, result, measure, baseline, technologies, value_range)
     wells = well_values(scenario, result) if show_wells else well_values(scenario, None).iloc[0:0]
     west, south, east, north = _bounds(districts, wells)
     if len(wells):

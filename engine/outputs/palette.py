@@ -60,6 +60,9 @@ TECHNOLOGY_KIND_COLORS: dict[str, str] = {
 """One colour per technology kind, plus ``unserved`` (heat the supply cannot meet) and ``demand`` (the line)."""
 
 OTHER_KIND_COLOR = "#5F5F5F"
+STORE_CHARGE_COLOR = "#6A6A6A"
+"""Heat store charging (below zero in load curves): dark grey against the light grey of discharging, told apart
+by lightness alone, which every form of colour-vision deficiency keeps."""
 """For a kind this module does not know (a catalogue from a newer version)."""
 
 NO_DATA_COLOR = "#DDDDDD"

@@ -38,7 +38,8 @@ from engine.outputs.figures import (
     supply_mix_figure,
 )
 from engine import cautions
-from engine.outputs.maps import svg_district_map
+from engine.outputs.labels import AQUIFER_LABELS, cost_case_label, objective_label, status_label, words
+from engine.outputs.maps import shared_value_range, svg_district_map
 from engine.model.results import RunResult
 
 _STYLE = """
@@ -179,8 +180,8 @@ def assumptions_table(results: Mapping[str, RunResult], scenario) -> pd.DataFram
         limit = _setting(r, scenario, "network_plant_limit_kw", 0.0) or 0.0
         rows.append({
             "run": str(run),
-            "objective": "least cost" if r.objective == "cost" else "least CO2" if r.objective == "co2" else r.objective,
-            "cost case": r.cost_case,
+            "objective": objective_label(r.objective),
+            "cost case": cost_case_label(r.cost_case),
             "CO2 cap [t/a]": _number(cap, "{:,.0f}") if float(cap) > 0 else "none",
             "time resolution": f"{days} typical days" if days > 0 else "full hourly year",
             "discount rate [%/a]": _number(100 * float(_setting(r, scenario, "discount_rate", float("nan"))), "{:.2f}"),
@@ -192,7 +193,7 @@ def assumptions_table(results: Mapping[str, RunResult], scenario) -> pd.DataFram
             "value of unserved heat [€/MWh]": _number(_setting(r, scenario, "value_of_unserved_heat_eur_per_mwh"), "{:,.0f}"),
             "network plant limit [kW]": _number(limit, "{:,.0f}") if float(limit) > 0 else "none",
             "heating base [°C]": _number(_setting(r, scenario, "heating_base_temp_c"), "{:.1f}"),
-            "input hash": (r.input_hash or "")[:16],
+            "input fingerprint (SHA-256)": (r.input_hash or "")[:16],
         })
     return pd.DataFrame(rows)
 
@@ -205,11 +206,11 @@ def cost_case_table(results: Mapping[str, RunResult], scenario) -> pd.DataFrame:
     for name in dict.fromkeys(r.cost_case for r in results.values()):
         case = cases.get(name)
         if case is None:
-            rows.append({"cost case": name, "description": "(not in this scenario)"})
+            rows.append({"cost case": cost_case_label(name), "description": "(not in this scenario)"})
             continue
         co2 = case.co2_eur_per_t if case.co2_eur_per_t is not None else getattr(prices, "co2_eur_per_t", None)
         rows.append({
-            "cost case": name,
+            "cost case": cost_case_label(name),
             "description": case.description,
             "CO2 price [€/t]": _number(co2, "{:,.0f}"),
             "gas price": f"{_number(getattr(prices, 'gas_eur_per_mwh', None), '{:,.1f}')} €/MWh × {case.gas_price_factor:g}",
@@ -262,7 +263,8 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
     body += ["<h2 id='overview'>Key figures</h2>", _transposed_html(kpi, "figure")]
     bad = [(k, v) for k, v in runs.items() if k not in solved or not v.solved]
     for name, r in bad:
-        body.append(f"<p class='status-bad'>Run {escape(name)}: {escape(r.status)}. {escape(r.message)}</p>")
+        body.append(f"<p class='status-bad'>Run {escape(name)}: {escape(status_label(r.status))}. "
+                    f"{escape(r.message)}</p>")
     unserved = [k for k, v in solved.items() if v.unserved_heat_mwh_per_a > 0.5]
     if unserved:
         body.append("<p class='status-bad'>Unserved heat in: " + escape(", ".join(unserved))
@@ -277,7 +279,8 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
             if name == baseline or baseline not in solved:
                 continue
             changes = main_supply_changes(r, solved[baseline], technologies)
-            body += [f"<h3>Districts whose main supply changes: {escape(name)}</h3>", _table_html(changes)]
+            body += [f"<h3>Districts whose main supply changes: {escape(name)}</h3>",
+                     _table_html(changes.drop(columns=["district_id"]).rename(columns={"name": "district"}))]
     else:
         body.append("<p class='note'>Only one run: nothing to compare.</p>")
 
@@ -289,17 +292,20 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
     body.append(_figure_html(supply_mix_figure(solved, technologies)))
 
     body.append("<h2 id='runs'>Runs</h2>")
+    change_range = (shared_value_range(scenario, [v for k, v in solved.items() if k != baseline],
+                                       "change_total_cost", solved[baseline], technologies)
+                    if baseline in solved else None)
     for name, r in runs.items():
         body.append(f"<h3>{escape(name)}</h3>")
-        body.append(f"<p class='note'>Status: {escape(r.status)}. {escape(r.message)} Cost case: {escape(r.cost_case)}; "
-                    f"objective: {escape(r.objective)}.</p>")
+        body.append(f"<p class='note'>Status: {escape(status_label(r.status))}. {escape(r.message)} Cost case: "
+                    f"{escape(cost_case_label(r.cost_case))}; objective: {escape(objective_label(r.objective))}.</p>")
         if name not in solved:
             continue
         maps = [svg_district_map(scenario, r, "main_supply", technologies=technologies, width_px=600,
                                  title=f"Main heat supply, {name}")]
         if name != baseline and baseline in solved:
             maps.append(svg_district_map(scenario, r, "change_total_cost", baseline=solved[baseline],
-                                         technologies=technologies, width_px=600,
+                                         technologies=technologies, width_px=600, value_range=change_range,
                                          title=f"Change of annual cost against {baseline}"))
         body.append("<div class='maps'>" + "".join(maps) + "</div>")
         body.append("<p class='note'>Hover a district or a well for its figures.</p>")
@@ -325,7 +331,8 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
                     "electricity and network prices and CO2 factors come from the scenario's hourly series.</p>")
     aquifer = getattr(scenario, "aquifer", None)
     if aquifer is not None and dataclasses.is_dataclass(aquifer):
-        rows = pd.DataFrame({"parameter": [f.name for f in dataclasses.fields(aquifer)],
+        rows = pd.DataFrame({"parameter": [AQUIFER_LABELS.get(f.name, words(f.name))
+                                           for f in dataclasses.fields(aquifer)],
                              "value": [_number(getattr(aquifer, f.name), "{:,.4g}") for f in dataclasses.fields(aquifer)]})
         body += ["<h3>Aquifer (interference screening)</h3>", _table_html(rows)]
 

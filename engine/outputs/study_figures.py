@@ -10,9 +10,8 @@ import numpy as np
 import pandas as pd
 import plotly.graph_objects as go
 
+from engine.outputs.labels import TRADEOFF_POINT_LABELS as KIND_LABELS
 from engine.outputs.palette import technology_colors
-
-KIND_LABELS = {"cost_optimal": "least cost", "co2_bounded": "CO2 bounded", "co2_optimal": "least CO2"}
 
 
 def tradeoff_figure(table: pd.DataFrame, selected: int | None = None) -> go.Figure:
@@ -32,13 +31,17 @@ def tradeoff_figure(table: pd.DataFrame, selected: int | None = None) -> go.Figu
             line=dict(color="#0072B2", width=2),
             customdata=np.column_stack([solved["point"], labels, solved["abatement_cost_eur_per_t"].fillna(0.0)]),
             hovertemplate="Point %{customdata[0]} (%{customdata[1]})<br>CO2 %{x:,.0f} t/a<br>"
-            "cost %{y:,.3f} M EUR/a<br>abatement %{customdata[2]:,.0f} EUR/t<extra></extra>",
+            "cost %{y:,.2f} M€/a<br>abatement %{customdata[2]:,.0f} €/t<extra></extra>",
             name="trade-off",
         )
     )
+    extreme = solved[solved["kind"] == "co2_optimal"]
+    for co2, cost in zip(extreme["co2_t_per_a"], extreme["total_cost_eur_per_a"] / 1e6):
+        fig.add_annotation(x=co2, y=cost, text="least CO2: the extreme end", showarrow=True, arrowhead=2,
+                           ax=60, ay=-30, font=dict(size=12))
     fig.update_layout(
         xaxis_title="CO2 emissions [t/a]",
-        yaxis_title="Total annual cost [million EUR/a]",
+        yaxis_title="Total annual cost [M€/a]",
         height=420,
         margin=dict(l=10, r=10, t=30, b=40),
         showlegend=False,
@@ -93,7 +96,7 @@ def tornado_figure(tornado: pd.DataFrame) -> go.Figure:
                 name=f"{side} value",
                 marker_color=colour,
                 customdata=np.column_stack([value, changed]),
-                hovertemplate="%{y} at %{customdata[0]:.3g}: %{x:+.3f} M EUR/a, "
+                hovertemplate="%{y} at %{customdata[0]:.3g}: %{x:+.2f} M€/a, "
                 "main supply changes in %{customdata[1]} district(s)<extra></extra>",
                 text=[f"{c} changed" if c else "" for c in changed],
                 textposition="outside",
@@ -102,10 +105,10 @@ def tornado_figure(tornado: pd.DataFrame) -> go.Figure:
         )
     fig.update_layout(
         barmode="overlay",
-        xaxis_title="Change in total annual cost against the reference [million EUR/a]",
+        xaxis_title="Change in total annual cost against the reference [M€/a]",
         yaxis_title=None,
         legend_title_text="Parameter at its",
-        height=120 + 60 * len(data),
+        height=max(300, 120 + 60 * len(data)),
         margin=dict(l=10, r=10, t=30, b=40),
     )
     fig.add_vline(x=0, line_color="#444", line_width=1)

@@ -32,25 +32,35 @@ _HEAD = '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
 _ILLEGAL_XML = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f]")
 _EMPTY = "<c/>"
 
-_STYLES = (
-    f'{_HEAD}<styleSheet xmlns="{_MAIN}"><fonts count="1"><font><sz val="11"/><name val="Calibri"/></font></fonts>'
-    '<fills count="2"><fill><patternFill patternType="none"/></fill><fill><patternFill patternType="gray125"/></fill>'
-    '</fills><borders count="1"><border><left/><right/><top/><bottom/><diagonal/></border></borders>'
-    '<cellStyleXfs count="1"><xf numFmtId="0" fontId="0" fillId="0" borderId="0"/></cellStyleXfs>'
-    '<cellXfs count="1"><xf numFmtId="0" fontId="0" fillId="0" borderId="0" xfId="0"/></cellXfs>'
-    '<cellStyles count="1"><cellStyle name="Normal" xfId="0" builtinId="0"/></cellStyles></styleSheet>'
-)
+def _styles_xml(formats: list[str]) -> str:
+    """The styles part: the default cell style, then one style per number format code (in ``formats`` order)."""
+    num_fmts = "".join(f'<numFmt numFmtId="{164 + k}" formatCode="{escape(code, {chr(34): "&quot;"})}"/>'
+                       for k, code in enumerate(formats))
+    xfs = '<xf numFmtId="0" fontId="0" fillId="0" borderId="0" xfId="0"/>' + "".join(
+        f'<xf numFmtId="{164 + k}" fontId="0" fillId="0" borderId="0" xfId="0" applyNumberFormat="1"/>'
+        for k in range(len(formats)))
+    return (
+        f'{_HEAD}<styleSheet xmlns="{_MAIN}">'
+        + (f'<numFmts count="{len(formats)}">{num_fmts}</numFmts>' if formats else "")
+        + '<fonts count="1"><font><sz val="11"/><name val="Calibri"/></font></fonts>'
+        '<fills count="2"><fill><patternFill patternType="none"/></fill><fill><patternFill patternType="gray125"/>'
+        '</fill></fills><borders count="1"><border><left/><right/><top/><bottom/><diagonal/></border></borders>'
+        '<cellStyleXfs count="1"><xf numFmtId="0" fontId="0" fillId="0" borderId="0"/></cellStyleXfs>'
+        f'<cellXfs count="{len(formats) + 1}">{xfs}</cellXfs>'
+        '<cellStyles count="1"><cellStyle name="Normal" xfId="0" builtinId="0"/></cellStyles></styleSheet>'
+    )
 
 
 def _text_cell(text: str) -> str:
     return f'<c t="inlineStr"><is><t xml:space="preserve">{escape(_ILLEGAL_XML.sub("", text))}</t></is></c>'
 
 
-def _number_cells(values: np.ndarray) -> list[str]:
+def _number_cells(values: np.ndarray, style: int = 0) -> list[str]:
     values = np.asarray(values, float)
     text = values.astype(str)
     finite = np.isfinite(values)
-    out = np.where(finite, np.char.add(np.char.add("<c><v>", text), "</v></c>"), _EMPTY).astype(object)
+    start = f'<c s="{style}"><v>' if style else "<c><v>"
+    out = np.where(finite, np.char.add(np.char.add(start, text), "</v></c>"), _EMPTY).astype(object)
     for i in np.flatnonzero(np.isinf(values)):
         out[i] = _text_cell("inf" if values[i] > 0 else "-inf")
     return out.tolist()
@@ -73,14 +83,15 @@ def _one_cell(value) -> str:
     return _text_cell(str(value)) if value != "" else _EMPTY
 
 
-def column_cells(column: pd.Series, to_text=str) -> list[str]:
-    """The ``<c>`` elements of one column; ``to_text`` turns a value of no cell type (a dict, a date) into text."""
+def column_cells(column: pd.Series, to_text=str, style: int = 0) -> list[str]:
+    """The ``<c>`` elements of one column; ``to_text`` turns a value of no cell type (a dict, a date) into text;
+    ``style`` is the cell style index of a float column's numbers (0: the default)."""
     if pd.api.types.is_bool_dtype(column) and not column.isna().any():
         return np.where(column.to_numpy(bool), '<c t="b"><v>1</v></c>', '<c t="b"><v>0</v></c>').tolist()
     if pd.api.types.is_integer_dtype(column) and not column.isna().any():
         return [f"<c><v>{v}</v></c>" for v in column.to_numpy(np.int64).tolist()]
     if pd.api.types.is_float_dtype(column):
-        return _number_cells(column.to_numpy(float))
+        return _number_cells(column.to_numpy(float), style)
     cells = []
     for value in column.tolist():
         cell = _one_cell(value) if isinstance(value, (type(None), bool, int, float, str, np.generic)) or \
@@ -89,17 +100,32 @@ def column_cells(column: pd.Series, to_text=str) -> list[str]:
     return cells
 
 
-def sheet_xml(frame: pd.DataFrame, to_text=str) -> str:
-    """One worksheet part: a header row of the column names, then one row per row of ``frame``."""
+def sheet_xml(frame: pd.DataFrame, to_text=str, styles=None) -> str:
+    """One worksheet part: a header row of the column names, then one row per row of ``frame``; ``styles`` gives
+    each column's cell style index (None: all default)."""
     header = "<row>" + "".join(_text_cell(str(c)) for c in frame.columns) + "</row>"
-    columns = [column_cells(frame[c], to_text) for c in frame.columns]
+    styles = styles or [0] * len(frame.columns)
+    columns = [column_cells(frame[c], to_text, s) for c, s in zip(frame.columns, styles)]
     body = "".join("<row>" + "".join(cells) + "</row>" for cells in zip(*columns)) if columns else ""
     return f'{_HEAD}<worksheet xmlns="{_MAIN}"><sheetData>{header}{body}</sheetData></worksheet>'
 
 
-def workbook_bytes(sheets: list[tuple[str, pd.DataFrame]], to_text=str) -> bytes:
-    """The xlsx file of ``sheets`` (title, table) in order; titles must be valid and unique already."""
+def workbook_bytes(sheets: list[tuple[str, pd.DataFrame]], to_text=str, number_format=None) -> bytes:
+    """The xlsx file of ``sheets`` (title, table) in order; titles must be valid and unique already.
+
+    ``number_format(column, values)`` may give a float column's number format code (``"#,##0.0"``) or None.
+    """
     n = len(sheets)
+    formats: list[str] = []
+    sheet_styles = []
+    for _, frame in sheets:
+        styles = []
+        for column in frame.columns:
+            code = number_format(column, frame[column]) if number_format is not None else None
+            if code and code not in formats:
+                formats.append(code)
+            styles.append(formats.index(code) + 1 if code else 0)
+        sheet_styles.append(styles)
     overrides = "".join(
         f'<Override PartName="/xl/worksheets/sheet{k}.xml" '
         'ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/>'
@@ -130,7 +156,7 @@ def workbook_bytes(sheets: list[tuple[str, pd.DataFrame]], to_text=str) -> bytes
         archive.writestr("_rels/.rels", root_rels)
         archive.writestr("xl/workbook.xml", workbook)
         archive.writestr("xl/_rels/workbook.xml.rels", workbook_rels)
-        archive.writestr("xl/styles.xml", _STYLES)
-        for k, (_, frame) in enumerate(sheets, start=1):
-            archive.writestr(f"xl/worksheets/sheet{k}.xml", sheet_xml(frame, to_text))
+        archive.writestr("xl/styles.xml", _styles_xml(formats))
+        for k, ((_, frame), styles) in enumerate(zip(sheets, sheet_styles), start=1):
+            archive.writestr(f"xl/worksheets/sheet{k}.xml", sheet_xml(frame, to_text, styles))
     return buffer.getvalue()

@@ -2,7 +2,7 @@
 
 :func:`tradeoff_curve` traces the cost-CO2 frontier by the epsilon-constraint method: its two end points are the
 least-cost run and the least-CO2 run, and every interior point minimises the cost with the city's CO2 held below
-a bound taken evenly between the two. A bound couples the districts, so those points are solved as one linear
+a bound placed where the curve bends most (see :func:`tradeoff_curve_runs`). A bound couples the districts, so those points are solved as one linear
 program (that is what :func:`engine.model.solve.solve_scenario` does whenever a city-wide cap is set).
 
 :func:`co2_price_for_cap` reaches the same capped optimum the other way round: it searches the CO2 price at
@@ -16,7 +16,6 @@ from __future__ import annotations
 import dataclasses
 import math
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -74,7 +73,10 @@ def tradeoff_curve_runs(
 
     Point 0 is the least-cost run (no CO2 bound); the last point is the least-CO2 run (objective ``"co2"``:
     least emissions, then least cost at those emissions); points in between minimise the cost subject to
-    ``CO2 <= eps_k`` with ``eps_k`` evenly spaced from the first point's CO2 down to the last point's.
+    ``CO2 <= eps_k``. Each bound halves, in CO2, the segment of the curve found so far that is longest with CO2
+    and cost scaled to their spans: the points gather where the curve bends (where the abatement cost changes,
+    as it does at the CO2 prices where one supply gives way to another), and a steep last stretch up to the
+    least-CO2 end gets points of its own instead of one long line. The table lists the points by falling CO2.
 
     Parameters
     ----------
@@ -158,19 +160,45 @@ def tradeoff_curve_runs(
     co2_high, co2_low = cheapest.co2_t_per_a, cleanest.co2_t_per_a
     span = co2_high - co2_low
     interior = n_points - 2 if span > 1e-9 * max(1.0, abs(co2_high)) else 0
-    bounds = co2_high - span * np.arange(1, interior + 1) / (interior + 1)
-    for k, bound in enumerate(bounds, start=1):
+    # (co2, cost) of the points solved so far, the two ends first; each new bound bisects (in CO2) the segment
+    # that is longest once CO2 and cost are scaled to the curve's extent, so points gather where the curve
+    # bends, i.e. where the abatement cost changes, instead of evenly in CO2
+    known = [(co2_high, cheapest.total_cost_eur_per_a), (co2_low, cleanest.total_cost_eur_per_a)]
+    capped_rows: list[tuple[float, dict, RunResult]] = []
+    for k in range(1, interior + 1):
         if stopped():
             break
+        bound = _next_bound(known)
         report((k + 1) / n_points, f"Least cost with CO2 <= {bound:,.0f} t/a ({k} of {interior})")
         # solve_scenario treats a cap of 0 as "no cap"; a bound that small is the least-CO2 point anyway
         capped = solve_point("cost", max(float(bound), 1e-6))
-        rows.append(_row(k, "co2_bounded", float(bound), capped))
+        capped_rows.append((float(bound), _row(k, "co2_bounded", float(bound), capped), capped))
+        if capped.solved:
+            known.append((capped.co2_t_per_a, capped.total_cost_eur_per_a))
+        else:
+            known.append((float(bound), math.nan))  # no further bisection next to a failed point
+    for _, row, capped in sorted(capped_rows, key=lambda item: -item[0]):
+        rows.append(row)
         results.append(capped)
     rows.append(_row(len(rows), "co2_optimal", co2_low, cleanest))
     results.append(cleanest)
     report(1.0, "Trade-off curve done")
     return _finish(rows), results
+
+
+def _next_bound(known: list[tuple[float, float]]) -> float:
+    """The CO2 bound of the next point: the CO2 midpoint of the longest segment of the curve so far, with CO2
+    and cost each scaled by their span (segments next to a failed point, cost NaN, are never split)."""
+    points = sorted(known, key=lambda p: -p[0])
+    co2 = np.array([p[0] for p in points], float)
+    cost = np.array([p[1] for p in points], float)
+    co2_span = max(float(co2.max() - co2.min()), 1e-9)
+    finite = cost[np.isfinite(cost)]
+    cost_span = max(float(finite.max() - finite.min()), 1e-9) if len(finite) else 1.0
+    length = np.hypot(np.diff(co2) / co2_span, np.diff(cost) / cost_span)
+    length = np.where(np.isfinite(length), length, -1.0)
+    k = int(np.argmax(length))
+    return float(0.5 * (co2[k] + co2[k + 1]))
 
 
 def _finish(rows: list[dict]) -> pd.DataFrame:

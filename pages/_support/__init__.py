@@ -29,8 +29,11 @@ The pages keep their state under these keys of ``st.session_state`` (plain Pytho
     ``{files digest: Scenario}``: scenarios already read from a saved run's files (for maps and colours).
 ``hm_loaded``
     ``{run id: RunResult}``: saved runs already read from the library in this session.
-``hm_flash``
-    A short message (saved, renamed, deleted ...) shown once on the next page run.
+``hm_flash``, ``hm_flash_error``
+    A short message (saved, renamed, deleted ...; or a refusal) shown once on the next page run.
+``hm_compare``
+    ``{"runs": [run ids], "baseline": run id}``: the comparison's choice, kept while the planner visits other
+    pages (Streamlit forgets a widget's state once its page is left).
 ``hm_shell``, ``hm_goto``
     True once ``app.py`` has set up the navigation in this session; the page to go to when a page was opened by
     its address before that (Streamlit then runs the page file on its own, without the navigation).

@@ -8,6 +8,7 @@ import pandas as pd
 
 from engine.model.results import RunResult
 from engine.outputs.figures import city_levelised_cost_eur_per_mwh
+from engine.outputs.labels import cost_case_label, objective_label
 from engine.studies.fidelity import fidelity_note, lookup_fidelity
 from pages._support.cache import choices_of_run
 
@@ -53,7 +54,7 @@ def describe_choices(result: RunResult) -> str:
     cap = choice["co2_cap_t_per_a"]
     days = choice["typical_days"]
     return (
-        f"Cost case **{markdown_literal(choice['cost_case'])}** · objective **{objective}** · CO2 cap "
+        f"Cost case **{markdown_literal(cost_case_label(choice['cost_case']))}** · objective **{objective}** · CO2 cap "
         f"{f'{cap:,.0f} t/a' if cap else 'none'} · {f'{days} typical days' if days else 'full year'}"
     )
 
@@ -61,7 +62,7 @@ def suggested_run_name(result: RunResult) -> str:
     """A default name for saving: cost case, objective and resolution."""
     days = int(result.settings.get("typical_days", 0) or 0)
     cap = float(result.settings.get("co2_cap_t_per_a", 0) or 0)
-    parts = [result.cost_case, "lowest CO2" if result.objective == "co2" else "lowest cost"]
+    parts = [cost_case_label(result.cost_case), objective_label(result.objective)]
     if cap > 0:
         parts.append(f"cap {cap:,.0f} t/a")
     parts.append(f"{days} typical days" if days else "full year")
@@ -76,3 +77,24 @@ def run_kpis(result: RunResult) -> dict[str, float]:
         "unserved_heat_mwh_per_a": result.unserved_heat_mwh_per_a,
         "levelised_cost_eur_per_mwh": city_levelised_cost_eur_per_mwh(result),
     }
+
+
+def demand_note(scenario, result: RunResult) -> str:
+    """Why the heat demand of a run differs from the sum of the districts' annual demand in the input files.
+
+    The model's demand is the typical days' hourly demand times the days each stands for; the typical days are
+    real days of the year, not rescaled, so their sum differs a little from the annual figure of the files (the
+    full year matches it exactly). Empty when the two agree to 0.05 %.
+    """
+    if scenario is None or result.tables.get("districts") is None:
+        return ""
+    files = float(scenario.districts["heat_demand_mwh_per_a"].sum())
+    model = float(result.heat_demand_mwh_per_a)
+    if files <= 0 or abs(model - files) <= 5e-4 * files:
+        return ""
+    days = int(result.settings.get("typical_days", 0) or 0)
+    why = (f"the {days} typical days each stand for the days like them and are not rescaled, so their sum "
+           "differs from the annual figure; the full year matches it exactly") if days else (
+        "measured hourly demand in the inputs replaces the annual figure")
+    return (f"Heat demand {model:,.0f} MWh/a in this run against {files:,.0f} MWh/a in the district file "
+            f"({100 * (model - files) / files:+.1f} %): {why}.")

@@ -6,6 +6,8 @@ import numpy as np
 import pandas as pd
 
 from engine.model.results import RunResult
+from engine.outputs.formats import format_number, python_format
+from engine.outputs.labels import blank, column_label, cost_case_label, status_label, words
 
 
 def technology_names(technologies: pd.DataFrame | None) -> dict[str, str]:
@@ -16,7 +18,8 @@ def technology_names(technologies: pd.DataFrame | None) -> dict[str, str]:
     return names
 
 def district_results_table(result: RunResult, technologies: pd.DataFrame | None = None) -> pd.DataFrame:
-    """One row per district with planner's headers and units: supply, demand, cost parts, CO2, levelised cost."""
+    """One row per district with planner's headers and units, the key totals first (total cost, levelised cost,
+    CO2, heat demand), then the cost parts."""
     table = result.tables.get("districts")
     if table is None:
         return pd.DataFrame()
@@ -37,15 +40,18 @@ def district_results_table(result: RunResult, technologies: pd.DataFrame | None 
         "levelised cost [€/MWh]": table["levelised_cost_eur_per_mwh"].to_numpy(float),
         "CO2 per MWh [kg/MWh]": table["co2_kg_per_mwh"].to_numpy(float),
     })
-    return _rounded(out)
+    key_first = ["district", "main supply", "total cost [€/a]", "levelised cost [€/MWh]", "CO2 [t/a]",
+                 "heat demand [MWh/a]"]
+    return _rounded(out[key_first + [c for c in out.columns if c not in key_first]])
 
 def supply_results_table(
     result: RunResult, technologies: pd.DataFrame | None = None, all_rows: bool = False
 ) -> pd.DataFrame:
     """Capacity and annual output per district and technology (and well), in the planner's words.
 
-    Rows with neither capacity nor output are left out unless ``all_rows``. Heat stores show their storage
-    capacity in kWh and their net output (discharge minus charge, a small negative number: the store's loss).
+    Rows with neither capacity nor output are left out unless ``all_rows``. Heat stores (known from the catalogue)
+    show their storage capacity in the kWh columns, blank in the kW ones, and their net output (discharge minus
+    charge, a small negative number: the store's loss).
     """
     table = result.tables.get("supply")
     if table is None:
@@ -57,13 +63,25 @@ def supply_results_table(
     names = technology_names(technologies)
     districts = result.tables["districts"]
     district_names = dict(zip(districts["district_id"].astype(str), districts["name"].astype(str)))
+    kinds = {} if technologies is None else dict(zip(technologies["technology_id"].astype(str),
+                                                      technologies["kind"].astype(str)))
+    store = np.array([kinds.get(str(t)) == "heat_store" for t in table["technology_id"]], dtype=bool)
+
+    def power(column: str) -> np.ndarray:
+        return np.where(store, np.nan, table[column].to_numpy(float))
+
+    def energy(column: str) -> np.ndarray:
+        return np.where(store, table[column].to_numpy(float), np.nan)
+
     out = pd.DataFrame({
         "district": [district_names.get(str(d), str(d)) for d in table["district_id"]],
         "technology": [names.get(str(t), str(t)) for t in table["technology_id"]],
-        "well": table["well_id"].astype(str).to_numpy(),
-        "existing [kW]": table["existing_kw"].to_numpy(float),
-        "new [kW]": table["new_kw"].to_numpy(float),
-        "capacity [kW]": table["capacity_kw"].to_numpy(float),
+        "well": [blank(w) if str(w) not in ("", "nan", "None") else "–" for w in table["well_id"]],
+        "capacity [kW]": power("capacity_kw"),
+        "existing [kW]": power("existing_kw"),
+        "new [kW]": power("new_kw"),
+        "store capacity [kWh]": energy("capacity_kw"),
+        "store new [kWh]": energy("new_kw"),
         "heat [MWh/a]": table["heat_mwh_per_a"].to_numpy(float),
         "cooling [MWh/a]": table["cooling_mwh_per_a"].to_numpy(float),
         "share of demand [%]": 100.0 * table["share_of_demand"].to_numpy(float),
@@ -111,3 +129,60 @@ def _rounded(frame: pd.DataFrame) -> pd.DataFrame:
 def table_height(frame: pd.DataFrame, max_rows: int = 25) -> int:
     """Pixel height that shows ``frame`` without an inner scroll bar, up to ``max_rows`` rows."""
     return 38 + 35 * min(len(frame), max_rows)
+
+
+def sweep_display_table(table: pd.DataFrame, scenario=None) -> pd.DataFrame:
+    """A sweep's table for reading: headers in words with units, technology names, numbers in one format."""
+    names = technology_names(scenario.technologies if scenario is not None else None)
+    out = table.drop(columns=[c for c in ("message", "run") if c in table.columns]).copy()
+    headers = {}
+    for column in out.columns:
+        if column.startswith("heat_") and column.endswith("_mwh_per_a"):
+            tech = column[5:-10]
+            headers[column] = f"Heat {names.get(tech, words(tech))} [MWh/a]"
+        else:
+            headers[column] = column_label(column)
+    if "status" in out:
+        out["status"] = [status_label(v) for v in out["status"]]
+    if "cost_case" in out:
+        out["cost_case"] = [cost_case_label(v) for v in out["cost_case"]]
+    if "name" in out:
+        out["name"] = [cost_case_label(v) if ":" not in str(v) else words(v) for v in out["name"]]
+    out = out.rename(columns=headers)
+    return pd.DataFrame({c: [format_number(v, c) if not isinstance(v, str) else blank(v) for v in out[c]]
+                         for c in out.columns})
+
+
+def main_supply_display_table(main: pd.DataFrame, scenario=None) -> pd.DataFrame:
+    """Main supply per district (columns) and run (rows) with district and technology names, "–" for none."""
+    names = technology_names(scenario.technologies if scenario is not None else None)
+    districts = {}
+    if scenario is not None:
+        districts = dict(zip(scenario.districts["district_id"].astype(str), scenario.districts["name"].astype(str)))
+    out = pd.DataFrame({districts.get(str(c), words(c)): [blank(names.get(str(v), v)) for v in main[c]]
+                        for c in main.columns})
+    out.insert(0, "Price future", [cost_case_label(n) if ":" not in str(n) else words(n) for n in main.index])
+    return out
+
+
+def styled(frame: pd.DataFrame, headers: dict | None = None):
+    """``frame`` with readable headers (``headers`` or :func:`engine.outputs.labels.column_label`) and every
+    number in the format of its unit (:mod:`engine.outputs.formats`), blanks as "–"; a pandas Styler, so the
+    dashboard still sorts by the numbers."""
+    renamed = frame.rename(columns={c: (headers or {}).get(c, column_label(c) if "_" in str(c) else c)
+                                    for c in frame.columns})
+    renamed = blanks_as_text(renamed)
+    formats = {c: python_format(c) for c in renamed.columns if renamed[c].dtype.kind == "f"}
+    return renamed.style.format(formats, na_rep="–")
+
+
+def blanks_as_text(frame: pd.DataFrame) -> pd.DataFrame:
+    """Number columns with a blank cell as text in the format of their unit, blanks as "–".
+
+    Streamlit's grid prints a blank number as "None" whatever a Styler says; a column of text does not.
+    """
+    out = frame.copy()
+    for column in out.columns:
+        if out[column].dtype.kind == "f" and out[column].isna().any():
+            out[column] = [format_number(v, column) for v in out[column]]
+    return out
