@@ -26,6 +26,7 @@ PAGE_TITLES = {
     SHARE_PAGE: ("Share", ":material/ios_share:"),
     "pages/5_Groundwater.py": ("Groundwater check", ":material/water_drop:"),
     "pages/6_Trade_offs_and_sweeps.py": ("Trade-offs and sweeps", ":material/ssid_chart:"),
+    "pages/7_Heat_plan.py": ("Heat plan", ":material/event_note:"),
 }
 HERE = Path(__file__).resolve().parent
 
