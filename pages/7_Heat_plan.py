@@ -12,7 +12,9 @@ from streamlit_folium import st_folium
 from engine import cautions
 from engine.outputs.figures import FIGURE_CONFIG
 from engine.outputs.plan_figures import (
+    AREA_LABELS,
     co2_path_figure,
+    designation_legend_html,
     designation_map,
     designation_table,
     plan_capacity_figure,
@@ -125,7 +127,9 @@ with tab_areas:
     chosen_cases = left.multiselect("Cost cases for the win share", cases, default=cases, key="plan_cost_cases")
     years = [SCENARIO_AS_GIVEN] + milestones
     year = right.selectbox("Designation for", years, key="plan_year",
-                           format_func=lambda y: year_label(y, scenario.settings.target_year))
+                           format_func=lambda y: year_label(y, scenario.settings.target_year),
+                           help="The scenario as given has no pathway trajectories; a milestone year takes that "
+                                "year's demand, prices, CO2 cap and network reach from the pathway.")
     d_key = designation_key(inputs.digest, chosen_cases, days, slack, year)
     show_cancelled("plan_designation_job", "designation")
     if st.button("Compute the designation", type="primary", icon=":material/map:", key="plan_run_designation",
@@ -143,22 +147,37 @@ with tab_areas:
         st.info(f"Not computed for these choices yet: {len(chosen_cases)} cost case(s) and the near-optimal "
                 "alternatives; the demo city at 4 typical days takes about half a minute.")
     else:
-        st_folium(designation_map(scenario, designation), height=560, use_container_width=True,
-                  returned_objects=[], key="plan_map")
+        map_column, legend_column = st.columns([3, 1])
+        with map_column:
+            st_folium(designation_map(scenario, designation, legend=False), height=560, use_container_width=True,
+                      returned_objects=[], key="plan_map")
+        legend_column.html("<div style='font:13px/1.45 sans-serif'>"
+                           + designation_legend_html(designation.table["supply_area"]) + "</div>")
         st.caption("Colour: the supply area. Opacity and the number after the name: the grade (1 very likely "
                    "suitable to 4 very likely unsuitable). Dashed outline: under review. Hover a district for its "
                    "evidence.")
         table = designation_table(designation, scenario)
-        st.dataframe(table, hide_index=True, width="stretch", column_config={
+        shown = table.drop(columns=["How the grade came about"])
+        st.dataframe(shown, hide_index=True, width="stretch", height=38 + 35 * len(table), column_config={
+            "District": st.column_config.TextColumn(pinned=True, width="medium"),
+            "Supply area": st.column_config.TextColumn(width="medium"),
+            "Grade": st.column_config.TextColumn(width="medium"),
+            "Network share range": st.column_config.TextColumn(
+                width="medium", help="Lowest and highest network share of the district's heat among the plans "
+                                     "within the cost slack (near-optimal alternatives)."),
             "Win share": st.column_config.ProgressColumn("Win share", min_value=0.0, max_value=1.0, format="%.2f",
+                                                         width="small",
                                                          help="Share of the cost cases in which this supply "
                                                               "carries most of the district's heat."),
             "Margin [EUR/MWh]": st.column_config.TextColumn(
-                help="Extra levelised cost of the next-best supply in the first cost case."),
-            "How the grade came about": st.column_config.TextColumn(width="large"),
+                width="small", help="Extra levelised cost of the next-best supply in the first cost case."),
         })
+        with st.expander("How each grade came about", expanded=True):
+            st.markdown("\n".join(f"- **{markdown_literal(name)}**: {markdown_literal(text)}"
+                                   for name, text in zip(table["District"], table["How the grade came about"])))
         with st.expander("Winner in each cost case"):
-            st.dataframe(designation.winners, width="stretch")
+            names = dict(zip(scenario.districts["district_id"], scenario.districts["name"]))
+            st.dataframe(designation.winners.rename(index=names).replace(AREA_LABELS), width="stretch")
 
 plan = heat_plan(scenario, pathway, designation, year if designation is not None else None,
                  scenario.settings.target_year)

@@ -209,7 +209,7 @@ def test_svg_map_and_legend_explain_both_channels_and_escape_names():
     svg = svg_designation_map(scenario, designation, width_px=480, title="Designation")
     for g in (1, 2, 3, 4):
         assert f"fill-opacity='{GRADE_OPACITY[g]}'" in svg
-        assert f"District &lt;{g}&gt; ({g})" in svg
+        assert f"District &lt;{g}&gt; · {g}" in svg
         assert GRADE_NAMES[g] in svg
     assert "<4>" not in svg
     width, height = map(float, re.search(r"<svg width='(\d+)' height='(\d+)'", svg).groups())
@@ -237,8 +237,8 @@ def test_designation_table_reads_for_people():
     assert list(table["District"]) == [f"District <{g}>" for g in (1, 2, 3, 4)]
     assert table.loc[0, "Grade"] == "1: very likely suitable"
     assert table.loc[0, "Margin [EUR/MWh]"] == "no other supply possible"
-    assert table.loc[0, "Network share within the slack"] == "70 to 100 %"
-    assert table.loc[3, "Network share within the slack"] == "network does not reach it"
+    assert table.loc[0, "Network share range"] == "70 to 100 %"
+    assert table.loc[3, "Network share range"] == "network does not reach it"
     assert table.loc[2, "Supply area"] == "Under review (candidate: other individual supply)"
     assert table.loc[1, "How the grade came about"] == "explained 2"
 

@@ -199,8 +199,8 @@ def plan_cost_figure(pathway) -> go.Figure:
     if empty is not None:
         return empty
     x = _years(pathway)
-    fig = make_subplots(rows=1, cols=2, subplot_titles=("Annual cost [M€/a]", "Investment in the milestone year [M€]"),
-                        horizontal_spacing=0.12)
+    fig = make_subplots(rows=1, cols=2, subplot_titles=("Annual cost", "Investment built in the year"),
+                        horizontal_spacing=0.14)
     parts = {part: [pathway.year_results[y].cost_breakdown_eur_per_a()[part] / 1e6 for y in pathway.years]
              for part in COST_PARTS}
     for part, values in parts.items():
@@ -213,13 +213,15 @@ def plan_cost_figure(pathway) -> go.Figure:
                          marker_color="#56B4E9", marker_line={"color": BLUE, "width": 1.5},
                          hovertemplate="Investment: %{y:,.2f} M€<extra>%{x}</extra>"), row=1, col=2)
     pv = pathway.present_value_eur
-    subtitle = (f"Present value of the pathway at {pathway.base_year}: {pv / 1e6:,.1f} M€ "
-                "(discounted, net of the remaining value of plant)") if math.isfinite(pv) else None
-    fig.update_layout(template=_TEMPLATE, barmode="relative", height=440, title=_title(title, subtitle),
-                      legend={"orientation": "h", "yanchor": "top", "y": -0.16, "x": 0},
-                      margin={"t": 100, "l": 70, "r": 20, "b": 70})
-    fig.update_xaxes(type="category", title_text="Milestone year")
+    subtitle = (f"Present value at {pathway.base_year}: {pv / 1e6:,.1f} M€, net of remaining value"
+                if math.isfinite(pv) else None)
+    fig.update_layout(template=_TEMPLATE, barmode="relative", height=460, title=_title(title, subtitle),
+                      legend={"orientation": "h", "yanchor": "top", "y": -0.12, "x": 0},
+                      margin={"t": 110, "l": 70, "r": 20, "b": 40})
+    fig.update_xaxes(type="category")
     fig.update_yaxes(tickformat=",")
+    fig.update_yaxes(title_text="Annual cost [M€/a]", row=1, col=1)
+    fig.update_yaxes(title_text="Investment [M€]", row=1, col=2)
     return fig
 
 
@@ -257,7 +259,7 @@ def designation_table(designation, scenario) -> pd.DataFrame:
             "Grade": f"{grade}: {GRADE_LABELS.get(grade, '')}",
             "Win share": float(rec["win_share"]),
             "Margin [EUR/MWh]": _margin_text(rec["lcoh_margin_eur_per_mwh"]),
-            "Network share within the slack": network,
+            "Network share range": network,
             "How the grade came about": str(rec.get("explanation", "")),
         })
     return pd.DataFrame(rows)
@@ -280,13 +282,13 @@ def designation_values(scenario, designation) -> pd.DataFrame:
         grades.append(int(table.at[did, "grade"]))
         row = reading.loc[did]
         tips.append(f"{name}\n{row['Supply area']}, grade {row['Grade']}\nwin share {row['Win share']:.2f}, "
-                    f"margin {row['Margin [EUR/MWh]']} EUR/MWh\nnetwork share: {row['Network share within the slack']}")
+                    f"margin {row['Margin [EUR/MWh]']} EUR/MWh\nnetwork share: {row['Network share range']}")
     out["area"] = areas
     out["grade"] = grades
     out["color"] = [AREA_COLORS.get(a, "#DDDDDD") for a in areas]
     out["opacity"] = [GRADE_OPACITY.get(g, 0.3) for g in grades]
     out["dashed"] = [a == "under_review" for a in areas]
-    out["label"] = [f"{n} ({g})" if g else str(n) for n, g in zip(out["name"], grades)]
+    out["label"] = [f"{n} · {g}" if g else str(n) for n, g in zip(out["name"], grades)]
     out["tip"] = tips
     return out.reset_index(drop=True)
 
@@ -298,17 +300,18 @@ def designation_legend_html(areas) -> str:
         + "</tr>"
     rows = []
     for area in areas:
+        red, green, blue = (int(AREA_COLORS[area][i:i + 2], 16) for i in (1, 3, 5))
+        border = "dashed" if area == "under_review" else "solid"
         cells = "".join(
-            f"<td style='padding:1px'><svg width='24' height='16'><rect x='1' y='1' width='22' height='14' "
-            f"fill='{AREA_COLORS[area]}' fill-opacity='{o}' stroke='#333' "
-            f"stroke-dasharray='{'3 2' if area == 'under_review' else 'none'}'/></svg></td>"
+            f"<td style='padding:1px 2px'><span style='display:inline-block;width:22px;height:14px;"
+            f"border:1px {border} #333;background:rgba({red},{green},{blue},{o})'></span></td>"
             for o in GRADE_OPACITY.values())
         rows.append(f"<tr><td style='padding-right:6px'>{escape(AREA_LABELS[area])}</td>{cells}</tr>")
     grades = "<br>".join(f"<b>{g}</b> {escape(t)}" for g, t in GRADE_LABELS.items())
     return ("<div style='font-weight:bold;margin-bottom:4px'>Supply area (colour) and grade (opacity)</div>"
             f"<table style='border-collapse:collapse;font-size:12px'>{head}{''.join(rows)}</table>"
             f"<div style='margin-top:4px'>Grade of the area's supply:<br>{grades}</div>"
-            "<div style='margin-top:4px;color:#444'>The grade is also written after the district's name. "
+            "<div style='margin-top:4px;color:#444'>The grade is also written after the district's name (Name · 2). "
             "Dashed outline: under review, the evidence carries no designation.</div>"
             f"<div style='margin-top:4px;color:#8a3b00;max-width:240px'>{escape(cautions.HEAT_PLAN_SHORT)}</div>")
 
@@ -318,8 +321,11 @@ def _centre(geometry):
     return float(np.mean([p[0] for p in outer])), float(np.mean([p[1] for p in outer]))
 
 
-def designation_map(scenario, designation, legend_open: bool = True):
-    """Interactive folium map of the designation (drawn like :func:`engine.outputs.maps.district_map`, offline)."""
+def designation_map(scenario, designation, legend_open: bool = True, legend: bool = True):
+    """Interactive folium map of the designation (drawn like :func:`engine.outputs.maps.district_map`, offline).
+
+    ``legend=False`` leaves the legend off the map, for a page that shows :func:`designation_legend_html` beside it.
+    """
     import folium  # imported here as in engine.outputs.maps: only the dashboard's map needs folium
     from branca.element import MacroElement, Template
 
@@ -345,6 +351,8 @@ def designation_map(scenario, designation, legend_open: bool = True):
             html=f"<div style='font:12px sans-serif;text-align:center;color:#111;text-shadow:0 0 3px #fff,0 0 3px #fff'>"
                  f"{escape(rec['label'])}</div>")).add_to(fmap)
     fmap.fit_bounds([[south, west], [north, east]])
+    if not legend:
+        return fmap
     control = MacroElement()
     control._template = Template("""
         {% macro script(this, kwargs) %}

@@ -42,8 +42,8 @@ def designation_key(input_digest: str, cost_cases, typical_days: int, slack_pct:
 
 def year_label(year, target_year) -> str:
     if year == SCENARIO_AS_GIVEN:
-        return f"{target_year}: the scenario as given (without the pathway's trajectories)"
-    return f"{year}: as the pathway has it (demand, prices, caps and network reach of that year)"
+        return f"{target_year}: the scenario as given"
+    return f"{year}: as in the pathway"
 
 
 def pathway_job(scenario, cost_case: str, myopic: bool, typical_days: int):
