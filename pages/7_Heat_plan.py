@@ -160,7 +160,7 @@ with tab_areas:
         shown = table.drop(columns=["How the grade came about"])
         st.dataframe(shown, hide_index=True, width="stretch", height=38 + 35 * len(table), column_config={
             "District": st.column_config.TextColumn(pinned=True, width="medium"),
-            "Supply area": st.column_config.TextColumn(width="medium"),
+            "Supply area": st.column_config.TextColumn(width=260),
             "Grade": st.column_config.TextColumn(width="medium"),
             "Network share range": st.column_config.TextColumn(
                 width="medium", help="Lowest and highest network share of the district's heat among the plans "
@@ -170,7 +170,7 @@ with tab_areas:
                                                          help="Share of the cost cases in which this supply "
                                                               "carries most of the district's heat."),
             "Margin [EUR/MWh]": st.column_config.TextColumn(
-                width="small", help="Extra levelised cost of the next-best supply in the first cost case."),
+                width=120, help="Extra levelised cost of the next-best supply in the first cost case."),
         })
         with st.expander("How each grade came about", expanded=True):
             st.markdown("\n".join(f"- **{markdown_literal(name)}**: {markdown_literal(text)}"

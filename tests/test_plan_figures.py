@@ -239,7 +239,7 @@ def test_designation_table_reads_for_people():
     assert table.loc[0, "Margin [EUR/MWh]"] == "no other supply possible"
     assert table.loc[0, "Network share range"] == "70 to 100 %"
     assert table.loc[3, "Network share range"] == "network does not reach it"
-    assert table.loc[2, "Supply area"] == "Under review (candidate: other individual supply)"
+    assert table.loc[2, "Supply area"] == "Under review (other individual supply)"
     assert table.loc[1, "How the grade came about"] == "explained 2"
 
 

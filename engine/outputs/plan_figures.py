@@ -183,7 +183,7 @@ def co2_path_figure(pathway) -> go.Figure:
                                  marker={"symbol": "line-ew-open", "size": 44, "color": "#D55E00",
                                          "line": {"width": 4, "color": "#D55E00"}},
                                  hovertemplate="Cap: %{y:,.0f} t/a<extra>%{x}</extra>"))
-    subtitle = "City-wide CO2 [t/a]" + ("; bars: the cap of each year" if caps else "; no year has a CO2 cap")
+    subtitle = "City-wide CO2 [t/a]" + ("; orange marks: the cap of each year" if caps else "; no year has a CO2 cap")
     fig.update_layout(template=_TEMPLATE, height=400, title=_title(title, subtitle),
                       legend={"orientation": "h", "yanchor": "top", "y": -0.18, "x": 0},
                       margin={"t": 80, "l": 70, "r": 20, "b": 60})
@@ -250,7 +250,7 @@ def designation_table(designation, scenario) -> pd.DataFrame:
         candidate = str(rec.get("candidate", rec["supply_area"]))
         area = AREA_LABELS.get(rec["supply_area"], rec["supply_area"])
         if rec["supply_area"] == "under_review":
-            area += f" (candidate: {AREA_LABELS.get(candidate, candidate.replace('_', ' ')).lower()})"
+            area += f" ({AREA_LABELS.get(candidate, candidate.replace('_', ' ')).lower()})"
         network = (f"{100 * rec['network_share_min']:.0f} to {100 * rec['network_share_max']:.0f} %" if did in reached
                    else "network does not reach it")
         rows.append({

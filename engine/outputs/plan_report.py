@@ -50,7 +50,8 @@ def _table(table: pd.DataFrame) -> str:
     head = "".join(f"<th>{escape(c)}</th>" for c in table.columns)
     rows = []
     for values in table.itertuples(index=False):
-        cells = "".join(f"<td>{escape(f'{v:.2f}' if isinstance(v, float) else v)}</td>" for v in values)
+        cells = "".join(f"<td class='num'>{v:.2f}</td>" if isinstance(v, float) else f"<td>{escape(v)}</td>"
+                        for v in values)
         rows.append(f"<tr>{cells}</tr>")
     return (f"<div class='scroll'><table class='data'><thead><tr>{head}</tr></thead>"
             f"<tbody>{''.join(rows)}</tbody></table></div>")
