@@ -222,9 +222,12 @@ def test_svg_map_and_legend_explain_both_channels_and_escape_names():
 
 
 def test_folium_map_renders_offline_with_the_legend():
-    """The folium map renders, loads no script from the internet and carries the legend of both channels."""
+    """The folium map renders, loads no script from the internet and carries the legend of both channels; a
+    name with a template-literal placeholder is escaped (folium puts tooltips into JavaScript templates)."""
     scenario, designation = _graded_city()
+    scenario.districts.loc[0, "name"] = "Quarter `${document.cookie}`"
     page = designation_map(scenario, designation).get_root().render()
+    assert "${document.cookie}" not in page and "Quarter &#96;&#36;{document.cookie}&#96;" in page
     assert "Supply area (colour) and grade (opacity)" in page
     assert not re.search(r"<script[^>]+src=['\"]https?://", page)
 

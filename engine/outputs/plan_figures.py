@@ -23,6 +23,7 @@ from plotly.subplots import make_subplots
 from engine import cautions
 from engine.outputs.figures import _empty_figure, _title, escape, technology_catalogue
 from engine.outputs.maps import _bounds, _rings, _rings_points, use_bundled_leaflet
+from engine.outputs.maps import escape as map_escape
 from engine.outputs.palette import (
     BLUE,
     COST_PART_COLORS,
@@ -112,7 +113,8 @@ def plan_capacity_figure(pathway, technologies=None) -> go.Figure:
         "color": "#9A9A9A", "pattern": {"shape": "/", "fgcolor": "#FFFFFF", "solidity": 0.35}},
         hoverinfo="skip"))
     fig.update_layout(template=_TEMPLATE, barmode="stack", height=440,
-                      title=_title(title, "Standing in each milestone year [MW]; heat stores and cooling plant not shown"),
+                      title=_title(title, "Standing in each milestone year [MW]; heat stores and cooling plant "
+                                          "not shown"),
                       legend={"orientation": "v", "x": 1.01, "xanchor": "left", "y": 1.0, "traceorder": "normal"},
                       margin={"t": 80, "l": 70, "r": 20, "b": 50})
     fig.update_xaxes(title_text="Milestone year", type="category")
@@ -193,7 +195,7 @@ def co2_path_figure(pathway) -> go.Figure:
 
 
 def plan_cost_figure(pathway) -> go.Figure:
-    """Left: annual cost per milestone year by part [M€/a]; right: overnight investment of that year's builds [M€]."""
+    """Left: annual cost per milestone year by part [M€/a]; right: overnight investment of its builds [M€]."""
     title = "Annual cost and investment per period"
     empty = _no_pathway(pathway, title)
     if empty is not None:
@@ -296,8 +298,8 @@ def designation_values(scenario, designation) -> pd.DataFrame:
 def designation_legend_html(areas) -> str:
     """Legend of both channels: one row per supply area (colour) and one column per grade (opacity)."""
     areas = [a for a in AREA_LABELS if a in set(areas)] or list(AREA_LABELS)
-    head = "<tr><td></td>" + "".join(f"<td style='text-align:center;font-weight:bold'>{g}</td>" for g in GRADE_OPACITY) \
-        + "</tr>"
+    head = ("<tr><td></td>" + "".join(f"<td style='text-align:center;font-weight:bold'>{g}</td>" for g in GRADE_OPACITY)
+            + "</tr>")
     rows = []
     for area in areas:
         red, green, blue = (int(AREA_COLORS[area][i:i + 2], 16) for i in (1, 3, 5))
@@ -306,14 +308,14 @@ def designation_legend_html(areas) -> str:
             f"<td style='padding:1px 2px'><span style='display:inline-block;width:22px;height:14px;"
             f"border:1px {border} #333;background:rgba({red},{green},{blue},{o})'></span></td>"
             for o in GRADE_OPACITY.values())
-        rows.append(f"<tr><td style='padding-right:6px'>{escape(AREA_LABELS[area])}</td>{cells}</tr>")
-    grades = "<br>".join(f"<b>{g}</b> {escape(t)}" for g, t in GRADE_LABELS.items())
+        rows.append(f"<tr><td style='padding-right:6px'>{map_escape(AREA_LABELS[area])}</td>{cells}</tr>")
+    grades = "<br>".join(f"<b>{g}</b> {map_escape(t)}" for g, t in GRADE_LABELS.items())
     return ("<div style='font-weight:bold;margin-bottom:4px'>Supply area (colour) and grade (opacity)</div>"
             f"<table style='border-collapse:collapse;font-size:12px'>{head}{''.join(rows)}</table>"
             f"<div style='margin-top:4px'>Grade of the area's supply:<br>{grades}</div>"
             "<div style='margin-top:4px;color:#444'>The grade is also written after the district's name (Name · 2). "
             "Dashed outline: under review, the evidence carries no designation.</div>"
-            f"<div style='margin-top:4px;color:#8a3b00;max-width:240px'>{escape(cautions.HEAT_PLAN_SHORT)}</div>")
+            f"<div style='margin-top:4px;color:#8a3b00;max-width:240px'>{map_escape(cautions.HEAT_PLAN_SHORT)}</div>")
 
 
 def _centre(geometry):
@@ -342,14 +344,15 @@ def designation_map(scenario, designation, legend_open: bool = True, legend: boo
         shape = folium.GeoJson({"type": "Feature", "geometry": rec["geometry"], "properties": {}},
                                style_function=lambda _f, s=style: s,
                                highlight_function=lambda _f: {"weight": 3, "color": "#000000"})
-        tip = escape(rec["tip"]).replace("\n", "<br>")
+        tip = map_escape(rec["tip"]).replace("\n", "<br>")
         folium.Tooltip(tip).add_to(shape)
         shape.add_to(fmap)
         lon, lat = _centre(rec["geometry"])
         folium.Marker((lat, lon), icon=folium.DivIcon(
             icon_size=(160, 18), icon_anchor=(80, 9),
-            html=f"<div style='font:12px sans-serif;text-align:center;color:#111;text-shadow:0 0 3px #fff,0 0 3px #fff'>"
-                 f"{escape(rec['label'])}</div>")).add_to(fmap)
+            html="<div style='font:12px sans-serif;text-align:center;color:#111;"
+                 "text-shadow:0 0 3px #fff,0 0 3px #fff'>"
+                 f"{map_escape(rec['label'])}</div>")).add_to(fmap)
     fmap.fit_bounds([[south, west], [north, east]])
     if not legend:
         return fmap
@@ -405,13 +408,13 @@ def svg_designation_map(scenario, designation, width_px: int = 640, title: str |
             continue
         dash = " stroke-dasharray='6 4' stroke-width='2'" if rec["dashed"] else " stroke-width='1'"
         shapes.append(f"<path d='{' '.join(path)}' fill='{rec['color']}' fill-opacity='{rec['opacity']}' "
-                      f"stroke='#333'{dash} fill-rule='evenodd'><title>{escape(rec['tip'])}</title></path>")
+                      f"stroke='#333'{dash} fill-rule='evenodd'><title>{map_escape(rec['tip'])}</title></path>")
         if list(_rings_points(rec["geometry"])):
             x, y = xy(*_centre(rec["geometry"]))
             labels.append(f"<text x='{x:.1f}' y='{y:.1f}' text-anchor='middle' font-size='11' "
                           f"style='paint-order:stroke;stroke:#fff;stroke-width:3px' fill='#111'>"
-                          f"{escape(rec['label'])}</text>")
-    heading = f"<div style='font-weight:bold;margin:4px 0'>{escape(title)}</div>" if title else ""
+                          f"{map_escape(rec['label'])}</text>")
+    heading = f"<div style='font-weight:bold;margin:4px 0'>{map_escape(title)}</div>" if title else ""
     svg = (f"<svg width='{width_px:.0f}' height='{height_px:.0f}' viewBox='0 0 {width_px:.0f} {height_px:.0f}' "
            "role='img' style='background:#f4f4f4;border:1px solid #ccc;font-family:sans-serif'>"
            + "".join(shapes) + "".join(labels) + "</svg>")
