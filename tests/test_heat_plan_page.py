@@ -44,10 +44,20 @@ def test_heat_plan_page_computes_the_pathway_and_the_designation(tmp_path, monke
     assert not at.exception, at.exception
     assert not at.error, [e.value for e in at.error]
     [pathway] = at.session_state["hm_plan_pathways"].values()
+    assert pathway.mode == "foresight"
     reference = solve_pathway(load_scenario(DEMO_DIR), typical_days=DAYS, workers=1)
     assert list(pathway.summary["total_cost_eur_per_a"]) == pytest.approx(
         list(reference.summary["total_cost_eur_per_a"]), rel=1e-6)
     assert "present value" in _texts(at)
+    # myopic: a second pathway in the cache; planning with foresight is never dearer than year by year (the
+    # myopic plan is one of the plans the foresight LP may choose, so its present value bounds the optimum)
+    at.radio(key="plan_mode").set_value("myopic").run()
+    at.button(key="plan_run_pathway").click().run()
+    assert not at.exception, at.exception
+    assert not at.error, [e.value for e in at.error]
+    by_mode = {p.mode: p for p in at.session_state["hm_plan_pathways"].values()}
+    assert set(by_mode) == {"foresight", "myopic"}
+    assert by_mode["foresight"].present_value_eur <= by_mode["myopic"].present_value_eur * (1 + 1e-9)
 
     at.button(key="plan_run_designation").click().run()
     assert not at.exception, at.exception
