@@ -160,8 +160,8 @@ with tab_areas:
         shown = table.drop(columns=["How the grade came about"])
         st.dataframe(shown, hide_index=True, width="stretch", height=38 + 35 * len(table), column_config={
             "District": st.column_config.TextColumn(pinned=True, width="medium"),
-            "Supply area": st.column_config.TextColumn(width=260),
-            "Grade": st.column_config.TextColumn(width="medium"),
+            "Supply area": st.column_config.TextColumn(width=250),
+            "Grade": st.column_config.TextColumn(width=170),
             "Network share range": st.column_config.TextColumn(
                 width="medium", help="Lowest and highest network share of the district's heat among the plans "
                                      "within the cost slack (near-optimal alternatives)."),
