@@ -20,6 +20,7 @@ COMPARE_PAGE = "pages/3_Compare_runs.py"
 SHARE_PAGE = "pages/4_Share.py"
 GROUNDWATER_PAGE = "pages/5_Groundwater.py"
 TRADEOFF_PAGE = "pages/6_Trade_offs_and_sweeps.py"
+HEAT_PLAN_PAGE = "pages/7_Heat_plan.py"
 # Titles and icons of the known pages; any other pages/*.py joins the navigation under its file name.
 PAGE_TITLES = {
     PLAN_PAGE: ("Plan a run", ":material/tune:"),
@@ -28,6 +29,7 @@ PAGE_TITLES = {
     SHARE_PAGE: ("Share", ":material/ios_share:"),
     GROUNDWATER_PAGE: ("Groundwater check", ":material/water_drop:"),
     TRADEOFF_PAGE: ("Trade-offs and sweeps", ":material/ssid_chart:"),
+    HEAT_PLAN_PAGE: ("Heat plan", ":material/event_note:"),
 }
 HERE = Path(__file__).resolve().parent
 
@@ -72,6 +74,10 @@ def overview() -> None:
     steps[2].page_link(TRADEOFF_PAGE, label="6 · Trade-offs and sweeps", icon=":material/ssid_chart:")
     steps[2].caption("What each tonne of CO2 less costs; how prices change the plan; how close typical days come to "
                      "the full year.")
+    steps = st.columns(3)
+    steps[0].page_link(HEAT_PLAN_PAGE, label="7 · Heat plan", icon=":material/event_note:")
+    steps[0].caption("The milestone years to the target year, and a proposed supply area with its likelihood for "
+                     "every district.")
 
     st.subheader("Your library of saved runs")
     try:

@@ -36,3 +36,13 @@ PLUME = (
     "licensed engineers."
 )
 """The first note of every plume result (:func:`engine.physics.plume.validity_notes`)."""
+
+HEAT_PLAN = (
+    "The heat plan is screening-level: the pathway and the supply areas are planning proposals for the "
+    "municipality, the network operator and the local authorities to decide, not decisions. Investments, wells and "
+    "networks must be checked against local codes, with the water authority and by licensed engineers."
+)
+"""The heat-plan page and the report's heat-plan chapter."""
+
+HEAT_PLAN_SHORT = "A designation is a screening-level planning proposal, not a decision."
+"""The line under the designation map's legend."""

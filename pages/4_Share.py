@@ -54,11 +54,16 @@ else:
             title = st.text_input("Title", value="Heat plan scenarios"
                                   + (f" – {scenario.settings.name}" if scenario is not None else ""),
                                   key="share_title")
+            plan = state.get("hm_heat_plan")
+            if plan is not None and not st.checkbox("Include the heat plan computed in this session",
+                                                    value=True, key="share_heat_plan"):
+                plan = None
             if scenario is None:
                 st.info("The scenario files of the first run are not available, so no report can be written.")
             else:
                 st.download_button(
-                    "Download the HTML summary", data=lambda: html_report(results, scenario, technologies, title),
+                    "Download the HTML summary",
+                    data=lambda: html_report(results, scenario, technologies, title, heat_plan=plan),
                     file_name=f"{stem}.html", mime="text/html", icon=":material/description:",
                     key="share_html", on_click="ignore",
                 )

@@ -40,6 +40,7 @@ from engine.outputs.figures import (
 from engine import cautions
 from engine.outputs.labels import AQUIFER_LABELS, cost_case_label, objective_label, status_label, words
 from engine.outputs.maps import shared_value_range, svg_district_map
+from engine.outputs.plan_report import HeatPlan, heat_plan_chapter
 from engine.model.results import RunResult
 
 _STYLE = """
@@ -224,7 +225,8 @@ def cost_case_table(results: Mapping[str, RunResult], scenario) -> pd.DataFrame:
     return pd.DataFrame(rows)
 
 
-def html_report(results: Mapping[str, RunResult], scenario, technologies=None, title: str | None = None) -> str:
+def html_report(results: Mapping[str, RunResult], scenario, technologies=None, title: str | None = None,
+                heat_plan: HeatPlan | None = None) -> str:
     """The report as one HTML document (a string); write it to a ``.html`` file to share it.
 
     Parameters
@@ -237,6 +239,8 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
         Catalogue for names and colours; defaults to ``scenario.technologies``.
     title : str, optional
         Defaults to "Heat supply screening: <scenario name>".
+    heat_plan : HeatPlan, optional
+        A pathway and/or designation: the report gains a heat-plan chapter (:mod:`engine.outputs.plan_report`).
     """
     if not isinstance(results, Mapping) or not results:
         raise ValueError("results: expected a non-empty dict of run name -> RunResult")
@@ -255,8 +259,9 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
         f"<div class='caution'><b>Caution.</b> {escape(cautions.RESULTS)}</div>",
         "<nav>" + "".join(f"<a href='#{a}'>{t}</a>" for a, t in (
             ("overview", "Overview"), ("differences", "Differences"), ("costs", "Costs"), ("supply", "Supply"),
-            ("runs", "Runs"), ("duration", "Load duration"), ("assumptions", "Assumptions"),
-            ("cautions", "Cautions"))) + "</nav>",
+            ("runs", "Runs"), ("duration", "Load duration"))
+            + ((("heatplan", "Heat plan"),) if heat_plan is not None and not heat_plan.empty else ())
+            + (("assumptions", "Assumptions"), ("cautions", "Cautions"))) + "</nav>",
     ]
 
     kpi = kpi_table(runs, technologies)
@@ -314,6 +319,9 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
 
     body.append("<h2 id='duration'>Load duration</h2>")
     body.append(_figure_html(load_duration_figure(solved, technologies=technologies)))
+
+    if heat_plan is not None and not heat_plan.empty:
+        body.append(heat_plan_chapter(heat_plan, technologies))
 
     body.append("<h2 id='assumptions'>Assumptions</h2>")
     body += ["<h3>Run settings</h3>", _table_html(assumptions_table(runs, scenario))]

@@ -15,6 +15,7 @@ BUILDINGS_FILE = "buildings.csv"
 HEAT_DEMAND_HOURLY_FILE = "heat_demand_hourly.csv"
 GROUNDWATER_TEMP_HOURLY_FILE = "groundwater_temp_hourly.csv"
 COST_CASES_FILE = "cost_cases.toml"
+PATHWAY_FILE = "pathway.csv"
 
 REQUIRED_FILES = (SCENARIO_FILE, DISTRICTS_FILE, TECHNOLOGIES_FILE, HOURLY_FILE)
 """Files every scenario folder holds."""
@@ -26,6 +27,7 @@ OPTIONAL_FILES = (
     HEAT_DEMAND_HOURLY_FILE,
     GROUNDWATER_TEMP_HOURLY_FILE,
     COST_CASES_FILE,
+    PATHWAY_FILE,
 )
 """Files a scenario folder may hold in addition."""
 

@@ -20,9 +20,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from engine.scenario.files import PATHWAY_FILE
 from engine.scenario.problems import InputError, Problem
 
-PATHWAY_FILE = "pathway.csv"
 SCENARIO_FILE = "scenario.toml"
 DISTRICT_TECHNOLOGIES_FILE = "district_technologies.csv"
 RETIREMENT_COLUMN = "retirement_year"

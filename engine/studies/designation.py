@@ -47,6 +47,7 @@ import pandas as pd
 from engine.model.formulation import build_model
 from engine.model.prepare import prepare_run
 from engine.model.solve import run_settings
+from engine.progress import JobCancelled
 from engine.scenario.inputs import Scenario
 from engine.scenario.problems import InputError, Problem
 from engine.studies.alternatives import DEFAULT_SLACK_PCT, near_optimal_ranges
@@ -175,6 +176,11 @@ def forced_costs(prepared, district: int, majority_share: float) -> tuple[dict, 
     return out, demand_kwh / 1000.0
 
 
+def _check(cancel) -> None:
+    if cancel is not None and cancel():
+        raise JobCancelled("the designation was cancelled")
+
+
 @dataclass
 class Designation:
     """The designation of every district and the evidence behind it (plain tables for a page or a report)."""
@@ -205,10 +211,12 @@ def designate(
     workers: int | None = None,
     scheduler=None,
     progress=None,
+    cancel=None,
 ) -> Designation:
     """Designate every district of ``scenario`` (see the module docstring for the rule).
 
-    ``cost_cases``: names (default: all of the scenario's, "reference" first when present).
+    ``cost_cases``: names (default: all of the scenario's, "reference" first when present). ``cancel()`` is
+    checked by the sweep and between the steps; once it returns True a :class:`JobCancelled` is raised.
     """
     started = time.perf_counter()
     report = progress or (lambda share, text: None)
@@ -224,16 +232,18 @@ def designate(
     t = thresholds
     report(0.02, f"Solving {len(names)} cost case(s)")
     outcome = run_sweep(scenario, tasks_from_cost_cases(scenario, names), typical_days=typical_days,
-                        workers=workers, scheduler=scheduler, keep_results=True)
+                        workers=workers, scheduler=scheduler, keep_results=True, cancel=cancel)
     failed = [(n, r.message) for n, r in zip(names, outcome.results) if not r.solved]
     if failed:
         raise RuntimeError(f"cost case {failed[0][0]} could not be solved: {failed[0][1]}")
     wins = pd.DataFrame({n: winners(r, t.majority_share) for n, r in zip(names, outcome.results)})
     sweep_s = time.perf_counter() - started
+    _check(cancel)
     report(0.4, "Near-optimal alternatives")
     ranges = near_optimal_ranges(scenario, names[0], slack_pct, typical_days, workers=workers, scheduler=scheduler)
     network = ranges.district_network()
     mga_s = time.perf_counter() - started - sweep_s
+    _check(cancel)
     report(0.8, "Levelised-cost margins")
     prepared = prepare_run(scenario, names[0], run_settings(scenario, typical_days=typical_days))
     rows = []

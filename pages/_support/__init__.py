@@ -34,11 +34,14 @@ The pages keep their state under these keys of ``st.session_state`` (plain Pytho
 ``hm_compare``
     ``{"runs": [run ids], "baseline": run id}``: the comparison's choice, kept while the planner visits other
     pages (Streamlit forgets a widget's state once its page is left).
+``hm_plan_pathways``, ``hm_plan_designations``, ``hm_heat_plan``
+    The heat-plan page's pathways and designations, and the plan it shows last (see :mod:`pages._support.plan`);
+    the Share page adds ``hm_heat_plan`` to the HTML summary.
 ``hm_shell``, ``hm_goto``
     True once ``app.py`` has set up the navigation in this session; the page to go to when a page was opened by
     its address before that (Streamlit then runs the page file on its own, without the navigation).
 
-Widget keys start with the page's short name (``setup_``, ``results_``, ``compare_``, ``share_``).
+Widget keys start with the page's short name (``setup_``, ``results_``, ``compare_``, ``share_``, ``plan_``).
 
 Everything shown is screening-level: :data:`engine.cautions.RESULTS_LINE` goes on every page.
 """
