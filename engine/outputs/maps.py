@@ -25,6 +25,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+from branca.element import MacroElement, Template
 
 from engine.outputs.palette import (
     DIVERGING_SCALE,
@@ -478,7 +479,6 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
     folium.Map
     """
     import folium
-    from branca.element import MacroElement, Template
 
     districts, legend = district_values(scenario, result, measure, baseline, technologies, value_range)
     wells = well_values(scenario, result) if show_wells else well_values(scenario, None).iloc[0:0]
@@ -552,16 +552,18 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
     if not legend_inside:
         return fmap
 
-    control = MacroElement()
-    control._template = Template(
-        """
+    add_folded_legend(fmap, legend_html(legend, wells=bool(len(wells)), plumes=bool(plumes)), legend_open)
+    return fmap
+
+
+_LEGEND_SCRIPT = """
         {% macro script(this, kwargs) %}
         (function() {
             var legend = L.control({position: 'bottomright'});
             legend.onAdd = function () {
                 var div = L.DomUtil.create('div', 'heatmosaic-legend');
-                div.style.cssText = 'background:rgba(255,255,255,0.92);padding:8px 10px;font:12px/1.45 sans-serif;'
-                    + 'border:1px solid #999;border-radius:4px;max-width:260px';
+                div.style.cssText = 'background:rgba(255,255,255,0.93);padding:8px 10px;font:12px/1.45 sans-serif;'
+                    + 'border:1px solid #999;border-radius:4px;max-width:{{ this.max_width }}px';
                 div.innerHTML = '<details' + ({{ this.legend_open }} ? ' open' : '') + '>'
                     + '<summary style="cursor:pointer;font-weight:600">Legend</summary>'
                     + {{ this.legend_json }} + '</details>';
@@ -572,13 +574,16 @@ def district_map(scenario, result: RunResult | None = None, measure: str = "main
         })();
         {% endmacro %}
         """
-    )
+
+
+def add_folded_legend(fmap, html_text: str, legend_open: bool, max_width_px: int = 280) -> None:
+    """Add ``html_text`` (already escaped) to ``fmap`` as a legend in the lower right corner that folds."""
+    control = MacroElement()
+    control._template = Template(_LEGEND_SCRIPT)
     control.legend_open = "true" if legend_open else "false"
-    control.legend_json = json.dumps(legend_html(legend, wells=bool(len(wells)), plumes=bool(plumes))).replace(
-        "</", "<\\/"
-    )
+    control.max_width = int(max_width_px)
+    control.legend_json = json.dumps(html_text).replace("</", "<\\/")
     fmap.add_child(control)
-    return fmap
 
 
 # ---------------------------------------------------------------------------------------------------- SVG

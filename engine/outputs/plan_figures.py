@@ -12,7 +12,6 @@ telling opacities apart. Okabe, M. and Ito, K. (2008), Color Universal Design (s
 
 from __future__ import annotations
 
-import json
 import math
 
 import numpy as np
@@ -22,7 +21,7 @@ from plotly.subplots import make_subplots
 
 from engine import cautions
 from engine.outputs.figures import _empty_figure, _title, escape, technology_catalogue
-from engine.outputs.maps import _bounds, _rings, _rings_points, use_bundled_leaflet
+from engine.outputs.maps import _bounds, _rings, _rings_points, add_folded_legend, use_bundled_leaflet
 from engine.outputs.maps import escape as map_escape
 from engine.outputs.palette import (
     BLUE,
@@ -329,7 +328,6 @@ def designation_map(scenario, designation, legend_open: bool = True, legend: boo
     ``legend=False`` leaves the legend off the map, for a page that shows :func:`designation_legend_html` beside it.
     """
     import folium  # imported here as in engine.outputs.maps: only the dashboard's map needs folium
-    from branca.element import MacroElement, Template
 
     values = designation_values(scenario, designation)
     west, south, east, north = _bounds(values, pd.DataFrame(columns=["lon", "lat"]))
@@ -356,28 +354,7 @@ def designation_map(scenario, designation, legend_open: bool = True, legend: boo
     fmap.fit_bounds([[south, west], [north, east]])
     if not legend:
         return fmap
-    control = MacroElement()
-    control._template = Template("""
-        {% macro script(this, kwargs) %}
-        (function() {
-            var legend = L.control({position: 'bottomright'});
-            legend.onAdd = function () {
-                var div = L.DomUtil.create('div', 'heatmosaic-legend');
-                div.style.cssText = 'background:rgba(255,255,255,0.94);padding:8px 10px;font:12px/1.45 sans-serif;'
-                    + 'border:1px solid #999;border-radius:4px;max-width:300px';
-                div.innerHTML = '<details' + ({{ this.legend_open }} ? ' open' : '') + '>'
-                    + '<summary style="cursor:pointer;font-weight:600">Legend</summary>'
-                    + {{ this.legend_json }} + '</details>';
-                L.DomEvent.disableClickPropagation(div);
-                return div;
-            };
-            legend.addTo({{ this._parent.get_name() }});
-        })();
-        {% endmacro %}
-        """)
-    control.legend_open = "true" if legend_open else "false"
-    control.legend_json = json.dumps(designation_legend_html(values["area"].dropna())).replace("</", "<\\/")
-    fmap.add_child(control)
+    add_folded_legend(fmap, designation_legend_html(values["area"].dropna()), legend_open, max_width_px=300)
     return fmap
 
 
