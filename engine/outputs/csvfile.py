@@ -24,9 +24,7 @@ the characters ``= + - @``, tab and carriage return, and the leading-apostrophe 
 
 from __future__ import annotations
 
-import os
 import re
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -129,8 +127,3 @@ def csv_bytes(frame: pd.DataFrame, *, index: bool = False, **options) -> bytes:
     return csv_text(frame, index=index, **options).encode("utf-8")
 
 
-def write_csv(frame: pd.DataFrame, path: str | os.PathLike, *, index: bool = False, **options) -> Path:
-    """Write ``frame`` to the CSV file ``path`` (UTF-8, formulas defused); returns the path."""
-    path = Path(path)
-    path.write_bytes(csv_bytes(frame, index=index, **options))
-    return path

@@ -26,7 +26,7 @@ from engine.outputs.formats import engine_column_decimals, excel_format, unit_of
 
 from engine.model.results import RunResult
 from engine.outputs.xlsx_writer import workbook_bytes
-from engine.outputs.csvfile import FORMULA_START, csv_bytes, defuse_frame  # noqa: F401 (FORMULA_START re-exported)
+from engine.outputs.csvfile import csv_bytes
 
 TABLE_ORDER = ("districts", "supply", "wells", "dispatch", "demand", "well_steps", "steps", "day_map")
 MAX_SHEET_NAME = 31
@@ -136,14 +136,6 @@ def tables_xlsx(results: Mapping[str, RunResult]) -> bytes:
     return workbook_bytes(sheets, to_text=_cell_text, number_format=_number_style)
 
 
-def neutralise_formulas(frame: pd.DataFrame) -> pd.DataFrame:
-    """``frame`` with formula-leading text cells and headers defused (:func:`engine.outputs.csvfile.defuse_frame`).
-
-    Only text is touched: numeric columns, and numbers that sit in a text column, stay as they are.
-    """
-    return defuse_frame(frame)
-
-
 def _file_name(name: str, used: set[str]) -> str:
     base = re.sub(r"[^A-Za-z0-9_.-]+", "_", str(name)).strip("._") or "table"
     candidate, k = base, 2
@@ -157,7 +149,7 @@ def _file_name(name: str, used: set[str]) -> str:
 def tables_csv_zip(results: Mapping[str, RunResult]) -> bytes:
     """The runs' tables as a zip of UTF-8 CSV files: runs.csv, kpi.csv and one file per table kind.
 
-    Text that would start a spreadsheet formula is prefixed with an apostrophe (:func:`neutralise_formulas`).
+    Text that would start a spreadsheet formula is prefixed with an apostrophe (:func:`engine.outputs.csvfile.defuse_frame`).
     """
     from engine.outputs.figures import kpi_table
 

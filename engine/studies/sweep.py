@@ -7,8 +7,8 @@ cases by :func:`tasks_from_samples`. :func:`run_sweep` solves every task (each o
 the scenario) and returns one compact record per run: the prices, total cost, CO2, heat by technology and the main
 supply of each district; the full :class:`RunResult` too when asked, for the scenario store.
 
-:func:`tornado_analysis` varies one price at a time to its low and high value around the reference and reports the
-change in total cost and how many districts change their main supply;
+:func:`tornado_tasks` and :func:`tornado_table` vary one price at a time to its low and high value around the
+reference and report the change in total cost and how many districts change their main supply;
 :func:`engine.outputs.study_figures.tornado_figure` draws it.
 
 Price multipliers (:data:`PARAMETERS`): ``co2_price_factor`` multiplies the base case's CO2 price,
@@ -28,7 +28,6 @@ import os
 import uuid
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -494,17 +493,3 @@ def tornado_table(outcome: SweepOutcome) -> pd.DataFrame:
     return pd.DataFrame(rows).sort_values("swing_eur_per_a", ascending=False, ignore_index=True)
 
 
-def tornado_analysis(
-    scenario: Scenario,
-    base_case: str | None = None,
-    parameters=None,
-    typical_days: int | None = None,
-    workers: int | None = None,
-    scheduler=None,
-    progress: Progress | None = None,
-    solver: str = DIRECT,
-) -> pd.DataFrame:
-    """One-at-a-time sensitivity of the total cost and the districts' main supply (see :func:`tornado_table`)."""
-    outcome = run_sweep(scenario, tornado_tasks(scenario, base_case, parameters), typical_days=typical_days,
-                        workers=workers, scheduler=scheduler, progress=progress, solver=solver)
-    return tornado_table(outcome)
