@@ -25,6 +25,7 @@ from engine.scenario.inputs import default_cost_case
 from engine.studies.alternatives import DEFAULT_SLACK_PCT
 from pages._support.cache import remember
 from pages._support.describe import markdown_literal
+from engine.outputs.labels import cost_case_label
 from pages._support.inputs import InputSet, demo_input_set
 from pages._support.plan import (
     PLAN_CACHE_SIZE, SCENARIO_AS_GIVEN, designation_job, designation_key, failure_sentence, heat_plan, pathway_job,
@@ -57,7 +58,8 @@ default_case = setup.get("cost_case") or default_cost_case(cases)
 milestones = list(scenario.pathway.years) if scenario.pathway is not None else []
 top = st.columns([2, 2, 1, 1])
 cost_case = top[0].selectbox("Cost case of the pathway", cases,
-                             index=cases.index(default_case) if default_case in cases else 0, key="plan_cost_case")
+                             index=cases.index(default_case) if default_case in cases else 0, key="plan_cost_case",
+                             format_func=cost_case_label)
 mode = top[1].radio("Investment view", ["foresight", "myopic"], horizontal=True, key="plan_mode",
                     format_func={"foresight": "Perfect foresight", "myopic": "Myopic (year by year)"}.get,
                     help="Foresight plans all milestone years at once; myopic decides each year seeing only that "
@@ -124,7 +126,8 @@ with tab_areas:
                 "supply wins, the cost margin to the next-best supply and the range of plans within the cost "
                 "slack (the rule: docs/designation.md).")
     left, right = st.columns([3, 2])
-    chosen_cases = left.multiselect("Cost cases for the win share", cases, default=cases, key="plan_cost_cases")
+    chosen_cases = left.multiselect("Cost cases for the win share", cases, default=cases, key="plan_cost_cases",
+                                  format_func=cost_case_label)
     years = [SCENARIO_AS_GIVEN] + milestones
     year = right.selectbox("Designation for", years, key="plan_year",
                            format_func=lambda y: year_label(y, scenario.settings.target_year),
