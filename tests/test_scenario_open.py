@@ -271,3 +271,15 @@ def test_a_refused_folder_leaves_the_inputs_in_use_as_they_were(tmp_path, demo_f
     assert not at.exception, at.exception
     assert at.session_state["hm_input"].source == "folder_path"
     assert not any("was not opened" in str(e.value) for e in at.error)
+
+
+def test_bundles_take_binary_layers_as_bytes_but_still_refuse_nul_and_archives_in_text_files(tmp_path, demo_files):
+    """Only the binary scenario files (engine/scenario/files.py BINARY_FILES) skip the text checks of safezip."""
+    result = solve_scenario(demo_input_set().scenario, CASE, typical_days=2)
+    with_nul = export_bundle(result, {**demo_files, "pathway.csv": b"year\x00\n"}, tmp_path / "nul.zip")
+    refused = input_set_from_bundle(with_nul.read_bytes(), tmp_path / "w1")
+    assert not refused.ok and "NUL" in refused.problems["message"].iloc[0]
+    tar_like = b"a" * 257 + b"ustar" + b"\n"  # the POSIX tar magic at offset 257 (POSIX.1-1988 ustar header)
+    nested = export_bundle(result, {**demo_files, "wells.csv": tar_like}, tmp_path / "nest.zip")
+    refused = input_set_from_bundle(nested.read_bytes(), tmp_path / "w2")
+    assert not refused.ok and "archive inside the archive" in refused.problems["message"].iloc[0]

@@ -15,7 +15,9 @@ symbolic links and other non-regular entries; encrypted entries; more than :attr
 entries; an entry or a total larger than the limits; an entry compressed more than
 :attr:`ZipLimits.max_ratio` times (a "zip bomb"); archives inside the archive; and any name that is not a
 scenario file, a result table or the manifest. Sizes are read from the zip directory and enforced again while
-streaming, so a header that lies does not help. Text must be UTF-8 and the manifest valid JSON. Files are written
+streaming, so a header that lies does not help. Text must be UTF-8 and the manifest valid JSON; the binary scenario
+inputs of a planner's own city (GeoPackage, zipped Shapefile, the EPW file:
+:data:`engine.scenario.files.BINARY_FILES`) are carried as bytes, checked against their checksums like the rest. Files are written
 only below the destination folder (checked after resolving every path), first into a hidden staging folder that
 is removed when anything is refused. Nothing is ever unpickled or executed.
 
