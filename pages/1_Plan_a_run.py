@@ -12,7 +12,8 @@ import streamlit as st
 from engine import cautions
 from engine.outputs.labels import cost_case_label, kind_label, objective_label
 from pages._support.inputs import (
-    InputSet, cost_case_descriptions, demo_input_set, input_set_from_bundle, problems_for_display,
+    InputSet, cost_case_descriptions, demo_input_set, folder_zip_of, input_set_from_path, open_upload, problem_table,
+    problems_csv, problems_for_display, warnings_frame,
 )
 from pages._support.edits import (
     apply_edits, check_edits, editable_technology_table, editable_well_table, edited_cells, initial_setup,
@@ -23,6 +24,7 @@ from pages._support.describe import demand_note, markdown_literal, run_kpis, sug
 from pages._support.tables import district_results_table, table_height
 from engine.model.solvers import DIRECT, solver_choices
 from engine.scenario.problems import problems_frame
+from engine.storage.scenario_zip import folder_name
 from engine.storage.store import ScenarioStore, StoreError
 from pages._support.shell import route_through_app, run_with_cancel, show_cancelled
 
@@ -71,6 +73,31 @@ else:
 
 def use_demo() -> None:
     state["hm_input"] = demo_input_set()
+    state.pop("hm_refused", None)
+
+
+def take(opened: InputSet) -> None:
+    """Use a set that validated; a refused one is only shown, the inputs in use stay as they were."""
+    if opened.ok:
+        state["hm_input"] = opened
+        state.pop("hm_refused", None)
+        settings = opened.manifest.get("settings") if opened.manifest else None
+        cost_case = opened.manifest.get("cost_case") if opened.manifest else None
+        state["hm_setup"] = {**initial_setup(opened, settings, cost_case), "fresh": True}
+    else:
+        state["hm_refused"] = opened
+
+
+def open_folder() -> None:
+    take(input_set_from_path(state.get("setup_folder", "")))
+
+
+def show_problems(problems, key: str) -> None:
+    st.dataframe(problem_table(problems), hide_index=True, width="stretch",
+                 column_config={"what is wrong": st.column_config.TextColumn(width="large"),
+                                "how to fix it": st.column_config.TextColumn(width="medium")})
+    st.download_button("Download problems (CSV)", problems_csv(problems), file_name="scenario_problems.csv",
+                       mime="text/csv", key=key, icon=":material/download:", on_click="ignore")
 
 
 def reset_tables() -> None:
@@ -82,6 +109,7 @@ def reset_tables() -> None:
 
 
 # ------------------------------------------------------------------------------------------------ 1 inputs
+download_slot = None
 with st.container(border=True):
     st.subheader("1 · Inputs")
     left, right = st.columns([3, 2], gap="large")
@@ -103,30 +131,41 @@ with st.container(border=True):
                 f"{cost_case_label(inputs.manifest.get('cost_case', '?'))}, objective "
                 f"{objective_label(inputs.manifest.get('objective', '?'))}."
             )
+        download_slot = st.empty()
+        warnings = warnings_frame(inputs)
+        if scenario is not None and not warnings.empty:
+            with st.expander(f"{len(warnings)} warning(s) about these files (they do not stop a run)"):
+                show_problems(warnings, "setup_warnings_csv")
     with right:
         if inputs.label != "Demo city":
             st.button("Use the demo city instead", on_click=use_demo, icon=":material/location_city:")
-        uploader_key = f"setup_bundle_{state.get('setup_bundle_round', 0)}"
         upload = st.file_uploader(
-            "Or open a run bundle (.zip) made on the Share page", type=["zip"], key=uploader_key,
-            help="A run bundle holds one run's scenario files and results; download it on the Share page "
-                 "(Bundles). A whole library (.zip) is imported on the Share page instead.",
+            "Open a scenario folder (.zip) or a run bundle", type=["zip"], key="setup_upload",
+            help="A zip of your own scenario folder (the files of docs/input_format.md, at the top of the zip or in "
+                 "one folder inside it), or a run bundle downloaded on the Share page. A whole library (.zip) is "
+                 "imported on the Share page instead.",
         )
-        if upload is not None and state.get("setup_bundle_seen") != upload.file_id:
-            state["setup_bundle_seen"] = upload.file_id
+        if upload is not None and state.get("setup_upload_seen") != upload.file_id:
+            state["setup_upload_seen"] = upload.file_id
             workdir = Path(tempfile.gettempdir()) / "heatmosaic-uploads"
-            opened = input_set_from_bundle(upload.getvalue(), workdir, f"Bundle {upload.name}")
-            state["hm_input"] = opened
-            if opened.ok:  # start from the choices of the run inside the bundle
-                state["hm_setup"] = {**initial_setup(opened, opened.manifest.get("settings"),
-                                                        opened.manifest.get("cost_case")), "fresh": True}
-            else:  # a refused file leaves the uploader: a new key gives an empty one
-                state["setup_bundle_round"] = state.get("setup_bundle_round", 0) + 1
+            take(open_upload(upload.getvalue(), upload.name, workdir))
             st.rerun()
+        with st.form("setup_folder_form", border=False):
+            st.text_input("Or type the path of a scenario folder on this computer", key="setup_folder",
+                          placeholder="/home/me/cities/my_city",
+                          help="The folder that holds scenario.toml; it is read when you press Open folder.")
+            st.form_submit_button("Open folder", on_click=open_folder, icon=":material/folder_open:")
+    refused: InputSet | None = state.get("hm_refused")
+    if refused is not None:
+        kept = "the demo city" if inputs.label == "Demo city" else markdown_literal(inputs.label)
+        st.error(f"**{markdown_literal(refused.label)}** was not opened: {len(refused.problems)} problem(s), all "
+                 f"listed below. {refused.advice} Nothing is solved until the files validate; the page keeps "
+                 f"working on {kept}.")
+        show_problems(refused.problems, "setup_problems_csv")
+        st.button("Dismiss", key="setup_dismiss", on_click=lambda: state.pop("hm_refused", None))
     if not inputs.problems.empty:
-        st.error(f"{len(inputs.problems)} problem(s) in these inputs. Fix them in the files and upload again.")
-        st.dataframe(problems_for_display(inputs.problems), hide_index=True, width="stretch",
-                     column_config={"message": st.column_config.TextColumn(width="large")})
+        st.error(f"{len(inputs.problems)} problem(s) in these inputs. {inputs.advice}")
+        show_problems(inputs.problems, "setup_input_problems_csv")
 if inputs.scenario is None:
     st.stop()
 scenario = inputs.scenario
@@ -242,6 +281,22 @@ with st.container(border=True):
         with st.expander(f"{len(changes)} value(s) differ from the input files"):
             st.dataframe(changes, hide_index=True, width="stretch")
         st.button("Reset to the input files", on_click=reset_tables, icon=":material/undo:")
+
+if download_slot is not None:  # section 1's download, filled once the edited tables of section 3 are known
+    with download_slot.container():
+        if edit_problems:
+            st.caption("Download this scenario folder: fix the edited values first.")
+        else:
+            def folder_zip(tables=(technology_table, well_table), current=inputs) -> bytes:
+                return folder_zip_of(current, scenario_files_with_edits(current.files, *tables, current.scenario))[0]
+
+            st.download_button(
+                "Download this scenario folder (.zip)", folder_zip,
+                file_name=f"{folder_name(scenario.settings.name)}.zip", mime="application/zip",
+                key="setup_download_folder", icon=":material/folder_zip:", on_click="ignore",
+                help="The scenario files as now in use, with the edits made on this page; open the zip again here, "
+                     "or edit its files and open it again.",
+            )
 
 # ------------------------------------------------------------------------------------------------ 4 solve
 days = 0 if full_year else int(typical_days)

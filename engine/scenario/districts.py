@@ -28,8 +28,8 @@ from engine.scenario.cells import (
     report_rows,
 )
 from engine.scenario.defaults import cell_default
-from engine.scenario.files import DISTRICTS_FILE, BUILDINGS_FILE
-from engine.scenario.tables import Report, Table, printable, read_text
+from engine.scenario.files import BUILDINGS_FILE, DISTRICT_LAYER_FILES, DISTRICTS_FILE
+from engine.scenario.tables import Report, Table, close_names, printable, read_text
 
 
 def _district_default(field: str):
@@ -329,6 +329,13 @@ def load_districts(folder: Path, report: Report, crs: str | None = None) -> Dist
         return None
     if features is not None:
         return _district_frame(report, features, file)
+    if not (folder / DISTRICTS_FILE).exists() and file is None:
+        others = sorted(p.name for p in folder.iterdir()) if folder.is_dir() else []
+        close = close_names(DISTRICTS_FILE, others) or close_names("districts.gpkg", others)
+        hint = f"; found {', '.join(repr(c) for c in close)}: rename it" if close else ""
+        report(DISTRICTS_FILE, None, None, "required file is missing: give the districts as one layer, "
+               f"{', '.join(DISTRICT_LAYER_FILES)} (docs/input_format.md){hint}")
+        return None
     text = read_text(folder, DISTRICTS_FILE, report, required=True)
     if text is None:
         return None

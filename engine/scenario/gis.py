@@ -58,6 +58,8 @@ from engine.scenario.problems import Problem
 
 WGS84 = "EPSG:4326"
 LAYER_SUFFIXES = (".geojson", ".gpkg", ".zip")
+ZIPPED_LAYER_MAX_BYTES = 300 * 2**20
+"""Largest unpacked size of a zipped Shapefile, the total limit of a scenario zip (engine.storage.safezip). [bytes]"""
 """File endings read as GIS layers (``.json`` is accepted as GeoJSON as well)."""
 
 POLYGON_TYPES = ("Polygon", "MultiPolygon")
@@ -219,7 +221,18 @@ def _dataset(path: Path, file: str, problems: list[Problem]) -> str | None:
     if suffix == ".zip":
         try:
             with zipfile.ZipFile(path) as archive:
+                infos = archive.infolist()
                 names = [n for n in archive.namelist() if n.lower().endswith(".shp") and not n.startswith("__MACOSX")]
+            unpacked = sum(info.file_size for info in infos)
+            if unpacked > ZIPPED_LAYER_MAX_BYTES or any(
+                info.file_size > 2**20 and info.file_size > 100 * max(info.compress_size, 1) for info in infos
+            ):
+                problems.append(Problem(
+                    file, None, None,
+                    f"would unpack to {unpacked / 2**20:,.0f} MiB or is compressed more than 100 times (a zip bomb); "
+                    f"a zipped Shapefile may unpack to at most {ZIPPED_LAYER_MAX_BYTES // 2**20} MiB",
+                ))
+                return None
         except (zipfile.BadZipFile, OSError) as error:
             problems.append(Problem(file, None, None, f"is not a readable zip archive ({error}); zip the Shapefile again"))
             return None

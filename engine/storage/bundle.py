@@ -15,7 +15,9 @@ symbolic links and other non-regular entries; encrypted entries; more than :attr
 entries; an entry or a total larger than the limits; an entry compressed more than
 :attr:`ZipLimits.max_ratio` times (a "zip bomb"); archives inside the archive; and any name that is not a
 scenario file, a result table or the manifest. Sizes are read from the zip directory and enforced again while
-streaming, so a header that lies does not help. Text must be UTF-8 and the manifest valid JSON. Files are written
+streaming, so a header that lies does not help. Text must be UTF-8 and the manifest valid JSON; the binary scenario
+inputs of a planner's own city (GeoPackage, zipped Shapefile, the EPW file:
+:data:`engine.scenario.files.BINARY_FILES`) are carried as bytes, checked against their checksums like the rest. Files are written
 only below the destination folder (checked after resolving every path), first into a hidden staging folder that
 is removed when anything is refused. Nothing is ever unpickled or executed.
 
@@ -44,7 +46,7 @@ from engine import __version__, cautions
 from engine.jsonsafe import json_value
 from engine.model.results import RunResult
 from engine.outputs.csvfile import csv_text, restore_text
-from engine.scenario.files import REQUIRED_FILES, SCENARIO_FILES
+from engine.scenario.files import ARCHIVE_FILES, BINARY_FILES, SCENARIO_FILES, missing_files
 from engine.storage.schema import Checker, MAX_COLUMNS, MAX_ROWS, check_number_map, check_run_settings, loads
 from engine.storage.safezip import DEFAULT_LIMITS, MIB, CheckedZip, ZipLimits, ZipRefused, write_checked_zip
 from engine.storage.store import StoreError, check_scenario_files
@@ -316,7 +318,7 @@ def export_bundle(result: RunResult, inputs: Mapping[str, bytes] | None, path: s
             for filename, content in files.items()
         },
         "results_summary": {"bytes": len(summary_bytes), "sha256": hashlib.sha256(summary_bytes).hexdigest()},
-        "missing_required_inputs": [f for f in REQUIRED_FILES if f not in files],
+        "missing_required_inputs": missing_files(files),
         "tables": table_specs,
         "caution": cautions.RESULTS,
     }
@@ -423,7 +425,9 @@ def read_bundle(path_or_bytes, dest_folder: str | Path, *, limits: ZipLimits = D
     if taken:
         raise BundleError(f"the folder '{dest}' already holds {', '.join(taken)}; unpack into an empty folder")
     try:
-        with CheckedZip(path_or_bytes, _BUNDLE_ENTRY.fullmatch, limits, "bundle", {"inputs/", "results/"}) as checked:
+        with CheckedZip(path_or_bytes, _BUNDLE_ENTRY.fullmatch, limits, "bundle", {"inputs/", "results/"},
+                        binary=lambda name: name.startswith("inputs/") and name[7:] in BINARY_FILES,
+                        archives=lambda name: name.startswith("inputs/") and name[7:] in ARCHIVE_FILES) as checked:
             if "manifest.json" not in checked.names:
                 raise BundleError("bundle refused: it has no manifest.json, so it is not a heatmosaic bundle")
             staging = Path(tempfile.mkdtemp(prefix=".incoming-", dir=root))

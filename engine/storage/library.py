@@ -20,7 +20,7 @@ from engine.outputs.csvfile import csv_bytes
 from engine.storage.errors import StoreError
 from engine.storage.schema import MAX_TEXT_CHARS, Checker, check_number_map, check_run_settings, loads
 from engine.storage.safezip import MIB, CheckedZip, ZipLimits, ZipRefused, write_checked_zip
-from engine.scenario.files import SCENARIO_FILES
+from engine.scenario.files import ARCHIVE_FILES, BINARY_FILES, SCENARIO_FILES
 from engine.storage.store import RUN_COLUMNS, SCHEMA_VERSION, ScenarioStore
 from engine.storage.tablecodec import decode_table
 
@@ -99,6 +99,15 @@ def _library_entries(conn: sqlite3.Connection, include_csv: bool):
     yield "library.json", json.dumps(library_doc, indent=1).encode()
 
 
+def _binary_input(name: str) -> bool:
+    """A run's input that may hold any bytes (a GeoPackage, a zipped Shapefile, the EPW file)."""
+    return "/inputs/" in name and name.rsplit("/", 1)[-1] in BINARY_FILES
+
+
+def _archive_input(name: str) -> bool:
+    return "/inputs/" in name and name.rsplit("/", 1)[-1] in ARCHIVE_FILES
+
+
 def import_library(store: ScenarioStore, path: str | Path) -> list[int]:
     """Add every run of a library zip (from :func:`export_library`) as new runs; returns their ids.
 
@@ -116,7 +125,8 @@ def import_library(store: ScenarioStore, path: str | Path) -> list[int]:
         return bool(_LIBRARY_ENTRY.fullmatch(name))
 
     try:
-        with CheckedZip(path, allowed, LIBRARY_LIMITS, what="library") as checked:
+        with CheckedZip(path, allowed, LIBRARY_LIMITS, what="library", binary=_binary_input,
+                        archives=_archive_input) as checked:
             library_doc = _parse_json(checked.read("library.json"), "library.json")
             if library_doc.get("format") != LIBRARY_FORMAT:
                 raise StoreError(f"'{path}' is not a heatmosaic library (library.json has another format)")

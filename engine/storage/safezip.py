@@ -114,8 +114,11 @@ def write_checked_zip(
 
 
 # ====================================================================================== reading zips safely
-def _entry_problem(name: str, raw_name: str, allowed: Callable[[str], bool], allowed_dirs: set[str]) -> str | None:
-    """Why an entry name is refused, or None."""
+def _entry_problem(
+    name: str, raw_name: str, allowed: Callable[[str], bool], allowed_dirs: set[str], archive_ok: bool = False
+) -> str | None:
+    """Why an entry name is refused, or None. ``archive_ok``: the entry is a file the caller reads as an
+    archive of its own (a zipped Shapefile), not a nested archive to unpack."""
     if "\x00" in raw_name or any(ord(ch) < 32 for ch in name):
         return "has control characters in its name"
     if "\\" in name:
@@ -126,10 +129,10 @@ def _entry_problem(name: str, raw_name: str, allowed: Callable[[str], bool], all
         return "starts with a drive letter"
     if ".." in name.split("/"):
         return "climbs out of the destination folder with '..'"
-    if name.lower().endswith(ARCHIVE_SUFFIXES):
+    if name.lower().endswith(ARCHIVE_SUFFIXES) and not (archive_ok and allowed(name)):
         return "is an archive inside the archive (nested archives are refused)"
     if name.endswith("/"):
-        return None if name in allowed_dirs else "is a folder a heatmosaic zip does not have"
+        return None if name in allowed_dirs or allowed(name) else "is a folder a heatmosaic zip does not have"
     if not allowed(name):
         return "is not a file a heatmosaic zip may hold"
     return None
@@ -200,7 +203,7 @@ class CheckedZip:
 
     Every entry is checked when the file is opened (names, types, sizes and ratios from the zip directory);
     :meth:`read` and :meth:`extract` enforce the limits again while streaming and require UTF-8 text without NUL
-    bytes that is not itself an archive.
+    bytes that is not itself an archive, except for the entries ``binary`` and ``archives`` name.
 
     Parameters
     ----------
@@ -212,12 +215,21 @@ class CheckedZip:
     what : str
         What the zip is, for messages ("bundle", "library").
     allowed_dirs : set of str
-        Folder entries (ending in '/') that may appear.
+        Folder entries (ending in '/') that may appear (and any folder entry ``allowed`` accepts).
+    binary : callable, optional
+        ``binary(name) -> bool`` for entries that may hold any bytes (a GeoPackage, an EPW file): no UTF-8 and
+        NUL check. Every size and ratio limit still applies.
+    archives : callable, optional
+        ``archives(name) -> bool`` for entries that are archives read as one file (a zipped Shapefile opened by
+        GDAL), not unpacked here; they must also be ``binary``.
     """
 
     def __init__(self, source, allowed, limits: ZipLimits = DEFAULT_LIMITS, what: str = "bundle",
-                 allowed_dirs: set[str] | frozenset = frozenset()):
+                 allowed_dirs: set[str] | frozenset = frozenset(), binary: Callable[[str], bool] | None = None,
+                 archives: Callable[[str], bool] | None = None):
         self.what = what
+        self._binary = binary or (lambda name: False)
+        self._archives = archives or (lambda name: False)
         self.limits = limits
         self._total = 0
         self._own_handle = None
@@ -276,7 +288,8 @@ class CheckedZip:
         total = 0
         for info in infos:
             name = info.filename
-            problem = _entry_problem(name, info.orig_filename, allowed, allowed_dirs)
+            problem = _entry_problem(name, info.orig_filename, allowed, allowed_dirs,
+                                     self._archives(name) and self._binary(name))
             if problem:
                 self._refuse(problem, name)
             mode = (info.external_attr >> 16) & 0xFFFF
@@ -316,6 +329,8 @@ class CheckedZip:
             raise ZipRefused(f"the {self.what} has no file '{name}'")
         limits = self.limits
         decoder = codecs.getincrementaldecoder("utf-8")("strict")
+        binary = bool(self._binary(name))
+        archive_ok = binary and bool(self._archives(name))
         head = b""
         written = 0
         try:
@@ -334,19 +349,21 @@ class CheckedZip:
                         self._refuse("the entries unpack to more than the total size allowed", name)
                     if written > limits.ratio_floor_bytes and written > limits.max_ratio * max(info.compress_size, 1):
                         self._refuse("is compressed more than allowed (a zip bomb)", name)
-                    if len(head) < 512:
+                    if len(head) < 512 and not archive_ok:
                         head += chunk[: 512 - len(head)]
                         if _looks_like_archive(head):
                             self._refuse("is an archive inside the archive (nested archives are refused)", name)
-                    if b"\x00" in chunk:
-                        self._refuse("holds NUL bytes, so it is not text", name)
-                    try:
-                        decoder.decode(chunk)
-                    except UnicodeDecodeError:
-                        self._refuse("is not UTF-8 text", name)
+                    if not binary:
+                        if b"\x00" in chunk:
+                            self._refuse("holds NUL bytes, so it is not text", name)
+                        try:
+                            decoder.decode(chunk)
+                        except UnicodeDecodeError:
+                            self._refuse("is not UTF-8 text", name)
                     sink(chunk)
             try:
-                decoder.decode(b"", final=True)
+                if not binary:
+                    decoder.decode(b"", final=True)
             except UnicodeDecodeError:
                 self._refuse("is not UTF-8 text", name)
         except ZipRefused:

@@ -25,7 +25,8 @@ Schema (version 2)
 ``run_tables``
     run_id (deleted with its run), position, name, payload (the JSON of :func:`encode_table`).
 ``run_inputs``
-    run_id (deleted with its run), filename (one of :data:`SCENARIO_FILES`), content (the file's bytes).
+    run_id (deleted with its run), filename (one of :data:`SCENARIO_FILES`), content (the file's bytes; GIS
+    layers and the weather file of a planner's own city among them).
 
 Version 1 lacked ``runs.tags`` and ``runs.sweep_id``. A whole store travels as a library zip
 (:mod:`engine.storage.library`).
@@ -49,7 +50,7 @@ import pandas as pd
 
 from engine.jsonsafe import json_value
 from engine.model.results import RunResult
-from engine.scenario.files import SCENARIO_FILES
+from engine.scenario.files import BINARY_FILES, SCENARIO_FILES
 from engine.storage.errors import StoreDamaged, StoreError
 from engine.storage.tablecodec import decode_table, encode_table
 
@@ -127,7 +128,9 @@ def check_scenario_files(files: Mapping[str, bytes], where: str = "inputs") -> d
     Raises
     ------
     StoreError
-        If a name is not one of :data:`SCENARIO_FILES`, a content is not bytes, or a file is not UTF-8 text.
+        If a name is not one of :data:`SCENARIO_FILES`, a content is not bytes, or a text file is not UTF-8
+        (GeoPackages, zipped Shapefiles and the EPW file, :data:`~engine.scenario.files.BINARY_FILES`, may hold
+        any bytes).
     """
     if not isinstance(files, Mapping):
         raise StoreError(f"{where} must map file names to bytes, not {type(files).__name__}")
@@ -141,7 +144,8 @@ def check_scenario_files(files: Mapping[str, bytes], where: str = "inputs") -> d
         if not isinstance(content, bytes):
             raise StoreError(f"{where}: the content of '{name}' must be bytes, not {type(content).__name__}")
         try:
-            content.decode("utf-8")
+            if name not in BINARY_FILES:
+                content.decode("utf-8")
         except UnicodeDecodeError as exc:
             raise StoreError(
                 f"{where}: '{name}' is not UTF-8 text (byte {exc.start}); scenario files are UTF-8"
