@@ -25,7 +25,7 @@ from pages._support.city_edits import (
     city_edit_problems, district_demand_for_map, editable_district_table, empty_new_wells, price_table,
     read_price_upload, well_row_from_click,
 )
-from engine.outputs.density_map import setup_map
+from engine.outputs.density_map import proposed_doublets_layer, setup_map, setup_view
 from engine.scenario.files import DISTRICTS_FILE
 from pages._support.cache import SolvedRun, request_key, solve_with_cache
 from pages._support.describe import demand_note, markdown_literal, run_kpis, suggested_run_name
@@ -240,25 +240,26 @@ with st.container(border=True):
                        "districts.geojson. A blank connection limit means no limit.")
             district_table = st.data_editor(
                 setup["district_base"], key=districts_key, hide_index=True, num_rows="fixed", width="stretch",
+                height=table_height(setup["district_base"]),
                 disabled=["district_id", "name"], placeholder="no limit", column_order=list(DISTRICT_TABLE_COLUMNS[1:]),
                 column_config={
-                    "name": st.column_config.TextColumn("District", width=190),
+                    "name": st.column_config.TextColumn("District", width=180),
                     "heat_demand_mwh_per_a": st.column_config.NumberColumn(
-                        "Heat demand [MWh/a]", min_value=0.0, format="%.0f",
+                        "Heat demand [MWh/a]", min_value=0.0, format="%.0f", width=140,
                         help="Annual heat demand, space heating and hot water (heat_demand_mwh_per_a)."),
                     "hot_water_share": st.column_config.NumberColumn(
-                        "Hot-water share [-]", min_value=0.0, max_value=1.0, format="%.2f",
+                        "Hot-water share [-]", min_value=0.0, max_value=1.0, format="%.2f", width=125,
                         help="Share of the annual heat demand that is hot water, 0 to 1 (hot_water_share)."),
                     "supply_temp_c": st.column_config.NumberColumn(
-                        "Space-heating supply [°C]", min_value=25.0, max_value=130.0, format="%.0f",
+                        "Heating supply [°C]", min_value=25.0, max_value=130.0, format="%.0f", width=125,
                         help="Space-heating supply (flow) temperature (supply_temp_c)."),
                     "hot_water_temp_c": st.column_config.NumberColumn(
-                        "Hot water [°C]", min_value=30.0, max_value=95.0, format="%.0f",
+                        "Hot water [°C]", min_value=30.0, max_value=95.0, format="%.0f", width=105,
                         help="Temperature hot water is made at (hot_water_temp_c)."),
                     "network_available": st.column_config.CheckboxColumn(
-                        "Network available", help="Whether a heat network reaches the district."),
+                        "Network", width=75, help="Whether a heat network reaches the district."),
                     "network_connection_limit_kw": st.column_config.NumberColumn(
-                        "Connection limit [kW]", min_value=0.0, format="%.0f",
+                        "Connection limit [kW]", min_value=0.0, format="%.0f", width=150,
                         help="Largest heat the district may draw from the network; blank: no limit, 0: none."),
                 },
             )
@@ -376,9 +377,13 @@ with st.container(border=True):
     setup["district_table"], setup["new_wells"] = district_table, new_wells
     st.markdown("**Map:** districts by heat density (from the heat demand above), existing wells and proposed "
                 "doublets. Click inside a district to propose a new well doublet there.")
-    clicked_map = st_folium(setup_map(scenario, district_demand_for_map(scenario, district_table), new_wells),
-                            height=520, use_container_width=True, returned_objects=["last_clicked"],
-                            key="setup_map")
+    map_center, map_zoom = setup_view(scenario)
+    # the proposed doublets go in as a layer streamlit-folium updates in place: redrawing the map on each click
+    # would lose its zoom
+    clicked_map = st_folium(setup_map(scenario, district_demand_for_map(scenario, district_table)), height=520,
+                            use_container_width=True, returned_objects=["last_clicked"], key="setup_map",
+                            feature_group_to_add=proposed_doublets_layer(new_wells),
+                            center=map_center, zoom=map_zoom)
     click = (clicked_map or {}).get("last_clicked")
     if click and state.get("setup_last_click") != (click.get("lng"), click.get("lat")):
         state["setup_last_click"] = (click.get("lng"), click.get("lat"))

@@ -10,6 +10,7 @@ network suits a district needs a feasibility study.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 
 import numpy as np
@@ -71,18 +72,65 @@ def density_legend_html(candidates: bool = False) -> str:
     return "".join(parts)
 
 
+def proposed_doublets_layer(candidates: pd.DataFrame):
+    """The candidate doublets (rows with ``well_id``, ``lon``, ``lat``) as the layer "Proposed doublets"; rows
+    without a usable position are left out."""
+    import folium
+
+    layer = folium.FeatureGroup(name="Proposed doublets", show=True)
+    for rec in candidates.to_dict(orient="records"):
+        try:
+            lat, lon = float(rec["lat"]), float(rec["lon"])
+        except (TypeError, ValueError):
+            continue
+        if not (np.isfinite(lat) and np.isfinite(lon)):
+            continue
+        folium.CircleMarker((lat, lon), radius=7, color=WELL_COLOR, weight=2, fill=True, fill_color=ORANGE,
+                            fill_opacity=1.0,
+                            tooltip=folium.Tooltip(f"Proposed doublet {escape(rec.get('well_id', ''))}")
+                            ).add_to(layer)
+    return layer
+
+
+def view_of_bounds(bounds, width_px: float, height_px: float, tile_px: int = 256) -> tuple[list[float], float]:
+    """Centre [lat, lon] and the largest Web Mercator zoom (in steps of 0.25) at which ``bounds`` (west, south,
+    east, north in degrees) fit ``width_px`` x ``height_px``: at zoom z the world is ``tile_px * 2**z`` pixels
+    wide (the Web Mercator tiling scheme, EPSG:3857)."""
+    west, south, east, north = (float(v) for v in bounds)
+
+    def mercator_y(lat):
+        return math.log(math.tan(math.pi / 4 + math.radians(lat) / 2))
+
+    lon_share = max(east - west, 1e-9) / 360.0
+    y_share = max(mercator_y(north) - mercator_y(south), 1e-9) / (2 * math.pi)
+    zoom = min(math.log2(max(width_px, 50) / (tile_px * lon_share)), math.log2(max(height_px, 50) / (tile_px * y_share)))
+    zoom = max(1.0, min(18.0, math.floor(zoom * 4) / 4))
+    return [(south + north) / 2, (west + east) / 2], zoom
+
+
+def setup_view(scenario, width_px: int = 900, height_px: int = 520, legend_px: int = 270) -> tuple[list, float]:
+    """Centre [lat, lon] and zoom of :func:`setup_map`: the districts fit the part of the map left of the legend."""
+    bounds = _bounds(scenario.districts, scenario.wells)
+    center, zoom = view_of_bounds(bounds, width_px - legend_px, height_px - 40)
+    center[1] += legend_px / 2 * 360.0 / (256 * 2**zoom)
+    return center, zoom
+
+
 def setup_map(scenario, heat_demand_mwh_per_a=None, candidates: pd.DataFrame | None = None,
-              legend_open: bool = True):
+              legend_open: bool = True, width_px: int = 900, height_px: int = 520):
     """A folium map for the set-up page: districts coloured by heat-density class (layer "Heat density"),
     existing extraction wells (layer "Wells") and candidate doublets (layer "Proposed doublets": rows with
-    ``well_id``, ``lon``, ``lat``). A click anywhere reaches the page (streamlit-folium's ``last_clicked``)."""
+    ``well_id``, ``lon``, ``lat``; a page that updates them without redrawing the map passes
+    :func:`proposed_doublets_layer` to streamlit-folium instead). A click anywhere reaches the page
+    (streamlit-folium's ``last_clicked``)."""
     import folium
 
     table = district_density(scenario, heat_demand_mwh_per_a)
     wells = scenario.wells
-    west, south, east, north = _bounds(scenario.districts, wells)
-    fmap = folium.Map(location=[(south + north) / 2, (west + east) / 2], zoom_start=13, tiles=None, zoom_snap=0.25,
-                      control_scale=True)
+    center, zoom = setup_view(scenario, width_px, height_px)
+    # a fixed view rather than fit_bounds: streamlit-folium redraws the map in a frame that may still have no
+    # size, and fit_bounds then zooms out to the whole world
+    fmap = folium.Map(location=center, zoom_start=zoom, tiles=None, zoom_snap=0.25, control_scale=True)
     use_bundled_leaflet(fmap)
     layer = folium.FeatureGroup(name="Heat density", show=True).add_to(fmap)
     for geometry, rec in zip(scenario.districts["geometry"], table.to_dict(orient="records")):
@@ -103,21 +151,8 @@ def setup_map(scenario, heat_demand_mwh_per_a=None, candidates: pd.DataFrame | N
             folium.CircleMarker((float(rec["lat"]), float(rec["lon"])), radius=5, color="#FFFFFF", weight=1,
                                 fill=True, fill_color=WELL_COLOR, fill_opacity=0.9,
                                 tooltip=folium.Tooltip(f"Well {escape(rec['well_id'])}")).add_to(well_layer)
-    shown = candidates is not None and len(candidates) > 0
-    if shown:
-        new_layer = folium.FeatureGroup(name="Proposed doublets", show=True).add_to(fmap)
-        for rec in candidates.to_dict(orient="records"):
-            try:
-                lat, lon = float(rec["lat"]), float(rec["lon"])
-            except (TypeError, ValueError):
-                continue
-            if not (np.isfinite(lat) and np.isfinite(lon)):
-                continue
-            folium.CircleMarker((lat, lon), radius=7, color=WELL_COLOR, weight=2, fill=True, fill_color=ORANGE,
-                                fill_opacity=1.0,
-                                tooltip=folium.Tooltip(f"Proposed doublet {escape(rec.get('well_id', ''))}")
-                                ).add_to(new_layer)
+    if candidates is not None and len(candidates):
+        proposed_doublets_layer(candidates).add_to(fmap)
     folium.LayerControl(collapsed=False).add_to(fmap)
-    fmap.fit_bounds([[south, west], [north, east]], padding_bottom_right=(260 if legend_open else 90, 10))
-    add_folded_legend(fmap, density_legend_html(shown), legend_open, max_width_px=290)
+    add_folded_legend(fmap, density_legend_html(True), legend_open, max_width_px=290)
     return fmap
