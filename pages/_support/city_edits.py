@@ -103,7 +103,7 @@ def _table(name: str, frame: pd.DataFrame, columns, ids: list[str], word: str) -
     """The edited rows as the reader's text table; first row = 1, each message starts with the item's id."""
     cells = pd.DataFrame({c: [_text(v) for v in frame[c]] for c in columns if c in frame.columns}, dtype=str)
     return Table(name, cells.reset_index(drop=True), list(range(1, len(frame) + 1)),
-                 [f"{word} '{i}': " for i in ids])
+                 [f"{word} '{i}': " if i else "" for i in ids])
 
 
 # ============================================================================= districts
