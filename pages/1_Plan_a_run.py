@@ -243,24 +243,25 @@ with st.container(border=True):
                 height=table_height(setup["district_base"]),
                 disabled=["district_id", "name"], placeholder="no limit", column_order=list(DISTRICT_TABLE_COLUMNS[1:]),
                 column_config={
-                    "name": st.column_config.TextColumn("District", width=180),
+                    "name": st.column_config.TextColumn("District", width=165),
                     "heat_demand_mwh_per_a": st.column_config.NumberColumn(
-                        "Heat demand [MWh/a]", min_value=0.0, format="%.0f", width=140,
-                        help="Annual heat demand, space heating and hot water (heat_demand_mwh_per_a)."),
+                        "Demand [MWh/a]", min_value=0.0, format="%.0f", width=135,
+                        help="Annual heat demand, space heating and hot water, buildings included (heat_demand_mwh_per_a)."),
                     "hot_water_share": st.column_config.NumberColumn(
-                        "Hot-water share [-]", min_value=0.0, max_value=1.0, format="%.2f", width=125,
+                        "HW share [-]", min_value=0.0, max_value=1.0, format="%.2f", width=120,
                         help="Share of the annual heat demand that is hot water, 0 to 1 (hot_water_share)."),
                     "supply_temp_c": st.column_config.NumberColumn(
-                        "Heating supply [°C]", min_value=25.0, max_value=130.0, format="%.0f", width=125,
+                        "Heating [°C]", min_value=25.0, max_value=130.0, format="%.0f", width=115,
                         help="Space-heating supply (flow) temperature (supply_temp_c)."),
                     "hot_water_temp_c": st.column_config.NumberColumn(
-                        "Hot water [°C]", min_value=30.0, max_value=95.0, format="%.0f", width=105,
+                        "Hot water [°C]", min_value=30.0, max_value=95.0, format="%.0f", width=125,
                         help="Temperature hot water is made at (hot_water_temp_c)."),
                     "network_available": st.column_config.CheckboxColumn(
-                        "Network", width=75, help="Whether a heat network reaches the district."),
+                        "Network", width=95, help="Whether a heat network reaches the district (network_available)."),
                     "network_connection_limit_kw": st.column_config.NumberColumn(
-                        "Connection limit [kW]", min_value=0.0, format="%.0f", width=150,
-                        help="Largest heat the district may draw from the network; blank: no limit, 0: none."),
+                        "Limit [kW]", min_value=0.0, format="%.0f", width=115,
+                        help="Network connection limit: the largest heat the district may draw from the network; blank: no "
+                             "limit, 0: none (network_connection_limit_kw)."),
                 },
             )
         else:
