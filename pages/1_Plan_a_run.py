@@ -2,11 +2,14 @@
 
 from __future__ import annotations
 
+import hashlib
 import tempfile
 import time
 from pathlib import Path
 
+import pandas as pd
 import streamlit as st
+from streamlit_folium import st_folium
 
 
 from engine import cautions
@@ -16,9 +19,15 @@ from pages._support.inputs import (
     problems_csv, problems_for_display, warnings_frame,
 )
 from pages._support.edits import (
-    apply_edits, check_edits, editable_technology_table, editable_well_table, edited_cells, initial_setup,
-    scenario_files_with_edits,
+    check_edits, editable_technology_table, editable_well_table, edited_cells, edited_scenario, initial_setup,
 )
+from pages._support.city_edits import (
+    DISTRICT_TABLE_COLUMNS, PRICE_SERIES, CityEdits, PriceEdits, add_well_row, changed_districts,
+    city_edit_problems, district_demand_for_map, editable_district_table, empty_new_wells, price_table,
+    read_price_upload, well_row_from_click,
+)
+from engine.outputs.density_map import proposed_doublets_layer, setup_map, setup_view
+from engine.scenario.files import DISTRICTS_FILE
 from pages._support.cache import SolvedRun, request_key, solve_with_cache
 from pages._support.describe import demand_note, markdown_literal, run_kpis, suggested_run_name
 from pages._support.tables import district_results_table, table_height
@@ -44,7 +53,8 @@ route_through_app("pages/1_Plan_a_run.py")
 
 def forget_editors() -> None:
     for key in list(state.keys()):
-        if str(key).startswith(("setup_tech_", "setup_wells_")):
+        if str(key).startswith(("setup_tech_", "setup_wells_", "setup_districts_", "setup_newwells_",
+                                "setup_prices_")):
             del state[key]
 
 
@@ -105,6 +115,13 @@ def reset_tables() -> None:
         return
     setup["technology_table"] = editable_technology_table(inputs.scenario)
     setup["well_table"] = editable_well_table(inputs.scenario)
+    setup["district_table"] = editable_district_table(inputs.scenario)
+    setup["new_wells"] = empty_new_wells()
+    setup["prices"] = PriceEdits()
+    for name in ("technology_base", "well_base", "district_base", "new_wells_base", "prices_base"):
+        setup.pop(name, None)
+    state.pop("setup_click_note", None)
+    state.pop("setup_price_problems", None)
     forget_editors()
 
 
@@ -207,18 +224,29 @@ for widget, name in WIDGETS.items():
 # ------------------------------------------------------------------------------------------------ 3 costs and permits
 token = inputs.digest[:12]
 tech_key, wells_key = f"setup_tech_{token}", f"setup_wells_{token}"
+districts_key = f"setup_districts_{token}"
+new_wells_key = f"setup_newwells_{token}_{setup.get('new_wells_round', 0)}"
+prices_key = f"setup_prices_{token}"
+for name, maker in (("district_table", lambda: editable_district_table(scenario)), ("new_wells", empty_new_wells),
+                    ("prices", PriceEdits)):
+    if setup.get(name) is None:  # a set-up kept from before these editors existed
+        setup[name] = maker()
 # An editor's data must stay the same while it lives, or the browser drops its edits (and a click with them). It
 # starts from the kept edits whenever it is new: first visit, back from another page, or after a reset.
-if tech_key not in state or "technology_base" not in setup:
-    state.pop(tech_key, None)
-    setup["technology_base"] = setup["technology_table"]
-if wells_key not in state or "well_base" not in setup:
-    state.pop(wells_key, None)
-    setup["well_base"] = setup["well_table"]
+for editor_key, base, kept in ((tech_key, "technology_base", "technology_table"), (wells_key, "well_base", "well_table"),
+                               (districts_key, "district_base", "district_table"),
+                               (new_wells_key, "new_wells_base", "new_wells")):
+    if editor_key not in state or base not in setup:
+        state.pop(editor_key, None)
+        setup[base] = setup[kept]
+district_file = DISTRICTS_FILE in inputs.files
 with st.container(border=True):
-    st.subheader("3 · Technology costs and well permits")
-    st.caption("Change a cell to test another assumption; the saved run keeps the values it was solved with.")
-    tab_tech, tab_wells = st.tabs(["Technology costs", f"Well permits ({len(scenario.wells)})"])
+    st.subheader("3 · Your city: costs, districts, wells and prices")
+    st.caption("Change a cell to test another assumption; the saved run keeps the values it was solved with, and "
+               "the files it is saved and downloaded with carry them.")
+    tab_tech, tab_districts, tab_wells, tab_prices = st.tabs([
+        "Technology costs", f"Districts ({len(scenario.districts)})",
+        f"Wells ({len(scenario.wells)} + {len(setup['new_wells'])} new)", "Prices"])
     with tab_tech:
         technology_table = st.data_editor(
             setup["technology_base"].assign(kind=[kind_label(k) for k in setup["technology_base"]["kind"]]),
@@ -245,9 +273,43 @@ with st.container(border=True):
                          "the Carnot COP reached. Blank for network connections and stores."),
             },
         )
+    with tab_districts:
+        if district_file:
+            st.caption("Heat demand includes what buildings.csv adds to a district; the edit is written into "
+                       "districts.geojson. A blank connection limit means no limit.")
+            district_table = st.data_editor(
+                setup["district_base"], key=districts_key, hide_index=True, num_rows="fixed", width="stretch",
+                height=table_height(setup["district_base"]),
+                disabled=["district_id", "name"], placeholder="no limit", column_order=list(DISTRICT_TABLE_COLUMNS[1:]),
+                column_config={
+                    "name": st.column_config.TextColumn("District", width=165),
+                    "heat_demand_mwh_per_a": st.column_config.NumberColumn(
+                        "Demand [MWh/a]", min_value=0.0, format="%.0f", width=135,
+                        help="Annual heat demand, space heating and hot water, buildings included (heat_demand_mwh_per_a)."),
+                    "hot_water_share": st.column_config.NumberColumn(
+                        "HW share [-]", min_value=0.0, max_value=1.0, format="%.2f", width=120,
+                        help="Share of the annual heat demand that is hot water, 0 to 1 (hot_water_share)."),
+                    "supply_temp_c": st.column_config.NumberColumn(
+                        "Heating [°C]", min_value=25.0, max_value=130.0, format="%.0f", width=115,
+                        help="Space-heating supply (flow) temperature (supply_temp_c)."),
+                    "hot_water_temp_c": st.column_config.NumberColumn(
+                        "Hot water [°C]", min_value=30.0, max_value=95.0, format="%.0f", width=125,
+                        help="Temperature hot water is made at (hot_water_temp_c)."),
+                    "network_available": st.column_config.CheckboxColumn(
+                        "Network", width=95, help="Whether a heat network reaches the district (network_available)."),
+                    "network_connection_limit_kw": st.column_config.NumberColumn(
+                        "Limit [kW]", min_value=0.0, format="%.0f", width=115,
+                        help="Network connection limit: the largest heat the district may draw from the network; blank: no "
+                             "limit, 0: none (network_connection_limit_kw)."),
+                },
+            )
+        else:
+            district_table = setup["district_table"]
+            st.info("The districts of these inputs come from a GIS layer: edit them in your GIS and open the "
+                    "folder again.")
     with tab_wells:
+        st.caption(cautions.WELLS + " Changing a permit here is a what-if for screening.")
         if len(scenario.wells):
-            st.caption("Permits are set by the water authority; changing them here is a what-if for screening.")
             well_table = st.data_editor(
                 setup["well_base"], key=wells_key, hide_index=True, num_rows="fixed", placeholder="no limit",
                 width="stretch", disabled=["well_id", "district_id"],
@@ -269,16 +331,135 @@ with st.container(border=True):
             )
         else:
             well_table = setup["well_table"]
-            st.info("These inputs have no well doublets.")
+        st.markdown("**Proposed new doublets:** click the map below where an extraction well would stand; the "
+                    "row appears here with the defaults that exist and blanks to fill in.")
+        if state.get("setup_click_note"):
+            st.caption(state["setup_click_note"])
+        new_wells = st.data_editor(
+            setup["new_wells_base"], key=new_wells_key, hide_index=True, num_rows="dynamic", width="stretch",
+            placeholder="fill in",
+            column_config={
+                "well_id": st.column_config.TextColumn("New doublet", required=True),
+                "district_id": st.column_config.SelectboxColumn(
+                    "District", options=list(scenario.districts["district_id"].astype(str))),
+                "lon": st.column_config.NumberColumn("Lon [°]", format="%.6f"),
+                "lat": st.column_config.NumberColumn("Lat [°]", format="%.6f"),
+                "permit_flow_m3_per_h": st.column_config.NumberColumn("Flow permit [m³/h]", min_value=0.0,
+                                                                      format="%.1f"),
+                "permit_annual_volume_m3": st.column_config.NumberColumn(
+                    "Annual volume permit [m³/a]", min_value=0.0, format="%.0f", help="Blank means no annual limit."),
+                "design_spread_k": st.column_config.NumberColumn("Design spread [K]", min_value=0.0, format="%.1f"),
+                "groundwater_temp_c": st.column_config.NumberColumn("Groundwater [°C]", min_value=0.0,
+                                                                    format="%.1f"),
+                "groundwater_temp_amplitude_k": st.column_config.NumberColumn(
+                    "Seasonal amplitude [K]", min_value=0.0, format="%.1f", help="0: a constant temperature."),
+            },
+        )
+        if len(new_wells):
+            st.caption("Select a row's left edge and press Delete to remove a proposed doublet; its reinjection "
+                       "well goes down-gradient by the aquifer's reinjection offset.")
+    with tab_prices:
+        st.caption("Scale a price by a factor, or replace an hourly price by a file of your own. A cost case's "
+                   "factors apply on top of these prices.")
+        price_edits: PriceEdits = setup["prices"]
+        if prices_key not in state or "prices_base" not in setup:  # a stable base while the editor lives
+            state.pop(prices_key, None)
+            setup["prices_base"] = price_table(scenario, price_edits)[
+                ["series", "price", "kept in", "mean_eur_per_mwh", "factor"]]
+        price_view = st.data_editor(
+            setup["prices_base"], key=prices_key, hide_index=True, num_rows="fixed", width="stretch",
+            disabled=["series", "price", "kept in", "mean_eur_per_mwh"], column_order=[
+                "price", "kept in", "mean_eur_per_mwh", "factor"],
+            column_config={
+                "price": st.column_config.TextColumn("Price"),
+                "kept in": st.column_config.TextColumn("Kept in", width=300),
+                "mean_eur_per_mwh": st.column_config.NumberColumn("Mean in the files [€/MWh]", format="%.2f"),
+                "factor": st.column_config.NumberColumn("Factor [-]", min_value=0.0, format="%.2f", step=0.05,
+                                                        help="Multiplies the price; 1 keeps it."),
+            },
+        )
+        price_edits.factors = dict(zip(price_view["series"], price_view["factor"]))
+        if price_edits.changed():
+            st.caption("After the edits: " + "; ".join(
+                f"{row['price']} {row['new_mean_eur_per_mwh']:,.2f} €/MWh on average"
+                + (f" (from {row['source']})" if row["series"] in price_edits.uploads else "")
+                for row in price_table(scenario, price_edits).to_dict(orient="records")
+                if row["factor"] != 1.0 or row["series"] in price_edits.uploads) + ".")
+        hourly_series = {s.key: s for s in PRICE_SERIES if s.hourly}
+        pick_col, file_col = st.columns([1, 2])
+        with pick_col:
+            series_key = st.selectbox("Hourly price to replace", list(hourly_series),
+                                      format_func=lambda k: hourly_series[k].label, key="setup_price_series")
+        with file_col:
+            upload_key = f"setup_price_upload_{state.get('setup_price_round', 0)}"
+            price_file = st.file_uploader(
+                f"CSV with columns hour and {hourly_series[series_key].column}", type=["csv"], key=upload_key,
+                help=f"One row per hour of the year ({len(scenario.hourly)} rows), as in hourly.csv.")
+        if price_file is not None and state.get("setup_price_seen") != (price_file.file_id, series_key):
+            state["setup_price_seen"] = (price_file.file_id, series_key)
+            values, upload_problems = read_price_upload(price_file.getvalue(), price_file.name, series_key,
+                                                        len(scenario.hourly))
+            state["setup_price_problems"] = upload_problems
+            if values is not None:
+                price_edits.uploads[series_key] = (price_file.name, values)
+            state["setup_price_round"] = state.get("setup_price_round", 0) + 1
+            st.rerun()
+        if state.get("setup_price_problems"):
+            st.error("The uploaded prices cannot be used:")
+            st.dataframe(problems_for_display(problems_frame(state["setup_price_problems"])), hide_index=True,
+                         width="stretch", column_config={"message": st.column_config.TextColumn(width="large")})
+        for key_up, (name_up, _values) in list(price_edits.uploads.items()):
+            if st.button(f"Use hourly.csv again for {hourly_series[key_up].label.lower()} (not {name_up})",
+                         key=f"setup_price_drop_{key_up}", icon=":material/undo:"):
+                price_edits.uploads.pop(key_up)
+                st.rerun()
     setup["technology_table"], setup["well_table"] = technology_table, well_table
-    edit_problems = check_edits(scenario, technology_table, well_table)
-    changes = edited_cells(scenario, technology_table, well_table)
+    setup["district_table"], setup["new_wells"] = district_table, new_wells
+    st.markdown("**Map:** districts by heat density (from the heat demand above), existing wells and proposed "
+                "doublets. Click inside a district to propose a new well doublet there.")
+    map_center, map_zoom = setup_view(scenario)
+    # the proposed doublets go in as a layer streamlit-folium updates in place: redrawing the map on each click
+    # would lose its zoom
+    clicked_map = st_folium(setup_map(scenario, district_demand_for_map(scenario, district_table)), height=520,
+                            use_container_width=True, returned_objects=["last_clicked"], key="setup_map",
+                            feature_group_to_add=proposed_doublets_layer(new_wells),
+                            center=map_center, zoom=map_zoom)
+    click = (clicked_map or {}).get("last_clicked")
+    if click and state.get("setup_last_click") != (click.get("lng"), click.get("lat")):
+        state["setup_last_click"] = (click.get("lng"), click.get("lat"))
+        row, sentence = well_row_from_click(scenario, float(click["lng"]), float(click["lat"]),
+                                            new_wells["well_id"].astype(str))
+        state["setup_click_note"] = sentence
+        if row is not None:
+            setup["new_wells"] = add_well_row(new_wells, row)
+            setup.pop("new_wells_base", None)
+            setup["new_wells_round"] = setup.get("new_wells_round", 0) + 1
+        st.rerun()
+    if state.get("setup_click_note"):
+        st.caption(state["setup_click_note"] + " (Wells tab)")
+    city = CityEdits.from_setup(setup)
+    all_problems = check_edits(scenario, technology_table, well_table) + city_edit_problems(scenario, city,
+                                                                                             inputs.files)
+    edit_problems = [p for p in all_problems if p.is_error]
+    edit_warnings = [p for p in all_problems if not p.is_error]
+    changes = pd.concat([edited_cells(scenario, technology_table, well_table),
+                         changed_districts(scenario, district_table)], ignore_index=True)
     if edit_problems:
         st.error("Some edited values cannot be used; fix them before solving.")
         st.dataframe(problems_for_display(problems_frame(edit_problems)), hide_index=True, width="stretch",
                      column_config={"message": st.column_config.TextColumn(width="large")})
-    if not changes.empty:
-        with st.expander(f"{len(changes)} value(s) differ from the input files"):
+    if edit_warnings:
+        st.warning("\n".join(f"- {p.file}, row {p.row}, {p.column}: {p.message}" for p in edit_warnings))
+    extra = [f"{len(new_wells)} proposed doublet(s)"] if len(new_wells) else []
+    if price_edits.changed():
+        extra.append("prices " + ", ".join(
+            f"{row['price'].lower()} ×{row['factor']:g}" + (f" from {row['source']}"
+                                                             if row["series"] in price_edits.uploads else "")
+            for row in price_table(scenario, price_edits).to_dict(orient="records")
+            if row["factor"] != 1.0 or row["series"] in price_edits.uploads))
+    if not changes.empty or extra:
+        with st.expander(f"{len(changes)} value(s) differ from the input files"
+                         + (f"; {'; '.join(extra)}" if extra else "")):
             st.dataframe(changes, hide_index=True, width="stretch")
         st.button("Reset to the input files", on_click=reset_tables, icon=":material/undo:")
 
@@ -287,8 +468,9 @@ if download_slot is not None:  # section 1's download, filled once the edited ta
         if edit_problems:
             st.caption("Download this scenario folder: fix the edited values first.")
         else:
-            def folder_zip(tables=(technology_table, well_table), current=inputs) -> bytes:
-                return folder_zip_of(current, scenario_files_with_edits(current.files, *tables, current.scenario))[0]
+            def folder_zip(tables=(technology_table, well_table), current=inputs, edits=city) -> bytes:
+                return folder_zip_of(current, scenario_files_with_edits(current.files, *tables, current.scenario,
+                                                                        edits))[0]
 
             st.download_button(
                 "Download this scenario folder (.zip)", folder_zip,
@@ -300,7 +482,8 @@ if download_slot is not None:  # section 1's download, filled once the edited ta
 
 # ------------------------------------------------------------------------------------------------ 4 solve
 days = 0 if full_year else int(typical_days)
-key = request_key(inputs.digest, technology_table, well_table, cost_case, objective, co2_cap, days)
+city_digest = hashlib.sha256(city.digest_text().encode()).hexdigest()[:16]
+key = request_key(inputs.digest + city_digest, technology_table, well_table, cost_case, objective, co2_cap, days)
 key = key if solver == DIRECT else f"{key}-{solver}"  # another solver's answer is another run to show
 with st.container(border=True):
     st.subheader("4 · Solve")
@@ -311,11 +494,11 @@ with st.container(border=True):
     show_cancelled("setup_job", "solve")
     if clicked:
         started = time.perf_counter()
-        edited, edit_problems = apply_edits(scenario, technology_table, well_table)
+        edited, files, edit_problems = edited_scenario(inputs.files, scenario, technology_table, well_table, city)
         if edited is None:
-            st.error("The edits cannot be used.")
+            st.error("The edited files cannot be read back; nothing was solved.")
+            st.dataframe(problems_for_display(problems_frame(edit_problems)), hide_index=True, width="stretch")
             st.stop()
-        files = scenario_files_with_edits(inputs.files, technology_table, well_table, scenario)
         run, from_cache = run_with_cancel(
             lambda progress, cancel: solve_with_cache(
                 solved, key, edited, files, inputs.label, cost_case, objective, co2_cap, days,

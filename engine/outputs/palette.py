@@ -198,6 +198,14 @@ def sequential_colors(values, vmin: float, vmax: float) -> list[str]:
     return _sample(SEQUENTIAL_SCALE, values, vmin, vmax)
 
 
+def class_colors(n: int) -> list[str]:
+    """``n`` colours for ordered classes, low to high: the cividis ramp sampled at the middle of ``n`` equal
+    steps (cividis is readable with colour-vision deficiency: Nuñez, Anderton, Renslow 2018, PLoS ONE 13(7))."""
+    if n < 1:
+        raise ValueError(f"n must be at least 1, got {n}")
+    return [to_hex(c) for c in sample_colorscale(list(SEQUENTIAL_SCALE), ((np.arange(n) + 0.5) / n).tolist())]
+
+
 def diverging_colors(values, limit: float) -> list[str]:
     """RdBu colours of ``values`` on -``limit``..``limit`` (0 is the neutral middle); NaN gives no-data grey."""
     limit = abs(float(limit))

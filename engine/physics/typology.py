@@ -75,6 +75,12 @@ HEAT_DENSITY_CLASSES = (
 """Heat density classes [MWh/(ha a)], from memory of the classes printed in the German guide "Leitfaden
 Wärmeplanung" (BMWK/BMWSB 2024); verify against the guide or the local heat plan before relying on them."""
 
+HEAT_DENSITY_SOURCE = (
+    "Classes from memory of the German guide Leitfaden Wärmeplanung (BMWK/BMWSB 2024); screening thresholds, "
+    "not a design criterion: verify them against the guide or the local heat plan."
+)
+"""The source line a map or table of :data:`HEAT_DENSITY_CLASSES` carries."""
+
 LINEAR_DENSITY_CLASSES = (
     DensityClass(0.0, 0.5, "below 0.5: a network is rarely economic"),
     DensityClass(0.5, 1.5, "0.5-1.5: a network is possible (0.5 is the minimum of the German KfW network subsidy)"),

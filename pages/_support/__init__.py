@@ -2,7 +2,7 @@
 
 The Streamlit pages (``app.py`` and ``pages/``) only read widgets, keep state and lay out figures; what they
 compute comes from these modules or from the engine: ``inputs`` (input sets), ``edits`` (editable tables, their
-checks, the files with the edits), ``cache`` (the session's solve cache and saved runs), ``describe`` (runs in
+checks, the files with the edits), ``city_edits`` (districts, proposed well doublets and prices), ``cache`` (the session's solve cache and saved runs), ``describe`` (runs in
 words), ``tables`` (result tables for reading), ``library`` (the saved runs, downloads), ``jobs`` (cancellable
 long jobs), ``shell`` (what every page does first).
 
@@ -16,9 +16,12 @@ The pages keep their state under these keys of ``st.session_state`` (plain Pytho
     bundle manifest).
 ``hm_setup``
     The set-up choices, kept while the planner visits other pages: ``cost_case``, ``objective``,
-    ``co2_cap_t_per_a``, ``full_year``, ``typical_days``, ``technology_table``, ``well_table``
-    (the edited tables as DataFrames) and ``technology_base``, ``well_base`` (the data the table editors were
-    started from; it stays fixed while an editor lives, so the browser keeps the edits).
+    ``co2_cap_t_per_a``, ``full_year``, ``typical_days``, ``technology_table``, ``well_table``,
+    ``district_table``, ``new_wells`` (the edited tables as DataFrames), ``prices``
+    (:class:`~pages._support.city_edits.PriceEdits`) and ``technology_base``, ``well_base``, ``district_base``,
+    ``new_wells_base``, ``prices_base`` (the data the table editors were started from; it stays fixed while an
+    editor lives, so the browser keeps the edits; ``new_wells_round`` renews the doublet editor after a click on
+    the map). :func:`pages._support.edits.files_for_setup` gives the scenario files with all of these edits.
 ``hm_solved``
     The session's solve cache, ``{request key: SolvedRun}`` (see :func:`~pages._support.cache.request_key`
     and :func:`~pages._support.cache.solve_with_cache`), so that going back to a cost case already solved is

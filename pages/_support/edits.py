@@ -12,6 +12,7 @@ import dataclasses
 import hashlib
 import io
 import math
+import tomllib
 from collections.abc import Mapping
 
 import numpy as np
@@ -19,12 +20,16 @@ import pandas as pd
 
 from engine.scenario.catalogue import TECHNOLOGY_COLUMNS
 from engine.scenario.cells import MAX_WELL_FLOW_M3_PER_H
-from engine.scenario.files import TECHNOLOGIES_FILE, WELLS_FILE
+from engine.scenario.files import SCENARIO_FILE, TECHNOLOGIES_FILE, WELLS_FILE
 from engine.scenario.inputs import default_cost_case
 from engine.scenario.kinds import BOILER_KINDS, EFFICIENCY_KINDS, HEAT_PUMP_KINDS
 from engine.scenario.well_table import WELL_COLUMNS
 from engine.scenario.inputs import Scenario
 from engine.scenario.problems import InputError, Problem
+from pages._support.city_edits import (
+    CityEdits, PriceEdits, city_edit_problems, city_edits_changed, editable_district_table, empty_new_wells,
+    write_city_edits,
+)
 from pages._support.inputs import InputSet, scenario_from_files
 
 TECHNOLOGY_TABLE = "technology table"
@@ -75,6 +80,9 @@ def initial_setup(
         "typical_days": days if days > 0 else 12,
         "technology_table": editable_technology_table(scenario) if scenario is not None else None,
         "well_table": editable_well_table(scenario) if scenario is not None else None,
+        "district_table": editable_district_table(scenario) if scenario is not None else None,
+        "new_wells": empty_new_wells(),
+        "prices": PriceEdits(),
     }
 
 
@@ -346,8 +354,11 @@ def scenario_files_with_edits(
     technology_table: pd.DataFrame,
     well_table: pd.DataFrame | None = None,
     scenario: Scenario | None = None,
+    city: CityEdits | None = None,
 ) -> dict[str, bytes]:
-    """The scenario files with the edits written back into ``technologies.csv`` and ``wells.csv``.
+    """The scenario files with the edits written back into ``technologies.csv`` and ``wells.csv``, and with
+    ``city`` (districts, candidate doublets, prices: :mod:`pages._support.city_edits`) into
+    ``districts.geojson``, ``wells.csv``, ``scenario.toml`` and ``hourly.csv``.
 
     Only cells whose value changed are rewritten (with the shortest text that reads back as the same float),
     so reading the returned files gives a scenario with the same :func:`engine.scenario.inputs.input_hash` as
@@ -366,6 +377,7 @@ def scenario_files_with_edits(
         if scenario is None:
             raise InputError(load_problems)
     problems, parsed = _parse_edits(scenario, technology_table, well_table)
+    problems += [p for p in city_edit_problems(scenario, city, files) if p.is_error]
     if problems:
         raise InputError(problems)
     before = editable_technology_table(scenario)
@@ -397,7 +409,48 @@ def scenario_files_with_edits(
                 for column in cells:
                     content = _ensure_column(content, column)
             files[WELLS_FILE] = _rewrite_csv(content, "well_id", changes)
-    return files
+    return write_city_edits(files, scenario, city, _declared_crs(files))
+
+
+def _declared_crs(files: Mapping[str, bytes]) -> str | None:
+    """``[gis] crs`` of scenario.toml (the CRS of x/y columns), or None."""
+    try:
+        data = tomllib.loads(files[SCENARIO_FILE].decode("utf-8-sig"))
+    except (KeyError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+        return None
+    crs = data.get("gis", {}).get("crs") if isinstance(data.get("gis"), dict) else None
+    return crs if isinstance(crs, str) else None
+
+
+def files_for_setup(files: Mapping[str, bytes], setup: Mapping, scenario: Scenario) -> dict[str, bytes]:
+    """The scenario files with every edit kept in the set-up page's ``hm_setup`` dict: the ones a run is solved
+    with, saved with and downloaded with (raises :class:`InputError` like :func:`scenario_files_with_edits`)."""
+    technology_table = setup.get("technology_table")
+    if technology_table is None:
+        technology_table = editable_technology_table(scenario)
+    return scenario_files_with_edits(files, technology_table, setup.get("well_table"), scenario,
+                                     CityEdits.from_setup(setup))
+
+
+def edited_scenario(
+    files: Mapping[str, bytes], scenario: Scenario, technology_table: pd.DataFrame,
+    well_table: pd.DataFrame | None = None, city: CityEdits | None = None,
+) -> tuple[Scenario | None, dict[str, bytes] | None, list[Problem]]:
+    """The scenario to solve and the files to save with it, or None, None and every problem.
+
+    Technology and permit edits alone go through :func:`apply_edits`; once the districts, new doublets or prices
+    are edited the edited files are read back through the scenario reader, so the run solves exactly what the
+    saved files hold.
+    """
+    try:
+        written = scenario_files_with_edits(files, technology_table, well_table, scenario, city)
+    except InputError as error:
+        return None, None, list(error.problems)
+    if not city_edits_changed(scenario, city):
+        edited, problems = apply_edits(scenario, technology_table, well_table)
+        return edited, written, problems
+    edited, problems = scenario_from_files(written)
+    return edited, (written if edited is not None else None), problems
 
 def edited_cells(
     scenario: Scenario, technology_table: pd.DataFrame, well_table: pd.DataFrame | None = None
