@@ -22,7 +22,8 @@ page's Solve button); every other figure is printed as seconds and as a ratio to
 * ``switch to <page>``: the dashboard driven by Streamlit's ``AppTest`` (no browser) on a library of the two runs
   above (saved to a temporary store): the script run of a switch from the set-up page to Compare runs,
   Groundwater or Share, on the first visit and on the second (which draws the figures and maps cached by
-  :func:`pages._support.cache.cached_figure`). The browser's drawing comes on top.
+  :func:`pages._support.cache.cached_figure`), wall and CPU seconds of this process (on a loaded machine the
+  CPU seconds compare better). The browser's drawing comes on top.
 
 One solve is the median of three; the other actions run once (the machine is shared; compare ratios from the
 same run, not seconds across runs). The 1-minute load average is printed before and after.
@@ -83,8 +84,11 @@ def page_switches(scenario, first, second) -> list[tuple[str, float, str]]:
             for page in ("3_Compare_runs", "5_Groundwater", "4_Share"):
                 for visit in ("first", "second"):
                     at.switch_page("pages/1_Plan_a_run.py").run()
+                    cpu = time.process_time()
                     seconds, _ = _timed(lambda: at.switch_page(f"pages/{page}.py").run())
-                    note = "; ".join(str(e.value)[:60] for e in at.exception) if at.exception else ""
+                    note = f"{time.process_time() - cpu:.2f} s CPU"
+                    if at.exception:
+                        note += "; " + "; ".join(str(e.value)[:60] for e in at.exception)
                     rows.append((f"switch to {page[2:].replace('_', ' ')}, {visit} visit", seconds, note))
         finally:
             if before is None:
