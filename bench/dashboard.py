@@ -4,6 +4,7 @@ Usage::
 
     python bench/dashboard.py              # about a minute on two idle cores
     python bench/dashboard.py --points 3   # the trade-off curve's number of points (the page's default is 6)
+    python bench/dashboard.py --no-studies # solves, exports and page switches only
 
 Every action is called as the pages call it (the same engine functions and arguments, ``workers=1`` where the
 page passes it), in one process, after one untimed warm-up solve. ``one solve`` is
@@ -16,7 +17,13 @@ page's Solve button); every other figure is printed as seconds and as a ratio to
 * ``trade-off curve``: :func:`engine.studies.tradeoff.tradeoff_curve_runs` with ``--points`` points;
 * ``sweep``: :func:`engine.studies.sweep.run_sweep` over the scenario's cost cases (Trade-offs page);
 * ``spreadsheet`` and ``HTML summary``: :func:`engine.outputs.export.tables_xlsx` and
-  :func:`engine.outputs.report.html_report` of the run (Share page), with their sizes in MB.
+  :func:`engine.outputs.report.html_report` of the run (Share page), with their sizes in MB (the first summary of
+  a process also packs plotly.js once);
+* ``switch to <page>``: the dashboard driven by Streamlit's ``AppTest`` (no browser) on a library of the two runs
+  above (saved to a temporary store): the script run of a switch from the set-up page to Compare runs,
+  Groundwater or Share, on the first visit and on the second (which draws the figures and maps cached by
+  :func:`pages._support.cache.cached_figure`), wall and CPU seconds of this process (on a loaded machine the
+  CPU seconds compare better). The browser's drawing comes on top.
 
 One solve is the median of three; the other actions run once (the machine is shared; compare ratios from the
 same run, not seconds across runs). The 1-minute load average is printed before and after.
@@ -51,9 +58,51 @@ def _timed(action):
     return time.perf_counter() - started, value
 
 
+def other_result(scenario, case, days):
+    return solve_with_cache({}, f"{case}|cost|{days}", scenario, {}, case, case, "cost", 0.0, days)[0].result
+
+
+def page_switches(scenario, first, second) -> list[tuple[str, float, str]]:
+    """Seconds of the script run of each page switch, first and second visit (:mod:`streamlit.testing`)."""
+    import tempfile
+
+    from streamlit.testing.v1 import AppTest
+
+    from engine.scenario import DEMO_DIR
+    from engine.storage.store import ENV_STORE_PATH, ScenarioStore, read_scenario_files
+
+    rows = []
+    before = os.environ.get(ENV_STORE_PATH)
+    with tempfile.TemporaryDirectory() as folder:
+        os.environ[ENV_STORE_PATH] = str(Path(folder) / "store.sqlite")
+        try:
+            files = read_scenario_files(DEMO_DIR)
+            with ScenarioStore(os.environ[ENV_STORE_PATH]) as store:
+                for result in (first, second):
+                    store.save_run(result, result.cost_case, "", inputs=files)
+            at = AppTest.from_file(str(ROOT / "app.py"), default_timeout=300).run()
+            for page in ("3_Compare_runs", "5_Groundwater", "4_Share"):
+                for visit in ("first", "second"):
+                    at.switch_page("pages/1_Plan_a_run.py").run()
+                    cpu = time.process_time()
+                    seconds, _ = _timed(lambda: at.switch_page(f"pages/{page}.py").run())
+                    note = f"{time.process_time() - cpu:.2f} s CPU"
+                    if at.exception:
+                        note += "; " + "; ".join(str(e.value)[:60] for e in at.exception)
+                    rows.append((f"switch to {page[2:].replace('_', ' ')}, {visit} visit", seconds, note))
+        finally:
+            if before is None:
+                os.environ.pop(ENV_STORE_PATH, None)
+            else:
+                os.environ[ENV_STORE_PATH] = before
+    return rows
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description="the dashboard's long actions on the demo city")
     parser.add_argument("--points", type=int, default=6, help="points of the trade-off curve (the page's default)")
+    parser.add_argument("--no-studies", action="store_true",
+                        help="leave out the interference check, the trade-off curve and the sweep")
     args = parser.parse_args(argv)
     load_before = os.getloadavg()[0]
     folder = resolve_scenario_path("demo")
@@ -81,20 +130,22 @@ def main(argv=None) -> int:
     rows.append((f"other cost case ({other})", seconds, ""))
     seconds, (_, hit) = _timed(lambda: request(cache, first))
     rows.append(("back to the first case", seconds, "from the session cache" if hit else "solved"))
-    seconds, checked = _timed(lambda: solve_with_interference(scenario, cost_case=first, typical_days=days,
-                                                              workers=1))
-    rows.append(("interference check", seconds, checked.status))
-    seconds, (table, _) = _timed(lambda: tradeoff_curve_runs(scenario, first, args.points, days))
-    rows.append((f"trade-off curve, {args.points} points", seconds, f"{int((table['status'] == 'optimal').sum())} "
-                 "optimal"))
-    tasks = tasks_from_cost_cases(scenario)
-    seconds, _ = _timed(lambda: run_sweep(scenario, tasks, typical_days=days))
-    rows.append((f"sweep, {len(tasks)} cost cases", seconds, ""))
+    if not args.no_studies:
+        seconds, checked = _timed(lambda: solve_with_interference(scenario, cost_case=first, typical_days=days,
+                                                                  workers=1))
+        rows.append(("interference check", seconds, checked.status))
+        seconds, (table, _) = _timed(lambda: tradeoff_curve_runs(scenario, first, args.points, days))
+        rows.append((f"trade-off curve, {args.points} points", seconds, f"{int((table['status'] == 'optimal').sum())} "
+                     "optimal"))
+        tasks = tasks_from_cost_cases(scenario)
+        seconds, _ = _timed(lambda: run_sweep(scenario, tasks, typical_days=days))
+        rows.append((f"sweep, {len(tasks)} cost cases", seconds, ""))
     results = {result.cost_case: result}
     seconds, book = _timed(lambda: tables_xlsx(results))
     rows.append(("spreadsheet (.xlsx)", seconds, f"{len(book) / 2**20:.2f} MB"))
     seconds, page = _timed(lambda: html_report(results, scenario, scenario.technologies, "Demo city"))
     rows.append(("HTML summary", seconds, f"{len(page.encode()) / 2**20:.2f} MB"))
+    rows += page_switches(scenario, result, other_result(scenario, other, days))
     print(f"heatmosaic dashboard actions on the demo city ({days} typical days), {os.cpu_count()} cores, "
           f"1-min load average {load_before:.1f} before / {os.getloadavg()[0]:.1f} after")
     width = max(len(r[0]) for r in rows)

@@ -6,7 +6,7 @@ import streamlit as st
 from streamlit_folium import st_folium
 
 from engine import cautions
-from pages._support.cache import load_saved_run, scenario_for_files
+from pages._support.cache import cached_figure, cached_map, figure_key, load_saved_run, scenario_for_files
 from pages._support.describe import markdown_literal
 from pages._support.library import default_baseline, run_choices, unique_run_names
 from engine.outputs.figures import (
@@ -38,6 +38,7 @@ st.title("Compare runs")
 st.caption(cautions.RESULTS_LINE)
 loaded = state.setdefault("hm_loaded", {})
 scenarios = state.setdefault("hm_scenarios", {})
+figures = state.setdefault("hm_figures", {})  # figures and maps by runs and options: a second visit redraws
 
 store = open_store()
 choices = run_choices(store)
@@ -81,10 +82,13 @@ technologies = base_scenario.technologies if base_scenario is not None else None
 
 # ------------------------------------------------------------------------------------------------ tables
 st.subheader("Key figures")
-st.dataframe(format_table(kpi_table(results, technologies)), hide_index=True, width="stretch")
+st.dataframe(cached_figure(figures, figure_key("compare_kpi", results),
+                           lambda: format_table(kpi_table(results, technologies))), hide_index=True, width="stretch")
 st.subheader(f"Differences against the baseline “{markdown_literal(baseline)}”")
 st.caption("Positive: more than in the baseline (higher cost, more CO2, more heat from that technology).")
-st.dataframe(format_table(difference_table(results, baseline, technologies)), hide_index=True, width="stretch")
+st.dataframe(cached_figure(figures, figure_key("compare_differences", results),
+                           lambda: format_table(difference_table(results, baseline, technologies))),
+             hide_index=True, width="stretch")
 with st.expander("Districts whose main supply changed"):
     for name, result in results.items():
         if name == baseline:
@@ -114,10 +118,12 @@ for column, run_id in zip(columns, picked):
             st.info("The scenario files of this run are not available.")
             continue
         # the legend below the map: side by side, a legend inside would cover the districts
-        fmap = district_map(scenario, results[name], measure=measure, baseline=base, technologies=technologies,
-                            value_range=scale, legend_inside=False)
+        fmap = cached_map(figures, figure_key("compare_map", results, run=name, measure=measure), lambda: district_map(
+            scenario, results[name], measure=measure, baseline=base, technologies=technologies, value_range=scale,
+            legend_inside=False))
         st_folium(fmap, height=480, use_container_width=True, returned_objects=[], key=f"compare_map_{run_id}")
-        st.html(map_legend_html(scenario, results[name], measure, base, technologies, scale))
+        st.html(cached_figure(figures, figure_key("compare_legend", results, run=name, measure=measure),
+                              lambda: map_legend_html(scenario, results[name], measure, base, technologies, scale)))
 st.caption(cautions.WELLS)
 
 # ------------------------------------------------------------------------------------------------ load curves
@@ -139,22 +145,33 @@ week = c4.slider("Week of the year", 1, 52, 3, key="compare_week", disabled=layo
 week = "year" if period == "year" else week
 if layout == "side":
     columns = st.columns(min(len(solved_runs), 2))
-    curves = {name: load_curve_figure(result, technologies, district_id=district,
-                                      week=None if week == "year" else int(week))
-              for name, result in solved_runs.items()}
-    shared_y_range(curves.values())  # side by side: one y range, so heights compare
+
+    def side_by_side() -> dict:
+        curves = {name: load_curve_figure(result, technologies, district_id=district,
+                                          week=None if week == "year" else int(week))
+                  for name, result in solved_runs.items()}
+        shared_y_range(curves.values())  # side by side: one y range, so heights compare
+        return curves
+
+    curves = cached_figure(figures, figure_key("compare_curves", solved_runs, district=district, week=week),
+                           side_by_side)
     st.caption("The load curves share one y range.")
     for k, (name, fig) in enumerate(curves.items()):
         with columns[k % len(columns)]:
             st.markdown(f"**{markdown_literal(name)}**")
             st.plotly_chart(fig, width="stretch", config=FIGURE_CONFIG, key=f"compare_curve_{k}")
 else:
-    st.plotly_chart(load_duration_figure(results, district_id=district, technologies=technologies),
+    st.plotly_chart(cached_figure(figures, figure_key("compare_duration", results, district=district),
+                                  lambda: load_duration_figure(results, district_id=district, technologies=technologies)),
                     width="stretch", config=FIGURE_CONFIG)
 
 # ------------------------------------------------------------------------------------------------ costs and mix
 st.subheader("Costs and supply mix")
-st.plotly_chart(cost_breakdown_figure(results, by="run"), width="stretch", config=FIGURE_CONFIG)
-st.plotly_chart(supply_mix_figure(results, technologies), width="stretch", config=FIGURE_CONFIG)
+st.plotly_chart(cached_figure(figures, figure_key("compare_cost_runs", results),
+                              lambda: cost_breakdown_figure(results, by="run")), width="stretch", config=FIGURE_CONFIG)
+st.plotly_chart(cached_figure(figures, figure_key("compare_mix", results),
+                              lambda: supply_mix_figure(results, technologies)), width="stretch", config=FIGURE_CONFIG)
 with st.expander("Annual cost per district and run"):
-    st.plotly_chart(cost_breakdown_figure(results, by="district"), width="stretch", config=FIGURE_CONFIG)
+    st.plotly_chart(cached_figure(figures, figure_key("compare_cost_districts", results),
+                                  lambda: cost_breakdown_figure(results, by="district")),
+                    width="stretch", config=FIGURE_CONFIG)

@@ -20,7 +20,7 @@ import streamlit as st
 from streamlit_folium import st_folium
 
 from engine import cautions
-from pages._support.cache import choices_of_run, load_saved_run, scenario_for_files
+from pages._support.cache import cached_figure, cached_map, choices_of_run, figure_key, load_saved_run, scenario_for_files
 from pages._support.describe import markdown_literal, suggested_run_name
 from pages._support.tables import blanks_as_text, table_height
 from pages._support.library import run_choices
@@ -45,6 +45,7 @@ loaded = state.setdefault("hm_loaded", {})
 scenarios = state.setdefault("hm_scenarios", {})
 checks = state.setdefault("hm_groundwater", {})
 plume_cache = state.setdefault("hm_plumes", {})
+figures = state.setdefault("hm_figures", {})  # figures and maps by run and options: a second visit redraws
 
 store = open_store()
 choices = run_choices(store)
@@ -179,7 +180,10 @@ def show_year() -> None:
     well_id = st.selectbox("Doublet", list(well_district), key="groundwater_well",
                            format_func=lambda w: f"{w} ({district_names.get(well_district[w], well_district[w])})")
     profiles = well_year_profiles(shown, scenario, well_ids=[well_id])
-    st.plotly_chart(well_year_figure(profiles, well_id, low, high), width="stretch", config=FIGURE_CONFIG)
+    st.plotly_chart(cached_figure(figures, figure_key("groundwater_year", {"shown": shown}, well=well_id, low=low,
+                                                      high=high),
+                                  lambda: well_year_figure(profiles, well_id, low, high)),
+                    width="stretch", config=FIGURE_CONFIG)
     if len(shown.tables["steps"]) < len(profiles):
         st.caption("Rebuilt to the calendar year from typical days: each day shows its typical day.")
 
@@ -189,6 +193,7 @@ def show_map() -> None:
                      format_func={"plain": "Plain", "interactive": "Interactive with popups"}.get,
                      help="Both work offline: the interactive map's library ships with heatmosaic.")
     polygons = plume_polygons(shown)
+    plumes = "own" if polygons else "none"
     if not polygons:
         draw = st.checkbox("Draw the plume isotherms of this run (takes some seconds)", key="groundwater_draw_plumes")
         if draw:
@@ -196,20 +201,25 @@ def show_map() -> None:
                 with st.spinner("Drawing the 1 K and 3 K isotherms after one year"):
                     plume_cache[shown.input_hash] = plume_outlines(scenario, shown, workers=1)
             polygons = plume_polygons(dataclasses.replace(shown, tables={"plumes": plume_cache[shown.input_hash]}))
+            plumes = "drawn"
     with_wells = [d for d in scenario.districts["district_id"].astype(str) if (screening["district_id"] == d).any()]
     zoom = c1.selectbox("Zoom to", [None] + with_wells, key="groundwater_zoom",
                         format_func=lambda d: "Whole city" if d is None else district_names.get(d, d),
                         disabled=style != "plain")
     if style == "plain":
         focus = None if zoom is None else list(screening.loc[screening["district_id"] == zoom, "well_id"])
-        st.plotly_chart(groundwater_map_figure(scenario, screening, polygons, focus_well_ids=focus),
+        key = figure_key("groundwater_plain", {"shown": shown}, low=low, high=high, focus=focus, plumes=plumes)
+        st.plotly_chart(cached_figure(figures, key, lambda: groundwater_map_figure(scenario, screening, polygons,
+                                                                                   focus_well_ids=focus)),
                         width="stretch", config=FIGURE_CONFIG)
         st.caption("Filled circles: extraction wells (area ∝ annual heat), open circles: reinjection wells, both in "
                    "the doublet's status colour. Dashed: 1 K, dotted: 3 K isotherms of the reinjection plumes after "
                    "the horizon, from each doublet's annual net injection. Point at a well for its figures.")
     else:
-        fmap = district_map(scenario, shown, technologies=scenario.technologies, plume_polygons=polygons,
-                            extra_layers=[well_status_layer(scenario, screening)])
+        key = figure_key("groundwater_map", {"shown": shown}, low=low, high=high, plumes=plumes)
+        fmap = cached_map(figures, key, lambda: district_map(
+            scenario, shown, technologies=scenario.technologies, plume_polygons=polygons,
+            extra_layers=[well_status_layer(scenario, screening)]))
         st_folium(fmap, height=580, use_container_width=True, returned_objects=[], key="groundwater_map")
         st.markdown(
             f"Ring around both wells of a doublet: <span style='color:{STATUS_COLORS['ok']}'>■ ok</span> · "

@@ -375,3 +375,16 @@ def test_format_value():
     assert format_value(float("nan"), "CO2 [t/a]") == "–"
     assert format_value(-0.2, "CO2 [t/a]") == "0"
     assert format_table(pd.DataFrame({"x [t/a]": [1234.4]})).iloc[0, 0] == "1,234"
+
+
+def test_figure_template_is_plotly_white_for_the_traces_we_draw():
+    """The figures' template is plotly's own ``plotly_white`` (the reference) for the layout and for the bar and
+    scatter traces, the only trace types the figures draw; it leaves out the defaults of the other types."""
+    import plotly.io as pio
+
+    from engine.outputs.palette import FIGURE_TEMPLATE
+
+    white = pio.templates["plotly_white"]
+    assert FIGURE_TEMPLATE.layout.to_plotly_json() == white.layout.to_plotly_json()
+    assert FIGURE_TEMPLATE.data.bar == white.data.bar and FIGURE_TEMPLATE.data.scatter == white.data.scatter
+    assert not FIGURE_TEMPLATE.data.heatmap

@@ -28,6 +28,7 @@ from engine.outputs.plan_figures import (
     plan_heat_figure,
     svg_designation_map,
 )
+from engine.outputs.htmlpack import bundle_trace_types, read_figures
 from engine.outputs.plan_report import HeatPlan
 from engine.outputs.report import html_report
 from engine.scenario.folder import load_scenario
@@ -257,8 +258,27 @@ def test_report_has_the_heat_plan_chapter_only_when_given(demo):
     graded_scenario, designation = _graded_city()
     with_plan = html_report({"2040": run}, scenario, heat_plan=HeatPlan(scenario, pathway, None))
     assert "id='heatplan'" in with_plan and "Heat plan</a>" in with_plan
-    assert "CO2 path against the caps" in with_plan and "planning proposals" in with_plan
+    titles = " ".join(spec["layout"].get("title", {}).get("text", "") for spec in read_figures(with_plan))
+    assert "CO2 path against the caps" in titles and "planning proposals" in with_plan
+    # every trace type of the chapter's figures is in the summary's plotly.js bundle (engine/outputs/assets)
+    emitted = {trace.get("type", "scatter") for spec in read_figures(with_plan) for trace in spec["data"]}
+    assert emitted and emitted <= bundle_trace_types()
     only_areas = html_report({"2040": run}, scenario, heat_plan=HeatPlan(graded_scenario, None, designation, "2040"))
     assert "id='heatplan'" in only_areas and "Supply areas and their grades (2040)" in only_areas
-    assert "District &lt;3&gt;" in only_areas and "CO2 path against the caps" not in only_areas
+    assert "District &lt;3&gt;" in only_areas and "CO2 path against the caps" not in str(read_figures(only_areas))
     assert "id='heatplan'" not in html_report({"2040": run}, scenario, heat_plan=HeatPlan(scenario))
+
+
+@pytest.mark.slow
+def test_summary_with_the_heat_plan_draws_every_figure_offline_in_chromium(demo, tmp_path):
+    """The summary with a pathway chapter, opened in Chromium with nothing allowed out: every figure, the
+    chapter's too, is drawn (tests/test_report.draw_offline)."""
+    from test_report import draw_offline
+
+    scenario, pathway = demo
+    run = pathway.year_results[pathway.years[-1]]
+    html = html_report({"2040": run}, scenario, heat_plan=HeatPlan(scenario, pathway, None))
+    seen = draw_offline(html, tmp_path / "summary.html")
+    assert not seen["errors"] and not seen["outside"], seen
+    assert len(seen["heights"]) == len(read_figures(html)) >= 8
+    assert all(h >= 200 for h in seen["heights"]), seen["heights"]

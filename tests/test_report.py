@@ -6,6 +6,7 @@ import base64
 import csv
 import gzip
 import io
+import json
 import re
 import zipfile
 from html.parser import HTMLParser
@@ -14,11 +15,21 @@ import numpy as np
 import openpyxl
 import pandas as pd
 import pytest
-from plotly.offline import get_plotlyjs
+from plotly.offline import get_plotlyjs_version
 
 from engine.outputs.export import MAX_SHEET_NAME, tables_csv_zip, tables_xlsx
 from engine.outputs.figures import format_value, kpi_table
 from engine import cautions
+from engine.outputs.htmlpack import (
+    PLOTLY_JS_FILE,
+    PLOTLY_JS_VERSION,
+    bundle_trace_types,
+    compact,
+    pack,
+    read_figures,
+    read_plotly_js,
+    unpack,
+)
 from engine.outputs.report import html_report
 from engine.model.results import RunResult
 from test_figures import TECHNOLOGIES, synthetic_result, two_runs
@@ -72,24 +83,47 @@ def test_report_loads_nothing_from_outside(report):
     assert fetching == []
     assert not any("url(" in s or "@import" in s for s in parser.styles)
     scripts = [a for t, a in parser.tags if t == "script"]
-    assert len(scripts) >= 2 and all("src" not in a for a in scripts)
-    bundle = re.search(r"<script type='application/gzip;base64' id='heatmosaic-plotly'>([A-Za-z0-9+/=]+)</script>",
-                       html)
-    # the inline bundle is exactly plotly.js (gzip RFC 1952, base64 RFC 4648; decoded by the standard library)
-    assert bundle and gzip.decompress(base64.b64decode(bundle.group(1))).decode("utf-8") == get_plotlyjs()
-    outside_bundle = html.replace(bundle.group(1), "")
+    assert len(scripts) >= 3 and all("src" not in a for a in scripts)
+    # the inline bundle is exactly the vendored plotly.js (gzip RFC 1952, base64 RFC 4648; decoded by the standard
+    # library), and the figures are packed the same way
+    assert read_plotly_js(html) == PLOTLY_JS_FILE.read_text(encoding="utf-8")
+    assert read_figures(html)
+    outside_bundle = re.sub(r"<script type='application/gzip;base64' id='[a-z-]+'>[A-Za-z0-9+/=]+</script>", "", html)
     for text in ('src="http', "src='http", 'href="http', "href='http", "src=http"):
         assert text not in outside_bundle
 
 
 def test_report_embeds_plotly_once_and_every_figure(report):
-    """plotly.js is inline exactly once; every figure is a Plotly.newPlot call (plotly.io.to_html layout)."""
+    """plotly.js is inline exactly once; every figure has its placeholder and its packed specification."""
     runs, html = report
-    assert html.count("window.PlotlyConfig") == 1
+    assert html.count("id='heatmosaic-plotly'") == 1 and html.count("window.PlotlyConfig") == 1
     # cost by run, cost by district, supply mix, per run district supply + load curve, load duration
-    assert html.count("Plotly.newPlot(") == 3 + 2 * len(runs) + 1
-    # each figure's script waits for the unpacked library (engine.outputs.report.FIGURE_SCRIPT_TYPE)
-    assert html.count('<script type="text/heatmosaic-figure">') == 3 + 2 * len(runs) + 1
+    figures = read_figures(html)
+    assert len(figures) == 3 + 2 * len(runs) + 1
+    for spec in figures:
+        assert html.count(f"<div id='{spec['id']}' class='plotly-graph-div'") == 1
+        assert spec["data"] and spec["config"]["displaylogo"] is False
+
+
+def test_bundle_is_the_installed_plotlys_version_and_has_every_trace_type_the_summary_draws(report):
+    """The vendored partial bundle is the plotly.js version the installed plotly writes figures for
+    (``plotly.offline.get_plotlyjs_version``), its header says so, and every trace type of the summary's figures
+    (with a heat-plan chapter: tests/test_plan_figures.py) is one it registers."""
+    _, html = report
+    assert get_plotlyjs_version() == PLOTLY_JS_VERSION
+    assert f"* plotly.js (basic - minified) v{PLOTLY_JS_VERSION}\n" in PLOTLY_JS_FILE.read_text(encoding="utf-8")[:200]
+    assert bundle_trace_types() == {"bar", "pie", "scatter"}  # the package's README lists these three
+    emitted = {trace.get("type", "scatter") for spec in read_figures(html) for trace in spec["data"]}
+    assert emitted and emitted <= bundle_trace_types()
+
+
+def test_figure_numbers_keep_six_significant_digits():
+    """compact() rounds to 6 significant digits (more than any hover label shows), keeps integers, text and
+    missing values (None, as plotly's own JSON writes NaN) and reads numpy arrays; values checked by hand."""
+    values = compact({"x": np.array([1234567.891, 0.000123456789, -2.5, np.nan]), "y": (3.0, "a"), "n": np.int64(4)})
+    assert values == {"x": [1234570, 0.000123457, -2.5, None], "y": [3, "a"], "n": 4}
+    assert json.loads(unpack(pack(b'{"a": 1}'))) == {"a": 1}
+    assert gzip.decompress(base64.b64decode(pack(b"same"))) == b"same"  # RFC 1952 and RFC 4648 via the stdlib
 
 
 def test_report_holds_every_runs_kpis_formatted_as_in_the_kpi_table(report):
@@ -211,8 +245,68 @@ def test_engine_output_load_curve_balances_and_report_builds(solved_tiny_city):
     html = html_report(runs, scenario)
     for well_id in scenario.wells["well_id"]:
         assert f"Well {well_id}" in html
-    assert "src=\"http" not in html.replace(get_plotlyjs(), "")
+    assert "src=\"http" not in html  # base64 holds no quote: the packed blocks cannot hide one
     fmap = district_map(scenario, result, measure="change_total_cost", baseline=runs["high_co2"])
     assert "screening estimate" in fmap.get_root().render()
     book = openpyxl.load_workbook(io.BytesIO(tables_xlsx(runs)), read_only=True)
     assert "well_steps" in book.sheetnames
+
+
+# ------------------------------------------------------------------------------------------------ in a browser
+CHROMIUM = "/usr/bin/chromium"
+
+
+def draw_offline(html: str, path) -> dict:
+    """Open ``html`` from a file in headless Chromium with every network request refused; wait until each figure
+    placeholder holds a drawn plotly chart. Returns the page errors, the refused requests and each placeholder's
+    drawn height [px]."""
+    import os
+    import shutil
+
+    if not os.path.exists(CHROMIUM) or shutil.which("chromium") is None:
+        if os.environ.get("HEATMOSAIC_REQUIRE_BROWSER") == "1":
+            pytest.fail("Chromium is required (HEATMOSAIC_REQUIRE_BROWSER=1) but /usr/bin/chromium is missing")
+        pytest.skip("Debian's Chromium is not installed")
+    from playwright.sync_api import sync_playwright
+
+    path.write_text(html, encoding="utf-8")
+    errors, outside = [], []
+    with sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=CHROMIUM, args=[
+            "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+            "--disable-component-update", "--no-first-run"])
+        page = browser.new_page()
+
+        def refuse(route):
+            outside.append(route.request.url)
+            route.abort()
+
+        page.route(re.compile(r"^https?://"), refuse)
+        page.on("pageerror", lambda e: errors.append(str(e)))
+        page.goto(path.as_uri())
+        placeholders = page.locator("div.plotly-graph-div").count()
+        page.wait_for_function(
+            "n => document.querySelectorAll('div.plotly-graph-div svg.main-svg').length >= n && "
+            "Array.from(document.querySelectorAll('div.plotly-graph-div')).every(d => d.querySelector('.main-svg'))",
+            arg=placeholders, timeout=30000)
+        heights = page.evaluate("() => Array.from(document.querySelectorAll('div.plotly-graph-div'))"
+                                ".map(d => d.querySelector('.main-svg').getBoundingClientRect().height)")
+        traces = page.evaluate("() => Array.from(document.querySelectorAll('div.plotly-graph-div'))"
+                               ".map(d => (d.data || []).length)")
+        browser.close()
+    return {"errors": errors, "outside": outside, "heights": heights, "traces": traces}
+
+
+@pytest.mark.slow
+def test_summary_draws_every_figure_offline_in_chromium(report, tmp_path):
+    """The summary opened from a file with nothing allowed out: plotly.js unpacks (WHATWG Compression Streams,
+    gzip) and every packed figure is drawn into its placeholder with its traces and at least 200 px high
+    (figures.MIN_FIGURE_PX), with no page error."""
+    _, html = report
+    seen = draw_offline(html, tmp_path / "summary.html")
+    specs = read_figures(html)
+    assert not seen["errors"], seen["errors"]
+    assert not seen["outside"], seen["outside"]
+    assert len(seen["heights"]) == len(specs)
+    assert all(h >= 200 for h in seen["heights"]), seen["heights"]
+    assert seen["traces"] == [len(spec["data"]) for spec in specs]

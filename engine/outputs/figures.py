@@ -25,6 +25,7 @@ from engine.outputs.palette import (
     COST_PART_COLORS,
     COST_PART_LABELS,
     DEMAND_LINE_DASH,
+    FIGURE_TEMPLATE,
     RUN_LINE_DASHES,
     STORE_CHARGE_COLOR,
     TECHNOLOGY_KIND_COLORS,
@@ -49,7 +50,7 @@ STACK_ORDER = (
 HOURS_PER_WEEK = 168
 WEEKS_PER_YEAR = 52
 _ZERO_KW = 1e-6
-_FIGURE_TEMPLATE = "plotly_white"
+_FIGURE_TEMPLATE = FIGURE_TEMPLATE
 FIGURE_CONFIG = {"displaylogo": False, "responsive": True}
 """Plotly config the dashboard and the report pass when showing a figure."""
 

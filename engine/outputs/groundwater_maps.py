@@ -17,6 +17,7 @@ import pandas as pd
 import plotly.graph_objects as go
 from plotly.subplots import make_subplots
 
+from engine.outputs.palette import FIGURE_TEMPLATE
 from engine.scenario.inputs import Scenario
 from engine.studies.permits import STATUS_LABELS, STATUSES
 
@@ -85,7 +86,7 @@ def well_year_figure(profiles: pd.DataFrame, well_id: str, reinjection_min_temp_
         fig.add_hline(y=float(level), line=dict(color="#D55E00", dash="dash", width=1.2), row=2, col=1,
                       annotation_text=f"{text} {float(level):g} °C", annotation_position="bottom left")
     fig.update_layout(
-        template="plotly_white", height=520, margin=dict(l=60, r=20, t=80, b=50),
+        template=FIGURE_TEMPLATE, height=520, margin=dict(l=60, r=20, t=80, b=50),
         title={"text": title or f"Doublet {well_id} over the year", "x": 0.01, "xanchor": "left"},
         legend=dict(orientation="h", y=-0.14, x=0.0), hovermode="x unified",
     )
@@ -218,7 +219,7 @@ def groundwater_map_figure(scenario: Scenario, screening: pd.DataFrame, plume_po
         fig.update_xaxes(range=[min(fx) - pad_x, max(fx) + pad_x])
         fig.update_yaxes(range=[min(fy) - pad_y, max(fy) + pad_y])
     fig.update_layout(
-        template="plotly_white", height=height_px, margin=dict(l=10, r=10, t=50, b=10),
+        template=FIGURE_TEMPLATE, height=height_px, margin=dict(l=10, r=10, t=50, b=10),
         title={"text": title or "Doublets, permit status and plume isotherms", "x": 0.01, "xanchor": "left"},
         legend=dict(orientation="v", x=1.0, xanchor="right", y=1.0, bgcolor="rgba(255,255,255,0.85)"),
         hovermode="closest",

@@ -580,6 +580,7 @@ def add_folded_legend(fmap, html_text: str, legend_open: bool, max_width_px: int
     """Add ``html_text`` (already escaped) to ``fmap`` as a legend in the lower right corner that folds."""
     control = MacroElement()
     control._template = Template(_LEGEND_SCRIPT)
+    control._template_str = _LEGEND_SCRIPT  # what branca rebuilds the template from in a copied or unpickled map
     control.legend_open = "true" if legend_open else "false"
     control.max_width = int(max_width_px)
     control.legend_json = json.dumps(html_text).replace("</", "<\\/")

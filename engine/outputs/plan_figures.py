@@ -27,6 +27,7 @@ from engine.outputs.palette import (
     BLUE,
     COST_PART_COLORS,
     COST_PART_LABELS,
+    FIGURE_TEMPLATE,
     ORANGE,
     REDDISH_PURPLE,
     TECHNOLOGY_KIND_COLORS,
@@ -35,7 +36,7 @@ from engine.outputs.palette import (
 from engine.model.results import COST_PARTS
 from engine.scenario.kinds import COOLING_KINDS
 
-_TEMPLATE = "plotly_white"
+_TEMPLATE = FIGURE_TEMPLATE
 AREA_LABELS = {
     "heat_network": "Heat network",
     "individual_heat_pumps": "Individual heat pumps",

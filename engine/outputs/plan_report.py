@@ -13,6 +13,7 @@ import pandas as pd
 
 from engine import cautions
 from engine.outputs.figures import FIGURE_CONFIG, escape
+from engine.outputs.htmlpack import FigureSet
 from engine.outputs.plan_figures import (
     co2_path_figure,
     designation_table,
@@ -40,12 +41,6 @@ class HeatPlan:
         return self.pathway is None and self.designation is None
 
 
-def _figure(fig) -> str:
-    height = fig.layout.height or 450
-    return "<div class='figure'>" + fig.to_html(full_html=False, include_plotlyjs=False, config=FIGURE_CONFIG,
-                                                default_width="100%", default_height=f"{int(height)}px") + "</div>"
-
-
 def _table(table: pd.DataFrame) -> str:
     head = "".join(f"<th>{escape(c)}</th>" for c in table.columns)
     rows = []
@@ -57,8 +52,10 @@ def _table(table: pd.DataFrame) -> str:
             f"<tbody>{''.join(rows)}</tbody></table></div>")
 
 
-def heat_plan_chapter(plan: HeatPlan, technologies=None) -> str:
-    """The chapter as an HTML fragment (``<h2 id='heatplan'>`` and what follows)."""
+def heat_plan_chapter(plan: HeatPlan, technologies=None, figures: FigureSet | None = None) -> str:
+    """The chapter as an HTML fragment (``<h2 id='heatplan'>`` and what follows); its figures are added to
+    ``figures``, the page's :class:`engine.outputs.htmlpack.FigureSet` (a new one, dropped, when None)."""
+    figures = figures if figures is not None else FigureSet(FIGURE_CONFIG)
     technologies = technologies if technologies is not None else getattr(plan.scenario, "technologies", None)
     body = ["<h2 id='heatplan'>Heat plan</h2>",
             f"<div class='caution'><b>Caution.</b> {escape(cautions.HEAT_PLAN)}</div>"]
@@ -71,7 +68,7 @@ def heat_plan_chapter(plan: HeatPlan, technologies=None) -> str:
         if pathway.solved:
             for fig in (plan_capacity_figure(pathway, technologies), plan_heat_figure(pathway, technologies),
                         co2_path_figure(pathway), plan_cost_figure(pathway)):
-                body.append(_figure(fig))
+                body.append(figures.add(fig))
     designation = plan.designation
     if designation is not None:
         where = f" ({escape(plan.designation_year)})" if plan.designation_year else ""

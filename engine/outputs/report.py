@@ -2,9 +2,9 @@
 
 The report holds the same figures and tables the dashboard shows (from :mod:`engine.outputs.figures` and
 :mod:`engine.outputs.maps`), the assumptions each run was made under, and the cautions. It is one file that opens offline
-in any browser: plotly.js is embedded once, inline, gzip-compressed and base64-encoded (about 1.3 MB instead of
-4.6 MB; the browser unpacks it with its own ``DecompressionStream`` and then draws the figures, whose scripts wait as
-``text/heatmosaic-figure`` until the library is there; :func:`plotly_bundle`); the maps are inline SVG drawn by
+in any browser: plotly.js's partial bundle of the traces the summary draws is embedded once, and the figures' data
+once, both gzip-compressed and base64-encoded (about 0.6 MB for the demo city; the browser unpacks them with its own
+``DecompressionStream`` and then draws the figures into their placeholders; :mod:`engine.outputs.htmlpack`); the maps are inline SVG drawn by
 :func:`engine.outputs.maps.svg_district_map` (the folium map of the dashboard would load Leaflet from a CDN, and the
 installed folium and branca do not ship it). No address outside the file is loaded when it opens.
 
@@ -14,12 +14,8 @@ HTML-escaped.
 
 from __future__ import annotations
 
-import base64
 import dataclasses
 import datetime as _dt
-import functools
-import gzip
-import re
 from collections.abc import Mapping
 
 import pandas as pd
@@ -38,6 +34,7 @@ from engine.outputs.figures import (
     supply_mix_figure,
 )
 from engine import cautions
+from engine.outputs.htmlpack import FigureSet
 from engine.outputs.labels import AQUIFER_LABELS, cost_case_label, objective_label, status_label, words
 from engine.outputs.maps import shared_value_range, svg_district_map
 from engine.outputs.plan_report import HeatPlan, heat_plan_chapter
@@ -101,61 +98,6 @@ def _transposed_html(table: pd.DataFrame, corner: str) -> str:
 
 def _numeric_columns(table: pd.DataFrame) -> set[str]:
     return {c for c in table.columns if pd.api.types.is_numeric_dtype(table[c]) and not pd.api.types.is_bool_dtype(table[c])}
-
-
-FIGURE_SCRIPT_TYPE = "text/heatmosaic-figure"
-"""The type of each figure's script: the browser leaves it alone until plotly.js is unpacked (:func:`_plotly_js`)."""
-
-
-def _figure_html(fig) -> str:
-    height = fig.layout.height or 450
-    body = fig.to_html(
-        full_html=False, include_plotlyjs=False, config=FIGURE_CONFIG, default_width="100%",
-        default_height=f"{int(height)}px",
-    )
-    body = re.sub(r"<script( type=\"text/javascript\")?>", f'<script type="{FIGURE_SCRIPT_TYPE}">', body)
-    return "<div class='figure'>" + body + "</div>"
-
-
-@functools.lru_cache(maxsize=1)
-def plotly_bundle() -> str:
-    """plotly.js as shipped with the installed plotly, gzip-compressed (RFC 1952) and base64-encoded (RFC 4648).
-
-    Made once per process (compressing takes a few tenths of a second)."""
-    from plotly.offline import get_plotlyjs
-
-    return base64.b64encode(gzip.compress(get_plotlyjs().encode("utf-8"), compresslevel=9, mtime=0)).decode("ascii")
-
-
-# Unpacks the bundle (WHATWG Compression Streams: gzip), runs it as a script of its own, then runs each figure's
-# script in document order once the page is parsed. Written for this report.
-_UNPACK_JS = """
-(function () {
-  var text = atob(document.getElementById('heatmosaic-plotly').textContent.trim());
-  var bytes = new Uint8Array(text.length);
-  for (var i = 0; i < text.length; i++) { bytes[i] = text.charCodeAt(i); }
-  function run(code) {
-    var script = document.createElement('script');
-    script.textContent = code;
-    document.head.appendChild(script);
-  }
-  new Response(new Blob([bytes]).stream().pipeThrough(new DecompressionStream('gzip'))).text().then(function (js) {
-    function figures() {
-      run(js);
-      document.querySelectorAll("script[type='%s']").forEach(function (s) { run(s.textContent); });
-    }
-    if (document.readyState === 'loading') { document.addEventListener('DOMContentLoaded', figures); }
-    else { figures(); }
-  });
-})();
-""" % FIGURE_SCRIPT_TYPE
-
-
-def _plotly_js() -> str:
-    # base64 text holds no "<", so the bundle cannot close its script element early
-    return ("<script type='text/javascript'>window.PlotlyConfig = {MathJaxConfig: 'local'};</script>"
-            f"<script type='application/gzip;base64' id='heatmosaic-plotly'>{plotly_bundle()}</script>"
-            f"<script type='text/javascript'>{_UNPACK_JS}</script>")
 
 
 def _setting(result: RunResult, scenario, key: str, default=None):
@@ -252,6 +194,8 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
     solved = {k: v for k, v in runs.items() if v.tables.get("districts") is not None}
     baseline = next(iter(runs))
     generated = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+    figures = FigureSet(FIGURE_CONFIG)
+    _figure_html = figures.add
 
     body = [
         f"<h1>{escape(title)}</h1>",
@@ -321,7 +265,7 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
     body.append(_figure_html(load_duration_figure(solved, technologies=technologies)))
 
     if heat_plan is not None and not heat_plan.empty:
-        body.append(heat_plan_chapter(heat_plan, technologies))
+        body.append(heat_plan_chapter(heat_plan, technologies, figures))
 
     body.append("<h2 id='assumptions'>Assumptions</h2>")
     body += ["<h3>Run settings</h3>", _table_html(assumptions_table(runs, scenario))]
@@ -358,6 +302,6 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
     return (
         "<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
         "<meta name='viewport' content='width=device-width, initial-scale=1'>"
-        f"<title>{escape(title)}</title><style>{_STYLE}</style>{_plotly_js()}</head>"
-        f"<body><main>{''.join(body)}</main></body></html>"
+        f"<title>{escape(title)}</title><style>{_STYLE}</style></head>"
+        f"<body><main>{''.join(body)}</main>{figures.scripts()}</body></html>"
     )

@@ -92,6 +92,11 @@ def column_cells(column: pd.Series, to_text=str, style: int = 0) -> list[str]:
         return [f"<c><v>{v}</v></c>" for v in column.to_numpy(np.int64).tolist()]
     if pd.api.types.is_float_dtype(column):
         return _number_cells(column.to_numpy(float), style)
+    if pd.api.types.infer_dtype(column, skipna=True) in ("string", "empty"):
+        # names, ids and codes repeat down a long table: each distinct text is escaped once
+        codes, uniques = pd.factorize(column, use_na_sentinel=True)
+        texts = np.array([_text_cell(u) if u != "" else _EMPTY for u in uniques] + [_EMPTY], dtype=object)
+        return texts[codes].tolist()
     cells = []
     for value in column.tolist():
         cell = _one_cell(value) if isinstance(value, (type(None), bool, int, float, str, np.generic)) or \

@@ -32,6 +32,10 @@ The pages keep their state under these keys of ``st.session_state`` (plain Pytho
     ``{files digest: Scenario}``: scenarios already read from a saved run's files (for maps and colours).
 ``hm_loaded``
     ``{run id: RunResult}``: saved runs already read from the library in this session.
+``hm_figures``
+    ``{figure key: figure, table or folium map}``: what the Compare and Groundwater pages drew, by the runs'
+    fingerprints and the options (:func:`~pages._support.cache.figure_key`), so that a second visit draws the
+    cached objects instead of building them again (maps come back as copies: :func:`~pages._support.cache.cached_map`).
 ``hm_flash``, ``hm_flash_error``
     A short message (saved, renamed, deleted ...; or a refusal) shown once on the next page run.
 ``hm_compare``

@@ -7,6 +7,7 @@ beyond a size (:func:`remember`).
 
 from __future__ import annotations
 
+import copy
 import dataclasses
 import hashlib
 import sqlite3
@@ -188,3 +189,57 @@ def scenario_for_files(cache: MutableMapping, files: Mapping[str, bytes]) -> Sce
         scenario, _ = scenario_from_files(files)
         remember(cache, digest, scenario, limit=6)
     return cache[digest]
+
+
+FIGURE_CACHE_SIZE = 32
+"""Figures and maps kept per session (a folium map of the demo holds about a megabyte)."""
+
+
+def result_fingerprint(result: RunResult) -> str:
+    """A short digest of what a figure of ``result`` shows: its input hash, status, choices, totals and district
+    table. Two results with the same fingerprint draw the same figures; a re-solved, re-checked or other run
+    gets another one."""
+    districts = (result.tables or {}).get("districts")
+    table = ""
+    if districts is not None:
+        numbers = districts.select_dtypes("number").to_numpy(dtype=float, na_value=float("nan"))  # bools too
+        text = "\x1f".join(str(c) for c in districts.columns) + "\x1e" + "\x1f".join(
+            "\x1f".join(map(str, districts[c])) for c in districts.columns
+            if not pd.api.types.is_numeric_dtype(districts[c]))
+        table = hashlib.sha256(numbers.tobytes() + text.encode()).hexdigest()
+    parts = [result.input_hash or "", result.status, str(result.cost_case), str(result.objective),
+             repr(float(result.total_cost_eur_per_a)), repr(float(result.co2_t_per_a)),
+             repr(float(result.unserved_heat_mwh_per_a)), str(sorted(result.extras)),
+             str(result.model_size.get("solver", DIRECT)), table]
+    return hashlib.sha256("|".join(parts).encode()).hexdigest()[:24]
+
+
+def figure_key(kind: str, results: Mapping[str, RunResult] | None = None, **options) -> str:
+    """The cache key of a figure: its kind, each run's name and :func:`result_fingerprint`, and the options it is
+    drawn with (district, week, measure ...)."""
+    runs = [(str(name), result_fingerprint(r)) for name, r in (results or {}).items()]
+    text = repr((kind, runs, sorted((k, repr(v)) for k, v in options.items())))
+    return kind + ":" + hashlib.sha256(text.encode()).hexdigest()[:32]
+
+
+def cached_figure(cache: MutableMapping, key: str, build: Callable[[], object]):
+    """The figure (or map, or table) under ``key``, built by ``build()`` on the first call only.
+
+    The same object comes back on later calls: a page must not change it after drawing (a figure changed for a
+    shared range is changed inside ``build``)."""
+    if key in cache:
+        remember(cache, key, cache[key], limit=FIGURE_CACHE_SIZE)
+        return cache[key]
+    value = build()
+    remember(cache, key, value, limit=FIGURE_CACHE_SIZE)
+    return value
+
+
+
+def cached_map(cache: MutableMapping, key: str, build: Callable[[], object]):
+    """A copy of the folium map under ``key``, built by ``build()`` on the first call only.
+
+    ``st_folium`` renames the elements of the map it is given as it renders it, and a map rendered twice that way
+    draws its layers twice: so the cache keeps the map as built and every call gets a deep copy (a few
+    hundredths of a second for the demo city against about a second to build it)."""
+    return copy.deepcopy(cached_figure(cache, key, build))
