@@ -252,6 +252,7 @@ def run_ratios(repeats: int = 3, curve_repeats: int = 1) -> dict:
     import statistics
 
     from engine.model.prepare import clear_grid_memo, prepare_run
+    from engine.model.results import SOLVED_STATUSES
     from engine.model.solve import choose_workers, plan_parts, run_settings, solve_scenario
     from engine.scenario import load_scenario, resolve_scenario_path
     from engine.studies.tradeoff import tradeoff_curve_runs
@@ -280,7 +281,8 @@ def run_ratios(repeats: int = 3, curve_repeats: int = 1) -> dict:
         started = time.perf_counter()
         table, _ = tradeoff_curve_runs(scenario, n_points=7)
         curve.append(time.perf_counter() - started)
-        if (table["status"] != "optimal").any():
+        # a point near the least-CO2 end may leave a little heat unserved (cheaper than the last tonnes): solved
+        if not table["status"].isin(SOLVED_STATUSES).all():
             raise RuntimeError("demo trade-off curve: a point did not solve")
     e2e, ref = statistics.median(end_to_end), statistics.median(alone)
     one, whole = statistics.median(single), statistics.median(curve)
