@@ -125,3 +125,47 @@ def test_co2_stages_in_one_model_equal_stages_from_scratch(city):
         x2 = linprog_solution(fresh.lp, fresh.money, rows)
         assert float(model.emissions @ solution.x) == pytest.approx(float(fresh.emissions @ x2), rel=REL, abs=1e-6)
         assert float(model.money @ solution.x) == pytest.approx(float(fresh.money @ x2), rel=REL)
+
+
+# ------------------------------------------------------------------------------------------ nothing changed
+def test_requests_already_answered_perform_no_solve(monkeypatch, tmp_path):
+    """A request solved in the session (same key, or another key with the same input hash), a saved run solved
+    again in the session, and a request saved in the library come back without calling the solver: the calls of
+    solve_scenario are counted (common practice for memoising on a content hash)."""
+    from pathlib import Path
+
+    from engine.storage.store import ScenarioStore, read_scenario_files
+    from pages._support import cache as cache_module
+    from pages._support.cache import request_key, resolve_saved_run, solve_with_cache
+    from pages._support.inputs import input_set_from_files
+
+    tiny = input_set_from_files(read_scenario_files(Path(__file__).parent / "fixtures" / "tiny_city"), "tiny")
+    assert tiny.ok, tiny.problems
+    calls = []
+    real = cache_module.solve_scenario
+
+    def counted(*args, **kwargs):
+        calls.append(kwargs.get("cost_case"))
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(cache_module, "solve_scenario", counted)
+    cache: dict = {}
+    key = request_key(tiny.digest, None, None, "reference", "cost", 0.0, 4)
+    run, hit = solve_with_cache(cache, key, tiny.scenario, tiny.files, "first", "reference", "cost", 0.0, 4)
+    assert run.result.solved and not hit and len(calls) == 1
+    solve_with_cache(cache, key, tiny.scenario, tiny.files, "again", "reference", "cost", 0.0, 4)
+    other_key = request_key("another digest", None, None, "reference", "cost", 0.0, 4)
+    solve_with_cache(cache, other_key, tiny.scenario, tiny.files, "same hash", "reference", "cost", 0.0, 4)
+    again, hit = resolve_saved_run(cache, tiny.scenario, tiny.files, run.result, "re-solve")
+    assert hit and again.result is run.result
+    assert len(calls) == 1
+    path = tmp_path / "library.sqlite"
+    with ScenarioStore(path) as store:
+        store.save_run(run.result, "tiny", inputs=tiny.files)
+    found, hit = solve_with_cache({}, key, tiny.scenario, tiny.files, "library", "reference", "cost", 0.0, 4,
+                                  library=lambda: ScenarioStore(path))
+    assert hit and found.saved_run_id is not None and len(calls) == 1
+    # another objective is another request: it is solved
+    co2_key = request_key(tiny.digest, None, None, "reference", "co2", 0.0, 4)
+    solve_with_cache(cache, co2_key, tiny.scenario, tiny.files, "co2", "reference", "co2", 0.0, 4)
+    assert len(calls) == 2
