@@ -169,3 +169,23 @@ def test_requests_already_answered_perform_no_solve(monkeypatch, tmp_path):
     co2_key = request_key(tiny.digest, None, None, "reference", "co2", 0.0, 4)
     solve_with_cache(cache, co2_key, tiny.scenario, tiny.files, "co2", "reference", "co2", 0.0, 4)
     assert len(calls) == 2
+
+
+def test_fast_table_text_of_the_fingerprint_is_pandas_text():
+    """The input hash writes numeric tables without pandas; the text must be pandas' ``to_csv`` (index off,
+    ``%.10g``) character for character, so that fingerprints of saved runs stay what they were: the demo's hourly
+    table and a frame of awkward numbers (NaN, signed zero, infinities, large and tiny magnitudes)."""
+    import pandas as pd
+
+    from engine.scenario.inputs import _numeric_csv
+
+    scenario = load_scenario(resolve_scenario_path("demo"))
+    rng = np.random.default_rng(7)
+    awkward = pd.DataFrame({
+        "x": rng.normal(size=40) * 10.0 ** rng.integers(-12, 16, 40),
+        "n": rng.integers(-9, 9, 40),
+        "y": np.r_[np.nan, -0.0, np.inf, -np.inf, 1e16, 123456789012.0, 0.1 + 0.2, rng.random(33)],
+    })
+    for frame in (scenario.hourly, awkward):
+        assert _numeric_csv(frame) == frame.to_csv(index=False, float_format="%.10g")
+    assert _numeric_csv(scenario.wells) is None  # text columns: pandas writes it
