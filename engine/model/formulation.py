@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass, field
+from types import SimpleNamespace
 
 import numpy as np
 
@@ -116,11 +117,23 @@ def split_existing_over_wells(existing_kw: float, permit_flow_kg_s: np.ndarray) 
     return float(existing_kw) * weights / weights.sum()
 
 
+def _supply_rows(prepared: PreparedRun) -> tuple[list, list]:
+    """The district rows (as dicts) and technology rows (as namespaces) :func:`supply_units` walks, read once
+    per prepared run (pandas' row access costs about a millisecond a row, for every district LP built). Plain
+    objects, so that a prepared run still pickles to the worker processes."""
+    cached = getattr(prepared, "_supply_rows_cache", None)
+    if cached is None:
+        scenario = prepared.scenario
+        columns = ["district_id", "cooling_demand_mwh_per_a", "network_available", "network_connection_limit_kw"]
+        cached = (scenario.districts[columns].to_dict("records"),
+                  [SimpleNamespace(**row) for row in scenario.technologies.to_dict("records")])
+        prepared._supply_rows_cache = cached
+    return cached
+
+
 def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUnits, StoreUnits]:
     """List the units that may exist in ``districts`` with their per-step conversion factors."""
-    scenario = prepared.scenario
-    dist_table = scenario.districts
-    techs = scenario.technologies
+    district_rows, tech_rows = _supply_rows(prepared)
     pot = _district_potential(prepared)
     n_t = prepared.n_steps
     rec = {k: [] for k in SupplyUnits.__dataclass_fields__}
@@ -147,10 +160,10 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
         rec["fuel_name"].append(tech.carrier if tech.carrier in FUELS else "")
 
     for i in districts:
-        d = dist_table.iloc[i]
+        d = district_rows[i]
         did = d["district_id"]
         has_cooling = d["cooling_demand_mwh_per_a"] > 0
-        for tech in techs.itertuples(index=False):
+        for tech in tech_rows:
             existing, potential = pot.get((did, tech.technology_id), (0.0, INF))
             kind = tech.kind
             if kind in COOLING_KINDS and not has_cooling:
