@@ -9,7 +9,12 @@ objective) and runs HiGHS again from the basis it holds (dual simplex after a bo
 change: HiGHS chooses). :class:`LiveDistricts` does the same for every district LP of a decomposed run.
 
 Measured on the demo city (12 typical days): the five bounded points of a seven-point curve took 20 s warm and
-42 s solved from scratch; the whole curve 13 s, where building and solving every point took 37 s.
+42 s solved from scratch; the whole curve 13 s, where building and solving every point took 37 s. A bounded
+city LP stays dearer than the whole decomposed run (HiGHS re-solves it without presolve, at several times the
+cost per iteration), so the bounded points are most of a curve's time. The first solve without a bound goes
+district by district (:meth:`LiveCityModel._run_by_district`): the districts' solutions and bases, stacked into
+the city LP (:func:`stacked_basis`), give the least-cost point at the price of a decomposed run and a warm start
+for the first bounded point.
 
 The programs solved are the same as :func:`engine.model.solve.solve_scenario` would build for the same settings
 (a CO2 row with no limit is a free row); the results are read by the same extraction, so a point of a study is
