@@ -20,13 +20,14 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass, field
+from types import SimpleNamespace
 
 import numpy as np
 
 from engine.scenario.kinds import COOLING_KINDS, FUELS, WELL_KINDS
-from engine.model.lp import INF, LinearProgram, LpSolution
+from engine.model.lp import INF, HighsSession, LinearProgram, LpSolution
 from engine.model.prepare import PreparedRun
-from engine.model.solvers import DIRECT, solve_lp
+from engine.model.solvers import DIRECT, resolve_solver, solve_lp
 from engine.units import KG_PER_T, KWH_PER_MWH, SECONDS_PER_HOUR
 
 UNSERVED_CO2_EQUIVALENT_T_PER_MWH = 10.0
@@ -116,11 +117,23 @@ def split_existing_over_wells(existing_kw: float, permit_flow_kg_s: np.ndarray) 
     return float(existing_kw) * weights / weights.sum()
 
 
+def _supply_rows(prepared: PreparedRun) -> tuple[list, list]:
+    """The district rows (as dicts) and technology rows (as namespaces) :func:`supply_units` walks, read once
+    per prepared run (pandas' row access costs about a millisecond a row, for every district LP built). Plain
+    objects, so that a prepared run still pickles to the worker processes."""
+    cached = getattr(prepared, "_supply_rows_cache", None)
+    if cached is None:
+        scenario = prepared.scenario
+        columns = ["district_id", "cooling_demand_mwh_per_a", "network_available", "network_connection_limit_kw"]
+        cached = (scenario.districts[columns].to_dict("records"),
+                  [SimpleNamespace(**row) for row in scenario.technologies.to_dict("records")])
+        prepared._supply_rows_cache = cached
+    return cached
+
+
 def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUnits, StoreUnits]:
     """List the units that may exist in ``districts`` with their per-step conversion factors."""
-    scenario = prepared.scenario
-    dist_table = scenario.districts
-    techs = scenario.technologies
+    district_rows, tech_rows = _supply_rows(prepared)
     pot = _district_potential(prepared)
     n_t = prepared.n_steps
     rec = {k: [] for k in SupplyUnits.__dataclass_fields__}
@@ -147,10 +160,10 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
         rec["fuel_name"].append(tech.carrier if tech.carrier in FUELS else "")
 
     for i in districts:
-        d = dist_table.iloc[i]
+        d = district_rows[i]
         did = d["district_id"]
         has_cooling = d["cooling_demand_mwh_per_a"] > 0
-        for tech in techs.itertuples(index=False):
+        for tech in tech_rows:
             existing, potential = pot.get((did, tech.technology_id), (0.0, INF))
             kind = tech.kind
             if kind in COOLING_KINDS and not has_cooling:
@@ -536,7 +549,15 @@ def _staged_co2(model: DistrictModel, time_limit_s, cancel, cost_limit_eur=None,
         lp.add_rows_coo("cost_limit", 1, np.zeros(len(nz)), nz, model.money[nz], upper=np.array([cost_limit_eur]))
     first, unserved_cols, unserved_weight = co2_stage_objective(model)
     lp.set_objective(first)
-    stage1 = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
+    # with HiGHS directly the three solves share one model: the second starts from the first's optimum (a new
+    # objective and two rows it already meets), the third from the second's (one bound relaxed)
+    session = HighsSession(lp, time_limit_s, cancel=cancel) if resolve_solver(solver) == DIRECT else None
+
+    def solve_stage() -> LpSolution:
+        return session.solve() if session is not None else solve_lp(lp, solver, time_limit_s=time_limit_s,
+                                                                    cancel=cancel)
+
+    stage1 = solve_stage()
     if stage1.status != "optimal":
         return stage1
     x = stage1.x
@@ -548,14 +569,14 @@ def _staged_co2(model: DistrictModel, time_limit_s, cancel, cost_limit_eur=None,
     lp.add_rows_coo("unserved_optimum", 1, np.zeros(len(unserved_cols)), unserved_cols, unserved_weight,
                     upper=np.array([unserved_opt * (1 + CO2_STAGE_RELATIVE_SLACK) + UNSERVED_STAGE_ABSOLUTE_SLACK_MWH]))
     lp.set_objective(model.money)
-    stage2 = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
+    stage2 = solve_stage()
     stage2.solve_s += stage1.solve_s
     if stage2.status != "optimal":
         return stage2
     co2_at = float(model.emissions @ stage2.x)
     step = max(ABATEMENT_STEP_MIN_T, ABATEMENT_STEP_SHARE * co2_at)
     lp.set_row_upper("co2_optimum", co2_bound + step)
-    relaxed = solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
+    relaxed = solve_stage()
     lp.set_row_upper("co2_optimum", co2_bound)
     stage2.solve_s += relaxed.solve_s
     stage2.info = {"co2_optimum_t_per_a": co2_at, "abatement_step_t_per_a": 0.0, "abatement_saving_eur_per_a": 0.0}

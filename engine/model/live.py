@@ -9,7 +9,12 @@ objective) and runs HiGHS again from the basis it holds (dual simplex after a bo
 change: HiGHS chooses). :class:`LiveDistricts` does the same for every district LP of a decomposed run.
 
 Measured on the demo city (12 typical days): the five bounded points of a seven-point curve took 20 s warm and
-42 s solved from scratch; the whole curve 13 s, where building and solving every point took 37 s.
+42 s solved from scratch; the whole curve 13 s, where building and solving every point took 37 s. A bounded
+city LP stays dearer than the whole decomposed run (HiGHS re-solves it without presolve, at several times the
+cost per iteration), so the bounded points are most of a curve's time. The first solve without a bound goes
+district by district (:meth:`LiveCityModel._run_by_district`): the districts' solutions and bases, stacked into
+the city LP (:func:`stacked_basis`), give the least-cost point at the price of a decomposed run and a warm start
+for the first bounded point.
 
 The programs solved are the same as :func:`engine.model.solve.solve_scenario` would build for the same settings
 (a CO2 row with no limit is a free row); the results are read by the same extraction, so a point of a study is
@@ -28,10 +33,10 @@ import numpy as np
 
 from engine.model.extract import extract_tables
 from engine.model.formulation import build_model
-from engine.model.lp import read_highs_solution
+from engine.model.lp import HighsSession, read_highs_solution
 from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
-from engine.model.solve import PartOutcome, finish_result
+from engine.model.solve import PartOutcome, finish_result, stitched_solution
 from engine.model.solvers import DIRECT
 from engine.scenario.inputs import Scenario, Settings, input_hash
 
@@ -65,6 +70,7 @@ class LiveCityModel:
         self.model = build_model(self.prepared)
         self.co2_row = int(self.model.rows["co2_cap"][0])
         self.highs = self.model.lp.to_highs(time_limit_s)
+        self.time_limit_s = time_limit_s
         self._cost = self.model.money.copy()
         self.solves = 0
         self._build_s = self.model.build_s  # reported once, with the first run
@@ -86,6 +92,37 @@ class LiveCityModel:
         self.solves += 1
         return read_highs_solution(self.highs, time.perf_counter() - started)
 
+    def _run_by_district(self):
+        """The first solve without a bound, surcharge or city-wide row: each district's LP on its own (together
+        they are the city LP, without the free CO2 row), the solutions and bases stacked into the city LP, the
+        basis handed to HiGHS for the bounded solves that follow; None where the stacking does not check out."""
+        if self.base_settings.network_plant_limit_kw is not None or len(self.prepared.district_ids) < 2:
+            return None
+        started = time.perf_counter()
+        models, solutions, bases = [], [], []
+        for i in range(len(self.prepared.district_ids)):
+            model = build_model(self.prepared, [i])
+            model.lp.set_objective(model.money)
+            session = HighsSession(model.lp, self.time_limit_s)
+            solution = session.solve()
+            if solution.status != "optimal":
+                return None
+            basis = session.highs.getBasis()
+            models.append(model)
+            solutions.append(solution)
+            bases.append((np.array([int(v) for v in basis.col_status], np.int8),
+                          np.array([int(v) for v in basis.row_status], np.int8)))
+        solution = stitched_solution(self.model, models, solutions)
+        if solution is None:
+            return None
+        solution.solve_s = time.perf_counter() - started
+        self._build_s += sum(m.build_s for m in models)
+        basis = stacked_basis(self.model, models, bases)
+        if basis is not None and self.highs.setBasis(basis) == highspy.HighsStatus.kOk:
+            self._cost = self.model.money.copy()
+        self.solves += 1
+        return solution
+
     # ------------------------------------------------------------------ requests
     def solve(self, objective: str = "cost", co2_bound_t_per_a: float | None = None,
               co2_surcharge_eur_per_t: float = 0.0) -> RunResult:
@@ -103,9 +140,13 @@ class LiveCityModel:
         settings = dataclasses.replace(
             self.base_settings, objective=objective,
             co2_cap_t_per_a=None if co2_bound_t_per_a is None else float(co2_bound_t_per_a))
-        self._set_co2_bound(co2_bound_t_per_a)
-        self._set_cost(model.money + float(co2_surcharge_eur_per_t) * model.emissions)
-        solution = self._run()
+        solution = None
+        if self.solves == 0 and co2_bound_t_per_a is None and not co2_surcharge_eur_per_t:
+            solution = self._run_by_district()
+        if solution is None:
+            self._set_co2_bound(co2_bound_t_per_a)
+            self._set_cost(model.money + float(co2_surcharge_eur_per_t) * model.emissions)
+            solution = self._run()
         extract_started = time.perf_counter()
         tables = extract_tables(model, solution) if solution.status == "optimal" else None
         extract_s = time.perf_counter() - extract_started
@@ -123,6 +164,103 @@ class LiveCityModel:
         result.model_size["reused_model"] = True
         return result
 
+
+
+def _row_signatures(lp, col_ids: np.ndarray) -> np.ndarray:
+    """Per row of ``lp``: the number of its nonzeros and the sums of ``col_ids`` and ``col_ids**2`` over them
+    (integers, exact in float64 for any city LP), with ``col_ids`` the city column of each of ``lp``'s columns."""
+    pattern = lp.matrix().tocsr().astype(bool).astype(float)
+    ids = col_ids.astype(float)
+    return np.rint(pattern @ np.c_[np.ones_like(ids), ids, ids * ids]).astype(np.int64)
+
+
+def district_row_map(city, models) -> list[np.ndarray] | None:
+    """For each district LP of ``models``, the city row of each of its rows (-1 for a row the city LP lacks: the
+    district's own CO2 row), or None where the rows do not match up.
+
+    The columns stack as in :func:`engine.model.solve.stitched_solution`; a row block of the city is matched to
+    the districts' rows of the same block by the columns each row holds, so a block whose city order is not the
+    district order (the well rows follow the well table) is matched all the same.
+    """
+    col_maps, offsets = [np.full(m.lp.n_cols, -1, np.int64) for m in models], {}
+    for name, (start, shape) in city.lp.var_blocks.items():
+        position = start
+        for k, m in enumerate(models):
+            d_start, d_shape = m.lp.var_blocks[name]
+            n = int(np.prod(d_shape))
+            col_maps[k][d_start:d_start + n] = np.arange(position, position + n)
+            position += n
+        if position != start + int(np.prod(shape)):
+            return None
+    if any(np.any(c < 0) for c in col_maps):
+        return None
+    city_sig = _row_signatures(city.lp, np.arange(city.lp.n_cols))
+    district_sig = [_row_signatures(m.lp, c) for m, c in zip(models, col_maps)]
+    row_maps = [np.full(m.lp.n_rows, -1, np.int64) for m in models]
+    for name, index in city.rows.items():
+        city_rows = np.asarray(index).ravel()
+        owners = [(k, np.asarray(m.rows[name]).ravel()) for k, m in enumerate(models) if name in m.rows]
+        if not owners:
+            continue
+        district_rows = np.concatenate([r for _, r in owners])
+        if len(district_rows) != len(city_rows):
+            continue  # a city-wide row (the CO2 row): no district row belongs to it
+        keys_city = city_sig[city_rows]
+        keys_district = np.concatenate([district_sig[k][r] for k, r in owners])
+        if np.array_equal(keys_city, keys_district):
+            matched = city_rows
+        else:
+            order_c = np.lexsort(keys_city.T[::-1])
+            order_d = np.lexsort(keys_district.T[::-1])
+            sorted_c = keys_city[order_c]
+            if (not np.array_equal(sorted_c, keys_district[order_d])
+                    or np.any(np.all(sorted_c[1:] == sorted_c[:-1], axis=1))):
+                return None
+            matched = np.empty(len(city_rows), np.int64)
+            matched[order_d] = city_rows[order_c]
+        position = 0
+        for k, r in owners:
+            row_maps[k][r] = matched[position:position + len(r)]
+            position += len(r)
+    return row_maps
+
+
+def stacked_basis(city, models, bases):
+    """The bases of the district LPs ``models`` written into the columns and rows of the city LP ``city``, or None.
+
+    ``bases`` holds ``(col_status, row_status)`` integer arrays (``highspy.HighsBasisStatus`` values) per district.
+    Columns stack as in :func:`engine.model.solve.stitched_solution`, rows as :func:`district_row_map` finds them.
+    A city row no district row maps to (the city-wide CO2 row) is basic; a district row the city lacks must be
+    basic (its free CO2 row), so that the count of basic variables stays the city's number of rows. The basis
+    only starts HiGHS: a wrong one would cost iterations, never a wrong answer.
+    """
+    row_maps = district_row_map(city, models)
+    if row_maps is None:
+        return None
+    lp = city.lp
+    basic = int(highspy.HighsBasisStatus.kBasic)
+    col_status = np.full(lp.n_cols, -1, np.int8)
+    for name, (start, shape) in lp.var_blocks.items():  # the blocks lie one after the other
+        position = start
+        for m, (cols, _) in zip(models, bases):
+            d_start, d_shape = m.lp.var_blocks[name]
+            n = int(np.prod(d_shape))
+            col_status[position:position + n] = cols[d_start:d_start + n]
+            position += n
+    row_status = np.full(lp.n_rows, basic, np.int8)
+    for mapping, (_, rows) in zip(row_maps, bases):
+        inside = mapping >= 0
+        if np.any(rows[~inside] != basic):
+            return None
+        row_status[mapping[inside]] = rows[inside]
+    if np.any(col_status < 0) or int(np.sum(col_status == basic) + np.sum(row_status == basic)) != lp.n_rows:
+        return None
+    statuses = {int(v): v for v in highspy.HighsBasisStatus.__members__.values()}
+    basis = highspy.HighsBasis()
+    basis.col_status = [statuses[int(v)] for v in col_status]
+    basis.row_status = [statuses[int(v)] for v in row_status]
+    basis.valid = True
+    return basis
 
 
 class LiveDistricts:

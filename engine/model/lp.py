@@ -231,23 +231,7 @@ class LinearProgram:
 
     def solve(self, time_limit_s: float | None = None, threads: int | None = None, cancel=None) -> LpSolution:
         """Solve with HiGHS. ``cancel`` is an optional callable; when it returns True the solve is interrupted."""
-        h = self.to_highs(time_limit_s, threads)
-        if cancel is not None:
-            def _callback(callback_type, message, data_out, data_in, user_data):
-                if cancel():
-                    data_in.user_interrupt = True
-
-            try:
-                h.setCallback(_callback, None)
-                h.startCallback(highspy.cb.HighsCallbackType.kCallbackSimplexInterrupt)
-                h.startCallback(highspy.cb.HighsCallbackType.kCallbackIpmInterrupt)
-            except Exception:  # older highspy without callbacks: cancel is then checked only before solving
-                if cancel():
-                    return LpSolution("interrupted", "The solve was cancelled.")
-        started = time.perf_counter()
-        h.run()
-        elapsed = time.perf_counter() - started
-        return read_highs_solution(h, elapsed)
+        return HighsSession(self, time_limit_s, threads, cancel).solve()
 
     # ------------------------------------------------------------------ pulp
     def to_pulp(self, name: str = "heatmosaic", with_row_names: bool = False):
@@ -281,6 +265,82 @@ class LinearProgram:
                 written.append(f"r{i}_up")
             row_names.append(written)
         return (prob, variables, row_names) if with_row_names else (prob, variables)
+
+
+class HighsSession:
+    """One :class:`LinearProgram` held in a ``highspy.Highs`` over a series of solves.
+
+    Between solves the program may gain row blocks (:meth:`LinearProgram.add_rows_coo`), a new objective
+    (:meth:`LinearProgram.set_objective`) or new row bounds (:meth:`LinearProgram.set_row_upper`); :meth:`solve`
+    hands HiGHS only what changed (``addRows``, ``changeColsCost``, ``changeRowsBounds``) and runs it from the
+    basis of the last solve. Rows added after the first solve enter the basis as basic, so the last optimum stays
+    a starting point (primal simplex after a change of objective, dual simplex after a tightened bound).
+    """
+
+    def __init__(self, lp: LinearProgram, time_limit_s: float | None = None, threads: int | None = None,
+                 cancel=None):
+        self.lp = lp
+        self.highs = lp.to_highs(time_limit_s, threads)
+        self._n_rows = lp.n_rows
+        self._n_triplets = len(lp._triplets)
+        self._cost = lp.cost
+        self._row_lower = lp.row_lower
+        self._row_upper = lp.row_upper
+        self._cancel = cancel
+        self._cancel_checked_before = False
+        if cancel is not None:
+            def _callback(callback_type, message, data_out, data_in, user_data):
+                if cancel():
+                    data_in.user_interrupt = True
+
+            try:
+                self.highs.setCallback(_callback, None)
+                self.highs.startCallback(highspy.cb.HighsCallbackType.kCallbackSimplexInterrupt)
+                self.highs.startCallback(highspy.cb.HighsCallbackType.kCallbackIpmInterrupt)
+            except Exception:  # older highspy without callbacks: cancel is then checked only before solving
+                self._cancel_checked_before = True
+
+    def _sync(self) -> None:
+        lp, h = self.lp, self.highs
+        if lp.n_rows > self._n_rows:
+            new = lp._triplets[self._n_triplets:]
+            rows = np.concatenate([t[0] for t in new]).astype(np.int64) - self._n_rows if new else np.zeros(0, np.int64)
+            cols = np.concatenate([t[1] for t in new]).astype(np.int64) if new else np.zeros(0, np.int64)
+            vals = np.concatenate([t[2] for t in new]).astype(float) if new else np.zeros(0)
+            count = lp.n_rows - self._n_rows
+            block = sp.csr_matrix((vals, (rows, cols)), shape=(count, lp.n_cols))
+            block.sum_duplicates()
+            lower = lp.row_lower[self._n_rows:]
+            upper = lp.row_upper[self._n_rows:]
+            h.addRows(count, np.where(np.isinf(lower), -highspy.kHighsInf, lower),
+                      np.where(np.isinf(upper), highspy.kHighsInf, upper), block.nnz,
+                      block.indptr[:-1].astype(np.int32), block.indices.astype(np.int32), block.data)
+            self._row_lower = np.r_[self._row_lower, lower]
+            self._row_upper = np.r_[self._row_upper, upper]
+            self._n_rows = lp.n_rows
+            self._n_triplets = len(lp._triplets)
+        cost = lp.cost
+        changed = np.flatnonzero(cost != self._cost).astype(np.int32)
+        if len(changed):
+            h.changeColsCost(len(changed), changed, cost[changed])
+            self._cost = cost
+        lower, upper = lp.row_lower, lp.row_upper
+        changed = np.flatnonzero((lower != self._row_lower) | (upper != self._row_upper)).astype(np.int32)
+        if len(changed):
+            h.changeRowsBounds(len(changed), changed, np.where(np.isinf(lower[changed]), -highspy.kHighsInf,
+                                                                lower[changed]),
+                               np.where(np.isinf(upper[changed]), highspy.kHighsInf, upper[changed]))
+            self._row_lower, self._row_upper = lower, upper
+
+    def solve(self) -> LpSolution:
+        """Hand HiGHS what changed in the program since the last solve and solve it from the last basis."""
+        if self._cancel_checked_before and self._cancel():
+            return LpSolution("interrupted", "The solve was cancelled.")
+        self._sync()
+        started = time.perf_counter()
+        self.highs.run()
+        elapsed = time.perf_counter() - started
+        return read_highs_solution(self.highs, elapsed)
 
 
 _BANNER_SILENCED = False

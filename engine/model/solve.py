@@ -23,7 +23,7 @@ from engine.model.extract import UNSERVED_TOLERANCE_MWH, extract_tables
 from engine.scenario.defaults import limit_from_entry
 from engine.scenario.inputs import Scenario, Settings, default_cost_case, input_hash
 from engine.model.formulation import DistrictModel, build_model, co2_stage_objective, solve_model, supply_units
-from engine.model.lp import LpSolution
+from engine.model.lp import HighsSession, LpSolution
 from engine.model.prepare import prepare_run
 from engine.model.results import STATUS_SOLVED, STATUS_WITH_UNSERVED, RunResult
 from engine.model.solvers import DIRECT, resolve_solver, solve_lp
@@ -190,7 +190,56 @@ def district_major(tables: dict[str, pd.DataFrame], district_ids) -> dict[str, p
     return out
 
 
-def _solve_serial_stitched(prepared, parts, objective, time_limit_s, cancel, solver, report):
+class HeldModels:
+    """District LPs kept in HiGHS from one run to the next, for a series of runs that differ only in costs.
+
+    A sweep over cost cases solves LPs whose matrix and bounds are the same from case to case; only the objective
+    changes. Passed to :func:`solve_scenario` as ``held``, each district LP is checked against the one held for
+    the same district (matrix, column and row bounds equal entry for entry); where they agree only the costs are
+    handed to HiGHS (``changeColsCost``) and the solve starts from the last optimal basis (primal simplex: the
+    old optimum stays feasible). Where they differ the new LP replaces the held one. Cost objective, HiGHS
+    directly, districts solved in the calling process; other runs ignore it.
+    """
+
+    def __init__(self):
+        self._held: dict[tuple, tuple] = {}  # district indices -> (model, HighsSession)
+        self._cancel = None
+        self.reused = 0
+        """Solves that started from a held model."""
+
+    def _cancelled(self) -> bool:
+        return bool(self._cancel is not None and self._cancel())
+
+    @staticmethod
+    def _same_structure(a: DistrictModel, b: DistrictModel) -> bool:
+        la, lb = a.lp, b.lp
+        if (la.n_cols, la.n_rows) != (lb.n_cols, lb.n_rows) or la.var_blocks != lb.var_blocks:
+            return False
+        ma, mb = la.matrix(), lb.matrix()
+        return (np.array_equal(la.col_lower, lb.col_lower) and np.array_equal(la.col_upper, lb.col_upper)
+                and np.array_equal(la.row_lower, lb.row_lower) and np.array_equal(la.row_upper, lb.row_upper)
+                and np.array_equal(ma.indptr, mb.indptr) and np.array_equal(ma.indices, mb.indices)
+                and np.array_equal(ma.data, mb.data))
+
+    def solve(self, model: DistrictModel, part, time_limit_s=None, cancel=None) -> LpSolution:
+        """Minimise ``model.money`` over ``model``'s LP, from the held LP of ``part`` when it is the same LP."""
+        self._cancel = cancel
+        key = tuple(int(i) for i in part)
+        held = self._held.get(key)
+        if held is not None and self._same_structure(held[0], model):
+            held_model, session = held
+            held_model.lp.set_objective(model.money)
+            self.reused += 1
+            return session.solve()
+        model.lp.set_objective(model.money)
+        session = HighsSession(model.lp, time_limit_s, cancel=self._cancelled)
+        solution = session.solve()
+        if solution.status == "optimal":
+            self._held[key] = (model, session)
+        return solution
+
+
+def _solve_serial_stitched(prepared, parts, objective, time_limit_s, cancel, solver, report, held=None):
     """Solve the district LPs one after the other; read their tables in one pass over the city LP.
 
     Returns ``(city, outcomes)``: ``city`` True with ``{0: PartOutcome}`` for the city as a whole; False with one
@@ -199,7 +248,10 @@ def _solve_serial_stitched(prepared, parts, objective, time_limit_s, cancel, sol
     models, solutions, outcomes = [], [], {}
     for k, p in enumerate(parts):
         model = build_model(prepared, p)
-        solution = solve_model(model, objective, time_limit_s=time_limit_s, cancel=cancel, solver=solver)
+        if held is not None:
+            solution = held.solve(model, p, time_limit_s, cancel)
+        else:
+            solution = solve_model(model, objective, time_limit_s=time_limit_s, cancel=cancel, solver=solver)
         report(0.1 + 0.8 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)}")
         if models and (solution.status != "optimal"
                        or sum(m.lp.n_cols for m in models) + model.lp.n_cols > STITCH_MAX_COLUMNS):
@@ -415,6 +467,7 @@ def solve_scenario(
     settings: Settings | None = None,
     solver: str = DIRECT,
     co2_within_cost_pct: float | None = None,
+    held: HeldModels | None = None,
 ) -> RunResult:
     """Solve ``scenario`` under ``cost_case`` and return the result (never raises for solver failures).
 
@@ -423,6 +476,8 @@ def solve_scenario(
     :class:`engine.model.solvers.SolverChoiceError` before anything is solved. ``model_size["solver"]`` records it.
     ``co2_within_cost_pct`` (with the CO2 objective): the least CO2 at a cost at most that many percent above
     the least cost, bounded per solved LP (each district when decomposed).
+    ``held`` (:class:`HeldModels`) keeps the district LPs of a decomposed cost run in HiGHS for the next run of a
+    series that changes only costs (a sweep over cost cases); the answer is the same LP's optimum.
     """
     started = time.perf_counter()
     solver = resolve_solver(solver)
@@ -470,7 +525,7 @@ def solve_scenario(
         # one-pass reading for cost runs; a CO2 run's stages carry per-district information read part by part
         if decompose and len(parts) > 1 and solver == DIRECT and settings.objective == "cost":
             city, outcomes = _solve_serial_stitched(prepared, parts, settings.objective, time_limit_s, cancel, solver,
-                                                    report)
+                                                    report, held)
             if city:
                 finish_result(result, scenario, prepared, settings, [sum(parts, [])], outcomes, decompose, solver,
                               time_limit_s, cancel)

@@ -35,7 +35,7 @@ import pandas as pd
 from engine.scenario.inputs import CostCase, Scenario, default_cost_case
 from engine.scenario.kinds import HEAT_PUMP_KINDS
 from engine.model.results import RunResult
-from engine.model.solve import run_settings, solve_scenario
+from engine.model.solve import HeldModels, run_settings, solve_scenario
 from engine.model.solvers import DIRECT
 from engine.progress import Cancel, Progress, SweepCancelled, no_progress
 
@@ -252,17 +252,18 @@ def _record(task: SweepTask, result: RunResult, scenario: Scenario) -> dict:
 
 
 def solve_task(scenario: Scenario, task: SweepTask, typical_days=None, objective=None, keep_result=False,
-               solver: str = DIRECT):
+               solver: str = DIRECT, held: HeldModels | None = None):
     """Solve one task (its cost case added to a shallow copy of ``scenario``); returns (record, result or None).
 
     The districts of one task are solved one after another in this process: a sweep's parallelism is across
-    tasks, so that two levels of process pools do not compete for the same cores.
+    tasks, so that two levels of process pools do not compete for the same cores. ``held`` keeps the district
+    LPs in HiGHS for the next task (:class:`engine.model.solve.HeldModels`: a cost case changes only costs).
     """
     cases = dict(scenario.cost_cases)
     cases[task.cost_case.name] = task.cost_case
     copy = dataclasses.replace(scenario, cost_cases=cases)
     settings = run_settings(copy, objective, None, typical_days)
-    result = solve_scenario(copy, task.cost_case.name, settings=settings, workers=1, solver=solver)
+    result = solve_scenario(copy, task.cost_case.name, settings=settings, workers=1, solver=solver, held=held)
     return _record(task, result, scenario), (result if keep_result else None)
 
 
@@ -369,10 +370,13 @@ def run_sweep(
         if workers is None:
             workers = min(len(tasks), os.cpu_count() or 1)
         if workers <= 1 or len(tasks) == 1:
+            # one after the other: each task re-solves the district LPs of the last from their bases, with only
+            # the costs changed
+            held = HeldModels()
             for k, task in enumerate(tasks):
                 if stopped():
                     raise SweepCancelled(f"the sweep was cancelled after {done} of {len(tasks)} runs")
-                finished(k, solve_task(scenario, task, typical_days, objective, keep_results, solver))
+                finished(k, solve_task(scenario, task, typical_days, objective, keep_results, solver, held))
         else:
             with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(scenario,)) as pool:
                 futures = {

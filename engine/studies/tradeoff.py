@@ -112,10 +112,12 @@ def tradeoff_curve_runs(
     Notes
     -----
     With a CO2 bound the districts share one constraint, so every interior point is solved as one linear
-    program for the whole city. With HiGHS directly, the least-cost point and the interior points are re-solves
-    of that one city LP held in HiGHS (:class:`engine.model.live.LiveCityModel`), each from the basis of the point
-    before; the least-CO2 point is solved by :func:`engine.model.solve.solve_scenario`, district by district
-    where the scenario allows. Cost can only rise as the bound tightens: each tighter bound shrinks the feasible set of the same LP.
+    program for the whole city. With HiGHS directly, the least-cost point and the interior points are solves
+    of that one city LP held in HiGHS (:class:`engine.model.live.LiveCityModel`): the least-cost point district
+    by district (its solution and basis stacked into the city LP), each interior point from the basis of the
+    point before with only the CO2 bound changed; the least-CO2 point is solved by
+    :func:`engine.model.solve.solve_scenario`, district by district where the scenario allows, its two stages in
+    one HiGHS model. Cost can only rise as the bound tightens: each tighter bound shrinks the feasible set of the same LP.
 
     References
     ----------
