@@ -42,6 +42,9 @@ class LpSolution:
     solve_s: float = 0.0
     info: dict = field(default_factory=dict)
     """Figures a staged solve adds (e.g. the CO2 optimum and the abatement cost of its last tonnes)."""
+    basis: tuple | None = None
+    """With ``keep_basis``: the optimal basis as (column statuses, row statuses), object arrays of
+    ``highspy.HighsBasisStatus``, to start a related LP from (:meth:`LinearProgram.solve`'s ``basis``)."""
 
 
 class LinearProgram:
@@ -229,9 +232,21 @@ class LinearProgram:
         if status != highspy.HighsStatus.kOk:
             raise OSError(f"HiGHS could not write the model to {path}")
 
-    def solve(self, time_limit_s: float | None = None, threads: int | None = None, cancel=None) -> LpSolution:
-        """Solve with HiGHS. ``cancel`` is an optional callable; when it returns True the solve is interrupted."""
+    def solve(self, time_limit_s: float | None = None, threads: int | None = None, cancel=None, basis=None,
+              keep_basis: bool = False) -> LpSolution:
+        """Solve with HiGHS. ``cancel`` is an optional callable; when it returns True the solve is interrupted.
+
+        ``basis`` (column statuses, row statuses; see :attr:`LpSolution.basis`) starts the simplex method there
+        instead of from HiGHS's own crash basis (a basis HiGHS rejects is ignored: the solve then starts cold);
+        ``keep_basis`` returns the optimal basis with the solution."""
         h = self.to_highs(time_limit_s, threads)
+        if basis is not None:
+            start = highspy.HighsBasis()
+            start.col_status = list(basis[0])
+            start.row_status = list(basis[1])
+            start.valid = True
+            if h.setBasis(start) != highspy.HighsStatus.kOk:
+                h.clearSolver()
         if cancel is not None:
             def _callback(callback_type, message, data_out, data_in, user_data):
                 if cancel():
@@ -247,7 +262,11 @@ class LinearProgram:
         started = time.perf_counter()
         h.run()
         elapsed = time.perf_counter() - started
-        return read_highs_solution(h, elapsed)
+        solution = read_highs_solution(h, elapsed)
+        if keep_basis and solution.status == "optimal":
+            found = h.getBasis()
+            solution.basis = (np.array(found.col_status, dtype=object), np.array(found.row_status, dtype=object))
+        return solution
 
     # ------------------------------------------------------------------ pulp
     def to_pulp(self, name: str = "heatmosaic", with_row_names: bool = False):

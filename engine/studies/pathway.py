@@ -15,7 +15,6 @@ and the local authorities' own assessment.
 from __future__ import annotations
 
 import dataclasses
-import os
 import time
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
@@ -27,9 +26,10 @@ import pandas as pd
 
 from engine.model.extract import extract_tables
 from engine.model.multiperiod import build_charge, build_multiperiod, builds, year_solution, year_weights
+from engine.model.warmstart import warm_basis
 from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
-from engine.model.solve import diagnose_failure, failure_message, merge_tables, run_settings
+from engine.model.solve import choose_workers, diagnose_failure, failure_message, merge_tables, run_settings
 from engine.model.formulation import build_model, solve_model
 from engine.scenario.inputs import Scenario
 from engine.scenario.kinds import COOLING_KINDS, FUELS
@@ -157,12 +157,23 @@ def _explain(prepared_years, years, districts, status: str) -> str:
             f"lifetime does not fit a later year's limits (solver: {status}).")
 
 
-def _solve_part(prepared_years, years, base_year, horizon_end, districts, myopic, time_limit_s, cancel):
+WARM_START = True
+"""Start the stacked LP from the basis the years (and districts) solved alone give (:mod:`engine.model.warmstart`);
+False solves it from HiGHS's own start (bench/pathway.py compares both)."""
+
+
+def _solve_part(prepared_years, years, base_year, horizon_end, districts, myopic, time_limit_s, cancel,
+                warm=None):
     """Solve one group of districts over all years; returns (status, message, per-year tables, builds, seconds)."""
     n = len(years)
     if not myopic:
         mp = build_multiperiod(prepared_years, years, base_year, horizon_end, districts)
-        sol = mp.lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+        basis, warm_s = None, 0.0
+        if WARM_START if warm is None else warm:
+            basis, warm_s = warm_basis(mp, prepared_years, years, base_year, horizon_end, districts,
+                                       _coupled([p.settings for p in prepared_years]), time_limit_s, cancel)
+        sol = mp.lp.solve(time_limit_s=time_limit_s, cancel=cancel, basis=basis)
+        sol.solve_s += warm_s
         if sol.status != "optimal":
             return sol.status, _explain(prepared_years, years, districts, sol.status), None, None, sol.solve_s
         tables = [extract_tables(b.model, year_solution(mp, k, sol)) for k, b in enumerate(mp.blocks)]
@@ -200,9 +211,9 @@ def _worker_init(prepared_years):
 
 
 def _worker_solve(payload):
-    years, base_year, horizon_end, part, myopic, time_limit_s = payload
+    years, base_year, horizon_end, part, myopic, time_limit_s, warm = payload
     return _solve_part(_WORKER["prepared_years"], years, base_year, horizon_end, np.array(part), myopic,
-                       time_limit_s, None)
+                       time_limit_s, None, warm)
 
 
 def resolve_pathway(scenario: Scenario, years=None) -> PathwayInputs:
@@ -239,12 +250,15 @@ def solve_pathway(
     cancel: Callable[[], bool] | None = None,
     time_limit_s: float | None = None,
     workers: int | None = None,
+    warm_start: bool | None = None,
 ) -> PathwayResult:
     """Solve the pathway of ``scenario`` (its own, or ``pathway``; ``years`` overrides the milestone years).
 
     Never raises for solver failures: an infeasible pathway comes back with ``status`` and a ``message`` naming the
-    year and the reason. Without a city-wide constraint each district is its own LP over all years; more than four
-    of them are solved on ``workers`` local processes (default: the cores), as :func:`solve_scenario` does. Raises :class:`InputError` when the pathway inputs themselves are wrong.
+    year and the reason. Without a city-wide constraint each district is its own LP over all years, solved on
+    ``workers`` local processes (default: as :func:`solve_scenario` would choose for one of the years).
+    ``warm_start`` (default :data:`WARM_START`) starts each stacked LP from the basis of its years (and districts)
+    solved alone. Raises :class:`InputError` when the pathway inputs themselves are wrong.
     """
     started = time.perf_counter()
     report = progress or (lambda share, text: None)
@@ -272,12 +286,15 @@ def solve_pathway(
     n_d = len(scenario.districts)
     parts = [list(range(n_d))] if _coupled([p.settings for p in prepared_years]) else [[i] for i in range(n_d)]
     if workers is None:
-        workers = min(len(parts), os.cpu_count() or 1) if len(parts) > 4 else 1
+        # warm-started, the pathway's LPs cost about what its years cost alone: processes pay when one year
+        # would (solve.choose_workers). The demo (12 typical days) is below that: its uncapped four-year pathway
+        # took 19-20 s on one process and 25-27 s on two (2 cores, load average 8; bench/pathway.py).
+        workers = choose_workers(prepared_years[0], parts)
     args = (years, pathway.base_year, horizon_end)
     done: dict = {}
     if workers > 1 and len(parts) > 1:
         with ProcessPoolExecutor(max_workers=workers, initializer=_worker_init, initargs=(prepared_years,)) as pool:
-            futures = {pool.submit(_worker_solve, (*args, part, myopic, time_limit_s)): k
+            futures = {pool.submit(_worker_solve, (*args, part, myopic, time_limit_s, warm_start)): k
                        for k, part in enumerate(parts)}
             for future in as_completed(futures):
                 done[futures[future]] = future.result()
@@ -288,7 +305,7 @@ def solve_pathway(
                     break
     else:
         for k, part in enumerate(parts):
-            done[k] = _solve_part(prepared_years, *args, np.array(part), myopic, time_limit_s, cancel)
+            done[k] = _solve_part(prepared_years, *args, np.array(part), myopic, time_limit_s, cancel, warm_start)
             report(0.05 + 0.9 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)} linear program(s)")
             if done[k][0] != "optimal":
                 break
