@@ -26,6 +26,7 @@ import pandas as pd
 
 from engine.model.extract import extract_tables
 from engine.model.multiperiod import build_charge, build_multiperiod, builds, year_solution, year_weights
+from engine.model.solvers import DIRECT, resolve_solver, solve_lp
 from engine.model.warmstart import warm_basis
 from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
@@ -59,6 +60,7 @@ class PathwayResult:
     co2_caps: dict = field(default_factory=dict)  # year -> t/a (only years with a cap)
     notes: list = field(default_factory=list)
     timings_s: dict = field(default_factory=dict)
+    solver: str = DIRECT
 
     @property
     def solved(self) -> bool:
@@ -146,10 +148,10 @@ def _coupled(settings_by_year) -> bool:
     return any((st.co2_cap_t_per_a or 0) > 0 or (st.network_plant_limit_kw or 0) > 0 for st in settings_by_year)
 
 
-def _explain(prepared_years, years, districts, status: str) -> str:
+def _explain(prepared_years, years, districts, status: str, solver: str = DIRECT) -> str:
     """Which year fails on its own, and why."""
     for prepared, year in zip(prepared_years, years):
-        alone = solve_model(build_model(prepared, districts), "cost")
+        alone = solve_model(build_model(prepared, districts), "cost", solver=solver)
         if alone.status != "optimal":
             why = diagnose_failure(prepared, prepared.settings, alone.status, list(districts))
             return f"Year {year}: " + failure_message(alone.status, alone.message, why or "")
@@ -163,19 +165,25 @@ False solves it from HiGHS's own start (bench/pathway.py compares both)."""
 
 
 def _solve_part(prepared_years, years, base_year, horizon_end, districts, myopic, time_limit_s, cancel,
-                warm=None):
-    """Solve one group of districts over all years; returns (status, message, per-year tables, builds, seconds)."""
+                warm=None, solver=DIRECT):
+    """Solve one group of districts over all years; returns (status, message, per-year tables, builds, seconds).
+
+    ``solver``: HiGHS directly (warm-started unless ``warm`` is False) or a pulp solver (from its own start)."""
     n = len(years)
     if not myopic:
         mp = build_multiperiod(prepared_years, years, base_year, horizon_end, districts)
         basis, warm_s = None, 0.0
-        if WARM_START if warm is None else warm:
+        if solver == DIRECT and (WARM_START if warm is None else warm):
             basis, warm_s = warm_basis(mp, prepared_years, years, base_year, horizon_end, districts,
                                        _coupled([p.settings for p in prepared_years]), time_limit_s, cancel)
-        sol = mp.lp.solve(time_limit_s=time_limit_s, cancel=cancel, basis=basis)
+        if solver == DIRECT:
+            sol = mp.lp.solve(time_limit_s=time_limit_s, cancel=cancel, basis=basis)
+        else:
+            sol = solve_lp(mp.lp, solver, time_limit_s=time_limit_s, cancel=cancel)
         sol.solve_s += warm_s
         if sol.status != "optimal":
-            return sol.status, _explain(prepared_years, years, districts, sol.status), None, None, sol.solve_s
+            return (sol.status, _explain(prepared_years, years, districts, sol.status, solver), None, None,
+                    sol.solve_s)
         tables = [extract_tables(b.model, year_solution(mp, k, sol)) for k, b in enumerate(mp.blocks)]
         built = {(key, k): v for (key, k), v in builds(mp, sol.x).items()}
         return "optimal", "", tables, built, sol.solve_s
@@ -189,10 +197,10 @@ def _solve_part(prepared_years, years, base_year, horizon_end, districts, myopic
                 carried[key] = carried.get(key, 0.0) + kw
         mp = build_multiperiod([prepared_years[k]], [years[k]], base_year, end, districts, carried=[carried])
         lifetime = mp.lifetime
-        sol = mp.lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+        sol = solve_lp(mp.lp, solver, time_limit_s=time_limit_s, cancel=cancel)
         solve_s += sol.solve_s
         if sol.status != "optimal":
-            why = _explain([prepared_years[k]], [years[k]], districts, sol.status)
+            why = _explain([prepared_years[k]], [years[k]], districts, sol.status, solver)
             if why.startswith("Each year"):
                 why = (f"Year {years[k]}: plant carried forward from earlier years does not fit this year's limits "
                        f"(solver: {sol.status}).")
@@ -211,9 +219,9 @@ def _worker_init(prepared_years):
 
 
 def _worker_solve(payload):
-    years, base_year, horizon_end, part, myopic, time_limit_s, warm = payload
+    years, base_year, horizon_end, part, myopic, time_limit_s, warm, solver = payload
     return _solve_part(_WORKER["prepared_years"], years, base_year, horizon_end, np.array(part), myopic,
-                       time_limit_s, None, warm)
+                       time_limit_s, None, warm, solver)
 
 
 def resolve_pathway(scenario: Scenario, years=None) -> PathwayInputs:
@@ -251,6 +259,7 @@ def solve_pathway(
     time_limit_s: float | None = None,
     workers: int | None = None,
     warm_start: bool | None = None,
+    solver: str = DIRECT,
 ) -> PathwayResult:
     """Solve the pathway of ``scenario`` (its own, or ``pathway``; ``years`` overrides the milestone years).
 
@@ -258,9 +267,13 @@ def solve_pathway(
     year and the reason. Without a city-wide constraint each district is its own LP over all years, solved on
     ``workers`` local processes (default: as :func:`solve_scenario` would choose for one of the years).
     ``warm_start`` (default :data:`WARM_START`) starts each stacked LP from the basis of its years (and districts)
-    solved alone. Raises :class:`InputError` when the pathway inputs themselves are wrong.
+    solved alone. ``solver``: ``"highs"`` (HiGHS directly, the default), ``"cbc"`` or ``"pulp:NAME"``
+    (:mod:`engine.model.solvers`; a pulp solver starts cold and is much slower); an unknown or unavailable name
+    raises :class:`engine.model.solvers.SolverChoiceError` before anything is solved. Raises
+    :class:`InputError` when the pathway inputs themselves are wrong.
     """
     started = time.perf_counter()
+    solver = resolve_solver(solver)
     report = progress or (lambda share, text: None)
     if pathway is None:
         pathway = resolve_pathway(scenario, years)
@@ -270,7 +283,7 @@ def solve_pathway(
     years = list(pathway.years)
     horizon_end = years[-1] + pathway.last_period_a
     result = PathwayResult("error", "", "myopic" if myopic else "foresight", cost_case, years, pathway.base_year,
-                           horizon_end)
+                           horizon_end, solver=solver)
     report(0.02, "Preparing the milestone years")
     scenarios, prepared_years = [], []
     for year in years:
@@ -294,7 +307,7 @@ def solve_pathway(
     done: dict = {}
     if workers > 1 and len(parts) > 1:
         with ProcessPoolExecutor(max_workers=workers, initializer=_worker_init, initargs=(prepared_years,)) as pool:
-            futures = {pool.submit(_worker_solve, (*args, part, myopic, time_limit_s, warm_start)): k
+            futures = {pool.submit(_worker_solve, (*args, part, myopic, time_limit_s, warm_start, solver)): k
                        for k, part in enumerate(parts)}
             for future in as_completed(futures):
                 done[futures[future]] = future.result()
@@ -305,7 +318,8 @@ def solve_pathway(
                     break
     else:
         for k, part in enumerate(parts):
-            done[k] = _solve_part(prepared_years, *args, np.array(part), myopic, time_limit_s, cancel, warm_start)
+            done[k] = _solve_part(prepared_years, *args, np.array(part), myopic, time_limit_s, cancel, warm_start,
+                                  solver)
             report(0.05 + 0.9 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)} linear program(s)")
             if done[k][0] != "optimal":
                 break
