@@ -30,7 +30,9 @@ from engine.model.solvers import DIRECT, resolve_solver, solve_lp
 from engine.model.warmstart import warm_basis
 from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
-from engine.model.solve import choose_workers, diagnose_failure, failure_message, merge_tables, run_settings
+from engine.model.solve import (
+    choose_workers, diagnose_failure, district_major, failure_message, merge_tables, run_settings, stitched_solution,
+)
 from engine.model.formulation import build_model, solve_model
 from engine.scenario.inputs import Scenario
 from engine.scenario.kinds import COOLING_KINDS, FUELS
@@ -165,10 +167,34 @@ False solves it from HiGHS's own start (bench/pathway.py compares both)."""
 
 
 def _solve_part(prepared_years, years, base_year, horizon_end, districts, myopic, time_limit_s, cancel,
-                warm=None, solver=DIRECT):
+                warm=None, solver=DIRECT, extract=True):
     """Solve one group of districts over all years; returns (status, message, per-year tables, builds, seconds).
 
-    ``solver``: HiGHS directly (warm-started unless ``warm`` is False) or a pulp solver (from its own start)."""
+    ``solver``: HiGHS directly (warm-started unless ``warm`` is False) or a pulp solver (from its own start).
+    ``extract`` False: (model, solution) of each year instead of its tables, to be read city-wide in one pass
+    (:func:`_year_tables`)."""
+    status, message, pieces, built, solve_s = _solve_years(prepared_years, years, base_year, horizon_end, districts,
+                                                           myopic, time_limit_s, cancel, warm, solver)
+    if pieces is not None and extract:
+        pieces = [extract_tables(model, solution) for model, solution in pieces]
+    return status, message, pieces, built, solve_s
+
+
+def _year_tables(prepared, pieces) -> dict:
+    """The tables of one year from its parts' (model, solution) pairs: read once from the city LP when the
+    district solutions stack onto it (:func:`engine.model.solve.stitched_solution`, checked there), else part by
+    part."""
+    if len(pieces) > 1:
+        city = build_model(prepared, [i for model, _ in pieces for i in model.districts])
+        city.lp.set_objective(city.money)
+        solution = stitched_solution(city, [m for m, _ in pieces], [s for _, s in pieces])
+        if solution is not None:
+            return district_major(extract_tables(city, solution), prepared.district_ids)
+    return merge_tables([extract_tables(model, solution) for model, solution in pieces])
+
+
+def _solve_years(prepared_years, years, base_year, horizon_end, districts, myopic, time_limit_s, cancel, warm,
+                 solver):
     n = len(years)
     if not myopic:
         mp = build_multiperiod(prepared_years, years, base_year, horizon_end, districts)
@@ -184,9 +210,9 @@ def _solve_part(prepared_years, years, base_year, horizon_end, districts, myopic
         if sol.status != "optimal":
             return (sol.status, _explain(prepared_years, years, districts, sol.status, solver), None, None,
                     sol.solve_s)
-        tables = [extract_tables(b.model, year_solution(mp, k, sol)) for k, b in enumerate(mp.blocks)]
+        pieces = [(b.model, year_solution(mp, k, sol)) for k, b in enumerate(mp.blocks)]
         built = {(key, k): v for (key, k), v in builds(mp, sol.x).items()}
-        return "optimal", "", tables, built, sol.solve_s
+        return "optimal", "", pieces, built, sol.solve_s
     tables, built, solve_s = [], {}, 0.0
     lifetime = None
     for k in range(n):
@@ -205,7 +231,7 @@ def _solve_part(prepared_years, years, base_year, horizon_end, districts, myopic
                 why = (f"Year {years[k]}: plant carried forward from earlier years does not fit this year's limits "
                        f"(solver: {sol.status}).")
             return sol.status, why, None, None, solve_s
-        tables.append(extract_tables(mp.blocks[0].model, year_solution(mp, 0, sol)))
+        tables.append((mp.blocks[0].model, year_solution(mp, 0, sol)))
         for (key, _), v in builds(mp, sol.x).items():
             built[(key, k)] = v
     return "optimal", "", tables, built, solve_s
@@ -319,7 +345,7 @@ def solve_pathway(
     else:
         for k, part in enumerate(parts):
             done[k] = _solve_part(prepared_years, *args, np.array(part), myopic, time_limit_s, cancel, warm_start,
-                                  solver)
+                                  solver, extract=len(parts) == 1)
             report(0.05 + 0.9 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)} linear program(s)")
             if done[k][0] != "optimal":
                 break
@@ -338,7 +364,8 @@ def solve_pathway(
     for o in outcomes:
         built.update(o[3])
     for k, year in enumerate(years):
-        tables = merge_tables([o[2][k] for o in outcomes])
+        pieces = [o[2][k] for o in outcomes]
+        tables = merge_tables(pieces) if isinstance(pieces[0], dict) else _year_tables(prepared_years[k], pieces)
         run = RunResult("optimal", "Optimal solution found.", objective="cost", cost_case=cost_case,
                         scenario_name=scenarios[k].settings.name, settings=dataclasses.asdict(scenarios[k].settings),
                         tables=tables)
