@@ -37,7 +37,7 @@ from engine.model.formulation import build_model
 from engine.model.lp import new_highs
 from engine.model.solvers import DIRECT, resolve_solver, solve_lp
 from engine.model.prepare import prepare_run
-from engine.model.solve import run_settings
+from engine.model.solve import part_work, run_settings
 from engine.scenario.inputs import Scenario
 from engine.scenario.kinds import HEAT_KINDS
 
@@ -241,6 +241,9 @@ def near_optimal_ranges(
     if workers is None:
         workers = os.cpu_count() or 1
     tasks = plan_tasks(scenario, prepared)
+    # largest first (a heat store's level chain makes a district's LPs slow), so that no worker is left with a
+    # long task while the others idle at the end
+    tasks.sort(key=lambda t: -part_work(prepared, t.districts))
     rows: list = []
     if scheduler is not None:
         from distributed import Client, as_completed as dask_as_completed  # optional dependency, only for clusters
