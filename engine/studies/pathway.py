@@ -327,7 +327,8 @@ def solve_pathway(
     if workers is None:
         # warm-started, the pathway's LPs cost about what its years cost alone: processes pay when one year
         # would (solve.choose_workers). The demo (12 typical days) is below that: its uncapped four-year pathway
-        # took 19-20 s on one process and 25-27 s on two (2 cores, load average 8; bench/pathway.py).
+        # took 19-20 s on one process and 25-27 s on two (2 cores, load average 8), 9.4-9.7 s and 13-14 s at
+        # load average 3.5.
         workers = choose_workers(prepared_years[0], parts)
     args = (years, pathway.base_year, horizon_end)
     done: dict = {}
