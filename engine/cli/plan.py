@@ -9,12 +9,14 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
+from engine.cli.common import add_solver_argument, solver_of
 from engine.scenario import load_scenario, resolve_scenario_path
 from engine.scenario.problems import InputError
 from engine.studies.designation import (
     DEFAULT_SLACK_PCT, DESIGNATION_COLUMNS, designate, thresholds_from_folder,
 )
 from engine.studies.pathway import resolve_pathway, solve_pathway, year_scenario
+
 
 def add_pathway_parser(sub) -> None:
     p = sub.add_parser("pathway", help="solve the milestone years of a heat plan; writes pathway.csv and capacity.csv")
@@ -25,6 +27,7 @@ def add_pathway_parser(sub) -> None:
     p.add_argument("--typical-days", type=int, default=None)
     p.add_argument("--out", default="out")
     p.add_argument("--time-limit-s", type=float, default=None)
+    add_solver_argument(p)
     p.add_argument("--quiet", action="store_true")
     p.set_defaults(run=cmd_pathway)
 
@@ -37,6 +40,10 @@ def _parse_years(text: str):
 
 
 def cmd_pathway(args) -> int:
+    solver, solver_problem = solver_of(args)
+    if solver_problem:
+        print(solver_problem, file=sys.stderr)
+        return 2
     years = None
     if args.years is not None:
         years, error = _parse_years(args.years)
@@ -60,7 +67,8 @@ def cmd_pathway(args) -> int:
         return 2
     progress = None if args.quiet else (lambda share, text: print(f"[{share * 100:5.1f} %] {text}", file=sys.stderr))
     result = solve_pathway(scenario, pathway, myopic=args.myopic, cost_case=args.cost_case,
-                           typical_days=args.typical_days, progress=progress, time_limit_s=args.time_limit_s)
+                           typical_days=args.typical_days, progress=progress, time_limit_s=args.time_limit_s,
+                           solver=solver)
     if not result.solved:
         print(f"Solver failed: {result.message}", file=sys.stderr)
         return 3
@@ -82,12 +90,17 @@ def add_designate_parser(sub) -> None:
     p.add_argument("--typical-days", type=int, default=None)
     p.add_argument("--workers", type=int, default=None)
     p.add_argument("--scheduler", default=None, metavar="ADDR", help="Dask scheduler address, e.g. tcp://host:8786")
+    add_solver_argument(p)
     p.add_argument("--out", default="out")
     p.add_argument("--quiet", action="store_true")
     p.set_defaults(run=cmd_designate)
 
 
 def cmd_designate(args) -> int:
+    solver, solver_problem = solver_of(args)
+    if solver_problem:
+        print(solver_problem, file=sys.stderr)
+        return 2
     if args.slack_pct < 0:
         print("--slack-pct must be >= 0", file=sys.stderr)
         return 2
@@ -119,7 +132,7 @@ def cmd_designate(args) -> int:
     progress = None if args.quiet else (lambda share, text: print(f"[{share * 100:5.1f} %] {text}", file=sys.stderr))
     try:
         result = designate(scenario, names, args.slack_pct, args.typical_days, thresholds, workers=args.workers,
-                           scheduler=args.scheduler, progress=progress)
+                           scheduler=args.scheduler, progress=progress, solver=solver)
     except RuntimeError as error:
         print(f"Solver failed: {error}", file=sys.stderr)
         return 3

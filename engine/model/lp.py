@@ -42,6 +42,9 @@ class LpSolution:
     solve_s: float = 0.0
     info: dict = field(default_factory=dict)
     """Figures a staged solve adds (e.g. the CO2 optimum and the abatement cost of its last tonnes)."""
+    basis: tuple | None = None
+    """With ``keep_basis``: the optimal basis as (column statuses, row statuses), object arrays of
+    ``highspy.HighsBasisStatus``, to start a related LP from (:meth:`LinearProgram.solve`'s ``basis``)."""
 
 
 class LinearProgram:
@@ -229,9 +232,20 @@ class LinearProgram:
         if status != highspy.HighsStatus.kOk:
             raise OSError(f"HiGHS could not write the model to {path}")
 
-    def solve(self, time_limit_s: float | None = None, threads: int | None = None, cancel=None) -> LpSolution:
-        """Solve with HiGHS. ``cancel`` is an optional callable; when it returns True the solve is interrupted."""
-        return HighsSession(self, time_limit_s, threads, cancel).solve()
+    def solve(self, time_limit_s: float | None = None, threads: int | None = None, cancel=None, basis=None,
+              keep_basis: bool = False) -> LpSolution:
+        """Solve with HiGHS. ``cancel`` is an optional callable; when it returns True the solve is interrupted.
+
+        ``basis`` (column statuses, row statuses; see :attr:`LpSolution.basis`) starts the simplex method there
+        instead of from HiGHS's own crash basis (a basis HiGHS rejects is ignored: the solve then starts cold);
+        ``keep_basis`` returns the optimal basis with the solution."""
+        session = HighsSession(self, time_limit_s, threads, cancel)
+        if basis is not None:
+            session.set_basis(basis)
+        solution = session.solve()
+        if keep_basis and solution.status == "optimal":
+            solution.basis = session.basis()
+        return solution
 
     # ------------------------------------------------------------------ pulp
     def to_pulp(self, name: str = "heatmosaic", with_row_names: bool = False):
@@ -331,6 +345,23 @@ class HighsSession:
                                                                 lower[changed]),
                                np.where(np.isinf(upper[changed]), highspy.kHighsInf, upper[changed]))
             self._row_lower, self._row_upper = lower, upper
+
+    def set_basis(self, basis) -> bool:
+        """Start the next solve from ``basis`` (column statuses, row statuses); False (and a cold start) when HiGHS
+        refuses it."""
+        start = highspy.HighsBasis()
+        start.col_status = list(basis[0])
+        start.row_status = list(basis[1])
+        start.valid = True
+        if self.highs.setBasis(start) != highspy.HighsStatus.kOk:
+            self.highs.clearSolver()
+            return False
+        return True
+
+    def basis(self) -> tuple[np.ndarray, np.ndarray]:
+        """The basis HiGHS holds now (column statuses, row statuses)."""
+        found = self.highs.getBasis()
+        return np.array(found.col_status, dtype=object), np.array(found.row_status, dtype=object)
 
     def solve(self) -> LpSolution:
         """Hand HiGHS what changed in the program since the last solve and solve it from the last basis."""

@@ -100,6 +100,7 @@ class MultiPeriodModel:
     build_col: dict = field(default_factory=dict)  # (key, block index) -> column
     build_cost: dict = field(default_factory=dict)  # (key, block index) -> EUR per kW (the objective coefficient)
     lifetime: dict = field(default_factory=dict)  # technology_id -> a
+    coupling_row: dict = field(default_factory=dict)  # (key, block index) -> row of its capacity coupling
     build_s: float = 0.0
 
     @property
@@ -163,6 +164,7 @@ def build_multiperiod(
     for k, block in enumerate(blocks):
         for j, key in enumerate(block.keys):
             row = len(rhs)
+            mp.coupling_row[(key, k)] = lp.n_rows + row
             r.append(row), c.append(block.col0 + int(block.capacity.cols[j])), v.append(1.0)
             for b in range(k + 1):
                 col = mp.build_col.get((key, b))

@@ -32,11 +32,12 @@ import highspy
 import numpy as np
 import pandas as pd
 
-from engine.progress import Progress
+from engine.progress import JobCancelled, Progress
 from engine.model.formulation import build_model
 from engine.model.lp import new_highs
+from engine.model.solvers import DIRECT, resolve_solver, solve_lp
 from engine.model.prepare import prepare_run
-from engine.model.solve import run_settings
+from engine.model.solve import part_work, run_settings
 from engine.scenario.inputs import Scenario
 from engine.scenario.kinds import HEAT_KINDS
 
@@ -120,8 +121,40 @@ def _share_coefficients(model, target) -> tuple[np.ndarray, np.ndarray, float]:
     return cols, weights, max(demand, 1e-9)
 
 
-def solve_task(prepared, task: AlternativeTask, slack_pct: float) -> list[dict]:
-    """Least cost, then the minimum and maximum of every target within the cost slack (warm started)."""
+def _solve_task_elsewhere(prepared, task: AlternativeTask, slack_pct: float, solver: str) -> list[dict]:
+    """:func:`solve_task` with a pulp solver: every objective from the solver's own start."""
+    model = build_model(prepared, np.array(task.districts))
+    lp = model.lp
+    first = solve_lp(lp, solver)
+    if first.status != "optimal":
+        return [dict(zip(RANGE_COLUMNS, (*t, np.nan, np.nan, np.nan, slack_pct, "infeasible"))) for t in task.targets]
+    x, money = first.x, model.money
+    constant = float(model.constant_fixed_om.sum())
+    limit = (float(money @ x) + constant) * (1 + slack_pct / 100.0) - constant
+    nz = np.flatnonzero(money)
+    lp.add_rows_coo("cost_within_slack", 1, np.zeros(len(nz)), nz, money[nz], upper=np.array([limit]))
+    rows = []
+    for target in task.targets:
+        cols, weights, demand = _share_coefficients(model, target)
+        optimum = float(weights @ x[cols]) / demand
+        found = []
+        for sign in (1.0, -1.0):
+            cost = np.zeros(lp.n_cols)
+            cost[cols] = sign * weights / max(float(weights.max()), 1e-12)
+            lp.set_objective(cost)
+            solution = solve_lp(lp, solver)
+            found.append(float(solution.x[cols] @ weights) / demand if solution.status == "optimal" else np.nan)
+        low, high = min(found[0], optimum), max(found[1], optimum)
+        rows.append(dict(zip(RANGE_COLUMNS, (*target, optimum, max(low, 0.0), min(high, 1.0), slack_pct,
+                                             "optimal"))))
+    return rows
+
+
+def solve_task(prepared, task: AlternativeTask, slack_pct: float, solver: str = DIRECT) -> list[dict]:
+    """Least cost, then the minimum and maximum of every target within the cost slack (warm started; a pulp
+    ``solver`` solves each from its own start)."""
+    if solver != DIRECT:
+        return _solve_task_elsewhere(prepared, task, slack_pct, solver)
     model = build_model(prepared, np.array(task.districts))
     lp = model.lp
     h = lp.to_highs()
@@ -167,12 +200,16 @@ def _init(prepared):
     new_highs()  # the banner once per process, silenced
 
 
-def _in_worker(task, slack_pct):
-    return solve_task(_WORKER["prepared"], task, slack_pct)
+def _in_worker(task, slack_pct, solver=DIRECT):
+    return solve_task(_WORKER["prepared"], task, slack_pct, solver)
 
 
-def _on_cluster(prepared, task, slack_pct):
-    return solve_task(prepared, task, slack_pct)
+def _on_cluster(prepared, task, slack_pct, solver=DIRECT):
+    return solve_task(prepared, task, slack_pct, solver)
+
+
+def _cancelled(cancel) -> bool:
+    return cancel is not None and bool(cancel())
 
 
 def near_optimal_ranges(
@@ -183,14 +220,20 @@ def near_optimal_ranges(
     workers: int | None = None,
     scheduler=None,
     progress: Progress | None = None,
+    cancel=None,
+    solver: str = DIRECT,
 ) -> NearOptimalRanges:
     """Minimum and maximum of each district's network share and each technology's city-wide share.
 
     ``workers`` local processes (default: the cores, at most the tasks; 1 = in this process), or ``scheduler``
-    (a Dask scheduler address or client) to run the tasks on a cluster.
+    (a Dask scheduler address or client) to run the tasks on a cluster. ``cancel()`` is checked before each
+    task and as each finishes: once it returns True the tasks not yet done are cancelled (on the cluster too)
+    and :class:`JobCancelled` is raised. ``solver``: HiGHS directly (default) or a pulp solver
+    (:mod:`engine.model.solvers`).
     """
     if slack_pct < 0:
         raise ValueError("slack_pct must be >= 0")
+    solver = resolve_solver(solver)
     report = progress or (lambda share, text: None)
     cost_case = cost_case or ("reference" if "reference" in scenario.cost_cases else next(iter(scenario.cost_cases)))
     settings = run_settings(scenario, typical_days=typical_days)
@@ -198,33 +241,50 @@ def near_optimal_ranges(
     if workers is None:
         workers = os.cpu_count() or 1
     tasks = plan_tasks(scenario, prepared)
+    # largest first (a heat store's level chain makes a district's LPs slow), so that no worker is left with a
+    # long task while the others idle at the end
+    tasks.sort(key=lambda t: -part_work(prepared, t.districts))
     rows: list = []
     if scheduler is not None:
         from distributed import Client, as_completed as dask_as_completed  # optional dependency, only for clusters
 
         own = not isinstance(scheduler, Client)
         client = Client(scheduler) if own else scheduler
+        futures = []
         try:
+            if _cancelled(cancel):
+                raise JobCancelled("the near-optimal alternatives were cancelled")
             shared = client.scatter(prepared, broadcast=True)
-            futures = [client.submit(_on_cluster, shared, t, slack_pct, pure=False,
+            futures = [client.submit(_on_cluster, shared, t, slack_pct, solver, pure=False,
                                      key=f"heatmosaic-mga-{uuid.uuid4().hex[:8]}") for t in tasks]
             for k, future in enumerate(dask_as_completed(futures)):
                 rows += future.result()
                 report((k + 1) / len(tasks), f"Alternatives: {k + 1} of {len(tasks)} groups")
+                if _cancelled(cancel) and k + 1 < len(tasks):
+                    client.cancel(futures)
+                    raise JobCancelled("the near-optimal alternatives were cancelled")
         finally:
             if own:
                 client.close()
     elif workers <= 1 or len(tasks) == 1:
         for k, task in enumerate(tasks):
-            rows += solve_task(prepared, task, slack_pct)
+            if _cancelled(cancel):
+                raise JobCancelled("the near-optimal alternatives were cancelled")
+            rows += solve_task(prepared, task, slack_pct, solver)
             report((k + 1) / len(tasks), f"Alternatives: {k + 1} of {len(tasks)} groups")
     else:
+        if _cancelled(cancel):
+            raise JobCancelled("the near-optimal alternatives were cancelled")
         with ProcessPoolExecutor(max_workers=min(workers, len(tasks)), initializer=_init,
                                  initargs=(prepared,)) as pool:
-            futures = [pool.submit(_in_worker, t, slack_pct) for t in tasks]
+            futures = [pool.submit(_in_worker, t, slack_pct, solver) for t in tasks]
             for k, future in enumerate(as_completed(futures)):
                 rows += future.result()
                 report((k + 1) / len(tasks), f"Alternatives: {k + 1} of {len(tasks)} groups")
+                if _cancelled(cancel) and k + 1 < len(tasks):
+                    for f in futures:
+                        f.cancel()
+                    raise JobCancelled("the near-optimal alternatives were cancelled")
     table = pd.DataFrame(rows, columns=list(RANGE_COLUMNS))
     techs = scenario.technologies
     network_ids = set(techs.loc[techs["kind"] == "network_connection", "technology_id"])

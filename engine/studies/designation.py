@@ -47,6 +47,7 @@ import pandas as pd
 from engine.model.formulation import build_model
 from engine.model.prepare import prepare_run
 from engine.model.solve import run_settings
+from engine.model.solvers import DIRECT, resolve_solver, solve_lp
 from engine.progress import JobCancelled
 from engine.scenario.inputs import Scenario
 from engine.scenario.problems import InputError, Problem
@@ -148,13 +149,35 @@ def winners(result, majority_share: float) -> pd.Series:
     return pd.Series(out)
 
 
-def forced_costs(prepared, district: int, majority_share: float) -> tuple[dict, float]:
-    """Least cost [EUR/a] of the district with each available area carrying at least ``majority_share`` of its
-    heat (areas whose forcing is infeasible are left out), and the district's heat demand [MWh/a]."""
-    model = build_model(prepared, np.array([district]))
-    units = model.units
+def _forced_costs_elsewhere(prepared, district: int, majority_share: float, solver: str) -> dict:
+    """:func:`forced_costs` with a pulp solver: one LP per area, each from the solver's own start."""
     w = prepared.grid.weight_h
     demand_kwh = float((prepared.heat_demand_kw[district] * w).sum())
+    out = {}
+    for area in AREAS[:3]:
+        model = build_model(prepared, np.array([district]))
+        chosen = [u for u, k in enumerate(model.units.kind) if KIND_AREA.get(k) == area]
+        if not chosen:
+            continue
+        cols = model.cols["out"][chosen].ravel()
+        vals = np.broadcast_to(w, (len(chosen), len(w))).ravel()
+        model.lp.add_rows_coo("area_share", 1, np.zeros(len(cols)), cols, vals,
+                              lower=np.array([majority_share * demand_kwh]))
+        solution = solve_lp(model.lp, solver)
+        if solution.status == "optimal":
+            out[area] = float(solution.objective) + float(model.constant_fixed_om.sum())
+    return out
+
+
+def forced_costs(prepared, district: int, majority_share: float, solver: str = DIRECT) -> tuple[dict, float]:
+    """Least cost [EUR/a] of the district with each available area carrying at least ``majority_share`` of its
+    heat (areas whose forcing is infeasible are left out), and the district's heat demand [MWh/a]."""
+    w = prepared.grid.weight_h
+    demand_kwh = float((prepared.heat_demand_kw[district] * w).sum())
+    if solver != DIRECT:
+        return _forced_costs_elsewhere(prepared, district, majority_share, solver), demand_kwh / 1000.0
+    model = build_model(prepared, np.array([district]))
+    units = model.units
     h = model.lp.to_highs()
     constant = float(model.constant_fixed_om.sum())
     rows = {}
@@ -212,13 +235,17 @@ def designate(
     scheduler=None,
     progress=None,
     cancel=None,
+    solver: str = DIRECT,
 ) -> Designation:
     """Designate every district of ``scenario`` (see the module docstring for the rule).
 
     ``cost_cases``: names (default: all of the scenario's, "reference" first when present). ``cancel()`` is
-    checked by the sweep and between the steps; once it returns True a :class:`JobCancelled` is raised.
+    checked by the sweep, the alternatives and between the steps; once it returns True a :class:`JobCancelled`
+    is raised. ``solver``: HiGHS directly (default), ``"cbc"`` or ``"pulp:NAME"`` for every LP
+    (:mod:`engine.model.solvers`; an unknown name raises ``SolverChoiceError`` before anything is solved).
     """
     started = time.perf_counter()
+    solver = resolve_solver(solver)
     report = progress or (lambda share, text: None)
     names = list(cost_cases) if cost_cases else list(scenario.cost_cases)
     if "reference" in names:
@@ -232,7 +259,7 @@ def designate(
     t = thresholds
     report(0.02, f"Solving {len(names)} cost case(s)")
     outcome = run_sweep(scenario, tasks_from_cost_cases(scenario, names), typical_days=typical_days,
-                        workers=workers, scheduler=scheduler, keep_results=True, cancel=cancel)
+                        workers=workers, scheduler=scheduler, keep_results=True, cancel=cancel, solver=solver)
     failed = [(n, r.message) for n, r in zip(names, outcome.results) if not r.solved]
     if failed:
         raise RuntimeError(f"cost case {failed[0][0]} could not be solved: {failed[0][1]}")
@@ -240,7 +267,8 @@ def designate(
     sweep_s = time.perf_counter() - started
     _check(cancel)
     report(0.4, "Near-optimal alternatives")
-    ranges = near_optimal_ranges(scenario, names[0], slack_pct, typical_days, workers=workers, scheduler=scheduler)
+    ranges = near_optimal_ranges(scenario, names[0], slack_pct, typical_days, workers=workers, scheduler=scheduler,
+                                 cancel=cancel, solver=solver)
     network = ranges.district_network()
     mga_s = time.perf_counter() - started - sweep_s
     _check(cancel)
@@ -252,7 +280,7 @@ def designate(
         top = counts[counts == counts.max()].index
         candidate = wins.loc[did, names[0]] if wins.loc[did, names[0]] in top else str(top[0])
         win_share = float((wins.loc[did] == candidate).mean()) if candidate != "none" else 0.0
-        costs, demand_mwh = forced_costs(prepared, i, t.majority_share)
+        costs, demand_mwh = forced_costs(prepared, i, t.majority_share, solver)
         others = [c for a, c in costs.items() if a != candidate]
         if candidate in costs and others:
             margin = (min(others) - costs[candidate]) / max(demand_mwh, 1e-9)

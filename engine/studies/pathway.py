@@ -15,7 +15,6 @@ and the local authorities' own assessment.
 from __future__ import annotations
 
 import dataclasses
-import os
 import time
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
@@ -27,9 +26,13 @@ import pandas as pd
 
 from engine.model.extract import extract_tables
 from engine.model.multiperiod import build_charge, build_multiperiod, builds, year_solution, year_weights
+from engine.model.solvers import DIRECT, resolve_solver, solve_lp
+from engine.model.warmstart import warm_basis
 from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
-from engine.model.solve import diagnose_failure, failure_message, merge_tables, run_settings
+from engine.model.solve import (
+    choose_workers, diagnose_failure, district_major, failure_message, merge_tables, run_settings, stitched_solution,
+)
 from engine.model.formulation import build_model, solve_model
 from engine.scenario.inputs import Scenario
 from engine.scenario.kinds import COOLING_KINDS, FUELS
@@ -59,6 +62,7 @@ class PathwayResult:
     co2_caps: dict = field(default_factory=dict)  # year -> t/a (only years with a cap)
     notes: list = field(default_factory=list)
     timings_s: dict = field(default_factory=dict)
+    solver: str = DIRECT
 
     @property
     def solved(self) -> bool:
@@ -146,10 +150,10 @@ def _coupled(settings_by_year) -> bool:
     return any((st.co2_cap_t_per_a or 0) > 0 or (st.network_plant_limit_kw or 0) > 0 for st in settings_by_year)
 
 
-def _explain(prepared_years, years, districts, status: str) -> str:
+def _explain(prepared_years, years, districts, status: str, solver: str = DIRECT) -> str:
     """Which year fails on its own, and why."""
     for prepared, year in zip(prepared_years, years):
-        alone = solve_model(build_model(prepared, districts), "cost")
+        alone = solve_model(build_model(prepared, districts), "cost", solver=solver)
         if alone.status != "optimal":
             why = diagnose_failure(prepared, prepared.settings, alone.status, list(districts))
             return f"Year {year}: " + failure_message(alone.status, alone.message, why or "")
@@ -157,17 +161,58 @@ def _explain(prepared_years, years, districts, status: str) -> str:
             f"lifetime does not fit a later year's limits (solver: {status}).")
 
 
-def _solve_part(prepared_years, years, base_year, horizon_end, districts, myopic, time_limit_s, cancel):
-    """Solve one group of districts over all years; returns (status, message, per-year tables, builds, seconds)."""
+WARM_START = True
+"""Start the stacked LP from the basis the years (and districts) solved alone give (:mod:`engine.model.warmstart`);
+False solves it from HiGHS's own start (bench/pathway.py compares both)."""
+
+
+def _solve_part(prepared_years, years, base_year, horizon_end, districts, myopic, time_limit_s, cancel,
+                warm=None, solver=DIRECT, extract=True):
+    """Solve one group of districts over all years; returns (status, message, per-year tables, builds, seconds).
+
+    ``solver``: HiGHS directly (warm-started unless ``warm`` is False) or a pulp solver (from its own start).
+    ``extract`` False: (model, solution) of each year instead of its tables, to be read city-wide in one pass
+    (:func:`_year_tables`)."""
+    status, message, pieces, built, solve_s = _solve_years(prepared_years, years, base_year, horizon_end, districts,
+                                                           myopic, time_limit_s, cancel, warm, solver)
+    if pieces is not None and extract:
+        pieces = [extract_tables(model, solution) for model, solution in pieces]
+    return status, message, pieces, built, solve_s
+
+
+def _year_tables(prepared, pieces) -> dict:
+    """The tables of one year from its parts' (model, solution) pairs: read once from the city LP when the
+    district solutions stack onto it (:func:`engine.model.solve.stitched_solution`, checked there), else part by
+    part."""
+    if len(pieces) > 1:
+        city = build_model(prepared, [i for model, _ in pieces for i in model.districts])
+        city.lp.set_objective(city.money)
+        solution = stitched_solution(city, [m for m, _ in pieces], [s for _, s in pieces])
+        if solution is not None:
+            return district_major(extract_tables(city, solution), prepared.district_ids)
+    return merge_tables([extract_tables(model, solution) for model, solution in pieces])
+
+
+def _solve_years(prepared_years, years, base_year, horizon_end, districts, myopic, time_limit_s, cancel, warm,
+                 solver):
     n = len(years)
     if not myopic:
         mp = build_multiperiod(prepared_years, years, base_year, horizon_end, districts)
-        sol = mp.lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+        basis, warm_s = None, 0.0
+        if solver == DIRECT and (WARM_START if warm is None else warm):
+            basis, warm_s = warm_basis(mp, prepared_years, years, base_year, horizon_end, districts,
+                                       _coupled([p.settings for p in prepared_years]), time_limit_s, cancel)
+        if solver == DIRECT:
+            sol = mp.lp.solve(time_limit_s=time_limit_s, cancel=cancel, basis=basis)
+        else:
+            sol = solve_lp(mp.lp, solver, time_limit_s=time_limit_s, cancel=cancel)
+        sol.solve_s += warm_s
         if sol.status != "optimal":
-            return sol.status, _explain(prepared_years, years, districts, sol.status), None, None, sol.solve_s
-        tables = [extract_tables(b.model, year_solution(mp, k, sol)) for k, b in enumerate(mp.blocks)]
+            return (sol.status, _explain(prepared_years, years, districts, sol.status, solver), None, None,
+                    sol.solve_s)
+        pieces = [(b.model, year_solution(mp, k, sol)) for k, b in enumerate(mp.blocks)]
         built = {(key, k): v for (key, k), v in builds(mp, sol.x).items()}
-        return "optimal", "", tables, built, sol.solve_s
+        return "optimal", "", pieces, built, sol.solve_s
     tables, built, solve_s = [], {}, 0.0
     lifetime = None
     for k in range(n):
@@ -178,15 +223,15 @@ def _solve_part(prepared_years, years, base_year, horizon_end, districts, myopic
                 carried[key] = carried.get(key, 0.0) + kw
         mp = build_multiperiod([prepared_years[k]], [years[k]], base_year, end, districts, carried=[carried])
         lifetime = mp.lifetime
-        sol = mp.lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+        sol = solve_lp(mp.lp, solver, time_limit_s=time_limit_s, cancel=cancel)
         solve_s += sol.solve_s
         if sol.status != "optimal":
-            why = _explain([prepared_years[k]], [years[k]], districts, sol.status)
+            why = _explain([prepared_years[k]], [years[k]], districts, sol.status, solver)
             if why.startswith("Each year"):
                 why = (f"Year {years[k]}: plant carried forward from earlier years does not fit this year's limits "
                        f"(solver: {sol.status}).")
             return sol.status, why, None, None, solve_s
-        tables.append(extract_tables(mp.blocks[0].model, year_solution(mp, 0, sol)))
+        tables.append((mp.blocks[0].model, year_solution(mp, 0, sol)))
         for (key, _), v in builds(mp, sol.x).items():
             built[(key, k)] = v
     return "optimal", "", tables, built, solve_s
@@ -200,9 +245,9 @@ def _worker_init(prepared_years):
 
 
 def _worker_solve(payload):
-    years, base_year, horizon_end, part, myopic, time_limit_s = payload
+    years, base_year, horizon_end, part, myopic, time_limit_s, warm, solver = payload
     return _solve_part(_WORKER["prepared_years"], years, base_year, horizon_end, np.array(part), myopic,
-                       time_limit_s, None)
+                       time_limit_s, None, warm, solver)
 
 
 def resolve_pathway(scenario: Scenario, years=None) -> PathwayInputs:
@@ -239,14 +284,22 @@ def solve_pathway(
     cancel: Callable[[], bool] | None = None,
     time_limit_s: float | None = None,
     workers: int | None = None,
+    warm_start: bool | None = None,
+    solver: str = DIRECT,
 ) -> PathwayResult:
     """Solve the pathway of ``scenario`` (its own, or ``pathway``; ``years`` overrides the milestone years).
 
     Never raises for solver failures: an infeasible pathway comes back with ``status`` and a ``message`` naming the
-    year and the reason. Without a city-wide constraint each district is its own LP over all years; more than four
-    of them are solved on ``workers`` local processes (default: the cores), as :func:`solve_scenario` does. Raises :class:`InputError` when the pathway inputs themselves are wrong.
+    year and the reason. Without a city-wide constraint each district is its own LP over all years, solved on
+    ``workers`` local processes (default: as :func:`solve_scenario` would choose for one of the years).
+    ``warm_start`` (default :data:`WARM_START`) starts each stacked LP from the basis of its years (and districts)
+    solved alone. ``solver``: ``"highs"`` (HiGHS directly, the default), ``"cbc"`` or ``"pulp:NAME"``
+    (:mod:`engine.model.solvers`; a pulp solver starts cold and is much slower); an unknown or unavailable name
+    raises :class:`engine.model.solvers.SolverChoiceError` before anything is solved. Raises
+    :class:`InputError` when the pathway inputs themselves are wrong.
     """
     started = time.perf_counter()
+    solver = resolve_solver(solver)
     report = progress or (lambda share, text: None)
     if pathway is None:
         pathway = resolve_pathway(scenario, years)
@@ -256,7 +309,7 @@ def solve_pathway(
     years = list(pathway.years)
     horizon_end = years[-1] + pathway.last_period_a
     result = PathwayResult("error", "", "myopic" if myopic else "foresight", cost_case, years, pathway.base_year,
-                           horizon_end)
+                           horizon_end, solver=solver)
     report(0.02, "Preparing the milestone years")
     scenarios, prepared_years = [], []
     for year in years:
@@ -272,12 +325,16 @@ def solve_pathway(
     n_d = len(scenario.districts)
     parts = [list(range(n_d))] if _coupled([p.settings for p in prepared_years]) else [[i] for i in range(n_d)]
     if workers is None:
-        workers = min(len(parts), os.cpu_count() or 1) if len(parts) > 4 else 1
+        # warm-started, the pathway's LPs cost about what its years cost alone: processes pay when one year
+        # would (solve.choose_workers). The demo (12 typical days) is below that: its uncapped four-year pathway
+        # took 19-20 s on one process and 25-27 s on two (2 cores, load average 8), 9.4-9.7 s and 13-14 s at
+        # load average 3.5.
+        workers = choose_workers(prepared_years[0], parts)
     args = (years, pathway.base_year, horizon_end)
     done: dict = {}
     if workers > 1 and len(parts) > 1:
         with ProcessPoolExecutor(max_workers=workers, initializer=_worker_init, initargs=(prepared_years,)) as pool:
-            futures = {pool.submit(_worker_solve, (*args, part, myopic, time_limit_s)): k
+            futures = {pool.submit(_worker_solve, (*args, part, myopic, time_limit_s, warm_start, solver)): k
                        for k, part in enumerate(parts)}
             for future in as_completed(futures):
                 done[futures[future]] = future.result()
@@ -288,7 +345,8 @@ def solve_pathway(
                     break
     else:
         for k, part in enumerate(parts):
-            done[k] = _solve_part(prepared_years, *args, np.array(part), myopic, time_limit_s, cancel)
+            done[k] = _solve_part(prepared_years, *args, np.array(part), myopic, time_limit_s, cancel, warm_start,
+                                  solver, extract=len(parts) == 1)
             report(0.05 + 0.9 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)} linear program(s)")
             if done[k][0] != "optimal":
                 break
@@ -307,7 +365,8 @@ def solve_pathway(
     for o in outcomes:
         built.update(o[3])
     for k, year in enumerate(years):
-        tables = merge_tables([o[2][k] for o in outcomes])
+        pieces = [o[2][k] for o in outcomes]
+        tables = merge_tables(pieces) if isinstance(pieces[0], dict) else _year_tables(prepared_years[k], pieces)
         run = RunResult("optimal", "Optimal solution found.", objective="cost", cost_case=cost_case,
                         scenario_name=scenarios[k].settings.name, settings=dataclasses.asdict(scenarios[k].settings),
                         tables=tables)
