@@ -32,6 +32,7 @@ from engine.outputs.htmlpack import (
 )
 from engine.outputs.report import html_report
 from engine.model.results import RunResult
+from tests.offline_browser import offline_page
 from test_figures import TECHNOLOGIES, synthetic_result, two_runs
 from test_maps import result_with_wells, synthetic_scenario
 
@@ -253,37 +254,12 @@ def test_engine_output_load_curve_balances_and_report_builds(solved_tiny_city):
 
 
 # ------------------------------------------------------------------------------------------------ in a browser
-CHROMIUM = "/usr/bin/chromium"
-
-
 def draw_offline(html: str, path) -> dict:
     """Open ``html`` from a file in headless Chromium with every network request refused; wait until each figure
     placeholder holds a drawn plotly chart. Returns the page errors, the refused requests and each placeholder's
     drawn height [px]."""
-    import os
-    import shutil
-
-    if not os.path.exists(CHROMIUM) or shutil.which("chromium") is None:
-        if os.environ.get("HEATMOSAIC_REQUIRE_BROWSER") == "1":
-            pytest.fail("Chromium is required (HEATMOSAIC_REQUIRE_BROWSER=1) but /usr/bin/chromium is missing")
-        pytest.skip("Debian's Chromium is not installed")
-    from playwright.sync_api import sync_playwright
-
     path.write_text(html, encoding="utf-8")
-    errors, outside = [], []
-    with sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=CHROMIUM, args=[
-            "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-            "--disable-component-update", "--no-first-run"])
-        page = browser.new_page()
-
-        def refuse(route):
-            outside.append(route.request.url)
-            route.abort()
-
-        page.route(re.compile(r"^https?://"), refuse)
-        page.on("pageerror", lambda e: errors.append(str(e)))
-        page.goto(path.as_uri())
+    with offline_page(path) as (page, errors, outside):
         placeholders = page.locator("div.plotly-graph-div").count()
         page.wait_for_function(
             "n => document.querySelectorAll('div.plotly-graph-div svg.main-svg').length >= n && "
@@ -293,7 +269,6 @@ def draw_offline(html: str, path) -> dict:
                                 ".map(d => d.querySelector('.main-svg').getBoundingClientRect().height)")
         traces = page.evaluate("() => Array.from(document.querySelectorAll('div.plotly-graph-div'))"
                                ".map(d => (d.data || []).length)")
-        browser.close()
     return {"errors": errors, "outside": outside, "heights": heights, "traces": traces}
 
 
