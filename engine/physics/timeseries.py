@@ -15,8 +15,11 @@ in well under a second for the usual 8 to 24 typical days.
 
 Typical days keep the sequence of hours inside a day but not the sequence of days: seasonal storage and
 multi-day cold spells are not represented. Extreme days (peak heating, peak cooling, coldest) are kept as periods
-of their own with weight one day (:func:`typical_day_grid` ``extreme_days``), and :func:`rescale_to_annual` keeps
-the annual sums of demand exactly (Kotzur et al. 2018, see docs/model.md section 8).
+of their own with weight one day (:func:`typical_day_grid` ``extreme_days``; Kotzur et al. 2018), and
+:func:`keep_duration_curve` gives the demand of the clustered steps the year's duration curve, which keeps the
+annual sums exactly and the heat above any level to within one step's weight (docs/model.md section 8).
+:func:`rescale_to_annual`, one factor per row, is the former method, kept for the comparison in
+bench/typical_days.py.
 
 References
 ----------
