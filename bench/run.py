@@ -433,7 +433,10 @@ def main(argv=None) -> int:
     print(f"demo city, {fidelity['typical_days']} typical days + extreme days against the full year "
           f"(solved in {fidelity['full_year_s']:.0f} s): total cost {own['cost_error_pct']:+.3f} %, CO2 "
           f"{own['co2_error_pct']:+.3f} %, largest error of a technology's heat {own['heat_error_max_pct']:.2f} % "
-          f"({own['heat_error_worst_technology']}; technologies above 100 MWh/a)")
+          f"({own['heat_error_worst_technology']}: {own['heat_error_worst_mwh_per_a']:+,.0f} MWh/a, "
+          f"{own['heat_error_worst_pct_of_heat']:+.3f} % of the city's heat, its share "
+          f"{own['heat_share_worst_pct']:.2f} %; technologies above 100 MWh/a)")
+    print(f"fidelity_heat_error_max_pct={own['heat_error_max_pct']:.3f}")
     print(f"benchmark wall time {time.perf_counter() - started:.0f} s")
     if args.json:
         Path(args.json).write_text(json.dumps({"cases": records, "demo": demo}, indent=2))

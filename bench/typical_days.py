@@ -1,17 +1,22 @@
 """Typical days on the demo city: fidelity against the full hourly year, and our clustering against ``tsam``.
 
-    python bench/typical_days.py            # default resolution against the full year (about a minute)
-    python bench/typical_days.py --tsam     # also the same typical-day count chosen by tsam's clustering
+    python bench/typical_days.py                  # default resolution against the full year
+    python bench/typical_days.py --tsam           # also the same typical-day count chosen by tsam's clustering
+    python bench/typical_days.py --single-factor  # also the demand rescaled by one factor (the former method)
+    python bench/typical_days.py --sweep 8,12,16,24   # error and solve time per number of typical days
 
-Both clusterings get the same inputs (the daily features the engine clusters, the extreme days taken out and kept
-alone, the demand rescaled to the year's sums by the engine); only the choice of the representative days
-differs. Figures are printed, never asserted: they hold for the demo's inputs.
+The full year takes minutes; it is solved once and kept in the temporary folder, keyed by the input hash. All
+clusterings get the same inputs (the daily features the engine clusters, the extreme days taken out and kept
+alone, the demand given the year's duration curve by the engine); only the choice of the representative days
+differs. Figures are printed, never asserted: they hold for the demo's inputs. tsam is a benchmark-only
+dependency (``pip install tsam``).
 """
 
 from __future__ import annotations
 
 import argparse
 import math
+import os
 import sys
 import time
 from pathlib import Path
@@ -33,16 +38,22 @@ def _relative_pct(value: float, reference: float) -> float:
 
 
 def compare(result, reference, floor_mwh: float = 100.0) -> dict:
-    """Cost error and the largest error of a technology's annual heat (technologies above ``floor_mwh``) [%]."""
+    """Cost error and the largest error of a technology's annual heat (technologies above ``floor_mwh``) [%],
+    with that technology's error in MWh/a and as a share of the city's heat [%], and its share of the heat."""
     heat = result.heat_by_technology_mwh_per_a()
     ref_heat = reference.heat_by_technology_mwh_per_a()
+    total = reference.heat_demand_mwh_per_a
     errors = {t: _relative_pct(heat.get(t, 0.0), v) for t, v in ref_heat.items() if abs(v) >= floor_mwh}
     worst = max(errors, key=lambda t: abs(errors[t])) if errors else ""
+    absolute = heat.get(worst, 0.0) - ref_heat.get(worst, 0.0) if worst else 0.0
     return {
         "cost_error_pct": _relative_pct(result.total_cost_eur_per_a, reference.total_cost_eur_per_a),
         "co2_error_pct": _relative_pct(result.co2_t_per_a, reference.co2_t_per_a),
         "heat_error_max_pct": abs(errors[worst]) if worst else 0.0,
         "heat_error_worst_technology": worst,
+        "heat_error_worst_mwh_per_a": absolute,
+        "heat_error_worst_pct_of_heat": 100.0 * absolute / total if total > 0 else math.nan,
+        "heat_share_worst_pct": 100.0 * ref_heat.get(worst, 0.0) / total if worst and total > 0 else math.nan,
         "heat_errors_pct": errors,
     }
 
@@ -121,18 +132,53 @@ def full_year(scenario):
     return reference, seconds
 
 
-def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None) -> dict:
-    """The demo at its default resolution (or ``typical_days``) against the full year; optionally tsam's days."""
+def solve_single_factor(scenario, settings):
+    """The run with the demand of the clustered days rescaled by one factor per district (the former method,
+    :func:`engine.physics.timeseries.rescale_to_annual`) in place of the year's duration curve."""
+    from engine.physics.timeseries import rescale_to_annual
+
+    original = prepare_mod.DEMAND_REPRESENTATION
+    prepare_mod.DEMAND_REPRESENTATION = rescale_to_annual
+    try:
+        return solve_scenario(scenario, settings=settings)
+    finally:
+        prepare_mod.DEMAND_REPRESENTATION = original
+
+
+def timed_solve(scenario, settings, repeats: int = 3):
+    """The run and its median wall time over ``repeats`` solves, the grid memo cleared before each [s]."""
+    seconds = []
+    for _ in range(repeats):
+        prepare_mod.clear_grid_memo()
+        started = time.perf_counter()
+        result = solve_scenario(scenario, settings=settings)
+        seconds.append(time.perf_counter() - started)
+    return result, sorted(seconds)[len(seconds) // 2]
+
+
+def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, single_factor: bool = False,
+                  sweep=()) -> dict:
+    """The demo at its default resolution (or ``typical_days``) against the full year; optionally tsam's days,
+    the former single-factor rescaling, and other numbers of typical days (``sweep``)."""
     scenario = load_scenario(resolve_scenario_path("demo"))
     settings = run_settings(scenario, typical_days=typical_days)
     reference, year_s = full_year(scenario)
     if not reference.solved:
         raise RuntimeError(f"full-year demo did not solve: {reference.message}")
-    started = time.perf_counter()
-    ours = solve_scenario(scenario, settings=settings)
+    ours, solve_s = timed_solve(scenario, settings)
     out = {"typical_days": settings.typical_days, "full_year_s": year_s,
-           "own": {**compare(ours, reference), "solve_s": time.perf_counter() - started,
+           "own": {**compare(ours, reference), "solve_s": solve_s,
                    "cluster_s": own_grid_seconds(scenario, settings)}}
+    if single_factor:
+        started = time.perf_counter()
+        result = solve_single_factor(scenario, settings)
+        out["own_single_factor"] = {**compare(result, reference), "solve_s": time.perf_counter() - started,
+                                    "cluster_s": out["own"]["cluster_s"]}
+    for days in sweep:
+        other = run_settings(scenario, typical_days=days)
+        result, seconds = timed_solve(scenario, other)
+        out[f"own_{days}_days"] = {**compare(result, reference), "solve_s": seconds,
+                                   "cluster_s": own_grid_seconds(scenario, other)}
     if with_tsam:
         for method in ("hierarchical", "kmedoids"):
             try:
@@ -142,8 +188,10 @@ def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None) -> d
             except Exception as error:  # tsam's MILP k-medoids needs a solver it may not find
                 out[f"tsam_{method}"] = {"error": f"{type(error).__name__}: {error}"[:200]}
                 continue
+            started = time.perf_counter()
             result = solve_with_grid(scenario, settings, grid)
-            out[f"tsam_{method}"] = {**compare(result, reference), "cluster_s": cluster_s}
+            out[f"tsam_{method}"] = {**compare(result, reference), "cluster_s": cluster_s,
+                                     "solve_s": time.perf_counter() - started}
     return out
 
 
@@ -151,8 +199,12 @@ def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--tsam", action="store_true")
     parser.add_argument("--typical-days", type=int, default=None)
+    parser.add_argument("--single-factor", action="store_true", help="also the former single-factor rescaling")
+    parser.add_argument("--sweep", default="", help="numbers of typical days to compare, e.g. 8,12,16,24")
     args = parser.parse_args(argv)
-    figures = demo_fidelity(args.tsam, args.typical_days)
+    sweep = [int(d) for d in args.sweep.split(",") if d.strip()]
+    load = os.getloadavg()[0]
+    figures = demo_fidelity(args.tsam, args.typical_days, args.single_factor, sweep)
     print(f"demo, {figures['typical_days']} typical days + extreme days; full year solved in "
           f"{figures['full_year_s']:.1f} s")
     for name, row in figures.items():
@@ -162,9 +214,12 @@ def main(argv=None) -> int:
             print(f"  {name}: {row['error']}")
             continue
         print(f"  {name}: cost {row['cost_error_pct']:+.3f} %, CO2 {row['co2_error_pct']:+.3f} %, worst heat "
-              f"{row['heat_error_max_pct']:.3f} % ({row['heat_error_worst_technology']}), clustering "
-              f"{row['cluster_s']:.3f} s; heat errors " + ", ".join(
+              f"{row['heat_error_max_pct']:.3f} % ({row['heat_error_worst_technology']}: "
+              f"{row['heat_error_worst_mwh_per_a']:+,.0f} MWh/a, {row['heat_error_worst_pct_of_heat']:+.3f} % of the "
+              f"city's heat, its share {row['heat_share_worst_pct']:.2f} %), clustering {row['cluster_s']:.3f} s, "
+              f"solve {row.get('solve_s', math.nan):.2f} s; heat errors " + ", ".join(
                   f"{t} {e:+.2f} %" for t, e in sorted(row["heat_errors_pct"].items())))
+    print(f"1-min load average {load:.1f} before / {os.getloadavg()[0]:.1f} after, {os.cpu_count()} cores")
     print(f"fidelity_cost_error_pct={figures['own']['cost_error_pct']:.3f}")
     return 0
 

@@ -139,3 +139,46 @@ def test_prepared_well_flow_is_inverse_of_iapws_power():
     cp = iapws.IAPWS95(T=11.0 + 273.15, P=0.101325).cp  # kJ/(kg K)
     expected = 1.0 / (cp * 4.0)  # usable spread min(4 K design, 11 - 4.5 K window) = 4 K
     np.testing.assert_allclose(prepared.well_flow_per_kw_heating[0], expected, rtol=2e-4)
+
+
+def test_production_calls_the_tested_physics_functions(monkeypatch):
+    """One implementation of each formula: a run of a groundwater case with a degree-hour demand and cooling
+    calls the very functions the physics tests check against their references (Carnot COP with a grade:
+    tests/test_heatpump.py; annuity and levelised cost: tests/test_economics.py, numpy-financial; P = m_dot c_p dT,
+    usable spreads and the groundwater sinusoid: tests/test_wells.py; water density: tests/test_water.py,
+    IAPWS-95; degree-hour heat, hot-water and cooling profiles: tests/test_demand.py). Each is wrapped in place
+    and must be called at least once, and the names production looks up must be those functions."""
+    from collections import Counter
+
+    from engine.model import extract
+    from engine.physics import demand, economics, heatpump, water, wells
+
+    assert extract.levelised_cost_eur_per_mwh is economics.levelised_cost_eur_per_mwh
+    calls = Counter()
+    tested = [(heatpump, "heat_pump_cop"), (economics, "annuity_factor"), (wells, "well_thermal_power_kw"),
+              (wells, "usable_spread_heating_k"), (wells, "usable_spread_cooling_k"),
+              (wells, "groundwater_temp_series_c"), (water, "water_density_kg_per_m3"),
+              (demand, "heat_demand_profile_kw"), (demand, "hot_water_profile_kw"),
+              (demand, "cooling_demand_profile_kw"), (extract, "levelised_cost_eur_per_mwh")]
+    for module, name in tested:
+        original = getattr(module, name)
+
+        def counted(*args, _original=original, _name=name, **kwargs):
+            calls[_name] += 1
+            return _original(*args, **kwargs)
+
+        monkeypatch.setattr(module, name, counted)
+    scenario = groundwater_case(0.0, 800.0)
+    scenario.heat_demand_hourly_kw = None  # the degree-hour profile from the annual figure
+    scenario.districts["hot_water_share"] = 0.2
+    scenario.districts["cooling_demand_mwh_per_a"] = 50.0
+    scenario.technologies = pd.concat([scenario.technologies, f.technologies(
+        dict(technology_id="chiller", kind="chiller", carrier="electricity", efficiency=3.0))], ignore_index=True)
+    scenario.district_technologies = pd.concat([scenario.district_technologies, pd.DataFrame(
+        [{"district_id": "A", "technology_id": "chiller", "existing_kw": 0.0, "potential_kw": np.inf}])],
+        ignore_index=True)
+    scenario.hourly["outdoor_temp_c"] = 8.0 + 12.0 * np.sin(2 * np.pi * np.arange(HOURS) / HOURS)
+    result = solve_scenario(scenario, workers=1)
+    assert result.solved, result.message
+    missing = [name for _, name in tested if calls[name] == 0]
+    assert not missing, f"production does not call {missing}"

@@ -133,3 +133,15 @@ def test_cop_clips_are_counted():
     assert bounds["space_heating"]["ahp"]["districts_at_a_bound"] == 1
     assert bounds["hot_water"]["ahp"]["district_hours_at_cop_max"] == 0.0
     assert bounds["space_heating"]["ahp"]["cop_max"] == 8.0
+
+
+def test_binding_cop_clip_is_said_in_the_run_message():
+    """The same 84 district-hours at the upper clip (by hand above) are named in the message a planner reads;
+    at 5 °C throughout (lift 33 K for 35 °C, COP 0.45 * 313.15 / 33 = 4.3) no clip binds and nothing is said."""
+    scenario = instance(60.0)
+    scenario.hourly["outdoor_temp_c"] = np.where(np.arange(HOURS) % 2 == 0, 40.0, OUTDOOR_C)
+    result = solve_scenario(scenario)
+    assert result.solved, result.message
+    assert "COP held at its bounds [1, 8]" in result.message
+    assert "ahp (space heating) 84 h at 8" in result.message
+    assert "COP held" not in solve_scenario(instance(60.0)).message

@@ -104,3 +104,24 @@ def test_map_shows_the_unserved_class():
     colours = technology_colors(scenario.technologies)
     assert table.set_index("district_id").loc["A", "color"] == colours["unserved"]
     assert ("Unserved heat", colours["unserved"]) in legend["entries"]
+
+
+def test_co2_price_is_counted_once():
+    """Gas heat only, CO2 price 100 EUR/t: every MWh of heat costs (p_gas + 100 EUR/t * f_gas) / eta, the CO2
+    part is exactly the tonnes times the price, and the energy part is p_gas / eta per MWh (docs/model.md
+    section 5: entered prices exclude the CO2 price; f_gas from IPCC 2006 Guidelines vol. 2 table 2.2)."""
+    scenario = two_boilers()
+    scenario.technologies = scenario.technologies[scenario.technologies["technology_id"] == "gas"]
+    scenario.district_technologies = scenario.district_technologies[
+        scenario.district_technologies["technology_id"] == "gas"]
+    scenario.prices = Prices(gas_eur_per_mwh=40.0, co2_eur_per_t=100.0)
+    result = solve_scenario(scenario)
+    assert result.solved, result.message
+    heat = DEMAND_KW * HOURS / 1000
+    tonnes = heat * GAS_T_PER_MWH / 0.9
+    parts = result.cost_breakdown_eur_per_a()
+    assert result.co2_t_per_a == pytest.approx(tonnes, rel=1e-6)
+    assert parts["co2"] == pytest.approx(100.0 * tonnes, rel=1e-6)
+    assert parts["energy"] == pytest.approx(heat * 40.0 / 0.9, rel=1e-6)
+    assert result.total_cost_eur_per_a == pytest.approx(heat * (40.0 + 100.0 * GAS_T_PER_MWH) / 0.9 + parts["investment"]
+                                                        + parts["fixed_om"] + parts["variable_om"], rel=1e-6)

@@ -20,7 +20,7 @@ from engine.physics import heatpump
 from engine.physics import water
 from engine.physics import wells as wells_mod
 from engine.scenario.inputs import EffectivePrices, Scenario, Settings, apply_cost_case, hot_water_temp_c
-from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, rescale_to_annual, typical_day_grid
+from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, keep_duration_curve, typical_day_grid
 from engine.units import SECONDS_PER_HOUR
 
 
@@ -225,7 +225,25 @@ def aggregation_report(grid: TimeGrid, heat_year: np.ndarray, cool_year: np.ndar
         "peak_heat_kept_pct": float(100 * heat_steps.sum(axis=0).max() / city_heat_year.max())
         if city_heat_year.max() > 0 else 100.0,
         "city_heat_profile_rms_error_pct_of_mean": 100 * rms / mean if mean > 0 else 0.0,
+        "city_heat_duration_curve_error_pct_of_sum": duration_curve_error_pct(city_heat_year, heat_steps.sum(axis=0), w),
     }
+
+
+def duration_curve_error_pct(year_kw: np.ndarray, steps_kw: np.ndarray, weight_h: np.ndarray) -> float:
+    """Largest error of the energy in the top h hours of the year, over every h, as a share of the year's sum [%].
+
+    The year's duration curve against the steps' (each step holding its value for its weight in hours, sorted
+    highest first): the heat a technology that runs only in the peak hours sees. 0 for a perfect representation.
+    """
+    year = np.sort(np.asarray(year_kw, dtype=float))[::-1]
+    total = float(year.sum())
+    if total <= 0:
+        return 0.0
+    order = np.argsort(-np.asarray(steps_kw, dtype=float), kind="stable")
+    edges = np.r_[0.0, np.cumsum(weight_h[order])]
+    energy = np.r_[0.0, np.cumsum(steps_kw[order] * weight_h[order])]
+    hours = np.arange(1, year.size + 1, dtype=float)
+    return float(100 * np.abs(np.interp(hours, edges, energy) - np.cumsum(year)).max() / total)
 
 
 COP_MIN = 1.0
@@ -254,17 +272,40 @@ def cop_bound_report(cops: dict, weight_h: np.ndarray, label: str) -> dict:
     return out
 
 
+DEMAND_REPRESENTATION = keep_duration_curve
+"""How the demand of the typical days is made to stand for the year (docs/model.md section 8)."""
+
+
+def cop_bound_note(cop_bounds: dict, used_technologies=None) -> str:
+    """One sentence naming the heat pumps whose COP the model held at a clip (:data:`COP_MIN`, :data:`COP_MAX`),
+    with the hours (summed over districts or wells); empty when no clip binds. ``cop_bounds`` as in
+    :attr:`PreparedRun.cop_bounds`; ``used_technologies`` (optional) limits the sentence to those technologies."""
+    parts = []
+    for service, label in (("space_heating", "space heating"), ("hot_water", "hot water")):
+        for tech, figures in sorted(cop_bounds.get(service, {}).items()):
+            if used_technologies is not None and tech not in used_technologies:
+                continue
+            for clip, value in (("min", COP_MIN), ("max", COP_MAX)):
+                hours = sum(v for k, v in figures.items() if k.endswith(f"_hours_at_cop_{clip}"))
+                if hours > 0:
+                    parts.append(f"{tech} ({label}) {hours:,.0f} h at {value:g}")
+    if not parts:
+        return ""
+    return (f"Heat pump COP held at its bounds [{COP_MIN:g}, {COP_MAX:g}] (docs/model.md section 2): "
+            + "; ".join(parts) + " (district- or well-hours).")
+
+
 def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = None) -> PreparedRun:
     settings = settings or scenario.settings
     prices = apply_cost_case(scenario, cost_case)
     heat_year, cool_year = demand_year_kw(scenario, settings)
     grid = build_time_grid(scenario, settings, heat_year, cool_year)
     steps = grid.year_hour
-    # demand at the steps, rescaled so that the weighted sums are the year's sums exactly
-    heat_steps, heat_error = rescale_to_annual(heat_year, grid)
-    cool_steps, cool_error = rescale_to_annual(cool_year, grid)
+    # demand at the steps: each district's duration curve (hence its annual sum) is the year's
+    heat_steps, heat_error = DEMAND_REPRESENTATION(heat_year, grid)
+    cool_steps, cool_error = DEMAND_REPRESENTATION(cool_year, grid)
     hot_water_year = hot_water_year_kw(scenario, heat_year)
-    hot_water_steps = np.minimum(rescale_to_annual(hot_water_year, grid)[0], heat_steps)
+    hot_water_steps = np.minimum(DEMAND_REPRESENTATION(hot_water_year, grid)[0], heat_steps)
     aggregation = aggregation_report(grid, heat_year, cool_year, heat_steps, cool_steps, heat_error, cool_error,
                                      {} if grid.is_full_year else extreme_days(scenario, heat_year, cool_year))
     districts = scenario.districts

@@ -24,7 +24,7 @@ from engine.scenario.defaults import limit_from_entry
 from engine.scenario.inputs import Scenario, Settings, default_cost_case, input_hash
 from engine.model.formulation import DistrictModel, build_model, co2_stage_objective, solve_model, supply_units
 from engine.model.lp import HighsSession, LpSolution
-from engine.model.prepare import prepare_run
+from engine.model.prepare import cop_bound_note, prepare_run
 from engine.model.results import STATUS_SOLVED, STATUS_WITH_UNSERVED, RunResult
 from engine.model.solvers import DIRECT, resolve_solver, solve_lp
 from engine.progress import Cancel, Progress, no_progress
@@ -587,6 +587,11 @@ def finish_result(result: RunResult, scenario: Scenario, prepared, settings: Set
             if step > 0:
                 abatement_text = (f" The last {step:,.1f} t/a of CO2 avoided cost {saving / step:,.0f} EUR/t "
                                   "(abatement cost of the last tonnes).")
+        # a COP clip that binds for a heat pump the plan uses is said where the planner reads the run
+        supply = result.tables["supply"]
+        used = set(supply.loc[supply["heat_mwh_per_a"] > 0, "technology_id"].astype(str))
+        cop_text = cop_bound_note(prepared.cop_bounds, used)
+        abatement_text += f" {cop_text}" if cop_text else ""
         result.message = "Optimal solution found." + abatement_text
         if result.unserved_heat_mwh_per_a > UNSERVED_TOLERANCE_MWH:
             result.status = STATUS_WITH_UNSERVED

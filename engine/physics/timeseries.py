@@ -15,8 +15,11 @@ in well under a second for the usual 8 to 24 typical days.
 
 Typical days keep the sequence of hours inside a day but not the sequence of days: seasonal storage and
 multi-day cold spells are not represented. Extreme days (peak heating, peak cooling, coldest) are kept as periods
-of their own with weight one day (:func:`typical_day_grid` ``extreme_days``), and :func:`rescale_to_annual` keeps
-the annual sums of demand exactly (Kotzur et al. 2018, see docs/model.md section 8).
+of their own with weight one day (:func:`typical_day_grid` ``extreme_days``; Kotzur et al. 2018), and
+:func:`keep_duration_curve` gives the demand of the clustered steps the year's duration curve, which keeps the
+annual sums exactly and the heat above any level to within one step's weight (docs/model.md section 8).
+:func:`rescale_to_annual`, one factor per row, is the former method, kept for the comparison in
+bench/typical_days.py.
 
 References
 ----------
@@ -624,6 +627,81 @@ def rescale_to_annual(year_values, grid: TimeGrid):
             out[r, ~extreme] *= (target[r] - fixed[r]) / free[r]
         elif before[r] > 0:
             out[r] *= target[r] / before[r]
+    return out, error
+
+
+def keep_duration_curve(year_values, grid: TimeGrid):
+    """Values at the model steps whose weighted duration curve is the hourly year's, row by row.
+
+    ``year_values`` has shape (rows, n_hours). Extreme days keep their values. The clustered steps of a row are
+    ranked by their own values (highest first, ties in step order); the step of rank i, of weight w_i, stands
+    for the hours of the year from sum_{j<i} w_j to sum_{j<=i} w_j of the row's duration curve over the hours
+    that are not extreme days (the year's values sorted, highest first), and takes their mean. So:
+
+    - the weighted sum equals the year's sum exactly (the bands tile the duration curve);
+    - the energy above any level L, sum_t w_t max(value_t - L, 0), is the year's to within one band at L
+      (the heat a peak boiler or a capacity limit sees is the year's, not a medoid day's times its cluster);
+    - within a day, the order of the hours is kept (the mapping is monotone); a step keeps its calendar hour,
+      weather, prices and COP.
+
+    Clustering picks representative days; this representation then preserves the duration curve, the criterion
+    of Poncelet, K., Hoeschle, H., Delarue, E., Virag, A. and D'haeseleer, W. (2017). Selecting representative
+    days for capturing the implications of integrating intermittent renewables in generation expansion planning
+    problems. IEEE Transactions on Power Systems 32(3), 1936-1948. It is the whole year's duration curve
+    kept at once, like the distribution-preserving representation of typical periods (Hoffmann, M., Kotzur, L.
+    and Stolten, D. (2022). The Pareto-optimal temporal aggregation of energy system models. Applied Energy 315,
+    119029; from memory), but over all clustered days rather than cluster by cluster.
+
+    Parameters
+    ----------
+    year_values : array_like
+        Hourly values, shape (rows, n_hours) or (n_hours,). [any unit]
+    grid : TimeGrid
+        The time grid; its weights must sum to the hours of the year.
+
+    Returns
+    -------
+    values : numpy.ndarray
+        Shape (rows, n_steps). For the full year the hourly values as they are.
+    error_before_pct : numpy.ndarray
+        Per row, ``100 * (weighted sum of the medoid days' own values - year's sum) / year's sum``: the error
+        the representation removes (NaN where the year is 0).
+
+    Raises
+    ------
+    ValueError
+        If the rows do not hold ``grid.n_hours`` values or a value is not finite.
+    """
+    year = np.atleast_2d(np.asarray(year_values, dtype=float))
+    if year.ndim != 2 or year.shape[1] != grid.n_hours:
+        raise ValueError(f"year_values must have {grid.n_hours} hourly values per row; got shape {year.shape}")
+    if not np.all(np.isfinite(year)):
+        raise ValueError("year_values must be finite")
+    values = year[:, grid.year_hour]
+    w = grid.weight_h
+    target = year.sum(axis=1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        error = np.where(target != 0, 100.0 * (values @ w - target) / target, np.nan)
+    if grid.is_full_year:
+        return values, error
+    extreme_step = grid.is_extreme_step
+    extreme_day = (np.asarray(grid.extreme_period, dtype=bool)[grid.day_period] if grid.extreme_period is not None
+                   else np.zeros(grid.day_period.size, dtype=bool))
+    clustered_hours = ~np.repeat(extreme_day, HOURS_PER_DAY)
+    steps = np.flatnonzero(~extreme_step)
+    out = values.copy()
+    if steps.size == 0:
+        return out, error
+    for r in range(year.shape[0]):
+        curve = np.sort(year[r, clustered_hours])[::-1]  # duration curve of the clustered days
+        cumulative = np.r_[0.0, np.cumsum(curve)]
+        order = steps[np.argsort(-values[r, steps], kind="stable")]
+        edges = np.r_[0.0, np.cumsum(w[order])]
+        edges = np.clip(edges * (curve.size / edges[-1]), 0.0, curve.size)  # weights sum to those hours
+        whole = np.minimum(np.floor(edges).astype(int), curve.size - 1)
+        energy = cumulative[whole] + (edges - whole) * curve[whole]  # area under the curve up to each edge
+        weight = w[order]
+        out[r, order] = np.where(weight > 0, np.diff(energy) / np.where(weight > 0, weight, 1.0), values[r, order])
     return out, error
 
 
