@@ -21,7 +21,7 @@ import pytest
 
 from engine.model.solve import solve_scenario
 from engine.outputs.density_map import density_legend_html, district_density, setup_map
-from engine.physics.typology import HEAT_DENSITY_CLASSES, HEAT_DENSITY_SOURCE
+from engine.physics.typology import HEAT_DENSITY_CLASSES, HEAT_DENSITY_SOURCE, LINEAR_DENSITY_CLASSES
 from engine.scenario.folder import validate_scenario
 from engine.storage.store import read_scenario_files
 from pages._support.city_edits import (
@@ -395,3 +395,43 @@ def test_a_saved_run_keeps_the_edited_files_and_reproduces_its_cost(tmp_path):
     again = solve_scenario(reread, "reference")
     assert again.total_cost_eur_per_a == pytest.approx(run.result.total_cost_eur_per_a, rel=1e-9)
     assert again.total_cost_eur_per_a == pytest.approx(13_000.0 / 0.9 * 50.0, rel=1e-6)
+
+
+# ============================================================================= linear heat density
+def _with_street_lengths(files: dict[str, bytes], lengths: dict[str, object]) -> dict[str, bytes]:
+    layer = json.loads(files["districts.geojson"])
+    for feature in layer["features"]:
+        did = feature["properties"]["district_id"]
+        if did in lengths:
+            feature["properties"]["street_length_m"] = lengths[did]
+    return {**files, "districts.geojson": json.dumps(layer).encode()}
+
+
+def test_linear_heat_density_from_the_districts_street_length_by_hand():
+    """Linear heat density = annual heat demand / street length (hand calculation): 4 000 MWh/a over 5 000 m is
+    0.8 MWh/(m a), the middle class (0.5-1.5); 6 000 MWh/a with no length given has no linear density. The map
+    gains the layer, off at first, and the legend names the linear classes."""
+    files = _with_street_lengths(boiler_city(), {"d0": 5000})
+    inputs = input_set_from_files(files, "boiler town")
+    assert inputs.ok, inputs.problems
+    lengths = inputs.scenario.districts["street_length_m"].to_numpy(float)
+    assert lengths[0] == 5000.0 and np.isnan(lengths[1])
+    table = district_density(inputs.scenario)
+    assert table["linear_heat_density_mwh_per_m_a"].iloc[0] == pytest.approx(4000.0 / 5000.0)
+    assert np.isnan(table["linear_heat_density_mwh_per_m_a"].iloc[1])
+    assert table["linear_heat_density_class"].iloc[0] == LINEAR_DENSITY_CLASSES[1].label
+    # the edited demand moves the linear class too: 10 000 MWh/a over 5 000 m is 2.0 MWh/(m a)
+    edited = district_density(inputs.scenario, [10_000.0, 6000.0])
+    assert edited["linear_heat_density_class"].iloc[0] == LINEAR_DENSITY_CLASSES[2].label
+    html = setup_map(inputs.scenario).get_root().render()
+    assert "Linear heat density" in html and LINEAR_DENSITY_CLASSES[1].label.split(":")[0] in html
+    plain = setup_map(input_set_from_files(boiler_city(), "boiler town").scenario).get_root().render()
+    assert "Linear heat density" not in plain
+
+
+@pytest.mark.parametrize("value", [0, -10, "long"])
+def test_a_bad_street_length_names_the_district_and_the_column(value):
+    inputs = input_set_from_files(_with_street_lengths(boiler_city(), {"d1": value}), "boiler town")
+    assert not inputs.ok
+    text = " ".join(inputs.problems.astype(str).to_numpy().ravel())
+    assert "street_length_m" in text and "d1" in text and "districts.geojson" in text

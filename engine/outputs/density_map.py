@@ -21,9 +21,12 @@ from engine.outputs.maps import _bounds, _number, add_folded_legend, escape, use
 from engine.outputs.palette import NO_DATA_COLOR, ORANGE, WELL_COLOR, class_colors
 from engine.outputs.screening import district_screening
 from engine.physics import typology
-from engine.physics.typology import HEAT_DENSITY_CLASSES, HEAT_DENSITY_SOURCE
+from engine.physics.typology import HEAT_DENSITY_CLASSES, HEAT_DENSITY_SOURCE, LINEAR_DENSITY_CLASSES
 
 DENSITY_UNIT = "MWh/(ha a)"
+LINEAR_UNIT = "MWh/(m a)"
+LINEAR_SOURCE = ("Linear classes: 0.5 from memory of the minimum the German KfW heat-network programme required, "
+                 "1.5 common practice; screening thresholds only.")
 
 
 def density_class_colors() -> list[str]:
@@ -42,7 +45,8 @@ def district_density(scenario, heat_demand_mwh_per_a=None) -> pd.DataFrame:
     if heat_demand_mwh_per_a is not None:
         demand = np.asarray(heat_demand_mwh_per_a, dtype=float)
         area_m2 = table["land_area_ha"].to_numpy(float) * 10_000.0
-        table = typology.screening_table(list(table["district_id"]), demand, area_m2)
+        table = typology.screening_table(list(table["district_id"]), demand, area_m2,
+                                         table["street_length_m"].to_numpy(float))
     density = table["heat_density_mwh_per_ha_a"].to_numpy(float)
     index = np.full(len(table), -1)
     for k, c in enumerate(HEAT_DENSITY_CLASSES):
@@ -50,13 +54,21 @@ def district_density(scenario, heat_demand_mwh_per_a=None) -> pd.DataFrame:
     colors = density_class_colors()
     table["class_index"] = index
     table["color"] = [colors[k] if k >= 0 else NO_DATA_COLOR for k in index]
+    linear = table["linear_heat_density_mwh_per_m_a"].to_numpy(float)
+    linear_index = np.full(len(table), -1)
+    for k, c in enumerate(LINEAR_DENSITY_CLASSES):
+        linear_index[(linear >= c.low) & (linear < c.high)] = k
+    linear_colors = class_colors(len(LINEAR_DENSITY_CLASSES))
+    table["linear_color"] = [linear_colors[k] if k >= 0 else NO_DATA_COLOR for k in linear_index]
     table.insert(1, "name", list(scenario.districts["name"].astype(str)))
     return table[["district_id", "name", "heat_demand_mwh_per_a", "land_area_ha", "heat_density_mwh_per_ha_a",
-                  "heat_density_class", "class_index", "color"]]
+                  "heat_density_class", "class_index", "color", "street_length_m",
+                  "linear_heat_density_mwh_per_m_a", "linear_heat_density_class", "linear_color"]]
 
 
-def density_legend_html(candidates: bool = False) -> str:
-    """The legend: one swatch per class with its bounds [MWh/(ha a)], the wells, and the source line."""
+def density_legend_html(candidates: bool = False, linear: bool = False) -> str:
+    """The legend: one swatch per class with its bounds [MWh/(ha a)], the wells, and the source line; with
+    ``linear`` also the linear heat-density classes [MWh/(m a)] of the layer "Linear heat density"."""
     swatch = ("<span style='display:inline-block;width:14px;height:12px;margin-right:6px;vertical-align:middle;"
               "border:1px solid #555;background:{}'></span>")
     circle = ("<span style='display:inline-block;width:11px;height:11px;border-radius:50%;margin-right:6px;"
@@ -64,6 +76,12 @@ def density_legend_html(candidates: bool = False) -> str:
     parts = [f"<div style='font-weight:bold;margin-bottom:4px'>Heat density [{escape(DENSITY_UNIT)}]</div>"]
     for c, color in zip(HEAT_DENSITY_CLASSES, density_class_colors()):
         parts.append(f"<div>{swatch.format(color)}{escape(c.label)}</div>")
+    if linear:
+        parts.append(f"<div style='font-weight:bold;margin:6px 0 4px'>Linear heat density [{escape(LINEAR_UNIT)}] "
+                     "(layer off at first)</div>")
+        for c, color in zip(LINEAR_DENSITY_CLASSES, class_colors(len(LINEAR_DENSITY_CLASSES))):
+            parts.append(f"<div>{swatch.format(color)}{escape(c.label)}</div>")
+        parts.append(f"<div style='color:#444;max-width:250px'>{escape(LINEAR_SOURCE)}</div>")
     parts.append(f"<div>{circle.format(WELL_COLOR, '#FFFFFF')}existing well doublet</div>")
     if candidates:
         parts.append(f"<div>{circle.format(ORANGE, WELL_COLOR)}proposed doublet</div>")
@@ -145,6 +163,21 @@ def setup_map(scenario, heat_demand_mwh_per_a=None, candidates: pd.DataFrame | N
                f" ({escape(rec['heat_density_class'] or 'no area')})")
         folium.Tooltip(tip).add_to(shape)
         shape.add_to(layer)
+    has_lengths = bool(np.isfinite(table["linear_heat_density_mwh_per_m_a"].to_numpy(float)).any())
+    if has_lengths:  # only where street lengths are given (districts' street_length_m)
+        linear_layer = folium.FeatureGroup(name="Linear heat density", show=False).add_to(fmap)
+        for geometry, rec in zip(scenario.districts["geometry"], table.to_dict(orient="records")):
+            if not isinstance(geometry, Mapping):
+                continue
+            shape = folium.GeoJson(
+                {"type": "Feature", "geometry": geometry, "properties": {}},
+                style_function=lambda _f, c=rec["linear_color"]: {"fillColor": c, "color": "#333333", "weight": 1.2,
+                                                                  "fillOpacity": 0.7},
+            )
+            tip = (f"{escape(rec['name'])}: {_number(rec['linear_heat_density_mwh_per_m_a'], '{:,.2f}', LINEAR_UNIT)}"
+                   f" ({escape(rec['linear_heat_density_class'] or 'no street length given')})")
+            folium.Tooltip(tip).add_to(shape)
+            shape.add_to(linear_layer)
     if len(wells):
         well_layer = folium.FeatureGroup(name="Wells", show=True).add_to(fmap)
         for rec in wells.to_dict(orient="records"):
@@ -154,5 +187,5 @@ def setup_map(scenario, heat_demand_mwh_per_a=None, candidates: pd.DataFrame | N
     if candidates is not None and len(candidates):
         proposed_doublets_layer(candidates).add_to(fmap)
     folium.LayerControl(collapsed=False).add_to(fmap)
-    add_folded_legend(fmap, density_legend_html(True), legend_open, max_width_px=290)
+    add_folded_legend(fmap, density_legend_html(True, linear=has_lengths), legend_open, max_width_px=290)
     return fmap

@@ -64,6 +64,8 @@ DISTRICT_PROPERTIES = (
         low=0,
         allow_inf=True,
     ),
+    # street (trench) length a network would follow [m]: optional, only for the linear heat density screening
+    Column("street_length_m", in_header=False, default=KEEP, low=0, low_open=True),
 )
 DISTRICT_COLUMNS = tuple(spec.name for spec in DISTRICT_PROPERTIES) + ("geometry",)
 _WGS84_NAMES = ("crs84", "4326")
