@@ -214,3 +214,17 @@ def test_export_of_a_coupled_run_is_one_file(tiny, tmp_path):
 def test_export_lp_refuses_other_suffixes(tmp_path, capsys):
     assert main(["export-lp", str(TINY), "--out", str(tmp_path / "model.txt")]) == 2
     assert ".lp or .mps" in capsys.readouterr().err
+
+
+def test_a_thread_count_after_another_solve_still_solves():
+    """HiGHS runs one task scheduler per process, sized by the first solve; asking for another thread count later
+    used to end in status "Not Set". Every count, in any order, must give the worked example's optimum (2.5, the
+    hand solution above; scipy's linprog as the independent check)."""
+    from scipy.optimize import linprog
+
+    reference = linprog([1.0, 2.0], A_ub=[[-1.0, -1.0], [1.0, -1.0], [-1.0, 1.0]], b_ub=[-2.0, 1.0, 1.0],
+                        bounds=[(0, None)] * 2, method="highs")
+    for threads in (None, 1, 2, 1, None):
+        solution = _worked_lp().solve(threads=threads)
+        assert solution.status == "optimal", (threads, solution.status, solution.message)
+        assert solution.objective == pytest.approx(reference.fun, abs=1e-9)

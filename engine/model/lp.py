@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import os
 import sys
+import threading
 import time
 from dataclasses import dataclass, field
 
@@ -189,6 +190,7 @@ class LinearProgram:
         if time_limit_s:
             h.setOptionValue("time_limit", float(time_limit_s))
         if threads:
+            _scheduler_for(int(threads))
             h.setOptionValue("threads", int(threads))
         lp = highspy.HighsLp()
         lp.num_col_ = self.n_cols
@@ -372,6 +374,21 @@ class HighsSession:
         self.highs.run()
         elapsed = time.perf_counter() - started
         return read_highs_solution(self.highs, elapsed)
+
+
+_SCHEDULER_THREADS: int | None = None
+_SCHEDULER_LOCK = threading.Lock()
+
+
+def _scheduler_for(threads: int) -> None:
+    """HiGHS keeps one task scheduler per process, started with the thread count of the first solve; a solve that
+    asks for another count then fails with status "Not Set". Restart the scheduler when the count asked for
+    differs from the one it runs with (blocking: it waits for running tasks)."""
+    global _SCHEDULER_THREADS
+    with _SCHEDULER_LOCK:
+        if _SCHEDULER_THREADS != threads:
+            highspy.Highs.resetGlobalScheduler(True)
+            _SCHEDULER_THREADS = threads
 
 
 _BANNER_SILENCED = False
