@@ -134,6 +134,25 @@ def setup_view(scenario, width_px: int = 900, height_px: int = 520, legend_px: i
     return center, zoom
 
 
+def _class_layer(fmap, name: str, show: bool, scenario, records: list[dict], color_key: str, value_key: str,
+                 fmt: str, unit: str, class_key: str, missing: str) -> None:
+    """One layer of district polygons filled with ``record[color_key]``, the value and its class in the tooltip."""
+    import folium
+
+    layer = folium.FeatureGroup(name=name, show=show).add_to(fmap)
+    for geometry, rec in zip(scenario.districts["geometry"], records):
+        if not isinstance(geometry, Mapping):
+            continue
+        shape = folium.GeoJson(
+            {"type": "Feature", "geometry": geometry, "properties": {}},
+            style_function=lambda _f, c=rec[color_key]: {"fillColor": c, "color": "#333333", "weight": 1.2,
+                                                         "fillOpacity": 0.7},
+        )
+        tip = f"{escape(rec['name'])}: {_number(rec[value_key], fmt, unit)} ({escape(rec[class_key] or missing)})"
+        folium.Tooltip(tip).add_to(shape)
+        shape.add_to(layer)
+
+
 def setup_map(scenario, heat_demand_mwh_per_a=None, candidates: pd.DataFrame | None = None,
               legend_open: bool = True, width_px: int = 900, height_px: int = 520):
     """A folium map for the set-up page: districts coloured by heat-density class (layer "Heat density"),
@@ -150,34 +169,14 @@ def setup_map(scenario, heat_demand_mwh_per_a=None, candidates: pd.DataFrame | N
     # size, and fit_bounds then zooms out to the whole world
     fmap = folium.Map(location=center, zoom_start=zoom, tiles=None, zoom_snap=0.25, control_scale=True)
     use_bundled_leaflet(fmap)
-    layer = folium.FeatureGroup(name="Heat density", show=True).add_to(fmap)
-    for geometry, rec in zip(scenario.districts["geometry"], table.to_dict(orient="records")):
-        if not isinstance(geometry, Mapping):
-            continue
-        shape = folium.GeoJson(
-            {"type": "Feature", "geometry": geometry, "properties": {}},
-            style_function=lambda _f, c=rec["color"]: {"fillColor": c, "color": "#333333", "weight": 1.2,
-                                                       "fillOpacity": 0.7},
-        )
-        tip = (f"{escape(rec['name'])}: {_number(rec['heat_density_mwh_per_ha_a'], '{:,.0f}', DENSITY_UNIT)}"
-               f" ({escape(rec['heat_density_class'] or 'no area')})")
-        folium.Tooltip(tip).add_to(shape)
-        shape.add_to(layer)
+    records = table.to_dict(orient="records")
+    _class_layer(fmap, "Heat density", True, scenario, records, "color", "heat_density_mwh_per_ha_a", "{:,.0f}",
+                 DENSITY_UNIT, "heat_density_class", "no area")
     has_lengths = bool(np.isfinite(table["linear_heat_density_mwh_per_m_a"].to_numpy(float)).any())
     if has_lengths:  # only where street lengths are given (districts' street_length_m)
-        linear_layer = folium.FeatureGroup(name="Linear heat density", show=False).add_to(fmap)
-        for geometry, rec in zip(scenario.districts["geometry"], table.to_dict(orient="records")):
-            if not isinstance(geometry, Mapping):
-                continue
-            shape = folium.GeoJson(
-                {"type": "Feature", "geometry": geometry, "properties": {}},
-                style_function=lambda _f, c=rec["linear_color"]: {"fillColor": c, "color": "#333333", "weight": 1.2,
-                                                                  "fillOpacity": 0.7},
-            )
-            tip = (f"{escape(rec['name'])}: {_number(rec['linear_heat_density_mwh_per_m_a'], '{:,.2f}', LINEAR_UNIT)}"
-                   f" ({escape(rec['linear_heat_density_class'] or 'no street length given')})")
-            folium.Tooltip(tip).add_to(shape)
-            shape.add_to(linear_layer)
+        _class_layer(fmap, "Linear heat density", False, scenario, records, "linear_color",
+                     "linear_heat_density_mwh_per_m_a", "{:,.2f}", LINEAR_UNIT, "linear_heat_density_class",
+                     "no street length given")
     if len(wells):
         well_layer = folium.FeatureGroup(name="Wells", show=True).add_to(fmap)
         for rec in wells.to_dict(orient="records"):
