@@ -476,6 +476,15 @@ def _cooling_peak_kw(annual_mwh: float, temp: np.ndarray) -> float:
     return annual_mwh * 1000.0 * degree_hours.max() / degree_hours.sum()
 
 
+_STREET_M_PER_HA = 150.0
+
+
+def _ring_area_m2(ring) -> float:
+    """Area of a closed or open ring of plane coordinates [m] (shoelace formula)."""
+    x, y = np.asarray(ring[:, 0], float), np.asarray(ring[:, 1], float)
+    return 0.5 * abs(float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1))))
+
+
 def _round_to(value: float, step: float) -> float:
     return float(step * round(value / step))
 
@@ -564,6 +573,9 @@ def build(out_dir: Path) -> list[Path]:
             "hot_water_share": spec["hot_water_share"],
             "network_available": spec["network"],
             "network_connection_limit_kw": limit,
+            # invented street (trench) length: about 150 m of street per hectare of land, for the linear heat
+            # density screening layer
+            "street_length_m": _round_to(_STREET_M_PER_HA * _ring_area_m2(rings_m[letter]) / 10_000.0, 10.0),
         }
         coord_text = ", ".join(f"[{a:.6f}, {b:.6f}]" for a, b in coords)
         features.append(
