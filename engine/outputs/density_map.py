@@ -25,8 +25,7 @@ from engine.physics.typology import HEAT_DENSITY_CLASSES, HEAT_DENSITY_SOURCE, L
 
 DENSITY_UNIT = "MWh/(ha a)"
 LINEAR_UNIT = "MWh/(m a)"
-LINEAR_SOURCE = ("Linear classes: 0.5 from memory of the minimum the German KfW heat-network programme required, "
-                 "1.5 common practice; screening thresholds only.")
+LINEAR_SOURCE = "0.5 from memory (German KfW network programme minimum), 1.5 common practice."
 
 
 def density_class_colors() -> list[str]:
@@ -185,6 +184,7 @@ def setup_map(scenario, heat_demand_mwh_per_a=None, candidates: pd.DataFrame | N
                                 tooltip=folium.Tooltip(f"Well {escape(rec['well_id'])}")).add_to(well_layer)
     if candidates is not None and len(candidates):
         proposed_doublets_layer(candidates).add_to(fmap)
-    folium.LayerControl(collapsed=False).add_to(fmap)
+    # top left, under the zoom buttons: the legend (bottom right) grows with the linear classes and would cover it
+    folium.LayerControl(collapsed=False, position="topleft").add_to(fmap)
     add_folded_legend(fmap, density_legend_html(True, linear=has_lengths), legend_open, max_width_px=290)
     return fmap
