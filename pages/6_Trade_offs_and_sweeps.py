@@ -73,9 +73,12 @@ tab_curve, tab_sweep, tab_fidelity = st.tabs(["Cost-CO2 trade-off", "Price sweep
 with tab_curve:
     st.markdown(
         "From the least-cost plan to the least-CO2 plan: each point in between is the cheapest plan whose CO2 "
-        "stays below a limit. Click a point to see and save it.",
-        help="The epsilon-constraint method (Haimes, Lasdon and Wismer 1971): minimise cost with CO2 bounded, for "
-             "a series of bounds.",
+        "stays below its own level, and the cheapest plan at the CO2 price shown beside it. Click a point to see "
+        "and save it.",
+        help="Each point is the least-cost plan at a CO2 price chosen where the curve found so far bends most "
+             "(Cohon, Church and Sheer 1979); a plan that is cheapest at a CO2 price is also the cheapest with CO2 "
+             "held at its own level (the epsilon-constraint view, Haimes, Lasdon and Wismer 1971). With a network "
+             "plant limit the points are solved with CO2 bounds instead.",
     )
     n_points = st.slider("Points on the curve", 2, 12, 6, key="tradeoffs_points")
     curve_key = f"{inputs.digest[:16]}|{cost_case}|{days}|{n_points}"
@@ -87,8 +90,9 @@ with tab_curve:
             key="tradeoffs_curve_job",
         )
     if curve_key not in curves:
-        st.info("Each point is one solve of the whole city (the CO2 bound ties the districts together); "
-                "the demo city at 12 typical days takes a few seconds per point.")
+        st.info("Each point is one solve of every district at a CO2 price; districts whose plan cannot change "
+                "between two points are not solved again. The demo city at 12 typical days takes about a "
+                "second per point.")
     else:
         table, results = curves[curve_key]
         points = [int(p) for p in table.loc[table["status"] == "optimal", "point"]]
@@ -116,15 +120,19 @@ with tab_curve:
         st.plotly_chart(tradeoff_mix_figure(table, scenario.technologies), key=f"tradeoffs_mix_{curve_key}",
                         width="stretch")
         shown = table[["point", "kind", "co2_bound_t_per_a", "co2_t_per_a", "total_cost_eur_per_a",
-                       "abatement_cost_eur_per_t", "unserved_heat_mwh_per_a", "status"]].assign(
+                       "abatement_cost_eur_per_t", "co2_price_eur_per_t", "unserved_heat_mwh_per_a", "status"]].assign(
             kind=[tradeoff_point_label(k) for k in table["kind"]], status=[status_label(v) for v in table["status"]])
         st.dataframe(styled(shown, {
             "point": "Point", "kind": "Point of the curve", "co2_bound_t_per_a": "CO2 limit [t/a]",
             "co2_t_per_a": "CO2 [t/a]", "total_cost_eur_per_a": "Total cost [€/a]",
-            "abatement_cost_eur_per_t": "Abatement cost [€/t]", "unserved_heat_mwh_per_a": "Unserved heat [MWh/a]",
+            "abatement_cost_eur_per_t": "Abatement cost [€/t]", "co2_price_eur_per_t": "At CO2 price [€/t]",
+            "unserved_heat_mwh_per_a": "Unserved heat [MWh/a]",
             "status": "Status"}), hide_index=True, width="stretch", column_config={
             "Abatement cost [€/t]": st.column_config.NumberColumn(
-                help="Extra cost per tonne avoided against the previous point.")})
+                help="Extra cost per tonne avoided against the previous point."),
+            "At CO2 price [€/t]": st.column_config.NumberColumn(
+                help="The CO2 price (the cost case's, plus a surcharge) at which this plan is the least-cost one. "
+                     "Blank where a point was solved with a CO2 limit instead.")})
         st.caption("Points sit where the curve bends, where each further tonne starts to cost more. The last "
                    "point is the extreme end: the least CO2 the city can reach, whatever it costs.")
         with st.form(f"tradeoffs_save_{curve_key}", border=True):

@@ -535,8 +535,12 @@ def co2_stage_objective(model: DistrictModel) -> tuple[np.ndarray, np.ndarray, n
     return first, unserved_cols, unserved_weight
 
 
-def _staged_co2(model: DistrictModel, time_limit_s, cancel, cost_limit_eur=None, solver: str = DIRECT) -> LpSolution:
+def _staged_co2(model: DistrictModel, time_limit_s, cancel, cost_limit_eur=None, solver: str = DIRECT,
+                start_basis=None) -> LpSolution:
     """Least CO2 (unserved heat weighted by :data:`UNSERVED_CO2_EQUIVALENT_T_PER_MWH`), then least cost at it.
+
+    ``start_basis`` (column statuses, row statuses of this LP; HiGHS directly only) starts the first stage there
+    instead of cold, e.g. from the least-cost optimum of the same LP (a study that has solved it already).
 
     ``cost_limit_eur`` (the LP's cost objective, constant fixed O&M left out) bounds the cost in both stages.
     The result carries in ``info`` the CO2 optimum [t/a] and the cost saved by allowing
@@ -552,6 +556,8 @@ def _staged_co2(model: DistrictModel, time_limit_s, cancel, cost_limit_eur=None,
     # with HiGHS directly the three solves share one model: the second starts from the first's optimum (a new
     # objective and two rows it already meets), the third from the second's (one bound relaxed)
     session = HighsSession(lp, time_limit_s, cancel=cancel) if resolve_solver(solver) == DIRECT else None
+    if session is not None and start_basis is not None:
+        session.set_basis(start_basis)
 
     def solve_stage() -> LpSolution:
         return session.solve() if session is not None else solve_lp(lp, solver, time_limit_s=time_limit_s,
@@ -626,12 +632,14 @@ def capacity_columns(model: DistrictModel) -> CapacityColumns:
 
 
 def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None, cancel=None,
-                solver: str = DIRECT, co2_within_cost_pct: float = 0.0) -> LpSolution:
+                solver: str = DIRECT, co2_within_cost_pct: float = 0.0, start_basis=None) -> LpSolution:
     """Solve for least cost, or for least CO2 and then least cost at that CO2 (lexicographic).
 
     ``solver`` names the solver (:mod:`engine.model.solvers`; HiGHS directly by default). With
     ``objective="co2"`` and ``co2_within_cost_pct > 0`` the CO2 is the least reachable at a cost no more than
-    that many percent above the least cost of this LP (the cost optimum is solved first).
+    that many percent above the least cost of this LP (the cost optimum is solved first). ``start_basis``
+    starts the first CO2 stage from a basis of this LP (see :func:`_staged_co2`; ignored for the cost objective
+    and with ``co2_within_cost_pct``).
     """
     lp = model.lp
     if objective == "cost":
@@ -650,7 +658,8 @@ def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None
         least = float(model.money @ cheapest.x) + constant
         limit = least * (1 + co2_within_cost_pct / 100.0) - constant + 1e-6 * abs(least)
         extra_s = cheapest.solve_s
-    solution = _staged_co2(model, time_limit_s, cancel, limit, solver)
+    solution = _staged_co2(model, time_limit_s, cancel, limit, solver,
+                           start_basis if limit is None else None)
     solution.solve_s += extra_s
     if limit is not None and solution.status == "optimal":
         solution.info["cost_limit_eur_per_a"] = limit + float(model.constant_fixed_om.sum())

@@ -26,17 +26,18 @@ Only the direct HiGHS solver keeps a model between solves; studies with a pulp s
 from __future__ import annotations
 
 import dataclasses
+import math
 import time
 
 import highspy
 import numpy as np
 
 from engine.model.extract import extract_tables
-from engine.model.formulation import build_model
+from engine.model.formulation import build_model, co2_stage_objective, solve_model
 from engine.model.lp import HighsSession, read_highs_solution
 from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
-from engine.model.solve import PartOutcome, finish_result, stitched_solution
+from engine.model.solve import PartOutcome, district_major, finish_result, part_outcome, stitched_solution
 from engine.model.solvers import DIRECT
 from engine.scenario.inputs import Scenario, Settings, input_hash
 
@@ -306,3 +307,177 @@ class LiveDistricts:
             tie_break = float(np.sum(x[charge] * self.prepared.grid.weight_h[None, :])) * 1e-6 if charge.size else 0.0
             cost += float(model.money @ x) - tie_break + float(np.sum(model.constant_fixed_om))
         return emissions, cost
+
+
+SAME_PLAN_TOLERANCE = 1e-7
+"""Relative difference below which a district's plans at two surcharges count as the same (CO2-equivalent and
+cost): the solver's own optimality tolerance, and the slack the least-CO2 stages allow."""
+
+
+@dataclasses.dataclass
+class PricedPoint:
+    """One solve of :class:`PricedDistricts`: every district at one CO2 surcharge (or the least-CO2 stages)."""
+
+    surcharge_eur_per_t: float
+    """Price added to every tonne of CO2-equivalent (CO2, with unserved heat and cooling counted at
+    :data:`engine.model.formulation.UNSERVED_CO2_EQUIVALENT_T_PER_MWH`); infinite for the least-CO2 point. [€/t]"""
+    solutions: list
+    bases: list
+    values: list
+    """Per district solved: (CO2 [t/a], CO2-equivalent [t/a], the LP's cost objective [€/a]) at the cost case's
+    own prices (no surcharge)."""
+    models: list
+
+    @property
+    def solved(self) -> bool:
+        return len(self.values) == len(self.models)
+
+    @property
+    def co2_t_per_a(self) -> float:
+        return float(sum(v[0] for v in self.values))
+
+    @property
+    def co2_equivalent_t_per_a(self) -> float:
+        return float(sum(v[1] for v in self.values))
+
+    @property
+    def cost_eur_per_a(self) -> float:
+        return float(sum(v[2] for v in self.values))
+
+
+def _same_plan(a: PricedPoint, b: PricedPoint, k: int) -> bool:
+    if k >= len(a.values) or k >= len(b.values):
+        return False
+    return all(abs(x - y) <= SAME_PLAN_TOLERANCE * max(1.0, abs(x), abs(y))
+               for x, y in zip(a.values[k][1:], b.values[k][1:]))
+
+
+class PricedDistricts:
+    """Every district's LP held in its own HiGHS, solved at a series of CO2 surcharges (a trade-off curve).
+
+    Without a city-wide row (no network plant limit) a surcharge ``lam`` on every tonne decouples the districts:
+    each minimises its own cost plus ``lam`` times its CO2-equivalent. A plan optimal at ``lam > 0`` is also the
+    least-cost plan under a cap on the CO2-equivalent at its own emissions (for any plan ``x`` within that cap,
+    ``C(x) >= C(x*) + lam * (E(x*) - E(x)) >= C(x*)``: the weighted-sum theorem, Geoffrion, A. M. (1968). Proper
+    efficiency and the theory of vector maximization. Journal of Mathematical Analysis and Applications 22(3),
+    618-630), so every solve gives an exact point of the cost-CO2 frontier at the price of one decomposed run.
+    Each solve starts every district from the basis of a point given by the caller (changing only costs keeps
+    that optimum feasible: primal simplex); the least-CO2 point runs the two CO2 stages of
+    :func:`engine.model.formulation.solve_model` in fresh copies of the district LPs, started from a basis given.
+    """
+
+    def __init__(self, scenario: Scenario, cost_case: str, settings: Settings, time_limit_s: float | None = None,
+                 cancel=None):
+        started = time.perf_counter()
+        self.scenario = scenario
+        self.cost_case = cost_case
+        self.base_settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=None)
+        if self.base_settings.network_plant_limit_kw is not None:
+            raise ValueError("PricedDistricts: a network plant limit couples the districts")
+        self.prepared = prepare_run(scenario, cost_case, self.base_settings)
+        self.models = [build_model(self.prepared, [i]) for i in range(len(self.prepared.district_ids))]
+        self.equivalent = [co2_stage_objective(m)[0] for m in self.models]
+        self.time_limit_s = time_limit_s
+        self.cancel = cancel
+        self.sessions: list[HighsSession | None] = [None] * len(self.models)
+        self._city = None
+        self.reused = 0
+        """District solves saved because the district's plan was the same at both neighbouring surcharges."""
+        self.setup_s = time.perf_counter() - started
+
+    def solve(self, surcharge_eur_per_t: float, below: PricedPoint | None = None,
+              above: PricedPoint | None = None) -> PricedPoint:
+        """Every district at ``surcharge_eur_per_t`` [€/t] on its CO2-equivalent. Stops at the first district that
+        fails.
+
+        ``below`` and ``above`` are points at a lower and a higher surcharge (the least-CO2 point stands for an
+        infinite one). A district whose plan is the same in both (CO2-equivalent and cost equal to
+        :data:`SAME_PLAN_TOLERANCE`) keeps that plan without a solve: its least surcharged cost is concave in the
+        surcharge and meets the plan's straight line at both ends, so the plan is optimal for every surcharge in
+        between. Every other district starts from the basis of the nearer of the two points (in surcharge) that
+        has one.
+        """
+        lam = float(surcharge_eur_per_t)
+        solutions, bases, values = [], [], []
+        reused = 0
+        for k, model in enumerate(self.models):
+            if (below is not None and above is not None and below.models is self.models
+                    and _same_plan(below, above, k)):
+                solutions.append(below.solutions[k])
+                bases.append(below.bases[k])
+                values.append(below.values[k])
+                reused += 1
+                continue
+            model.lp.set_objective(model.money + lam * self.equivalent[k] if lam else model.money)
+            if self.sessions[k] is None:
+                self.sessions[k] = HighsSession(model.lp, self.time_limit_s, cancel=self.cancel)
+            session = self.sessions[k]
+            starts = [p for p in (below, above) if p is not None and p.models is self.models
+                      and k < len(p.bases) and p.bases[k] is not None]
+            if starts:
+                session.set_basis(min(starts, key=lambda p: abs(p.surcharge_eur_per_t - lam)).bases[k])
+            solution = session.solve()
+            solutions.append(solution)
+            if solution.status != "optimal":
+                bases.append(None)
+                break
+            bases.append(session.basis())
+            values.append((float(model.emissions @ solution.x), float(self.equivalent[k] @ solution.x),
+                           float(model.money @ solution.x)))
+        self.reused += reused
+        return PricedPoint(lam, solutions, bases, values, self.models)
+
+    def least_co2(self, start: PricedPoint | None = None) -> PricedPoint:
+        """Least CO2, then least cost at it, district by district (the CO2 objective of
+        :func:`engine.model.formulation.solve_model`), each district's first stage started from ``start``."""
+        models, solutions, bases, values = [], [], [], []
+        within = float(getattr(self.base_settings, "co2_within_cost_pct", 0.0) or 0.0)
+        for k in range(len(self.models)):
+            model = build_model(self.prepared, [k])
+            basis = start.bases[k] if start is not None and k < len(start.bases) else None
+            solution = solve_model(model, "co2", self.time_limit_s, self.cancel, DIRECT, within, start_basis=basis)
+            models.append(model)
+            solutions.append(solution)
+            bases.append(None)
+            if solution.status != "optimal":
+                break
+            values.append((float(model.emissions @ solution.x), float(self.equivalent[k] @ solution.x),
+                           float(model.money @ solution.x)))
+        return PricedPoint(math.inf, solutions, bases, values, models)
+
+    def result(self, point: PricedPoint, settings: Settings) -> RunResult:
+        """The run of ``point`` under ``settings`` (what it records as objective and cap), read as a decomposed
+        run of :func:`engine.model.solve.solve_scenario` reads it."""
+        started = time.perf_counter()
+        outcomes = None
+        if point.solved and point.models is self.models and settings.objective == "cost":
+            if self._city is None:
+                self._city = build_model(self.prepared, list(range(len(self.models))))
+                self._city.lp.set_objective(self._city.money)
+            stitched = stitched_solution(self._city, self.models, point.solutions)
+            if stitched is not None:
+                extract_started = time.perf_counter()
+                tables = district_major(extract_tables(self._city, stitched), self.prepared.district_ids)
+                size = {"variables": sum(m.lp.n_cols for m in self.models),
+                        "constraints": sum(m.lp.n_rows for m in self.models),
+                        "nonzeros": sum(m.lp.n_nonzeros for m in self.models)}
+                outcomes = {0: PartOutcome("optimal", stitched.message, tables, 0.0, stitched.solve_s,
+                                           time.perf_counter() - extract_started, size)}
+                parts = [list(range(len(self.models)))]
+        if outcomes is None:
+            outcomes = {k: part_outcome(m, s) for k, (m, s) in enumerate(zip(point.models, point.solutions))}
+            parts = [[k] for k in range(len(self.models))]
+        result = RunResult(status="error", message="", objective=settings.objective, cost_case=self.cost_case,
+                           input_hash=input_hash(self.scenario, self.cost_case, settings),
+                           scenario_name=settings.name, settings=dataclasses.asdict(settings))
+        result.extras["time_aggregation"] = self.prepared.aggregation
+        result.extras["cop_bounds"] = self.prepared.cop_bounds
+        finish_result(result, self.scenario, self.prepared, settings, parts, outcomes, True, DIRECT,
+                      self.time_limit_s, self.cancel)
+        result.model_size["linear_programs"] = len(self.models)
+        result.model_size["reused_model"] = True
+        setup_s, self.setup_s = self.setup_s, 0.0
+        result.timings_s = {"prepare": round(setup_s, 4), **result.timings_s,
+                            "total": round(setup_s + time.perf_counter() - started
+                                           + sum(s.solve_s for s in point.solutions), 4)}
+        return result

@@ -255,10 +255,10 @@ def _solve_serial_stitched(prepared, parts, objective, time_limit_s, cancel, sol
         report(0.1 + 0.8 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)}")
         if models and (solution.status != "optimal"
                        or sum(m.lp.n_cols for m in models) + model.lp.n_cols > STITCH_MAX_COLUMNS):
-            outcomes.update({j: _outcome(m, sol) for j, (m, sol) in enumerate(zip(models, solutions))})
+            outcomes.update({j: part_outcome(m, sol) for j, (m, sol) in enumerate(zip(models, solutions))})
             models, solutions = [], []
         if outcomes or solution.status != "optimal":
-            outcomes[k] = _outcome(model, solution)
+            outcomes[k] = part_outcome(model, solution)
             if solution.status != "optimal":
                 return False, outcomes
             continue
@@ -270,7 +270,7 @@ def _solve_serial_stitched(prepared, parts, objective, time_limit_s, cancel, sol
     city.lp.set_objective(city.money)
     solution = stitched_solution(city, models, solutions)
     if solution is None:
-        return False, {j: _outcome(m, sol) for j, (m, sol) in enumerate(zip(models, solutions))}
+        return False, {j: part_outcome(m, sol) for j, (m, sol) in enumerate(zip(models, solutions))}
     started = time.perf_counter()
     tables = district_major(extract_tables(city, solution), prepared.district_ids)
     size = {"variables": sum(m.lp.n_cols for m in models), "constraints": sum(m.lp.n_rows for m in models),
@@ -279,7 +279,8 @@ def _solve_serial_stitched(prepared, parts, objective, time_limit_s, cancel, sol
                                  solution.solve_s, time.perf_counter() - started, size)}
 
 
-def _outcome(model, solution) -> PartOutcome:
+def part_outcome(model, solution) -> PartOutcome:
+    """The outcome of one solved LP: its tables (when optimal), timings and size."""
     started = time.perf_counter()
     tables = extract_tables(model, solution) if solution.status == "optimal" else None
     size = {"variables": model.lp.n_cols, "constraints": model.lp.n_rows, "nonzeros": model.lp.n_nonzeros}

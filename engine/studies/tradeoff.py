@@ -1,9 +1,10 @@
 """The trade-off between annual cost and CO2, and the CO2 price that meets a city-wide cap.
 
-:func:`tradeoff_curve` traces the cost-CO2 frontier by the epsilon-constraint method: its two end points are the
-least-cost run and the least-CO2 run, and every interior point minimises the cost with the city's CO2 held below
-a bound placed where the curve bends most (see :func:`tradeoff_curve_runs`). A bound couples the districts, so those points are solved as one linear
-program (that is what :func:`engine.model.solve.solve_scenario` does whenever a city-wide cap is set).
+:func:`tradeoff_curve` traces the cost-CO2 frontier: its two end points are the least-cost run and the least-CO2
+run, and every interior point is the least-cost plan with the city's CO2 held at most at its own level, placed
+where the curve bends most (see :func:`tradeoff_curve_runs`). Without a city-wide row the points are decomposed
+solves at a CO2 price (a plan cheapest at a CO2 price is cheapest under a cap at its own CO2); with a network
+plant limit they are solved as one city LP with the CO2 bounded (epsilon-constraint method).
 
 :func:`co2_price_for_cap` reaches the same capped optimum the other way round: it searches the CO2 price at
 which the districts, each solved on its own, together stay within the cap (Lagrangian relaxation of the cap).
@@ -22,14 +23,14 @@ import pandas as pd
 
 from engine.scenario.inputs import CostCase, Scenario, default_cost_case
 from engine.model.results import RunResult
-from engine.model.live import LiveCityModel, LiveDistricts
+from engine.model.live import LiveCityModel, LiveDistricts, PricedDistricts
 from engine.model.solve import run_settings, solve_scenario
 from engine.model.solvers import DIRECT, resolve_solver
 from engine.progress import Cancel, Progress, no_progress
 
 TRADEOFF_COLUMNS = (
     "point", "kind", "co2_bound_t_per_a", "co2_t_per_a", "total_cost_eur_per_a", "unserved_heat_mwh_per_a",
-    "abatement_cost_eur_per_t", "status",
+    "abatement_cost_eur_per_t", "co2_price_eur_per_t", "status",
 )
 """Leading columns of the trade-off table; ``heat_<technology>_mwh_per_a`` columns follow."""
 
@@ -52,6 +53,7 @@ def _row(point: int, kind: str, bound: float, result: RunResult) -> dict:
         "total_cost_eur_per_a": result.total_cost_eur_per_a if result.solved else math.nan,
         "unserved_heat_mwh_per_a": result.unserved_heat_mwh_per_a if result.solved else math.nan,
         "abatement_cost_eur_per_t": math.nan,
+        "co2_price_eur_per_t": math.nan,
         "status": result.status,
     }
     if result.solved:
@@ -73,10 +75,14 @@ def tradeoff_curve_runs(
 
     Point 0 is the least-cost run (no CO2 bound); the last point is the least-CO2 run (objective ``"co2"``:
     least emissions, then least cost at those emissions); points in between minimise the cost subject to
-    ``CO2 <= eps_k``. Each bound halves, in CO2, the segment of the curve found so far that is longest with CO2
+    ``CO2 <= eps_k``. Each new point splits the segment of the curve found so far that is longest with CO2
     and cost scaled to their spans: the points gather where the curve bends (where the abatement cost changes,
     as it does at the CO2 prices where one supply gives way to another), and a steep last stretch up to the
     least-CO2 end gets points of its own instead of one long line. The table lists the points by falling CO2.
+    Without a city-wide row (no network plant limit) and with HiGHS directly, the points are found by
+    :func:`_priced_curve`: each is the least-cost plan at a CO2 price (``co2_price_eur_per_t``), and so the
+    epsilon-constraint optimum at its own CO2 (its ``co2_bound_t_per_a``); otherwise each bound halves the
+    chosen segment in CO2.
 
     Parameters
     ----------
@@ -111,8 +117,9 @@ def tradeoff_curve_runs(
 
     Notes
     -----
-    With a CO2 bound the districts share one constraint, so every interior point is solved as one linear
-    program for the whole city. With HiGHS directly, the least-cost point and the interior points are solves
+    See :func:`_priced_curve` for the decomposed route (the default). With a network plant limit the districts
+    share a constraint, so every interior point is solved as one linear
+    program for the whole city. With HiGHS directly, the least-cost point and the interior points are then solves
     of that one city LP held in HiGHS (:class:`engine.model.live.LiveCityModel`): the least-cost point district
     by district (its solution and basis stacked into the city LP), each interior point from the basis of the
     point before with only the CO2 bound changed; the least-CO2 point is solved by
@@ -134,10 +141,13 @@ def tradeoff_curve_runs(
     settings_cost = run_settings(scenario, "cost", 0.0, typical_days)
     settings_co2 = run_settings(scenario, "co2", 0.0, typical_days)
 
-    # with HiGHS directly, the least-cost point and the bounded points are re-solves of one city LP held in HiGHS
-    # (engine.model.live): only the CO2 row's bound changes from point to point and each solve starts from the
-    # basis of the one before (on the demo city 2.4 times faster than solving each bounded LP from scratch). The
-    # least-CO2 point is solved by solve_scenario (district by district where the scenario allows).
+    if resolve_solver(solver) == DIRECT and settings_cost.network_plant_limit_kw is None:
+        return _priced_curve(scenario, case, settings_cost, settings_co2, n_points, report, stopped)
+
+    # with HiGHS directly and a network plant limit (a city-wide row), the least-cost point and the bounded
+    # points are re-solves of one city LP held in HiGHS (engine.model.live): only the CO2 row's bound changes
+    # from point to point and each solve starts from the basis of the one before. The least-CO2 point is solved
+    # by solve_scenario.
     live = LiveCityModel(scenario, case, settings_cost) if resolve_solver(solver) == DIRECT else None
 
     def solve_point(objective: str, bound: float | None) -> RunResult:
@@ -186,6 +196,131 @@ def tradeoff_curve_runs(
     results.append(cleanest)
     report(1.0, "Trade-off curve done")
     return _finish(rows), results
+
+
+CORNER_TOLERANCE = 1e-7
+"""A priced solve finds no new corner of the frontier when its surcharged cost is within this share of the
+segment's (the two ends cost the same there)."""
+
+
+def _case_co2_price(scenario: Scenario, case: str) -> float:
+    base = scenario.cost_cases[case]
+    return float(scenario.prices.co2_eur_per_t if base.co2_eur_per_t is None else base.co2_eur_per_t)
+
+
+def _priced_curve(scenario, case, settings_cost, settings_co2, n_points, report, stopped):
+    """The trade-off curve from decomposed solves at CO2 surcharges (the non-inferior set estimation method).
+
+    Without a city-wide row every district LP is held in HiGHS (:class:`engine.model.live.PricedDistricts`)
+    and each point is one decomposed solve at a surcharge ``lam`` on every tonne of CO2-equivalent: the
+    least-cost plan at that CO2 price, and so (weighted-sum theorem) the least-cost plan with CO2 held at its
+    own emissions. The surcharge of each new point is the slope of the segment it is to split (the price at
+    which the segment's two ends cost the same), taken on the segment that is longest with CO2 and cost scaled
+    to their spans: the solve then either finds a new corner of the frontier below the segment, or shows that
+    the frontier is straight there (no plan is cheaper at that price; the segment is not split again). Every
+    solve keeps the plan of a district that is the same at both ends of the segment (it is optimal at every
+    price in between) and starts every other district from the basis of the end nearer in price.
+
+    Where the frontier has fewer corners than points asked for, the rest are bounded points of the city LP
+    (:class:`engine.model.live.LiveCityModel`) on the longest straight segments. Each interior point is
+    recorded as bounded at its own CO2 (``co2_bound_t_per_a``), which a solve from scratch with that cap
+    reproduces, with the CO2 price at which it is the least-cost plan (``co2_price_eur_per_t``: the cost case's
+    price plus the surcharge).
+
+    References
+    ----------
+    .. [1] Cohon, J. L., Church, R. L., Sheer, D. P. (1979). Generating multiobjective trade-offs: an algorithm
+       for bicriterion problems. Water Resources Research, 15(5), 1001-1010.
+    .. [2] Geoffrion, A. M. (1968). Proper efficiency and the theory of vector maximization. Journal of
+       Mathematical Analysis and Applications, 22(3), 618-630.
+    """
+    held = PricedDistricts(scenario, case, settings_cost)
+    price = _case_co2_price(scenario, case)
+    report(0.0, "Least-cost run")
+    low_end = held.solve(0.0)
+    cheapest = held.result(low_end, settings_cost)
+    rows = [_row(0, "cost_optimal", math.nan, cheapest)]
+    rows[0]["co2_price_eur_per_t"] = price
+    results = [cheapest]
+    if not cheapest.solved or stopped():
+        return _finish(rows), results
+    report(1.0 / n_points, "Least-CO2 run")
+    high_end = held.least_co2()
+    cleanest = held.result(high_end, settings_co2)
+    if not cleanest.solved:
+        rows.append(_row(n_points - 1, "co2_optimal", math.nan, cleanest))
+        return _finish(rows), results + [cleanest]
+    span = low_end.co2_equivalent_t_per_a - high_end.co2_equivalent_t_per_a
+    interior = n_points - 2 if span > 1e-9 * max(1.0, abs(low_end.co2_equivalent_t_per_a)) else 0
+    # the frontier found so far, by falling CO2-equivalent: (point, run); segments between neighbours are open
+    # until a priced solve shows them straight
+    found: list[tuple[object, RunResult | None]] = [(low_end, cheapest), (high_end, cleanest)]
+    straight: set[tuple[int, int]] = set()
+    cost_span = max(abs(high_end.cost_eur_per_a - low_end.cost_eur_per_a), 1e-9)
+    made, failed = 0, None
+    while made < interior and not stopped():
+        chosen, longest = None, -1.0
+        for k in range(len(found) - 1):
+            a, b = found[k][0], found[k + 1][0]
+            if (id(a), id(b)) in straight:
+                continue
+            length = math.hypot((a.co2_equivalent_t_per_a - b.co2_equivalent_t_per_a) / span,
+                                (b.cost_eur_per_a - a.cost_eur_per_a) / cost_span)
+            if length > longest:
+                chosen, longest = k, length
+        if chosen is None:
+            break
+        a, b = found[chosen][0], found[chosen + 1][0]
+        drop = a.co2_equivalent_t_per_a - b.co2_equivalent_t_per_a
+        lam = (b.cost_eur_per_a - a.cost_eur_per_a) / drop if drop > 0 else math.nan
+        if not (math.isfinite(lam) and lam > 0):
+            straight.add((id(a), id(b)))
+            continue
+        report((made + 2) / n_points, f"Least cost at a CO2 price {price + lam:,.0f} EUR/t "
+                                      f"({made + 1} of {interior})")
+        point = held.solve(lam, a, b)
+        if not point.solved:  # e.g. a time limit: the points found so far stand, this one is reported
+            failed = held.result(point, dataclasses.replace(settings_cost, co2_cap_t_per_a=None))
+            break
+        segment = a.cost_eur_per_a + lam * a.co2_equivalent_t_per_a
+        surcharged = point.cost_eur_per_a + lam * point.co2_equivalent_t_per_a
+        if surcharged >= segment - CORNER_TOLERANCE * max(abs(segment), 1.0):
+            straight.add((id(a), id(b)))
+            continue
+        found.insert(chosen + 1, (point, None))
+        made += 1
+    runs = [run if run is not None else held.result(
+        point, dataclasses.replace(settings_cost, co2_cap_t_per_a=float(point.co2_t_per_a)))
+        for point, run in found]
+    prices = [math.nan] + [price + point.surcharge_eur_per_t for point, _ in found[1:-1]] + [math.nan]
+    if failed is None and made < interior and not stopped():
+        _fill_straight(scenario, case, settings_cost, runs, prices, interior - made, report)
+    for k in range(1, len(runs) - 1):
+        row = _row(k, "co2_bounded", float(runs[k].settings["co2_cap_t_per_a"]), runs[k])
+        row["co2_price_eur_per_t"] = prices[k]
+        rows.append(row)
+        results.append(runs[k])
+    if failed is not None:
+        rows.append(_row(len(rows), "co2_bounded", math.nan, failed))
+        results.append(failed)
+    rows.append(_row(len(rows), "co2_optimal", high_end.co2_t_per_a, cleanest))
+    results.append(cleanest)
+    report(1.0, "Trade-off curve done")
+    return _finish(rows), results
+
+
+def _fill_straight(scenario, case, settings_cost, runs, prices, missing, report) -> None:
+    """Points on the straight stretches of a frontier with fewer corners than points asked for: the city LP
+    (:class:`engine.model.live.LiveCityModel`) with the CO2 bounded at the CO2 midpoint of the longest
+    stretch (CO2 and cost scaled to their spans), one point at a time, inserted into ``runs`` and ``prices``."""
+    live = LiveCityModel(scenario, case, settings_cost)
+    for _ in range(missing):
+        bound = _next_bound([(r.co2_t_per_a, r.total_cost_eur_per_a) for r in runs])
+        report(0.95, f"Least cost with CO2 <= {bound:,.0f} t/a")
+        run = live.solve("cost", max(float(bound), 1e-6))
+        k = next(i for i, r in enumerate(runs) if r.co2_t_per_a < bound)
+        runs.insert(k, run)
+        prices.insert(k, math.nan)
 
 
 def _next_bound(known: list[tuple[float, float]]) -> float:
