@@ -263,7 +263,8 @@ class HeldModels:
             self.reused += 1
             return session.solve()
         model.lp.set_objective(model.money)
-        session = HighsSession(model.lp, time_limit_s, cancel=self._cancelled)
+        # a run without cancel gets no interrupt callback (HiGHS calls it during the simplex iterations)
+        session = HighsSession(model.lp, time_limit_s, cancel=None if cancel is None else self._cancelled)
         solution = session.solve()
         self.fresh += 1
         if solution.status == "optimal":

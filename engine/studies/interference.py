@@ -33,6 +33,10 @@ Choices, and why
   which is what really governs a doublet's own thermal breakthrough, so the diagonal is no useful estimate; it
   is usually negligible anyway as reinjection wells sit down-gradient. The value is reported per well as
   ``own_recirculation_k`` for information only.
+* **Held LPs.** A shift changes only some entries of each LP (COPs in the heat pumps' costs, the flow per kW
+  in the well rows, output bounds where the reinjection window closes), never its layout, so the LPs of the
+  first solve stay in HiGHS and each later solve hands over only the entries that differ and starts from the last
+  basis (``reuse_models``; docs/model.md section 10). The LP solved is the one a solve from scratch would build.
 * **Clipping.** Each neighbour's contribution is clipped to its injected temperature change and the sum to the
   range spanned by zero and the reinjection temperatures of the contributing doublets relative to the
   undisturbed aquifer (a cascade of doublets can cool water further than any single one). See
