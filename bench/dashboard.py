@@ -5,6 +5,7 @@ Usage::
     python bench/dashboard.py              # about a minute on two idle cores
     python bench/dashboard.py --points 3   # the trade-off curve's number of points (the page's default is 6)
     python bench/dashboard.py --no-studies # solves, exports and page switches only
+    python bench/dashboard.py --interference  # the interference check with and without held LPs, only
 
 Every action is called as the pages call it (the same engine functions and arguments, ``workers=1`` where the
 page passes it), in one process, after one untimed warm-up solve. ``one solve`` is
@@ -14,6 +15,9 @@ page's Solve button); every other figure is printed as seconds and as a ratio to
 * ``solve again``: the same request a second time (the session cache);
 * ``other cost case``: a cost case not solved yet, then back to the first one (both through the cache);
 * ``interference check``: :func:`engine.studies.interference.solve_with_interference` (Groundwater page);
+  ``--interference`` prints it alone, once solving every iteration from scratch (``reuse_models=False``) and
+  once with the LPs held in HiGHS and changed in place (the default): seconds in all, per iteration, for the
+  isotherms, and the LPs changed in place or solved from scratch;
 * ``trade-off curve``: :func:`engine.studies.tradeoff.tradeoff_curve_runs` with ``--points`` points;
 * ``sweep``: :func:`engine.studies.sweep.run_sweep` over the scenario's cost cases (Trade-offs page);
 * ``spreadsheet`` and ``HTML summary``: :func:`engine.outputs.export.tables_xlsx` and
@@ -98,11 +102,50 @@ def page_switches(scenario, first, second) -> list[tuple[str, float, str]]:
     return rows
 
 
+def interference_reuse(scenario, case, days) -> None:
+    """Print the interference check from scratch and with held LPs: seconds in all, per iteration, isotherms."""
+    runs = {}
+    for reuse in (False, True):
+        seconds, checked = _timed(lambda: solve_with_interference(scenario, cost_case=case, typical_days=days,
+                                                                  workers=1, reuse_models=reuse))
+        runs[reuse] = (seconds, checked.extras["interference"], checked)
+    print(f"interference check on the demo city ({days} typical days, cost case {case}), {os.cpu_count()} cores, "
+          f"1-min load average {os.getloadavg()[0]:.1f}")
+    for reuse, (seconds, info, checked) in runs.items():
+        iterations = info["iterations"]
+        solving = sum(it["seconds"] for it in iterations)
+        label = "held LPs, changed in place" if reuse else "every LP from scratch"
+        print(f"{label}: {seconds:.2f} s in all, {len(iterations)} solves ({solving:.2f} s), isotherms and notes "
+              f"{seconds - solving:.2f} s, converged {info['converged']}, total cost "
+              f"{checked.total_cost_eur_per_a:,.0f} EUR/a")
+        held = {r["iteration"]: r for r in info["held_models"]}
+        for it in iterations:
+            record = held.get(it["iteration"])
+            how = (f"{record['in_place']} LPs in place, {record['from_scratch']} from scratch, "
+                   f"{record.get('coefficients', 0)} coefficients, {record.get('costs', 0)} costs, "
+                   f"{record.get('column_bounds', 0)} column bounds handed over") if record else "from scratch"
+            print(f"  iteration {it['iteration']}: {it['seconds']:6.2f} s, largest change "
+                  f"{it['max_shift_k']:.3f} K, total cost {it['total_cost_eur_per_a']:,.0f} EUR/a; {how}")
+    before, after = runs[False][0], runs[True][0]
+    solve_before = sum(it["seconds"] for it in runs[False][1]["iterations"])
+    solve_after = sum(it["seconds"] for it in runs[True][1]["iterations"])
+    print(f"held LPs: {before:.2f} -> {after:.2f} s in all ({after / before:.2f}), iterations "
+          f"{solve_before:.2f} -> {solve_after:.2f} s ({solve_after / solve_before:.2f})")
+    shifts = [runs[reuse][1]["source_shifts_k"] for reuse in (False, True)]
+    if len(shifts[0]) == len(shifts[1]):
+        gap = max((abs(a - b) for x, y in zip(*shifts) for a, b in zip(x, y)), default=0.0)
+        print(f"largest difference of a source shift between the two runs: {gap:.4f} K (equally cheap plans)")
+    else:
+        print(f"the two runs took {len(shifts[0])} and {len(shifts[1])} solves")
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description="the dashboard's long actions on the demo city")
     parser.add_argument("--points", type=int, default=6, help="points of the trade-off curve (the page's default)")
     parser.add_argument("--no-studies", action="store_true",
                         help="leave out the interference check, the trade-off curve and the sweep")
+    parser.add_argument("--interference", action="store_true",
+                        help="only the interference check, from scratch and with held LPs")
     args = parser.parse_args(argv)
     load_before = os.getloadavg()[0]
     folder = resolve_scenario_path("demo")
@@ -115,6 +158,9 @@ def main(argv=None) -> int:
         return solve_with_cache(cache, f"{case}|cost|{days}", scenario, {}, case, case, "cost", 0.0, days)
 
     request({}, first)  # warm-up: imports, first HiGHS instance
+    if args.interference:
+        interference_reuse(scenario, first, days)
+        return 0
     singles = []
     for _ in range(3):
         seconds, (run, _) = _timed(lambda: request({}, first))

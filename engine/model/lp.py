@@ -348,6 +348,67 @@ class HighsSession:
                                np.where(np.isinf(upper[changed]), highspy.kHighsInf, upper[changed]))
             self._row_lower, self._row_upper = lower, upper
 
+    def replace(self, lp: LinearProgram, new_entries: bool = True) -> dict | None:
+        """Make HiGHS hold ``lp`` in place of the program it holds, handing it only the entries that differ.
+
+        ``lp`` must have the held program's layout: the same numbers of columns and rows and the same variable
+        and row blocks (names, positions, shapes); otherwise nothing is changed and None is returned (the caller
+        builds a new session). Matrix entries whose value differs go to HiGHS one by one (``changeCoeff``);
+        an entry the new matrix lacks is set to zero, which HiGHS drops from its matrix, and an entry only the new
+        matrix has is inserted, so that HiGHS then holds exactly ``lp`` (with ``new_entries=False`` a changed
+        sparsity pattern returns None instead). Costs, column bounds and row bounds that differ go in one call
+        each (``changeColsCost``, ``changeColsBounds``, ``changeRowsBounds``). The basis of the last solve stays;
+        :meth:`solve` starts from it. Returns the counts handed over: ``coefficients``, ``new_entries`` (inserted
+        or dropped), ``costs``, ``column_bounds``, ``row_bounds``.
+        """
+        old = self.lp
+        if self._n_rows != old.n_rows or self._n_triplets != len(old._triplets):
+            self._sync()  # rows added to the held program and not handed over yet
+        if ((lp.n_cols, lp.n_rows) != (old.n_cols, old.n_rows) or lp.var_blocks != old.var_blocks
+                or [(k, b.start, b.stop) for k, b in lp.row_blocks.items()]
+                != [(k, b.start, b.stop) for k, b in old.row_blocks.items()]):
+            return None
+        held, new = old.matrix(), lp.matrix()
+        if np.array_equal(held.indptr, new.indptr) and np.array_equal(held.indices, new.indices):
+            at = np.flatnonzero(held.data != new.data)
+            rows = new.indices[at]
+            cols = np.repeat(np.arange(lp.n_cols), np.diff(new.indptr))[at]
+            values = new.data[at]
+            inserted = 0
+        else:
+            if not new_entries:
+                return None
+            step = (new - held).tocoo()  # exact: a - b == 0 only where a == b
+            step.eliminate_zeros()
+            rows, cols = step.row.astype(np.int64), step.col.astype(np.int64)
+            values = np.asarray(new.tocsr()[rows, cols]).ravel() if len(rows) else np.zeros(0)
+            inserted = int(np.sum(np.asarray(held.tocsr()[rows, cols]).ravel() == 0.0) + np.sum(values == 0.0))
+        h = self.highs
+        for r, c, v in zip(rows.tolist(), cols.tolist(), values.tolist()):
+            h.changeCoeff(r, c, v)
+        cost = lp.cost
+        changed_cost = np.flatnonzero(cost != self._cost).astype(np.int32)
+        if len(changed_cost):
+            h.changeColsCost(len(changed_cost), changed_cost, cost[changed_cost])
+        lower, upper = lp.col_lower, lp.col_upper
+        changed_cols = np.flatnonzero((lower != old.col_lower) | (upper != old.col_upper)).astype(np.int32)
+        if len(changed_cols):
+            h.changeColsBounds(len(changed_cols), changed_cols,
+                               np.where(np.isinf(lower[changed_cols]), -highspy.kHighsInf, lower[changed_cols]),
+                               np.where(np.isinf(upper[changed_cols]), highspy.kHighsInf, upper[changed_cols]))
+        row_lower, row_upper = lp.row_lower, lp.row_upper
+        changed_rows = np.flatnonzero((row_lower != self._row_lower) | (row_upper != self._row_upper)).astype(np.int32)
+        if len(changed_rows):
+            h.changeRowsBounds(len(changed_rows), changed_rows,
+                               np.where(np.isinf(row_lower[changed_rows]), -highspy.kHighsInf, row_lower[changed_rows]),
+                               np.where(np.isinf(row_upper[changed_rows]), highspy.kHighsInf, row_upper[changed_rows]))
+        self.lp = lp
+        self._n_rows = lp.n_rows
+        self._n_triplets = len(lp._triplets)
+        self._cost, self._row_lower, self._row_upper = cost, row_lower, row_upper
+        return {"coefficients": int(len(rows)), "new_entries": inserted, "costs": int(len(changed_cost)),
+                "column_bounds": int(len(changed_cols)), "row_bounds": int(len(changed_rows))}
+
     def set_basis(self, basis) -> bool:
         """Start the next solve from ``basis`` (column statuses, row statuses); False (and a cold start) when HiGHS
         refuses it."""

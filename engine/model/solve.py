@@ -68,11 +68,14 @@ class PartOutcome:
     """What a staged CO2 solve adds (CO2 optimum, abatement step and saving)."""
 
 
-def _solve_part(prepared, districts, objective, time_limit_s, cancel=None, solver=DIRECT) -> PartOutcome:
+def _solve_part(prepared, districts, objective, time_limit_s, cancel=None, solver=DIRECT, held=None) -> PartOutcome:
     model = build_model(prepared, districts)
     within = float(getattr(prepared.settings, "co2_within_cost_pct", 0.0) or 0.0)
-    solution = solve_model(model, objective, time_limit_s=time_limit_s, cancel=cancel, solver=solver,
-                           co2_within_cost_pct=within)
+    if held is not None and objective == "cost" and solver == DIRECT:
+        solution = held.solve(model, districts, time_limit_s, cancel)
+    else:
+        solution = solve_model(model, objective, time_limit_s=time_limit_s, cancel=cancel, solver=solver,
+                               co2_within_cost_pct=within)
     started = time.perf_counter()
     tables = extract_tables(model, solution) if solution.status == "optimal" else None
     extract_s = time.perf_counter() - started
@@ -191,21 +194,35 @@ def district_major(tables: dict[str, pd.DataFrame], district_ids) -> dict[str, p
 
 
 class HeldModels:
-    """District LPs kept in HiGHS from one run to the next, for a series of runs that differ only in costs.
+    """District LPs kept in HiGHS from one run to the next, for a series of runs of one city.
 
     A sweep over cost cases solves LPs whose matrix and bounds are the same from case to case; only the objective
     changes. Passed to :func:`solve_scenario` as ``held``, each district LP is checked against the one held for
     the same district (matrix, column and row bounds equal entry for entry); where they agree only the costs are
     handed to HiGHS (``changeColsCost``) and the solve starts from the last optimal basis (primal simplex: the
-    old optimum stays feasible). Where they differ the new LP replaces the held one. Cost objective, HiGHS
-    directly, districts solved in the calling process; other runs ignore it.
+    old optimum stays feasible). Where they differ the new LP replaces the held one.
+
+    With ``coefficients=True`` (a series whose runs change coefficients and bounds as well: the interference
+    check's source temperatures change COPs, flows per kW and usable hours) a held LP with the same layout
+    (columns, rows, blocks) is changed in place instead: HiGHS is handed only the matrix entries, costs and bounds
+    that differ (:meth:`engine.model.lp.HighsSession.replace`) and solves from the last basis; an LP of another
+    layout is solved from scratch and held in its place. Either way the LP HiGHS solves is the new LP, entry for
+    entry.
+
+    Cost objective, HiGHS directly, LPs solved in the calling process (a decomposed run district by district, a
+    coupled run as one city LP); other runs ignore it.
     """
 
-    def __init__(self):
+    def __init__(self, coefficients: bool = False):
+        self.coefficients = bool(coefficients)
         self._held: dict[tuple, tuple] = {}  # district indices -> (model, HighsSession)
         self._cancel = None
         self.reused = 0
         """Solves that started from a held model."""
+        self.fresh = 0
+        """Solves from scratch (a new LP, or one whose layout differs from the held one)."""
+        self.handed: dict[str, int] = {}
+        """With ``coefficients``: the counts :meth:`engine.model.lp.HighsSession.replace` handed HiGHS, summed."""
 
     def _cancelled(self) -> bool:
         return bool(self._cancel is not None and self._cancel())
@@ -222,18 +239,34 @@ class HeldModels:
                 and np.array_equal(ma.data, mb.data))
 
     def solve(self, model: DistrictModel, part, time_limit_s=None, cancel=None) -> LpSolution:
-        """Minimise ``model.money`` over ``model``'s LP, from the held LP of ``part`` when it is the same LP."""
+        """Minimise ``model.money`` over ``model``'s LP, from the held LP of ``part`` where it may be reused."""
         self._cancel = cancel
         key = tuple(int(i) for i in part)
         held = self._held.get(key)
-        if held is not None and self._same_structure(held[0], model):
+        if held is not None and self.coefficients:
+            model.lp.set_objective(model.money)
+            session = held[1]
+            handed = session.replace(model.lp)
+            if handed is not None:
+                self.reused += 1
+                for name, count in handed.items():
+                    self.handed[name] = self.handed.get(name, 0) + count
+                solution = session.solve()
+                if solution.status == "optimal":
+                    self._held[key] = (model, session)
+                else:
+                    del self._held[key]
+                return solution
+        elif held is not None and self._same_structure(held[0], model):
             held_model, session = held
             held_model.lp.set_objective(model.money)
             self.reused += 1
             return session.solve()
         model.lp.set_objective(model.money)
-        session = HighsSession(model.lp, time_limit_s, cancel=self._cancelled)
+        # a run without cancel gets no interrupt callback (HiGHS calls it during the simplex iterations)
+        session = HighsSession(model.lp, time_limit_s, cancel=None if cancel is None else self._cancelled)
         solution = session.solve()
+        self.fresh += 1
         if solution.status == "optimal":
             self._held[key] = (model, session)
         return solution
@@ -477,8 +510,11 @@ def solve_scenario(
     :class:`engine.model.solvers.SolverChoiceError` before anything is solved. ``model_size["solver"]`` records it.
     ``co2_within_cost_pct`` (with the CO2 objective): the least CO2 at a cost at most that many percent above
     the least cost, bounded per solved LP (each district when decomposed).
-    ``held`` (:class:`HeldModels`) keeps the district LPs of a decomposed cost run in HiGHS for the next run of a
-    series that changes only costs (a sweep over cost cases); the answer is the same LP's optimum.
+    ``held`` (:class:`HeldModels`) keeps the LPs of a cost run solved in this process (each district of a
+    decomposed run, or the one city LP of a coupled run) in HiGHS for the next run of a series: one that changes
+    only costs (a sweep over cost cases), or with ``HeldModels(coefficients=True)`` also coefficients and bounds
+    (the interference check); the answer is the same LP's optimum. Pass ``workers=1``: LPs solved in a process
+    pool are not held.
     """
     started = time.perf_counter()
     solver = resolve_solver(solver)
@@ -537,7 +573,7 @@ def solve_scenario(
                 return result
             done.update(outcomes)
         for k, p in enumerate(parts if not done else []):
-            done[k] = _solve_part(prepared, p, settings.objective, time_limit_s, cancel, solver)
+            done[k] = _solve_part(prepared, p, settings.objective, time_limit_s, cancel, solver, held)
             report(0.1 + 0.85 * (k + 1) / len(parts), f"Solved {k + 1} of {len(parts)}")
             if done[k].status != "optimal":
                 break

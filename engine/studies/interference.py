@@ -33,6 +33,10 @@ Choices, and why
   which is what really governs a doublet's own thermal breakthrough, so the diagonal is no useful estimate; it
   is usually negligible anyway as reinjection wells sit down-gradient. The value is reported per well as
   ``own_recirculation_k`` for information only.
+* **Held LPs.** A shift changes only some entries of each LP (COPs in the heat pumps' costs, the flow per kW
+  in the well rows, output bounds where the reinjection window closes), never its layout, so the LPs of the
+  first solve stay in HiGHS and each later solve hands over only the entries that differ and starts from the last
+  basis (``reuse_models``; docs/model.md section 10). The LP solved is the one a solve from scratch would build.
 * **Clipping.** Each neighbour's contribution is clipped to its injected temperature change and the sum to the
   range spanned by zero and the reinjection temperatures of the contributing doublets relative to the
   undisturbed aquifer (a cascade of doublets can cool water further than any single one). See
@@ -67,7 +71,7 @@ from engine.physics import coords, plume, plume_field
 from engine.studies.permits import add_well_status, net_injection
 from engine.scenario.inputs import Scenario
 from engine.model.results import RunResult
-from engine.model.solve import solve_scenario
+from engine.model.solve import HeldModels, solve_scenario
 from engine.model.solvers import DIRECT
 from engine.progress import Cancel, Progress, no_progress
 
@@ -373,6 +377,7 @@ def solve_with_interference(
     cancel: Cancel | None = None,
     workers: int | None = None,
     solver: str = DIRECT,
+    reuse_models: bool = True,
 ) -> RunResult:
     """Solve ``scenario`` again and again with the source temperature shifts neighbouring plumes cause.
 
@@ -401,7 +406,16 @@ def solve_with_interference(
         Returns True to stop after the current solve (the last solved run is returned, not converged).
     workers : int, optional
         Processes for the district solves and the isotherms; None lets :func:`engine.model.solve.solve_scenario`
-        choose. Pass 1 inside a threaded server (a dashboard), where forking a process pool is unsafe.
+        choose. Pass 1 inside a threaded server (a dashboard), where forking a process pool is unsafe. With
+        ``reuse_models`` the LPs are solved in this process (they are held here) and ``workers`` applies to the
+        isotherms only.
+    reuse_models : bool, default True
+        Keep the LPs in HiGHS from one iteration to the next (:class:`engine.model.solve.HeldModels` with
+        ``coefficients=True``): a new source temperature changes only some entries of each LP (the COPs in the
+        costs of the heat pumps' output and hot water, the water flow per kW in the well flow and volume rows,
+        the hours a well cannot serve in the output bounds); HiGHS is handed those and solves from the last
+        basis. The LP solved is the one a solve from scratch would build; only the start differs. Used with the
+        cost objective and HiGHS directly; other runs solve from scratch.
 
     Returns
     -------
@@ -410,8 +424,10 @@ def solve_with_interference(
         iteration, max_shift_k = largest ``|F(s) - s|`` [K], largest_source_shift_k = largest ``|s|`` the solve
         used [K], relaxation, status, total_cost_eur_per_a, co2_t_per_a, unserved_heat_mwh_per_a, seconds),
         ``horizon_years``, ``tolerance_k``, ``max_iterations``, ``notes`` (validity notes), ``wells`` (net
-        injection, shift and own recirculation per doublet) and ``baseline`` (figures of the first solve,
-        without interference). ``tables["wells"]`` gains ``source_temp_shift_k`` and ``status``;
+        injection, shift and own recirculation per doublet), ``baseline`` (figures of the first solve,
+        without interference), ``source_shifts_k`` (per solve, the shift of every well it used [K], in the order
+        of ``scenario.wells``) and ``held_models`` (with ``reuse_models``: per solve the LPs changed in place,
+        those solved from scratch and the entries handed to HiGHS; empty otherwise). ``tables["wells"]`` gains ``source_temp_shift_k`` and ``status``;
         ``tables["plumes"]`` holds the isotherms. When a solve fails its result is returned with the
         iterations so far.
 
@@ -438,15 +454,26 @@ def solve_with_interference(
     baseline = None
     result = None
     rate = delta = np.zeros(n)
+    held = None
+    if reuse_models and solver == DIRECT and (objective or scenario.settings.objective) == "cost":
+        held = HeldModels(coefficients=True)
+    held_log: list[dict] = []
+    shifts_used: list[list[float]] = []
     for k in range(max_iterations):
         report(min(0.95, k / max_iterations), f"Interference iteration {k + 1}: solving with the current source "
                f"temperatures (largest shift {float(np.abs(shift).max(initial=0.0)):.2f} K)")
         solve_started = time.perf_counter()
+        before = (held.reused, held.fresh, dict(held.handed)) if held is not None else None
         result = solve_scenario(
             _with_shift(scenario, shift), cost_case=cost_case, objective=objective,
             co2_cap_t_per_a=co2_cap_t_per_a, typical_days=typical_days, time_limit_s=time_limit_s, cancel=cancel,
-            workers=workers, solver=solver,
+            workers=1 if held is not None else workers, solver=solver, held=held,
         )
+        if held is not None:
+            held_log.append({"iteration": k + 1, "in_place": held.reused - before[0],
+                             "from_scratch": held.fresh - before[1],
+                             **{name: count - before[2].get(name, 0) for name, count in held.handed.items()}})
+        shifts_used.append([float(v) for v in shift])
         record = {
             "iteration": k + 1,
             "max_shift_k": float("nan"),
@@ -496,6 +523,8 @@ def solve_with_interference(
         "notes": _notes(scenario, matrix, rate, delta, shift, horizon_years) if n else [plume.ValidityNote(plume.NoteCode.CAUTION, cautions.PLUME)],
         "wells": _wells_detail(scenario, rate, delta, shift, matrix) if n else [],
         "baseline": baseline,
+        "held_models": held_log,
+        "source_shifts_k": shifts_used,
         "seconds": 0.0,
     }
     if result is not None and result.solved:
