@@ -175,3 +175,14 @@ def test_with_a_network_plant_limit_the_points_are_bounded_city_solves(synthetic
     for k in (1, 2):
         again = solve_scenario(point_scenario(limited, table, k))
         assert again.total_cost_eur_per_a == pytest.approx(table["total_cost_eur_per_a"].iloc[k], rel=1e-6)
+
+
+def test_worker_processes_give_the_same_curve(synthetic):
+    """The districts held in two worker processes (a warm pool for the whole curve) give the curve solved in
+    this process: the same points, costs and CO2 (rel 1e-6), and the runs say how many workers they used."""
+    serial, _ = tradeoff_curve_runs(synthetic, n_points=5, workers=1)
+    pooled, results = tradeoff_curve_runs(synthetic, n_points=5, workers=2)
+    assert results[1].model_size["workers"] == 2
+    for column in ("co2_t_per_a", "total_cost_eur_per_a", "co2_price_eur_per_t"):
+        np.testing.assert_allclose(pooled[column].to_numpy(float), serial[column].to_numpy(float), rtol=1e-6)
+    assert list(pooled["kind"]) == list(serial["kind"])

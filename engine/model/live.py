@@ -27,6 +27,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import os
 import time
 
 import highspy
@@ -37,7 +38,8 @@ from engine.model.formulation import build_model, co2_stage_objective, solve_mod
 from engine.model.lp import HighsSession, read_highs_solution
 from engine.model.prepare import prepare_run
 from engine.model.results import RunResult
-from engine.model.solve import PartOutcome, district_major, finish_result, part_outcome, stitched_solution
+from engine.model.solve import (PARALLEL_WORK, PartOutcome, district_major, finish_result, part_outcome, part_work,
+                                stitched_solution)
 from engine.model.solvers import DIRECT
 from engine.scenario.inputs import Scenario, Settings, input_hash
 
@@ -321,39 +323,116 @@ class PricedPoint:
     surcharge_eur_per_t: float
     """Price added to every tonne of CO2-equivalent (CO2, with unserved heat and cooling counted at
     :data:`engine.model.formulation.UNSERVED_CO2_EQUIVALENT_T_PER_MWH`); infinite for the least-CO2 point. [€/t]"""
+    token: int
+    """Which solve this is (the bases of its districts are kept under it)."""
     solutions: list
-    bases: list
+    """Per district: its LpSolution, or None where it was not solved (a district before it failed)."""
     values: list
-    """Per district solved: (CO2 [t/a], CO2-equivalent [t/a], the LP's cost objective [€/a]) at the cost case's
-    own prices (no surcharge)."""
-    models: list
+    """Per district: (CO2 [t/a], CO2-equivalent [t/a], the LP's cost objective [€/a]) at the cost case's own
+    prices (no surcharge), or None where not solved to optimality."""
+    priced: bool
+    """True for a solve of the held district LPs at a surcharge; False for the least-CO2 stages (solved in
+    copies of the LPs: their solutions read with those, no basis kept)."""
 
     @property
     def solved(self) -> bool:
-        return len(self.values) == len(self.models)
+        return all(v is not None for v in self.values)
 
     @property
     def co2_t_per_a(self) -> float:
-        return float(sum(v[0] for v in self.values))
+        return float(sum(v[0] for v in self.values if v is not None))
 
     @property
     def co2_equivalent_t_per_a(self) -> float:
-        return float(sum(v[1] for v in self.values))
+        return float(sum(v[1] for v in self.values if v is not None))
 
     @property
     def cost_eur_per_a(self) -> float:
-        return float(sum(v[2] for v in self.values))
+        return float(sum(v[2] for v in self.values if v is not None))
 
 
 def _same_plan(a: PricedPoint, b: PricedPoint, k: int) -> bool:
-    if k >= len(a.values) or k >= len(b.values):
+    if a.values[k] is None or b.values[k] is None:
         return False
     return all(abs(x - y) <= SAME_PLAN_TOLERANCE * max(1.0, abs(x), abs(y))
                for x, y in zip(a.values[k][1:], b.values[k][1:]))
 
 
+class _HeldDistrictLPs:
+    """Some districts' LPs held in HiGHS with the bases of earlier solves (in this process or in a worker)."""
+
+    def __init__(self, prepared, districts, time_limit_s=None, cancel=None):
+        self.prepared = prepared
+        self.time_limit_s = time_limit_s
+        self.cancel = cancel
+        self.models = {k: build_model(prepared, [k]) for k in districts}
+        self.equivalent = {k: co2_stage_objective(m)[0] for k, m in self.models.items()}
+        self.sessions: dict[int, HighsSession] = {}
+        self.bases: dict[tuple[int, int], object] = {}
+
+    def values(self, k: int, solution, model=None) -> tuple[float, float, float]:
+        model = model or self.models[k]
+        x = solution.x
+        return float(model.emissions @ x), float(self.equivalent[k] @ x), float(model.money @ x)
+
+    def solve(self, token: int, lam: float, tasks) -> dict:
+        """``tasks``: (district, start token or None, keep token or None) per district; a keep token copies that
+        solve's basis to ``token`` without solving. Returns {district: (LpSolution, values or None)}."""
+        out = {}
+        for k, start, keep in tasks:
+            if keep is not None:
+                if (keep, k) in self.bases:
+                    self.bases[(token, k)] = self.bases[(keep, k)]
+                continue
+            model = self.models[k]
+            model.lp.set_objective(model.money + lam * self.equivalent[k] if lam else model.money)
+            session = self.sessions.get(k)
+            if session is None:
+                session = self.sessions[k] = HighsSession(model.lp, self.time_limit_s, cancel=self.cancel)
+            if start is not None and (start, k) in self.bases:
+                session.set_basis(self.bases[(start, k)])
+            solution = session.solve()
+            optimal = solution.status == "optimal"
+            if optimal:
+                self.bases[(token, k)] = session.basis()
+            out[k] = (solution, self.values(k, solution) if optimal else None)
+            if not optimal:
+                break
+        return out
+
+    def least_co2(self, districts) -> dict:
+        within = float(getattr(self.prepared.settings, "co2_within_cost_pct", 0.0) or 0.0)
+        out = {}
+        for k in districts:
+            model = build_model(self.prepared, [k])
+            solution = solve_model(model, "co2", self.time_limit_s, self.cancel, DIRECT, within)
+            optimal = solution.status == "optimal"
+            out[k] = (solution, self.values(k, solution, model) if optimal else None)
+            if not optimal:
+                break
+        return out
+
+
+def _district_worker(connection, prepared, districts, time_limit_s) -> None:
+    """A worker process of :class:`PricedDistricts`: holds its districts' LPs and answers requests until told
+    to stop (or its pipe closes)."""
+    held = _HeldDistrictLPs(prepared, districts, time_limit_s)
+    while True:
+        try:
+            request = connection.recv()
+        except (EOFError, OSError):
+            return
+        if request[0] == "stop":
+            return
+        try:
+            answer = held.solve(*request[1:]) if request[0] == "solve" else held.least_co2(*request[1:])
+            connection.send(("ok", answer))
+        except Exception as error:  # handed to the caller, which raises it with the worker's words
+            connection.send(("error", f"{type(error).__name__}: {error}"))
+
+
 class PricedDistricts:
-    """Every district's LP held in its own HiGHS, solved at a series of CO2 surcharges (a trade-off curve).
+    """Every district's LP held in HiGHS, solved at a series of CO2 surcharges (a trade-off curve).
 
     Without a city-wide row (no network plant limit) a surcharge ``lam`` on every tonne decouples the districts:
     each minimises its own cost plus ``lam`` times its CO2-equivalent. A plan optimal at ``lam > 0`` is also the
@@ -361,13 +440,18 @@ class PricedDistricts:
     ``C(x) >= C(x*) + lam * (E(x*) - E(x)) >= C(x*)``: the weighted-sum theorem, Geoffrion, A. M. (1968). Proper
     efficiency and the theory of vector maximization. Journal of Mathematical Analysis and Applications 22(3),
     618-630), so every solve gives an exact point of the cost-CO2 frontier at the price of one decomposed run.
-    Each solve starts every district from the basis of a point given by the caller (changing only costs keeps
-    that optimum feasible: primal simplex); the least-CO2 point runs the two CO2 stages of
-    :func:`engine.model.formulation.solve_model` in fresh copies of the district LPs, started from a basis given.
+    Each solve starts a district from the basis of a point given by the caller (changing only costs keeps that
+    optimum feasible: primal simplex); the least-CO2 point runs the two CO2 stages of
+    :func:`engine.model.formulation.solve_model` in fresh copies of the district LPs.
+
+    ``workers`` > 1 holds the districts in that many worker processes (a warm pool for the whole series: each
+    keeps its districts' LPs and bases; the districts are dealt largest first by
+    :func:`engine.model.solve.part_work`); None chooses from the work of the series (:func:`study_workers`).
+    Call :meth:`close` (or use the object as a context manager) to end the workers.
     """
 
     def __init__(self, scenario: Scenario, cost_case: str, settings: Settings, time_limit_s: float | None = None,
-                 cancel=None):
+                 cancel=None, workers: int | None = 1, solves: int = 1):
         started = time.perf_counter()
         self.scenario = scenario
         self.cost_case = cost_case
@@ -375,20 +459,100 @@ class PricedDistricts:
         if self.base_settings.network_plant_limit_kw is not None:
             raise ValueError("PricedDistricts: a network plant limit couples the districts")
         self.prepared = prepare_run(scenario, cost_case, self.base_settings)
-        self.models = [build_model(self.prepared, [i]) for i in range(len(self.prepared.district_ids))]
-        self.equivalent = [co2_stage_objective(m)[0] for m in self.models]
+        n = len(self.prepared.district_ids)
+        self.models = [build_model(self.prepared, [i]) for i in range(n)]
         self.time_limit_s = time_limit_s
         self.cancel = cancel
-        self.sessions: list[HighsSession | None] = [None] * len(self.models)
+        self.workers = study_workers(self.prepared, solves) if workers is None else max(1, min(int(workers), n))
+        self._local = _HeldDistrictLPs(self.prepared, range(n), time_limit_s, cancel) if self.workers == 1 else None
+        self._pipes: list = []
+        self._processes: list = []
+        self._owner: dict[int, int] = {}
+        if self.workers > 1:
+            self._start_workers()
         self._city = None
+        self._tokens = 0
         self.reused = 0
         """District solves saved because the district's plan was the same at both neighbouring surcharges."""
         self.setup_s = time.perf_counter() - started
 
+    # ------------------------------------------------------------------ workers
+    def _start_workers(self) -> None:
+        import multiprocessing
+
+        order = sorted(range(len(self.models)), key=lambda k: -part_work(self.prepared, [k]))
+        shares: list[list[int]] = [[] for _ in range(self.workers)]
+        load = [0.0] * self.workers
+        for k in order:  # largest first onto the least loaded worker
+            w = int(np.argmin(load))
+            shares[w].append(k)
+            load[w] += part_work(self.prepared, [k])
+            self._owner[k] = w
+        context = multiprocessing.get_context("fork" if "fork" in multiprocessing.get_all_start_methods()
+                                              else None)
+        for share in shares:
+            mine, theirs = context.Pipe()
+            process = context.Process(target=_district_worker, args=(theirs, self.prepared, share, self.time_limit_s),
+                                      daemon=True)
+            process.start()
+            theirs.close()
+            self._pipes.append(mine)
+            self._processes.append(process)
+
+    def _ask(self, kind: str, per_worker: dict[int, tuple]) -> dict:
+        for w, args in per_worker.items():
+            self._pipes[w].send((kind, *args))
+        out = {}
+        for w in per_worker:
+            try:
+                status, answer = self._pipes[w].recv()
+            except (EOFError, OSError) as error:
+                raise RuntimeError(f"a worker process of the trade-off curve ended unexpectedly ({error})") from None
+            if status != "ok":
+                raise RuntimeError(f"a worker process of the trade-off curve failed: {answer}")
+            out.update(answer)
+        return out
+
+    def close(self) -> None:
+        """End the worker processes (nothing to do without them)."""
+        for pipe in self._pipes:
+            try:
+                pipe.send(("stop",))
+                pipe.close()
+            except (OSError, ValueError):
+                pass
+        for process in self._processes:
+            process.join(timeout=5)
+            if process.is_alive():
+                process.terminate()
+        self._pipes, self._processes = [], []
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
+
+    def __del__(self):
+        if self._processes:
+            self.close()
+
+    def _run(self, kind: str, token: int, lam: float, tasks: list) -> dict:
+        if self._local is not None:
+            if kind == "solve":
+                return self._local.solve(token, lam, tasks)
+            return self._local.least_co2([k for k, _, _ in tasks])
+        per_worker: dict[int, list] = {}
+        for task in tasks:
+            per_worker.setdefault(self._owner[task[0]], []).append(task)
+        if kind == "solve":
+            return self._ask("solve", {w: (token, lam, t) for w, t in per_worker.items()})
+        return self._ask("least_co2", {w: ([k for k, _, _ in t],) for w, t in per_worker.items()})
+
+    # ------------------------------------------------------------------ requests
     def solve(self, surcharge_eur_per_t: float, below: PricedPoint | None = None,
               above: PricedPoint | None = None) -> PricedPoint:
-        """Every district at ``surcharge_eur_per_t`` [€/t] on its CO2-equivalent. Stops at the first district that
-        fails.
+        """Every district at ``surcharge_eur_per_t`` [€/t] on its CO2-equivalent.
 
         ``below`` and ``above`` are points at a lower and a higher surcharge (the least-CO2 point stands for an
         infinite one). A district whose plan is the same in both (CO2-equivalent and cost equal to
@@ -398,59 +562,41 @@ class PricedDistricts:
         has one.
         """
         lam = float(surcharge_eur_per_t)
-        solutions, bases, values = [], [], []
-        reused = 0
-        for k, model in enumerate(self.models):
-            if (below is not None and above is not None and below.models is self.models
-                    and _same_plan(below, above, k)):
-                solutions.append(below.solutions[k])
-                bases.append(below.bases[k])
-                values.append(below.values[k])
-                reused += 1
+        self._tokens += 1
+        token = self._tokens
+        n = len(self.models)
+        solutions, values = [None] * n, [None] * n
+        tasks = []
+        for k in range(n):
+            if below is not None and above is not None and below.priced and _same_plan(below, above, k):
+                solutions[k], values[k] = below.solutions[k], below.values[k]
+                tasks.append((k, None, below.token))
+                self.reused += 1
                 continue
-            model.lp.set_objective(model.money + lam * self.equivalent[k] if lam else model.money)
-            if self.sessions[k] is None:
-                self.sessions[k] = HighsSession(model.lp, self.time_limit_s, cancel=self.cancel)
-            session = self.sessions[k]
-            starts = [p for p in (below, above) if p is not None and p.models is self.models
-                      and k < len(p.bases) and p.bases[k] is not None]
-            if starts:
-                session.set_basis(min(starts, key=lambda p: abs(p.surcharge_eur_per_t - lam)).bases[k])
-            solution = session.solve()
-            solutions.append(solution)
-            if solution.status != "optimal":
-                bases.append(None)
-                break
-            bases.append(session.basis())
-            values.append((float(model.emissions @ solution.x), float(self.equivalent[k] @ solution.x),
-                           float(model.money @ solution.x)))
-        self.reused += reused
-        return PricedPoint(lam, solutions, bases, values, self.models)
+            starts = [p for p in (below, above) if p is not None and p.priced and p.values[k] is not None]
+            start = min(starts, key=lambda p: abs(p.surcharge_eur_per_t - lam)).token if starts else None
+            tasks.append((k, start, None))
+        for k, (solution, value) in self._run("solve", token, lam, tasks).items():
+            solutions[k], values[k] = solution, value
+        return PricedPoint(lam, token, solutions, values, True)
 
-    def least_co2(self, start: PricedPoint | None = None) -> PricedPoint:
+    def least_co2(self) -> PricedPoint:
         """Least CO2, then least cost at it, district by district (the CO2 objective of
-        :func:`engine.model.formulation.solve_model`), each district's first stage started from ``start``."""
-        models, solutions, bases, values = [], [], [], []
-        within = float(getattr(self.base_settings, "co2_within_cost_pct", 0.0) or 0.0)
-        for k in range(len(self.models)):
-            model = build_model(self.prepared, [k])
-            basis = start.bases[k] if start is not None and k < len(start.bases) else None
-            solution = solve_model(model, "co2", self.time_limit_s, self.cancel, DIRECT, within, start_basis=basis)
-            models.append(model)
-            solutions.append(solution)
-            bases.append(None)
-            if solution.status != "optimal":
-                break
-            values.append((float(model.emissions @ solution.x), float(self.equivalent[k] @ solution.x),
-                           float(model.money @ solution.x)))
-        return PricedPoint(math.inf, solutions, bases, values, models)
+        :func:`engine.model.formulation.solve_model`)."""
+        self._tokens += 1
+        n = len(self.models)
+        solutions, values = [None] * n, [None] * n
+        for k, (solution, value) in self._run("least_co2", self._tokens, math.inf,
+                                              [(k, None, None) for k in range(n)]).items():
+            solutions[k], values[k] = solution, value
+        return PricedPoint(math.inf, self._tokens, solutions, values, False)
 
     def result(self, point: PricedPoint, settings: Settings) -> RunResult:
         """The run of ``point`` under ``settings`` (what it records as objective and cap), read as a decomposed
         run of :func:`engine.model.solve.solve_scenario` reads it."""
         started = time.perf_counter()
         outcomes = None
-        if point.solved and point.models is self.models and settings.objective == "cost":
+        if point.solved and point.priced and settings.objective == "cost":
             if self._city is None:
                 self._city = build_model(self.prepared, list(range(len(self.models))))
                 self._city.lp.set_objective(self._city.money)
@@ -465,7 +611,10 @@ class PricedDistricts:
                                            time.perf_counter() - extract_started, size)}
                 parts = [list(range(len(self.models)))]
         if outcomes is None:
-            outcomes = {k: part_outcome(m, s) for k, (m, s) in enumerate(zip(point.models, point.solutions))}
+            # the least-CO2 stages added rows to their copies of the LPs; the solutions are read with the
+            # held models' columns and rows, which come first in the same order
+            outcomes = {k: part_outcome(self.models[k], _cut_to(self.models[k], s))
+                        for k, s in enumerate(point.solutions) if s is not None}
             parts = [[k] for k in range(len(self.models))]
         result = RunResult(status="error", message="", objective=settings.objective, cost_case=self.cost_case,
                            input_hash=input_hash(self.scenario, self.cost_case, settings),
@@ -476,8 +625,27 @@ class PricedDistricts:
                       self.time_limit_s, self.cancel)
         result.model_size["linear_programs"] = len(self.models)
         result.model_size["reused_model"] = True
+        result.model_size["workers"] = self.workers
         setup_s, self.setup_s = self.setup_s, 0.0
         result.timings_s = {"prepare": round(setup_s, 4), **result.timings_s,
                             "total": round(setup_s + time.perf_counter() - started
-                                           + sum(s.solve_s for s in point.solutions), 4)}
+                                           + sum(s.solve_s for s in point.solutions if s is not None), 4)}
         return result
+
+
+def _cut_to(model, solution):
+    """``solution`` of a copy of ``model``'s LP with rows added after its own, cut to ``model``'s rows."""
+    if solution.row_dual is None or len(solution.row_dual) == model.lp.n_rows:
+        return solution
+    return dataclasses.replace(solution, row_dual=solution.row_dual[:model.lp.n_rows])
+
+
+def study_workers(prepared, solves: int) -> int:
+    """Worker processes for a series of ``solves`` decomposed solves of ``prepared``: one per core (up to one
+    per district) when their summed :func:`engine.model.solve.part_work` passes
+    :data:`engine.model.solve.PARALLEL_WORK` (where a pool pays for its start), else 1."""
+    n = len(prepared.district_ids)
+    if n < 2:
+        return 1
+    work = part_work(prepared, list(range(n))) * max(int(solves), 1)
+    return min(n, os.cpu_count() or 1) if work >= PARALLEL_WORK else 1

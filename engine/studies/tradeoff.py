@@ -70,6 +70,7 @@ def tradeoff_curve_runs(
     progress: Progress | None = None,
     cancel: Cancel | None = None,
     solver: str = DIRECT,
+    workers: int | None = None,
 ) -> tuple[pd.DataFrame, list[RunResult]]:
     """The cost-CO2 trade-off curve and the run behind each of its points.
 
@@ -100,6 +101,8 @@ def tradeoff_curve_runs(
         Checked between points; when it returns True the curve stops and the points so far are returned.
     solver : str
         Solver of every point (:mod:`engine.model.solvers`; HiGHS directly by default).
+    workers : int, optional
+        Worker processes of the priced route (None: chosen from the size of the curve's solves; 1: none).
 
     Returns
     -------
@@ -142,7 +145,7 @@ def tradeoff_curve_runs(
     settings_co2 = run_settings(scenario, "co2", 0.0, typical_days)
 
     if resolve_solver(solver) == DIRECT and settings_cost.network_plant_limit_kw is None:
-        return _priced_curve(scenario, case, settings_cost, settings_co2, n_points, report, stopped)
+        return _priced_curve(scenario, case, settings_cost, settings_co2, n_points, report, stopped, workers)
 
     # with HiGHS directly and a network plant limit (a city-wide row), the least-cost point and the bounded
     # points are re-solves of one city LP held in HiGHS (engine.model.live): only the CO2 row's bound changes
@@ -208,7 +211,7 @@ def _case_co2_price(scenario: Scenario, case: str) -> float:
     return float(scenario.prices.co2_eur_per_t if base.co2_eur_per_t is None else base.co2_eur_per_t)
 
 
-def _priced_curve(scenario, case, settings_cost, settings_co2, n_points, report, stopped):
+def _priced_curve(scenario, case, settings_cost, settings_co2, n_points, report, stopped, workers=None):
     """The trade-off curve from decomposed solves at CO2 surcharges (the non-inferior set estimation method).
 
     Without a city-wide row every district LP is held in HiGHS (:class:`engine.model.live.PricedDistricts`)
@@ -219,7 +222,9 @@ def _priced_curve(scenario, case, settings_cost, settings_co2, n_points, report,
     to their spans: the solve then either finds a new corner of the frontier below the segment, or shows that
     the frontier is straight there (no plan is cheaper at that price; the segment is not split again). Every
     solve keeps the plan of a district that is the same at both ends of the segment (it is optimal at every
-    price in between) and starts every other district from the basis of the end nearer in price.
+    price in between) and starts every other district from the basis of the end nearer in price. A curve whose
+    solves together pass :data:`engine.model.solve.PARALLEL_WORK` holds its districts in one worker process per
+    core for all its points (``workers`` None; 1 keeps them in this process).
 
     Where the frontier has fewer corners than points asked for, the rest are bounded points of the city LP
     (:class:`engine.model.live.LiveCityModel`) on the longest straight segments. Each interior point is
@@ -234,7 +239,11 @@ def _priced_curve(scenario, case, settings_cost, settings_co2, n_points, report,
     .. [2] Geoffrion, A. M. (1968). Proper efficiency and the theory of vector maximization. Journal of
        Mathematical Analysis and Applications, 22(3), 618-630.
     """
-    held = PricedDistricts(scenario, case, settings_cost)
+    with PricedDistricts(scenario, case, settings_cost, workers=workers, solves=n_points + 2) as held:
+        return _priced_points(held, scenario, case, settings_cost, settings_co2, n_points, report, stopped)
+
+
+def _priced_points(held, scenario, case, settings_cost, settings_co2, n_points, report, stopped):
     price = _case_co2_price(scenario, case)
     report(0.0, "Least-cost run")
     low_end = held.solve(0.0)
