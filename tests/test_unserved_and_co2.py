@@ -125,3 +125,16 @@ def test_co2_price_is_counted_once():
     assert parts["energy"] == pytest.approx(heat * 40.0 / 0.9, rel=1e-6)
     assert result.total_cost_eur_per_a == pytest.approx(heat * (40.0 + 100.0 * GAS_T_PER_MWH) / 0.9 + parts["investment"]
                                                         + parts["fixed_om"] + parts["variable_om"], rel=1e-6)
+
+
+def test_least_cost_run_with_unserved_heat_names_the_districts_without_a_co2_solve():
+    """No cap, a least-cost run: an electric boiler limited to 60 kW against a constant 100 kW demand leaves
+    40 kW x 8760 h = 350.4 MWh/a unserved (hand). The warning names the district and its unserved heat and
+    claims no lowest CO2 (that figure answers whether a cap is reachable; there is no cap)."""
+    scenario = two_boilers(only_electric=True)
+    scenario.district_technologies.loc[:, "potential_kw"] = 60.0
+    result = solve_scenario(scenario)
+    assert result.status == "optimal_with_unserved"
+    assert result.unserved_heat_mwh_per_a == pytest.approx(40.0 * HOURS / 1000, rel=1e-6)
+    assert "A (350.4 MWh/a)" in result.message
+    assert "lowest_co2_without_unserved_t_per_a" not in result.extras

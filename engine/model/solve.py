@@ -106,11 +106,27 @@ def lowest_co2_without_unserved(prepared, time_limit_s=None, cancel=None, solver
 
 def unserved_message(result: RunResult, prepared, settings: Settings, time_limit_s=None, cancel=None,
                      solver=DIRECT) -> str:
-    """The warning of a run that leaves heat unserved, with the lowest CO2 reachable without unserved heat."""
+    """The warning of a run that leaves heat unserved.
+
+    With a CO2 cap or the CO2 objective it states the lowest CO2 reachable without unserved heat (one more solve
+    of every district, :func:`lowest_co2_without_unserved`): that tells whether the cap, not the supply, is what
+    leaves the heat unserved. A least-cost run without a cap names the districts that leave the most heat
+    unserved instead (there the cause is the supply allowed or the price of unserved heat, not CO2; no solve)."""
     unserved = result.unserved_heat_mwh_per_a
     share = 100 * unserved / result.heat_demand_mwh_per_a if result.heat_demand_mwh_per_a > 0 else 0.0
     text = (f"Solved, but {unserved:,.0f} MWh/a of heat demand ({share:.1f} %) is left unserved (priced at "
             f"{settings.value_of_unserved_heat_eur_per_mwh:,.0f} EUR/MWh): this is not a plan that supplies the city.")
+    if settings.co2_cap_t_per_a is None and settings.objective == "cost":
+        districts = result.tables.get("districts") if result.tables else None
+        if districts is not None and "unserved_heat_mwh_per_a" in districts:
+            worst = districts.sort_values("unserved_heat_mwh_per_a", ascending=False)
+            worst = worst[worst["unserved_heat_mwh_per_a"] > 0.05].head(5)
+            named = ", ".join(f"{d} ({v:,.1f} MWh/a)" for d, v in zip(worst["district_id"],
+                                                                     worst["unserved_heat_mwh_per_a"]))
+            if named:
+                text += (f" Most of it in {named}: raise the supply allowed there (potential_kw, connection "
+                         "limits, well permits) or the price of unserved heat.")
+        return text
     floor, failed = lowest_co2_without_unserved(prepared, time_limit_s, cancel, solver)
     if floor is None:
         return text + (" No plan serves all the heat with the allowed supply in district(s) " + ", ".join(failed)
