@@ -129,12 +129,18 @@ def test_co2_price_is_counted_once():
 
 def test_least_cost_run_with_unserved_heat_names_the_districts_without_a_co2_solve():
     """No cap, a least-cost run: an electric boiler limited to 60 kW against a constant 100 kW demand leaves
-    40 kW x 8760 h = 350.4 MWh/a unserved (hand). The warning names the district and its unserved heat and
-    claims no lowest CO2 (that figure answers whether a cap is reachable; there is no cap)."""
+    40 kW x 8760 h = 350.4 MWh/a unserved (hand). The warning names the district and its unserved heat, says no
+    plan can serve it, and claims no lowest CO2 (that figure answers whether a cap is reachable; there is no
+    cap). With the boiler unlimited but dearer than the price of unserved heat, the heat is left unserved by
+    choice: the warning says serving it costs more."""
     scenario = two_boilers(only_electric=True)
     scenario.district_technologies.loc[:, "potential_kw"] = 60.0
     result = solve_scenario(scenario)
     assert result.status == "optimal_with_unserved"
     assert result.unserved_heat_mwh_per_a == pytest.approx(40.0 * HOURS / 1000, rel=1e-6)
-    assert "A (350.4 MWh/a)" in result.message
+    assert "No plan serves all the heat with the allowed supply in A (350.4 MWh/a)" in result.message
     assert "lowest_co2_without_unserved_t_per_a" not in result.extras
+    dear = two_boilers(only_electric=True, settings=Settings(typical_days=0, value_of_unserved_heat_eur_per_mwh=50.0))
+    result = solve_scenario(dear)  # electric heat at 100 EUR/MWh against 50 EUR/MWh for leaving it unserved
+    assert result.unserved_heat_mwh_per_a == pytest.approx(876.0, rel=1e-6)
+    assert "In A (876.0 MWh/a) serving it would cost more than the price of unserved heat" in result.message

@@ -104,28 +104,62 @@ def lowest_co2_without_unserved(prepared, time_limit_s=None, cancel=None, solver
     return (None if failed else total), failed
 
 
+def _not_servable(prepared, district_ids, time_limit_s=None, cancel=None, solver=DIRECT) -> list[str]:
+    """Of ``district_ids``, those where no plan serves all heat and cooling with the supply allowed (each
+    district's LP with unserved heat switched off and no objective: a feasibility check; the city LP at once
+    where a network plant limit couples the districts)."""
+    if not district_ids:
+        return []
+    settings = dataclasses.replace(prepared.settings, allow_unserved_heat=False, co2_cap_t_per_a=None)
+    strict = dataclasses.replace(prepared, settings=settings)
+    index = {d: i for i, d in enumerate(prepared.district_ids)}
+    wanted = [index[d] for d in district_ids if d in index]
+    parts = [list(range(len(prepared.district_ids)))] if settings.network_plant_limit_kw is not None else [
+        [i] for i in wanted]
+    failed = []
+    for part in parts:
+        model = build_model(strict, part)
+        model.lp.set_objective(np.zeros(model.lp.n_cols))
+        solution = solve_lp(model.lp, solver, time_limit_s=time_limit_s, cancel=cancel)
+        if solution.status != "optimal":
+            failed += [prepared.district_ids[i] for i in part if i in wanted]
+    return failed
+
+
 def unserved_message(result: RunResult, prepared, settings: Settings, time_limit_s=None, cancel=None,
                      solver=DIRECT) -> str:
     """The warning of a run that leaves heat unserved.
 
     With a CO2 cap or the CO2 objective it states the lowest CO2 reachable without unserved heat (one more solve
     of every district, :func:`lowest_co2_without_unserved`): that tells whether the cap, not the supply, is what
-    leaves the heat unserved. A least-cost run without a cap names the districts that leave the most heat
-    unserved instead (there the cause is the supply allowed or the price of unserved heat, not CO2; no solve)."""
+    leaves the heat unserved. A least-cost run without a cap names the districts that leave heat unserved
+    instead, split by a feasibility check of just those districts (:func:`_not_servable`) into those whose
+    allowed supply cannot serve it and those where serving it costs more than the price of unserved heat."""
     unserved = result.unserved_heat_mwh_per_a
     share = 100 * unserved / result.heat_demand_mwh_per_a if result.heat_demand_mwh_per_a > 0 else 0.0
     text = (f"Solved, but {unserved:,.0f} MWh/a of heat demand ({share:.1f} %) is left unserved (priced at "
             f"{settings.value_of_unserved_heat_eur_per_mwh:,.0f} EUR/MWh): this is not a plan that supplies the city.")
     if settings.co2_cap_t_per_a is None and settings.objective == "cost":
         districts = result.tables.get("districts") if result.tables else None
-        if districts is not None and "unserved_heat_mwh_per_a" in districts:
-            worst = districts.sort_values("unserved_heat_mwh_per_a", ascending=False)
-            worst = worst[worst["unserved_heat_mwh_per_a"] > 0.05].head(5)
-            named = ", ".join(f"{d} ({v:,.1f} MWh/a)" for d, v in zip(worst["district_id"],
-                                                                     worst["unserved_heat_mwh_per_a"]))
-            if named:
-                text += (f" Most of it in {named}: raise the supply allowed there (potential_kw, connection "
-                         "limits, well permits) or the price of unserved heat.")
+        if districts is None or "unserved_heat_mwh_per_a" not in districts:
+            return text
+        short = districts[districts["unserved_heat_mwh_per_a"] > 0.05].sort_values(
+            "unserved_heat_mwh_per_a", ascending=False)
+        named = list(short["district_id"].astype(str))
+        amount = dict(zip(named, short["unserved_heat_mwh_per_a"]))
+        cannot = _not_servable(prepared, named, time_limit_s, cancel, solver)
+
+        def listed(ids):
+            shown = ", ".join(f"{d} ({amount[d]:,.1f} MWh/a)" for d in ids[:5])
+            return shown + (f" and {len(ids) - 5} more" if len(ids) > 5 else "")
+
+        if cannot:
+            text += (" No plan serves all the heat with the allowed supply in " + listed(cannot)
+                     + " (see potential_kw, the connection limits and the well permits).")
+        cheaper = [d for d in named if d not in cannot]
+        if cheaper:
+            text += (" In " + listed(cheaper) + " serving it would cost more than the price of unserved heat "
+                     "(usually a few peak hours: raise that price to serve them).")
         return text
     floor, failed = lowest_co2_without_unserved(prepared, time_limit_s, cancel, solver)
     if floor is None:
