@@ -1,0 +1,119 @@
+"""Full-year district LPs handed to HiGHS as built and trimmed (:func:`engine.model.lp.lean_program`).
+
+Usage::
+
+    python bench/lean_lp.py                                   # districts 0,1,6,7,8 of the 10-district city
+    python bench/lean_lp.py --districts 200 --sample 8        # every 25th district of the 200-district city
+    python bench/lean_lp.py --pick 1,7 --steps                # also each trimming step on its own
+
+For each district of the full-year synthetic city (:mod:`bench.synthetic_city`, ``typical_days=0``) the district
+LP (cost objective) is solved by HiGHS's default algorithm twice from the same build: as built ("before") and as
+:meth:`engine.model.lp.LinearProgram.solve` hands it over now ("after": rows without bounds and columns fixed at
+zero dropped, a well's flow row with one heat pump and its hot water turned into the bounds of a column). Printed
+per district: its units, whether it has a store, columns, rows and nonzeros before and after, HiGHS seconds and
+simplex iterations before and after, and the relative difference of the optima. With ``--steps`` the LP is also
+solved with only the dropping (no change of variables).
+
+The estimate for the whole city is the sample's summed seconds scaled by (districts / sample size), before and
+after; the sample is every k-th district (k = districts // sample), so it keeps the city's mix of districts with
+and without a store. The machine's 1-minute load average is printed before and after: compare the two solves of
+one district, not seconds across runs.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+if str(ROOT) not in sys.path:
+    sys.path.insert(0, str(ROOT))
+
+import highspy  # noqa: E402
+
+from bench.synthetic_city import synthetic_city  # noqa: E402
+from engine.model.formulation import build_model  # noqa: E402
+from engine.model.lp import lean_program  # noqa: E402
+from engine.model.prepare import prepare_run  # noqa: E402
+from engine.model.solve import run_settings  # noqa: E402
+
+
+def run(h) -> tuple[float, int, float, str]:
+    started = time.perf_counter()
+    h.run()
+    seconds = time.perf_counter() - started
+    info = h.getInfo()
+    status = h.getModelStatus()
+    text = "optimal" if status == highspy.HighsModelStatus.kOptimal else h.modelStatusToString(status)
+    return seconds, int(info.simplex_iteration_count), float(info.objective_function_value), text
+
+
+def measure(prepared, district: int, time_limit_s: float, steps: bool) -> dict:
+    model = build_model(prepared, [district])
+    lp = model.lp
+    lp.set_objective(model.money)
+    lean = lean_program(lp)
+    s0, it0, obj0, st0 = run(lp.to_highs(time_limit_s))
+    s1, it1, obj1, st1 = run(lean.to_highs(time_limit_s))
+    row = {
+        "units": ",".join(model.units.kind),
+        "store": len(model.stores.technology_id) > 0,
+        "size before": f"{lp.n_cols} x {lp.n_rows}, {lp.n_nonzeros} nz",
+        "size after": f"{lean.n_cols} x {lean.n_rows}, {lean.matrix.nnz} nz",
+        "flow rows as bounds": len(lean.flow_rows),
+        "seconds before": round(s0, 2),
+        "seconds after": round(s1, 2),
+        "iterations before": it0,
+        "iterations after": it1,
+        "status": st0 if st0 == st1 else f"{st0} / {st1}",
+        "objective": round(obj0, 2),
+        "relative difference": f"{abs(obj1 - obj0) / max(abs(obj0), 1.0):.1e}",
+    }
+    if steps:
+        pairs, lp.flow_pairs = lp.flow_pairs, []
+        dropped = lean_program(lp)
+        lp.flow_pairs = pairs
+        s2, it2, obj2, _ = run(dropped.to_highs(time_limit_s))
+        row["dropping only"] = f"{dropped.n_cols} x {dropped.n_rows}, {round(s2, 2)} s, {it2} iterations, " \
+                               f"relative difference {abs(obj2 - obj0) / max(abs(obj0), 1.0):.1e}"
+    return row
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(description="full-year district LPs as built and trimmed for HiGHS")
+    parser.add_argument("--districts", type=int, default=10, help="size of the synthetic city")
+    parser.add_argument("--pick", default="", help="comma-separated district indices (default: 0,1,6,7,8 of a "
+                                                   "10-district city, else the sample)")
+    parser.add_argument("--sample", type=int, default=8, help="sample size when --pick is not given")
+    parser.add_argument("--time-limit", type=float, default=300.0, help="seconds per solve")
+    parser.add_argument("--steps", action="store_true", help="also solve with the dropping alone")
+    args = parser.parse_args(argv)
+    print(f"load average before: {os.getloadavg()[0]:.2f}", flush=True)
+    scenario = synthetic_city(args.districts, typical_days=0)
+    prepared = prepare_run(scenario, "reference", run_settings(scenario, "cost", 0.0, 0))
+    if args.pick:
+        picks = [int(x) for x in args.pick.split(",") if x.strip()]
+    elif args.districts == 10:
+        picks = [0, 1, 6, 7, 8]
+    else:
+        k = max(args.districts // max(args.sample, 1), 1)
+        picks = list(range(0, args.districts, k))[: args.sample]
+    before = after = 0.0
+    for i in picks:
+        row = measure(prepared, i, args.time_limit, args.steps)
+        before += row["seconds before"]
+        after += row["seconds after"]
+        print(f"district {i} | " + " | ".join(f"{k} {v}" for k, v in row.items()), flush=True)
+    scale = args.districts / len(picks)
+    print(f"sample of {len(picks)} of {args.districts} districts: {before:.1f} s before, {after:.1f} s after; "
+          f"scaled to the city: {before * scale:.0f} s before, {after * scale:.0f} s after (HiGHS seconds, one "
+          f"solve at a time)")
+    print(f"load average after: {os.getloadavg()[0]:.2f}")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
