@@ -4,6 +4,7 @@ Usage::
 
     python bench/lean_lp.py                                   # districts 0,1,6,7,8 of the 10-district city
     python bench/lean_lp.py --districts 200 --sample 8        # every 25th district of the 200-district city
+    python bench/lean_lp.py --districts 200 --per-class 2     # two districts of each class, weighted estimate
     python bench/lean_lp.py --pick 1,7 --steps                # also each trimming step on its own
 
 For each district of the full-year synthetic city (:mod:`bench.synthetic_city`, ``typical_days=0``) the district
@@ -17,8 +18,10 @@ of the same LP measures only the machine's load, which moved identical solves by
 ``--steps`` the LP is also solved with only the dropping (no change of variables).
 
 The estimate for the whole city is the sample's summed seconds scaled by (districts / sample size), before and
-after; the sample is every k-th district (k = districts // sample), so it keeps the city's mix of districts with
-and without a store. The machine's 1-minute load average is printed before and after: compare the two solves of
+after; the sample is every k-th district (k = districts // sample). With ``--per-class n`` the sample is n
+districts of each class (with or without a store, with or without a well-flow row the trimming turns into
+bounds: the four differ by tens of seconds) and each class's mean is weighted by its number of districts, so a
+small sample does not miss the rare slow class. The machine's 1-minute load average is printed before and after: compare the two solves of
 one district, not seconds across runs.
 """
 
@@ -35,6 +38,7 @@ if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
 import highspy  # noqa: E402
+import numpy as np  # noqa: E402
 
 from bench.synthetic_city import synthetic_city  # noqa: E402
 from engine.model.formulation import build_model  # noqa: E402
@@ -95,11 +99,29 @@ def main(argv=None) -> int:
     parser.add_argument("--sample", type=int, default=8, help="sample size when --pick is not given")
     parser.add_argument("--time-limit", type=float, default=300.0, help="seconds per solve")
     parser.add_argument("--steps", action="store_true", help="also solve with the dropping alone")
+    parser.add_argument("--per-class", type=int, default=0,
+                        help="instead of every k-th district: this many districts of each class (with or without a "
+                             "store, with or without a well-flow row turned into bounds), the estimate weighted by "
+                             "the classes' sizes")
     args = parser.parse_args(argv)
     print(f"load average before: {os.getloadavg()[0]:.2f}", flush=True)
     scenario = synthetic_city(args.districts, typical_days=0)
     prepared = prepare_run(scenario, "reference", run_settings(scenario, "cost", 0.0, 0))
-    if args.pick:
+    weights = {}
+    if args.per_class:
+        classes = {}
+        for i in range(args.districts):
+            model = build_model(prepared, [i])
+            key = (len(model.stores.technology_id) > 0, len(model.lp.flow_pairs) > 0)
+            classes.setdefault(key, []).append(i)
+        picks = []
+        for (store, pairs), members in sorted(classes.items()):
+            chosen = [members[int(k)] for k in np.linspace(0, len(members) - 1, min(args.per_class, len(members)))]
+            picks += chosen
+            weights.update({i: len(members) / len(chosen) for i in chosen})
+            print(f"class store {store}, well-flow rows as bounds {pairs}: {len(members)} districts, sampled "
+                  f"{chosen}", flush=True)
+    elif args.pick:
         picks = [int(x) for x in args.pick.split(",") if x.strip()]
     elif args.districts == 10:
         picks = [0, 1, 6, 7, 8]
@@ -107,15 +129,20 @@ def main(argv=None) -> int:
         k = max(args.districts // max(args.sample, 1), 1)
         picks = list(range(0, args.districts, k))[: args.sample]
     before = after = 0.0
+    city_before = city_after = 0.0
+    scale = args.districts / len(picks)
     for i in picks:
         row = measure(prepared, i, args.time_limit, args.steps)
         before += row["seconds before"]
         after += row["seconds after"]
+        weight = weights.get(i, scale)
+        city_before += weight * row["seconds before"]
+        city_after += weight * row["seconds after"]
         print(f"district {i} | " + " | ".join(f"{k} {v}" for k, v in row.items()), flush=True)
-    scale = args.districts / len(picks)
+    how = "weighted by class" if weights else "scaled"
     print(f"sample of {len(picks)} of {args.districts} districts: {before:.1f} s before, {after:.1f} s after; "
-          f"scaled to the city: {before * scale:.0f} s before, {after * scale:.0f} s after (HiGHS seconds, one "
-          f"solve at a time)")
+          f"{how} to the city: {city_before:.0f} s before, {city_after:.0f} s after (HiGHS seconds, one solve at a "
+          f"time)")
     print(f"load average after: {os.getloadavg()[0]:.2f}")
     return 0
 
