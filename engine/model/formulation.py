@@ -314,7 +314,9 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
                                     if hw_demand[unit_local[u]].sum() > 0}), dtype=int)
     lifted = np.flatnonzero(lifted_any & np.isin(unit_local, hw_districts))
     cols["hot_water_units"] = lifted
-    cols["hot_water"] = lp.add_variables("hot_water_kw", (len(lifted), n_t))
+    # a unit that cannot run in a step (a well without usable spread) makes no hot water there either
+    cols["hot_water"] = lp.add_variables("hot_water_kw", (len(lifted), n_t), 0.0,
+                                         np.where(units.output_upper[lifted] > 0, INF, 0.0))
     if len(lifted):
         rows["hot_water_within_output"] = lp.add_rows(
             "hot_water_within_output", [(cols["hot_water"], 1.0), (cols["out"][lifted], -1.0)], upper=0.0)
@@ -420,6 +422,14 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
             np.r_[cols["out"][well_units].ravel(), hw_cols.ravel()], np.r_[flow_coef.ravel(), hw_coef.ravel()],
             upper=np.repeat(prepared.well_permit_flow_kg_s[wells_here], n_t),
         ).reshape(len(wells_here), n_t)
+        # a well whose flow row holds one heat pump and its hot water: the row's activity may stand in for the
+        # heat pump's output at the hand-off to HiGHS (the row then is a bound; x >= 0 follows from W <= X)
+        per_well = np.bincount(wrow, minlength=len(wells_here))
+        pairs = [(u, k) for k, u in zip(hw_well, [lifted[k] for k in hw_well]) if per_well[wpos[int(units.well[u])]] == 1]
+        if pairs:
+            lp.add_flow_pairs(np.concatenate([cols["out"][u] for u, _ in pairs]),
+                              np.concatenate([cols["hot_water"][k] for _, k in pairs]),
+                              np.concatenate([rows["well_flow"][wpos[int(units.well[u])]] for u, _ in pairs]))
         volume = prepared.well_annual_volume_m3[wells_here]
         limited = np.flatnonzero(np.isfinite(volume))
         if len(limited):

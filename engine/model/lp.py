@@ -63,6 +63,8 @@ class LinearProgram:
         self.var_blocks: dict[str, tuple[int, tuple[int, ...]]] = {}
         self.row_blocks: dict[str, RowBlock] = {}
         self._matrix = None
+        self.flow_pairs: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []
+        """(columns x, columns w, rows r) a lean hand-off may change variables on (:func:`lean_program`)."""
 
     # ------------------------------------------------------------------ variables
     def add_variables(self, name: str, shape, lower=0.0, upper=INF) -> np.ndarray:
@@ -134,6 +136,15 @@ class LinearProgram:
         self.n_rows += n_rows
         self._matrix = None
         return index
+
+    def add_flow_pairs(self, x_cols, w_cols, rows) -> None:
+        """Declare that row ``rows[k]`` holds only ``x_cols[k]`` and ``w_cols[k]`` and that ``x_cols[k] >= 0`` follows
+        from the other rows (given the bounds of ``w_cols[k]``): :func:`lean_program` may then hand HiGHS the
+        row's activity as a column in place of ``x_cols[k]`` (the row becomes that column's bounds)."""
+        x_cols, w_cols, rows = (np.asarray(a, np.int64).ravel() for a in (x_cols, w_cols, rows))
+        if not (x_cols.shape == w_cols.shape == rows.shape):
+            raise ValueError("x_cols, w_cols and rows must have the same length")
+        self.flow_pairs.append((x_cols, w_cols, rows))
 
     def set_row_upper(self, name: str, upper) -> None:
         """Change the upper bounds of the row block ``name`` (e.g. to relax a stage's limit and solve again)."""
@@ -241,7 +252,7 @@ class LinearProgram:
         ``basis`` (column statuses, row statuses; see :attr:`LpSolution.basis`) starts the simplex method there
         instead of from HiGHS's own crash basis (a basis HiGHS rejects is ignored: the solve then starts cold);
         ``keep_basis`` returns the optimal basis with the solution."""
-        session = HighsSession(self, time_limit_s, threads, cancel)
+        session = HighsSession(self, time_limit_s, threads, cancel, lean=basis is None and not keep_basis)
         if basis is not None:
             session.set_basis(basis)
         solution = session.solve()
@@ -294,9 +305,11 @@ class HighsSession:
     """
 
     def __init__(self, lp: LinearProgram, time_limit_s: float | None = None, threads: int | None = None,
-                 cancel=None):
+                 cancel=None, lean: bool = False):
         self.lp = lp
-        self.highs = lp.to_highs(time_limit_s, threads)
+        self.lean = lean_program(lp) if lean else None
+        """With ``lean``: the trimmed program HiGHS holds (:func:`lean_program`); one solve, no basis, no changes."""
+        self.highs = self.lean.to_highs(time_limit_s, threads) if lean else lp.to_highs(time_limit_s, threads)
         self._n_rows = lp.n_rows
         self._n_triplets = len(lp._triplets)
         self._cost = lp.cost
@@ -423,6 +436,8 @@ class HighsSession:
 
     def basis(self) -> tuple[np.ndarray, np.ndarray]:
         """The basis HiGHS holds now (column statuses, row statuses)."""
+        if self.lean is not None:
+            raise ValueError("a lean session holds the trimmed program: its basis is not the program's")
         found = self.highs.getBasis()
         return np.array(found.col_status, dtype=object), np.array(found.row_status, dtype=object)
 
@@ -430,11 +445,150 @@ class HighsSession:
         """Hand HiGHS what changed in the program since the last solve and solve it from the last basis."""
         if self._cancel_checked_before and self._cancel():
             return LpSolution("interrupted", "The solve was cancelled.")
-        self._sync()
+        if self.lean is not None:
+            if self.lp.n_rows != self._n_rows or np.any(self.lp.cost != self._cost):
+                raise ValueError("a lean session solves its program once, as it was when the session began")
+        else:
+            self._sync()
         started = time.perf_counter()
         self.highs.run()
         elapsed = time.perf_counter() - started
-        return read_highs_solution(self.highs, elapsed)
+        solution = read_highs_solution(self.highs, elapsed)
+        if self.lean is not None and solution.status == "optimal":
+            solution = self.lean.original_solution(self.highs, solution)
+        return solution
+
+
+@dataclass
+class LeanProgram:
+    """A :class:`LinearProgram` trimmed for HiGHS and the map back: x = ``to_original`` @ y.
+
+    See :func:`lean_program`; ``cols`` and ``rows`` name the program's columns and rows the trimmed one keeps (in
+    its order), ``flow_rows`` the rows turned into bounds of the trimmed columns ``flow_cols``.
+    """
+
+    source: LinearProgram
+    cost: np.ndarray
+    matrix: sp.csc_matrix
+    col_lower: np.ndarray
+    col_upper: np.ndarray
+    row_lower: np.ndarray
+    row_upper: np.ndarray
+    rows: np.ndarray
+    to_original: sp.csr_matrix
+    flow_rows: np.ndarray
+    flow_cols: np.ndarray
+
+    @property
+    def n_cols(self) -> int:
+        return self.matrix.shape[1]
+
+    @property
+    def n_rows(self) -> int:
+        return self.matrix.shape[0]
+
+    def to_highs(self, time_limit_s: float | None = None, threads: int | None = None):
+        h = new_highs()
+        if time_limit_s:
+            h.setOptionValue("time_limit", float(time_limit_s))
+        if threads:
+            _scheduler_for(int(threads))
+            h.setOptionValue("threads", int(threads))
+        pass_arrays(h, self.cost, self.matrix, self.col_lower, self.col_upper, self.row_lower, self.row_upper)
+        return h
+
+    def original_solution(self, h, solution: LpSolution) -> LpSolution:
+        """``solution`` of the trimmed program as one of the program: its columns, and a dual for every row (a
+        row turned into a column's bounds gets that column's reduced cost, a dropped empty row 0)."""
+        y = np.asarray(solution.x, float)
+        dual = np.zeros(self.source.n_rows)
+        dual[self.rows] = solution.row_dual
+        if len(self.flow_rows):
+            dual[self.flow_rows] = np.asarray(h.getSolution().col_dual)[self.flow_cols]
+        solution.x = self.to_original @ y
+        solution.row_dual = dual
+        return solution
+
+
+def pass_arrays(h, cost, a, col_lower, col_upper, row_lower, row_upper) -> None:
+    """Hand ``h`` the program min cost @ x, row_lower <= a @ x <= row_upper, col_lower <= x <= col_upper (CSC)."""
+    lp = highspy.HighsLp()
+    lp.num_col_ = a.shape[1]
+    lp.num_row_ = a.shape[0]
+    lp.col_cost_ = np.asarray(cost, float)
+    lp.col_lower_ = np.where(np.isinf(col_lower), -highspy.kHighsInf, col_lower)
+    lp.col_upper_ = np.where(np.isinf(col_upper), highspy.kHighsInf, col_upper)
+    lp.row_lower_ = np.where(np.isinf(row_lower), -highspy.kHighsInf, row_lower)
+    lp.row_upper_ = np.where(np.isinf(row_upper), highspy.kHighsInf, row_upper)
+    lp.a_matrix_.format_ = highspy.MatrixFormat.kColwise
+    lp.a_matrix_.start_ = a.indptr.astype(np.int32)
+    lp.a_matrix_.index_ = a.indices.astype(np.int32)
+    lp.a_matrix_.value_ = a.data
+    h.passModel(lp)
+
+
+def lean_program(lp: LinearProgram) -> LeanProgram:
+    """The program without what carries nothing, and with its declared flow rows as column bounds.
+
+    Three exact steps (docs/model.md section 9, "What the hand-off to HiGHS trims"):
+
+    1. Rows with neither bound (no limit on anything) are dropped.
+    2. A pair declared with :meth:`LinearProgram.add_flow_pairs` (row r holds only c_x x + c_w w, c_x > 0; x has the
+       bounds [0, inf) and x >= 0 follows from other rows) changes variables: the column F = c_x x + c_w w takes
+       x's place, x = (F - c_w w) / c_x in every other row and in the cost, and row r becomes the bounds of F.
+       The map between (x, w) and (F, w) is one to one, so both programs have the same feasible points and
+       optimum. A pair whose row holds anything else, or whose x has other bounds, is left as it is.
+    3. Columns fixed at zero (lower = upper = 0) are dropped (their value is 0), then rows left without an entry
+       whose bounds admit 0.
+    """
+    a = lp.matrix().tocsc()
+    n, m = lp.n_cols, lp.n_rows
+    cost, cl, cu, rl, ru = lp.cost, lp.col_lower, lp.col_upper, lp.row_lower, lp.row_upper
+    keep_row = ~(np.isneginf(rl) & np.isposinf(ru))
+    # ---- flow pairs
+    if lp.flow_pairs:
+        xs, ws, rs = (np.concatenate([p[k] for p in lp.flow_pairs]) for k in range(3))
+    else:
+        xs = ws = rs = np.zeros(0, np.int64)
+    flow_rows, flow_cols = np.zeros(0, np.int64), np.zeros(0, np.int64)
+    t_rows, t_cols, t_vals = [np.arange(n)], [np.arange(n)], [np.ones(n)]
+    if len(xs):
+        ar = a.tocsr()
+        counts = np.diff(ar.indptr)[rs]
+        cx = np.asarray(ar[rs, xs]).ravel()
+        cw = np.asarray(ar[rs, ws]).ravel()
+        ok = (keep_row[rs] & (counts == np.where(cw != 0, 2, 1)) & (cx > 0) & (cl[xs] == 0.0) & np.isposinf(cu[xs])
+              & (xs != ws))
+        ok &= np.bincount(xs[ok], minlength=n)[xs] == 1  # one pair per column
+        ok &= np.bincount(rs[ok], minlength=m)[rs] == 1  # one pair per row
+        ok &= ~np.isin(xs, ws[ok])  # a replaced column is nobody's partner
+        xs, ws, rs, cx, cw = xs[ok], ws[ok], rs[ok], cx[ok], cw[ok]
+        t_vals[0][xs] = 1.0 / cx
+        t_rows.append(xs)
+        t_cols.append(ws)
+        t_vals.append(-cw / cx)
+        cl, cu = cl.copy(), cu.copy()
+        cl[xs], cu[xs] = rl[rs], ru[rs]
+        keep_row[rs] = False
+        flow_rows = rs
+    t = sp.csr_matrix((np.concatenate(t_vals), (np.concatenate(t_rows), np.concatenate(t_cols))), shape=(n, n))
+    if len(xs):
+        a = (a @ t).tocsc()
+        cost = t.T @ cost
+    # ---- columns fixed at zero, then rows without entries
+    keep_col = ~((cl == 0.0) & (cu == 0.0))
+    a = a[:, keep_col]
+    t = t[:, keep_col].tocsr()
+    empty = np.diff(a.tocsr().indptr) == 0
+    keep_row &= ~(empty & (rl <= 0.0) & (ru >= 0.0))
+    rows = np.flatnonzero(keep_row)
+    a = a[rows].tocsc()
+    a.sort_indices()
+    if len(flow_rows):
+        position = np.cumsum(keep_col) - 1
+        flow_cols = position[xs]
+    return LeanProgram(lp, cost[keep_col], a, cl[keep_col], cu[keep_col], rl[rows], ru[rows], rows, t, flow_rows,
+                       flow_cols)
 
 
 _SCHEDULER_THREADS: int | None = None

@@ -26,7 +26,10 @@ charging changed it. What grows with the city is the share of districts with a s
 districts, 30 % of 50, 37 % of 200) and the long tail of hard store LPs among them, not the time of a district
 LP of a given size: the seconds per district follow the mix, linearly in the number of districts. HiGHS's
 presolve already removes what carries nothing (35 043 x 35 040 -> 26 282 x 26 280 for a three-unit district
-without a store; no column is fixed at zero), so the LPs are handed over as built.
+without a store; no column is fixed at zero). What it cannot undo since hot water has its own temperature is a
+well's flow row holding a heat pump's output and its hot water: the direct path hands HiGHS the LP trimmed by
+:func:`engine.model.lp.lean_program`, that row as the bounds of a column (docs/model.md section 9,
+``bench/lean_lp.py``). The pulp path gets the LP as built.
 """
 
 from __future__ import annotations
