@@ -388,7 +388,7 @@ class _HeldDistrictLPs:
             model.lp.set_objective(model.money + lam * self.equivalent[k] if lam else model.money)
             session = self.sessions.get(k)
             if session is None:
-                session = self.sessions[k] = HighsSession(model.lp, self.time_limit_s, cancel=self.cancel)
+                session = self.sessions[k] = HighsSession(model.lp, self.time_limit_s, cancel=self.cancel, lean=True)
             if start is not None and (start, k) in self.bases:
                 session.set_basis(self.bases[(start, k)])
             solution = session.solve()

@@ -308,7 +308,10 @@ class HighsSession:
                  cancel=None, lean: bool = False):
         self.lp = lp
         self.lean = lean_program(lp) if lean else None
-        """With ``lean``: the trimmed program HiGHS holds (:func:`lean_program`); one solve, no basis, no changes."""
+        """With ``lean``: the trimmed program HiGHS holds (:func:`lean_program`). Between its solves only the costs
+        may change (handed over through the map, ``to_original.T @ cost``); its bases are the trimmed program's,
+        for this session or another lean session of the same program only."""
+        self._lean_cost = self.lean.cost.copy() if lean else None
         self.highs = self.lean.to_highs(time_limit_s, threads) if lean else lp.to_highs(time_limit_s, threads)
         self._n_rows = lp.n_rows
         self._n_triplets = len(lp._triplets)
@@ -435,9 +438,7 @@ class HighsSession:
         return True
 
     def basis(self) -> tuple[np.ndarray, np.ndarray]:
-        """The basis HiGHS holds now (column statuses, row statuses)."""
-        if self.lean is not None:
-            raise ValueError("a lean session holds the trimmed program: its basis is not the program's")
+        """The basis HiGHS holds now (column statuses, row statuses; of the trimmed program in a lean session)."""
         found = self.highs.getBasis()
         return np.array(found.col_status, dtype=object), np.array(found.row_status, dtype=object)
 
@@ -446,8 +447,17 @@ class HighsSession:
         if self._cancel_checked_before and self._cancel():
             return LpSolution("interrupted", "The solve was cancelled.")
         if self.lean is not None:
-            if self.lp.n_rows != self._n_rows or np.any(self.lp.cost != self._cost):
-                raise ValueError("a lean session solves its program once, as it was when the session began")
+            lp = self.lp
+            if (lp.n_rows != self._n_rows or len(lp._triplets) != self._n_triplets
+                    or np.any(lp.row_lower != self._row_lower) or np.any(lp.row_upper != self._row_upper)):
+                raise ValueError("a lean session takes new costs only, not rows or row bounds")
+            cost = lp.cost
+            if np.any(cost != self._cost):
+                lean_cost = self.lean.to_original.T @ cost
+                changed = np.flatnonzero(lean_cost != self._lean_cost).astype(np.int32)
+                if len(changed):
+                    self.highs.changeColsCost(len(changed), changed, lean_cost[changed])
+                self._cost, self._lean_cost = cost, lean_cost
         else:
             self._sync()
         started = time.perf_counter()
