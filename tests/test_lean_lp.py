@@ -117,3 +117,28 @@ def test_flow_pair_by_hand_and_left_alone_when_its_row_holds_more():
     assert len(lean_program(crowded).flow_rows) == 0 and lean_program(crowded).n_rows == 2
     # z = 1 takes a unit of the row for 5 (w = 6, x = 4 - 1 + 3 = 6): -3 * 6 - 6 - 5 = -29 < -27
     assert crowded.solve().objective == pytest.approx(-29.0, rel=1e-9)
+
+
+def test_lean_session_takes_new_costs_and_warm_starts():
+    """A lean session held over two objectives (the cost, then the cost plus 500 EUR/t on CO2-equivalent, as the
+    trade-off curve does) reaches, warm from the first basis, the optimum linprog finds for the LP as built with
+    the second objective (interior point method, rel 1e-7)."""
+    from engine.model.formulation import co2_stage_objective
+    from engine.model.lp import HighsSession
+
+    prepared = prepare_run(instance(), "reference", Settings(typical_days=0, value_of_unserved_heat_eur_per_mwh=5000.0))
+    model = build_model(prepared)
+    lp = model.lp
+    lp.set_objective(model.money)
+    session = HighsSession(lp, lean=True)
+    assert session.solve().status == "optimal"
+    first_basis = session.basis()
+    lp.set_objective(model.money + 500.0 * co2_stage_objective(model)[0])
+    assert session.set_basis(first_basis)
+    second = session.solve()
+    assert second.status == "optimal"
+    reference = linprog_optimum(lp.cost, lp.matrix(), lp.col_lower, lp.col_upper, lp.row_lower, lp.row_upper)
+    assert float(lp.cost @ second.x) == pytest.approx(reference, rel=1e-7)
+    lp.add_rows_coo("extra", 1, np.zeros(1), np.zeros(1, np.int64), np.ones(1), upper=np.array([1e9]))
+    with pytest.raises(ValueError, match="new costs only"):
+        session.solve()
