@@ -129,7 +129,8 @@ with tab_curve:
             "unserved_heat_mwh_per_a": "Unserved heat [MWh/a]",
             "status": "Status"}), hide_index=True, width="stretch", column_config={
             "Abatement cost [€/t]": st.column_config.NumberColumn(
-                help="Extra cost per tonne avoided against the previous point."),
+                help="Extra total cost per tonne avoided against the previous point (the total cost already pays "
+                     "the cost case's CO2 price, so this is what a tonne costs beyond it)."),
             "At CO2 price [€/t]": st.column_config.NumberColumn(
                 help="The CO2 price (the cost case's, plus a surcharge) at which this plan is the least-cost one. "
                      "Blank where a point was solved with a CO2 limit instead.")})
