@@ -278,8 +278,10 @@ class LiveDistricts:
         settings = dataclasses.replace(settings, objective="cost", co2_cap_t_per_a=None)
         self.prepared = prepare_run(scenario, cost_case, settings)
         self.models = [build_model(self.prepared, [i]) for i in range(len(self.prepared.district_ids))]
-        self.highs = [m.lp.to_highs(time_limit_s) for m in self.models]
-        self._costs = [m.money.copy() for m in self.models]
+        for m in self.models:
+            m.lp.set_objective(m.money)
+        # lean sessions: the trimmed program in HiGHS (engine.model.lp.lean_program), new costs mapped onto it
+        self.sessions = [HighsSession(m.lp, time_limit_s, lean=True) for m in self.models]
 
     def emissions_and_cost(self, co2_surcharge_eur_per_t: float) -> tuple[float, float]:
         """The city's CO2 [t/a] and its cost at the cost case's own prices [€/a] (annuities, O&M, energy, CO2 at
@@ -292,14 +294,9 @@ class LiveDistricts:
             If a district LP is not solved to optimality (its status named).
         """
         emissions = cost = 0.0
-        for k, (model, h) in enumerate(zip(self.models, self.highs)):
-            target = model.money + float(co2_surcharge_eur_per_t) * model.emissions
-            changed = np.flatnonzero(target != self._costs[k]).astype(np.int32)
-            if len(changed):
-                h.changeColsCost(len(changed), changed, target[changed])
-                self._costs[k] = target
-            h.run()
-            solution = read_highs_solution(h, 0.0)
+        for k, (model, session) in enumerate(zip(self.models, self.sessions)):
+            model.lp.set_objective(model.money + float(co2_surcharge_eur_per_t) * model.emissions)
+            solution = session.solve()
             if solution.status != "optimal":
                 raise RuntimeError(f"district {self.prepared.district_ids[k]}: {solution.message}")
             x = solution.x
