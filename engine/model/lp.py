@@ -294,6 +294,11 @@ class LinearProgram:
         return (prob, variables, row_names) if with_row_names else (prob, variables)
 
 
+def _highs_bounds(lower: np.ndarray, upper: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Bounds as HiGHS takes them: infinite ones as its own infinity."""
+    return np.where(np.isinf(lower), -highspy.kHighsInf, lower), np.where(np.isinf(upper), highspy.kHighsInf, upper)
+
+
 class HighsSession:
     """One :class:`LinearProgram` held in a ``highspy.Highs`` over a series of solves.
 
@@ -409,15 +414,12 @@ class HighsSession:
         lower, upper = lp.col_lower, lp.col_upper
         changed_cols = np.flatnonzero((lower != old.col_lower) | (upper != old.col_upper)).astype(np.int32)
         if len(changed_cols):
-            h.changeColsBounds(len(changed_cols), changed_cols,
-                               np.where(np.isinf(lower[changed_cols]), -highspy.kHighsInf, lower[changed_cols]),
-                               np.where(np.isinf(upper[changed_cols]), highspy.kHighsInf, upper[changed_cols]))
+            h.changeColsBounds(len(changed_cols), changed_cols, *_highs_bounds(lower[changed_cols], upper[changed_cols]))
         row_lower, row_upper = lp.row_lower, lp.row_upper
         changed_rows = np.flatnonzero((row_lower != self._row_lower) | (row_upper != self._row_upper)).astype(np.int32)
         if len(changed_rows):
             h.changeRowsBounds(len(changed_rows), changed_rows,
-                               np.where(np.isinf(row_lower[changed_rows]), -highspy.kHighsInf, row_lower[changed_rows]),
-                               np.where(np.isinf(row_upper[changed_rows]), highspy.kHighsInf, row_upper[changed_rows]))
+                               *_highs_bounds(row_lower[changed_rows], row_upper[changed_rows]))
         self.lp = lp
         self._n_rows = lp.n_rows
         self._n_triplets = len(lp._triplets)
