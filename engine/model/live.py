@@ -555,8 +555,8 @@ class PricedDistricts:
         infinite one). A district whose plan is the same in both (CO2-equivalent and cost equal to
         :data:`SAME_PLAN_TOLERANCE`) keeps that plan without a solve: its least surcharged cost is concave in the
         surcharge and meets the plan's straight line at both ends, so the plan is optimal for every surcharge in
-        between. Every other district starts from the basis of the nearer of the two points (in surcharge) that
-        has one.
+        between. Every other district starts from the basis of the nearer of the two points that has one (nearer
+        in the ratio of the whole CO2 prices, :meth:`_price_distance`).
         """
         lam = float(surcharge_eur_per_t)
         self._tokens += 1
@@ -571,11 +571,19 @@ class PricedDistricts:
                 self.reused += 1
                 continue
             starts = [p for p in (below, above) if p is not None and p.priced and p.values[k] is not None]
-            start = min(starts, key=lambda p: abs(p.surcharge_eur_per_t - lam)).token if starts else None
+            start = min(starts, key=lambda p: self._price_distance(p.surcharge_eur_per_t, lam)).token if starts else None
             tasks.append((k, start, None))
         for k, (solution, value) in self._run("solve", token, lam, tasks).items():
             solutions[k], values[k] = solution, value
         return PricedPoint(lam, token, solutions, values, True)
+
+    def _price_distance(self, a: float, b: float) -> float:
+        """How far apart two surcharges are for a warm start: the ratio of the whole CO2 prices (the case's price,
+        at least 1 EUR/t, plus the surcharge), on a log scale. Measured on the demo at 12 typical days: 5,000 EUR/t
+        from the basis at 21,943 took 0.63 s, from the one at 0 1.82 s; 116 EUR/t 0.69 s from 0 and 1.44 s from
+        21,943 (the case's price is 100 EUR/t)."""
+        base = max(float(self.prepared.prices.co2_eur_per_t), 1.0)
+        return abs(math.log((base + a) / (base + b)))
 
     def least_co2(self) -> PricedPoint:
         """Least CO2, then least cost at it, district by district (the CO2 objective of
