@@ -4,6 +4,7 @@
     python bench/typical_days.py --tsam           # also the same typical-day count chosen by tsam's clustering
     python bench/typical_days.py --single-factor  # also the demand rescaled by one factor (the former method)
     python bench/typical_days.py --sweep 8,12,16,24   # error and solve time per number of typical days
+    python bench/typical_days.py --districts      # also where the heat by technology differs, per district
 
 The full year takes minutes; it is solved once and kept in the temporary folder, keyed by the input hash. All
 clusterings get the same inputs (the daily features the engine clusters, the extreme days taken out and kept
@@ -58,14 +59,22 @@ def compare(result, reference, floor_mwh: float = 100.0) -> dict:
     }
 
 
+def district_differences(result, reference, floor_mwh: float = 20.0):
+    """Per district and technology: capacity and annual heat of the full year and of ``result``, and their
+    differences, for the rows whose heat differs by more than ``floor_mwh`` [kW, MWh/a]."""
+    def table(run):
+        return run.tables["supply"].groupby(["district_id", "technology_id"])[["capacity_kw", "heat_mwh_per_a"]].sum()
+
+    year, typical = table(reference), table(result)
+    both = year.join(typical, how="outer", rsuffix="_typical").fillna(0.0)
+    both["heat_difference_mwh_per_a"] = both["heat_mwh_per_a_typical"] - both["heat_mwh_per_a"]
+    both["capacity_difference_kw"] = both["capacity_kw_typical"] - both["capacity_kw"]
+    return both[both["heat_difference_mwh_per_a"].abs() > floor_mwh].sort_values("heat_difference_mwh_per_a")
+
+
 def _features(scenario, settings):
     heat, cool = prepare_mod.demand_year_kw(scenario, settings)
-    hourly = scenario.hourly
-    columns = [hourly["outdoor_temp_c"].to_numpy(float), heat.sum(axis=0),
-               hourly["electricity_price_eur_per_mwh"].to_numpy(float),
-               hourly["network_price_eur_per_mwh"].to_numpy(float), hourly["grid_co2_kg_per_mwh"].to_numpy(float)]
-    if cool.sum() > 0:
-        columns.append(cool.sum(axis=0))
+    columns = prepare_mod.CLUSTER_SERIES(scenario, heat, cool)
     extremes = sorted(set(prepare_mod.extreme_days(scenario, heat, cool).values()))
     return daily_features(np.column_stack(columns)), extremes
 
@@ -157,7 +166,7 @@ def timed_solve(scenario, settings, repeats: int = 3):
 
 
 def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, single_factor: bool = False,
-                  sweep=()) -> dict:
+                  sweep=(), districts: bool = False) -> dict:
     """The demo at its default resolution (or ``typical_days``) against the full year; optionally tsam's days,
     the former single-factor rescaling, and other numbers of typical days (``sweep``)."""
     scenario = load_scenario(resolve_scenario_path("demo"))
@@ -169,6 +178,8 @@ def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, sing
     out = {"typical_days": settings.typical_days, "full_year_s": year_s,
            "own": {**compare(ours, reference), "solve_s": solve_s,
                    "cluster_s": own_grid_seconds(scenario, settings)}}
+    if districts:
+        out["districts"] = district_differences(ours, reference)
     if single_factor:
         started = time.perf_counter()
         result = solve_single_factor(scenario, settings)
@@ -201,10 +212,11 @@ def main(argv=None) -> int:
     parser.add_argument("--typical-days", type=int, default=None)
     parser.add_argument("--single-factor", action="store_true", help="also the former single-factor rescaling")
     parser.add_argument("--sweep", default="", help="numbers of typical days to compare, e.g. 8,12,16,24")
+    parser.add_argument("--districts", action="store_true", help="also the heat by technology per district")
     args = parser.parse_args(argv)
     sweep = [int(d) for d in args.sweep.split(",") if d.strip()]
     load = os.getloadavg()[0]
-    figures = demo_fidelity(args.tsam, args.typical_days, args.single_factor, sweep)
+    figures = demo_fidelity(args.tsam, args.typical_days, args.single_factor, sweep, args.districts)
     print(f"demo, {figures['typical_days']} typical days + extreme days; full year solved in "
           f"{figures['full_year_s']:.1f} s")
     for name, row in figures.items():
@@ -219,6 +231,9 @@ def main(argv=None) -> int:
               f"city's heat, its share {row['heat_share_worst_pct']:.2f} %), clustering {row['cluster_s']:.3f} s, "
               f"solve {row.get('solve_s', math.nan):.2f} s; heat errors " + ", ".join(
                   f"{t} {e:+.2f} %" for t, e in sorted(row["heat_errors_pct"].items())))
+    if args.districts:
+        print("per district (capacity kW, heat MWh/a; full year, typical days, difference):")
+        print(figures["districts"].round(0).to_string())
     print(f"1-min load average {load:.1f} before / {os.getloadavg()[0]:.1f} after, {os.cpu_count()} cores")
     print(f"fidelity_cost_error_pct={figures['own']['cost_error_pct']:.3f}")
     return 0

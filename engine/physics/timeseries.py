@@ -693,16 +693,81 @@ def keep_duration_curve(year_values, grid: TimeGrid):
     if steps.size == 0:
         return out, error
     for r in range(year.shape[0]):
-        curve = np.sort(year[r, clustered_hours])[::-1]  # duration curve of the clustered days
-        cumulative = np.r_[0.0, np.cumsum(curve)]
-        order = steps[np.argsort(-values[r, steps], kind="stable")]
-        edges = np.r_[0.0, np.cumsum(w[order])]
-        edges = np.clip(edges * (curve.size / edges[-1]), 0.0, curve.size)  # weights sum to those hours
-        whole = np.minimum(np.floor(edges).astype(int), curve.size - 1)
-        energy = cumulative[whole] + (edges - whole) * curve[whole]  # area under the curve up to each edge
-        weight = w[order]
-        out[r, order] = np.where(weight > 0, np.diff(energy) / np.where(weight > 0, weight, 1.0), values[r, order])
+        out[r, steps] = _duration_curve_bands(year[r, clustered_hours], values[r, steps], w[steps])
     return out, error
+
+
+def _duration_curve_bands(year_values: np.ndarray, own_values: np.ndarray, weight: np.ndarray) -> np.ndarray:
+    """Values of steps (own values ``own_values``, weights ``weight`` summing to the hours ``year_values``
+    covers) that take, ranked highest first, the mean of consecutive bands of the sorted ``year_values``."""
+    curve = np.sort(year_values)[::-1]
+    cumulative = np.r_[0.0, np.cumsum(curve)]
+    order = np.argsort(-own_values, kind="stable")
+    edges = np.r_[0.0, np.cumsum(weight[order])]
+    edges = np.clip(edges * (curve.size / edges[-1]), 0.0, curve.size)  # weights sum to those hours
+    whole = np.minimum(np.floor(edges).astype(int), curve.size - 1)
+    energy = cumulative[whole] + (edges - whole) * curve[whole]  # area under the curve up to each edge
+    ordered_weight = weight[order]
+    out = np.empty_like(own_values, dtype=float)
+    out[order] = np.where(ordered_weight > 0, np.diff(energy) / np.where(ordered_weight > 0, ordered_weight, 1.0),
+                          own_values[order])
+    return out
+
+
+def keep_cost_duration_curve(driver_year, companion_years, grid: TimeGrid, within: str = "year"):
+    """Values of series that set a cost together (a price and its CO2 factor) at the model steps: ranked by the
+    cost they set, each step takes the mean of its band of the year's hours ranked the same way.
+
+    ``driver_year`` is the hourly cost the series set (e.g. electricity price + CO2 price x grid CO2 factor),
+    ``companion_years`` the series themselves, shape (rows, n_hours). The clustered steps (within the whole year,
+    or with ``within="period"`` within each typical day's own cluster) are ranked by their own driver value,
+    highest first; the step of rank i, of weight w_i, stands for the hours sum_{j<i} w_j .. sum_{j<=i} w_j of
+    the clustered hours sorted by the driver, highest first, and every companion takes its mean over those hours.
+    Each companion's weighted sum is the year's exactly and, when the driver is a fixed linear combination of
+    the companions, the driver's duration curve is the year's to within one band: the hours in which one supply
+    is cheaper than another are as many as in the year. Extreme days keep their values. The duration-curve
+    criterion of Poncelet et al. (2017), IEEE Transactions on Power Systems 32(3), 1936-1948, applied to the
+    cost that decides the dispatch rather than to each price alone (sorting two series separately would pair a
+    high price with a high CO2 factor that did not occur together).
+
+    Returns
+    -------
+    numpy.ndarray
+        Companions at the model steps, shape (rows, n_steps).
+    """
+    driver = np.asarray(driver_year, dtype=float).ravel()
+    rows = np.atleast_2d(np.asarray(companion_years, dtype=float))
+    if driver.size != grid.n_hours or rows.shape[1] != grid.n_hours:
+        raise ValueError(f"series must have {grid.n_hours} hourly values; got {driver.size} and {rows.shape}")
+    if not (np.all(np.isfinite(driver)) and np.all(np.isfinite(rows))):
+        raise ValueError("series must be finite")
+    if within not in ("year", "period"):
+        raise ValueError(f"within must be 'year' or 'period'; got {within!r}")
+    out = rows[:, grid.year_hour].copy()
+    if grid.is_full_year:
+        return out
+    extreme = (np.asarray(grid.extreme_period, dtype=bool) if grid.extreme_period is not None
+               else np.zeros(grid.n_periods, dtype=bool))
+    hour_period = np.repeat(grid.day_period, HOURS_PER_DAY)
+    groups = ([np.flatnonzero(~extreme)] if within == "year" else [[p] for p in np.flatnonzero(~extreme)])
+    own = driver[grid.year_hour]
+    for periods in groups:
+        steps = np.flatnonzero(np.isin(grid.period, periods))
+        hours = np.flatnonzero(np.isin(hour_period, periods))
+        if steps.size == 0 or hours.size == 0:
+            continue
+        by_cost = hours[np.argsort(-driver[hours], kind="stable")]
+        order = steps[np.argsort(-own[steps], kind="stable")]
+        weight = grid.weight_h[order]
+        edges = np.r_[0.0, np.cumsum(weight)]
+        edges = np.clip(edges * (hours.size / edges[-1]), 0.0, hours.size)
+        whole = np.minimum(np.floor(edges).astype(int), hours.size - 1)
+        for r in range(rows.shape[0]):
+            sorted_values = rows[r, by_cost]
+            cumulative = np.r_[0.0, np.cumsum(sorted_values)]
+            area = cumulative[whole] + (edges - whole) * sorted_values[whole]
+            out[r, order] = np.where(weight > 0, np.diff(area) / np.where(weight > 0, weight, 1.0), out[r, order])
+    return out
 
 
 def daily_features(hourly_table) -> np.ndarray:
