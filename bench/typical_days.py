@@ -4,6 +4,7 @@
     python bench/typical_days.py --tsam           # also the same typical-day count chosen by tsam's clustering
     python bench/typical_days.py --single-factor  # also the demand rescaled by one factor (the former method)
     python bench/typical_days.py --sweep 8,12,16,24   # error and solve time per number of typical days
+    python bench/typical_days.py --former         # also the former days and prices (medoid hours' own prices)
     python bench/typical_days.py --districts      # also where the heat by technology differs, per district
 
 The full year takes minutes; it is solved once and kept in the temporary folder, keyed by the input hash. All
@@ -154,6 +155,31 @@ def solve_single_factor(scenario, settings):
         prepare_mod.DEMAND_REPRESENTATION = original
 
 
+def former_series(scenario, heat, cool):
+    """The series the days were clustered on before: outdoor temperature, city heat, electricity and network
+    prices, grid CO2 factor (no network CO2 factor) and city cooling."""
+    hourly = scenario.hourly
+    columns = [hourly["outdoor_temp_c"].to_numpy(float), heat.sum(axis=0),
+               hourly["electricity_price_eur_per_mwh"].to_numpy(float),
+               hourly["network_price_eur_per_mwh"].to_numpy(float), hourly["grid_co2_kg_per_mwh"].to_numpy(float)]
+    if cool.sum() > 0:
+        columns.append(cool.sum(axis=0))
+    return columns
+
+
+def solve_former(scenario, settings):
+    """The run with the former choice of days (:func:`former_series`) and the medoid hours' own prices and CO2
+    factors (``prepare.PRICE_REPRESENTATION = None``)."""
+    original = prepare_mod.CLUSTER_SERIES, prepare_mod.PRICE_REPRESENTATION
+    prepare_mod.CLUSTER_SERIES, prepare_mod.PRICE_REPRESENTATION = former_series, None
+    prepare_mod.clear_grid_memo()
+    try:
+        return solve_scenario(scenario, settings=settings)
+    finally:
+        prepare_mod.CLUSTER_SERIES, prepare_mod.PRICE_REPRESENTATION = original
+        prepare_mod.clear_grid_memo()
+
+
 def timed_solve(scenario, settings, repeats: int = 3):
     """The run and its median wall time over ``repeats`` solves, the grid memo cleared before each [s]."""
     seconds = []
@@ -166,7 +192,7 @@ def timed_solve(scenario, settings, repeats: int = 3):
 
 
 def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, single_factor: bool = False,
-                  sweep=(), districts: bool = False) -> dict:
+                  sweep=(), districts: bool = False, former: bool = False) -> dict:
     """The demo at its default resolution (or ``typical_days``) against the full year; optionally tsam's days,
     the former single-factor rescaling, and other numbers of typical days (``sweep``)."""
     scenario = load_scenario(resolve_scenario_path("demo"))
@@ -185,6 +211,17 @@ def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, sing
         result = solve_single_factor(scenario, settings)
         out["own_single_factor"] = {**compare(result, reference), "solve_s": time.perf_counter() - started,
                                     "cluster_s": out["own"]["cluster_s"]}
+    if former:
+        started = time.perf_counter()
+        result = solve_former(scenario, settings)
+        out["own_former"] = {**compare(result, reference), "solve_s": time.perf_counter() - started,
+                             "cluster_s": out["own"]["cluster_s"]}
+        for days in sweep:
+            other = run_settings(scenario, typical_days=days)
+            started = time.perf_counter()
+            result = solve_former(scenario, other)
+            out[f"own_former_{days}_days"] = {**compare(result, reference), "solve_s": time.perf_counter() - started,
+                                              "cluster_s": math.nan}
     for days in sweep:
         other = run_settings(scenario, typical_days=days)
         result, seconds = timed_solve(scenario, other)
@@ -213,10 +250,11 @@ def main(argv=None) -> int:
     parser.add_argument("--single-factor", action="store_true", help="also the former single-factor rescaling")
     parser.add_argument("--sweep", default="", help="numbers of typical days to compare, e.g. 8,12,16,24")
     parser.add_argument("--districts", action="store_true", help="also the heat by technology per district")
+    parser.add_argument("--former", action="store_true", help="also the former days and prices")
     args = parser.parse_args(argv)
     sweep = [int(d) for d in args.sweep.split(",") if d.strip()]
     load = os.getloadavg()[0]
-    figures = demo_fidelity(args.tsam, args.typical_days, args.single_factor, sweep, args.districts)
+    figures = demo_fidelity(args.tsam, args.typical_days, args.single_factor, sweep, args.districts, args.former)
     print(f"demo, {figures['typical_days']} typical days + extreme days; full year solved in "
           f"{figures['full_year_s']:.1f} s")
     for name, row in figures.items():

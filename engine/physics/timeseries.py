@@ -17,7 +17,10 @@ Typical days keep the sequence of hours inside a day but not the sequence of day
 multi-day cold spells are not represented. Extreme days (peak heating, peak cooling, coldest) are kept as periods
 of their own with weight one day (:func:`typical_day_grid` ``extreme_days``; Kotzur et al. 2018), and
 :func:`keep_duration_curve` gives the demand of the clustered steps the year's duration curve, which keeps the
-annual sums exactly and the heat above any level to within one step's weight (docs/model.md section 8).
+annual sums exactly and the heat above any level to within one step's weight (docs/model.md section 8), and
+:func:`keep_cost_duration_curve` gives a carrier's price and CO2 factor at the steps of each typical day its
+cluster's duration curve of the carrier's cost, so that the hours in which one supply is cheaper than another are
+as many as in the days it stands for.
 :func:`rescale_to_annual`, one factor per row, is the former method, kept for the comparison in
 bench/typical_days.py.
 
@@ -714,26 +717,53 @@ def _duration_curve_bands(year_values: np.ndarray, own_values: np.ndarray, weigh
     return out
 
 
-def keep_cost_duration_curve(driver_year, companion_years, grid: TimeGrid, within: str = "year"):
+def keep_cost_duration_curve(driver_year, companion_years, grid: TimeGrid, within: str = "period"):
     """Values of series that set a cost together (a price and its CO2 factor) at the model steps: ranked by the
-    cost they set, each step takes the mean of its band of the year's hours ranked the same way.
+    cost they set, each step takes the mean of its band of hours ranked the same way.
 
     ``driver_year`` is the hourly cost the series set (e.g. electricity price + CO2 price x grid CO2 factor),
-    ``companion_years`` the series themselves, shape (rows, n_hours). The clustered steps (within the whole year,
-    or with ``within="period"`` within each typical day's own cluster) are ranked by their own driver value,
+    ``companion_years`` the series themselves, shape (rows, n_hours). Within each typical day's cluster (or,
+    with ``within="year"``, over all clustered days at once) the steps are ranked by their own driver value,
     highest first; the step of rank i, of weight w_i, stands for the hours sum_{j<i} w_j .. sum_{j<=i} w_j of
-    the clustered hours sorted by the driver, highest first, and every companion takes its mean over those hours.
-    Each companion's weighted sum is the year's exactly and, when the driver is a fixed linear combination of
-    the companions, the driver's duration curve is the year's to within one band: the hours in which one supply
-    is cheaper than another are as many as in the year. Extreme days keep their values. The duration-curve
-    criterion of Poncelet et al. (2017), IEEE Transactions on Power Systems 32(3), 1936-1948, applied to the
-    cost that decides the dispatch rather than to each price alone (sorting two series separately would pair a
-    high price with a high CO2 factor that did not occur together).
+    the cluster's hours sorted by the driver, highest first, and every companion takes its mean over those hours.
+    So:
+
+    - each companion's weighted sum is the year's exactly (and each cluster's, with ``within="period"``);
+    - when the driver is a fixed linear combination of the companions, its duration curve within each cluster
+      is the cluster's to within one band: the hours of each season in which one supply is cheaper than another
+      are as many as in the days the typical day stands for, which decides how heat splits between two
+      supplies whose costs lie close together;
+    - no step pairs a price with a CO2 factor it never met (sorting each series alone would pair the highest of
+      both); within a day the order of the hours by cost is kept; extreme days keep their values.
+
+    Duration curves are the criterion of Poncelet, K., Hoeschle, H., Delarue, E., Virag, A. and D'haeseleer, W.
+    (2017). Selecting representative days for capturing the implications of integrating intermittent renewables
+    in generation expansion planning problems. IEEE Transactions on Power Systems 32(3), 1936-1948; keeping each
+    cluster's distribution in its representative period is the distribution-preserving representation of
+    Hoffmann, M., Kotzur, L. and Stolten, D. (2022). The Pareto-optimal temporal aggregation of energy system
+    models. Applied Energy 315, 119029 (from memory). Here the curve is taken of the cost that decides the
+    dispatch and carried to the series that make it up.
+
+    Parameters
+    ----------
+    driver_year : array_like
+        The hourly cost that ranks the hours, shape (n_hours,). [EUR/MWh, or any unit]
+    companion_years : array_like
+        Hourly series to carry to the steps, shape (rows, n_hours) or (n_hours,). [any unit]
+    grid : TimeGrid
+        The time grid; its weights must sum to the hours of the year.
+    within : {"period", "year"}, default "period"
+        Rank within each cluster, or over all clustered days at once.
 
     Returns
     -------
     numpy.ndarray
-        Companions at the model steps, shape (rows, n_steps).
+        Companions at the model steps, shape (rows, n_steps); for the full year the hourly values as they are.
+
+    Raises
+    ------
+    ValueError
+        If a series does not hold ``grid.n_hours`` finite values or ``within`` is neither "period" nor "year".
     """
     driver = np.asarray(driver_year, dtype=float).ravel()
     rows = np.atleast_2d(np.asarray(companion_years, dtype=float))
