@@ -67,7 +67,7 @@ def district_differences(result, reference, floor_mwh: float = 20.0):
         return run.tables["supply"].groupby(["district_id", "technology_id"])[["capacity_kw", "heat_mwh_per_a"]].sum()
 
     year, typical = table(reference), table(result)
-    both = year.join(typical, how="outer", rsuffix="_typical").fillna(0.0)
+    both = year.merge(typical, how="outer", left_index=True, right_index=True, suffixes=("", "_typical")).fillna(0.0)
     both["heat_difference_mwh_per_a"] = both["heat_mwh_per_a_typical"] - both["heat_mwh_per_a"]
     both["capacity_difference_kw"] = both["capacity_kw_typical"] - both["capacity_kw"]
     return both[both["heat_difference_mwh_per_a"].abs() > floor_mwh].sort_values("heat_difference_mwh_per_a")
@@ -168,15 +168,19 @@ def former_series(scenario, heat, cool):
 
 
 def solve_former(scenario, settings):
-    """The run with the former choice of days (:func:`former_series`) and the medoid hours' own prices and CO2
-    factors (``prepare.PRICE_REPRESENTATION = None``)."""
-    original = prepare_mod.CLUSTER_SERIES, prepare_mod.PRICE_REPRESENTATION
-    prepare_mod.CLUSTER_SERIES, prepare_mod.PRICE_REPRESENTATION = former_series, None
+    """The run with the former choice of days (:func:`former_series`) and the medoid hours' own prices, CO2
+    factors (``prepare.PRICE_REPRESENTATION = None``) and groundwater temperatures."""
+    names = ("CLUSTER_SERIES", "PRICE_REPRESENTATION", "GROUNDWATER_REPRESENTATION")
+    original = [getattr(prepare_mod, name) for name in names]
+    former = (former_series, None, lambda year, grid: year[:, grid.year_hour])
+    for name, value in zip(names, former):
+        setattr(prepare_mod, name, value)
     prepare_mod.clear_grid_memo()
     try:
         return solve_scenario(scenario, settings=settings)
     finally:
-        prepare_mod.CLUSTER_SERIES, prepare_mod.PRICE_REPRESENTATION = original
+        for name, value in zip(names, original):
+            setattr(prepare_mod, name, value)
         prepare_mod.clear_grid_memo()
 
 

@@ -1,7 +1,9 @@
-"""Typical days that keep what drives the choice between supplies: each cluster's duration curve of demand and
-of prices, weather and CO2 factors (the distribution-preserving representation of Hoffmann, Kotzur & Stolten 2022,
-Applied Energy 315, 119029, from memory). Checks against hand calculations written out in each test and against
-plain numpy sums of the hourly year the test builds.
+"""Typical days that keep what drives the choice between supplies: each cluster's duration curve of what a MWh of
+electricity or network heat costs, carried to the price and the CO2 factor it is made of (the duration-curve
+criterion of Poncelet et al. 2017, IEEE Trans. Power Syst. 32(3), per cluster as in the distribution-preserving
+representation of Hoffmann, Kotzur & Stolten 2022, Applied Energy 315, 119029, from memory), and the cluster mean
+of slowly varying series (groundwater temperature). Checks against hand calculations written out in each test and
+against plain numpy sums of the hourly year the test builds.
 """
 
 from __future__ import annotations
@@ -9,7 +11,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from engine.physics.timeseries import full_year_grid, grid_from_medoids, keep_cost_duration_curve, keep_duration_curve
+from engine.physics.timeseries import (full_year_grid, grid_from_medoids, keep_cost_duration_curve, keep_duration_curve,
+                                      period_mean)
 
 
 def two_clusters():
@@ -72,3 +75,27 @@ def test_cost_ranked_keeps_extreme_days_sums_and_the_full_year():
     np.testing.assert_array_equal(full, np.vstack([price, co2]))
     with pytest.raises(ValueError, match="within"):
         keep_cost_duration_curve(cost, price, grid, within="week")
+
+
+def test_period_mean_by_hand():
+    """By hand. Days of 1, 3, 8 and 4 (flat) with hour 5 of day 1 at 7 instead of 3; days 0-1 stand for period A
+    (medoid day 0), days 2-3 for period B (medoid day 2). A's steps take (1 + 3) / 2 = 2, hour 5 (1 + 7) / 2 = 4;
+    B's steps (8 + 4) / 2 = 6. Weighted sum: 2 h * (23 * 2 + 4 + 24 * 6) = 388 = the year's 24 + 23 * 3 + 7 + 192
+    + 96. With day 3 an extreme day standing alone, B is day 2 alone (8) and day 3 keeps 4."""
+    year = np.repeat([1.0, 3.0, 8.0, 4.0], 24)
+    year[24 + 5] = 7.0
+    grid = grid_from_medoids([0, 2], [0, 1, 2, 3], [0, 0, 1, 1], [], 4)
+    values = period_mean(year, grid)
+    expected_a = np.full(24, 2.0)
+    expected_a[5] = 4.0
+    np.testing.assert_allclose(values[grid.period == 0], expected_a, rtol=1e-12)
+    np.testing.assert_allclose(values[grid.period == 1], np.full(24, 6.0), rtol=1e-12)
+    assert values @ grid.weight_h == pytest.approx(388.0, rel=1e-12) and year.sum() == pytest.approx(388.0)
+    with_extreme = grid_from_medoids([0, 2], [0, 1, 2], [0, 0, 1], [3], 4)
+    values = period_mean(np.vstack([year, 2 * year]), with_extreme)
+    np.testing.assert_allclose(values[0, with_extreme.period == 1], np.full(24, 8.0), rtol=1e-12)
+    np.testing.assert_allclose(values[0, with_extreme.is_extreme_step], np.full(24, 4.0), rtol=1e-12)
+    np.testing.assert_allclose(values[1], 2 * values[0], rtol=1e-12)
+    np.testing.assert_array_equal(period_mean(year, full_year_grid(96)), year)
+    with pytest.raises(ValueError, match="hourly values"):
+        period_mean(year[:95], grid)

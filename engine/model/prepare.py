@@ -21,7 +21,7 @@ from engine.physics import water
 from engine.physics import wells as wells_mod
 from engine.scenario.inputs import EffectivePrices, Scenario, Settings, apply_cost_case, hot_water_temp_c
 from engine.physics.timeseries import (TimeGrid, daily_features, full_year_grid, keep_cost_duration_curve,
-                                      keep_duration_curve, typical_day_grid)
+                                      keep_duration_curve, period_mean, typical_day_grid)
 from engine.units import SECONDS_PER_HOUR
 
 
@@ -297,6 +297,12 @@ each typical day by the carrier's cost and gives them its cluster's hours ranked
 takes the medoid hours' own values (the former method, for the comparison in bench/typical_days.py)."""
 
 
+GROUNDWATER_REPRESENTATION = period_mean
+"""How the groundwater temperature of the typical days stands for the year: each typical day's cluster mean at
+the same hour (:func:`engine.physics.timeseries.period_mean`); ``lambda year, grid: year[:, grid.year_hour]``
+takes the medoid hours' own values (the former method)."""
+
+
 def carrier_at_steps(grid: TimeGrid, price, co2_kg_per_mwh, co2_eur_per_t: float):
     """A carrier's price [EUR/MWh] and CO2 factor [kg/MWh] at the model steps (:data:`PRICE_REPRESENTATION`)."""
     price = np.asarray(price, dtype=float)
@@ -362,7 +368,8 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
     wells = scenario.wells
     district_index = {d: i for i, d in enumerate(districts["district_id"])}
     well_district = np.array([district_index[d] for d in wells["district_id"]], dtype=int)
-    gw = groundwater_year_c(scenario)[:, steps] if len(wells) else np.zeros((0, len(steps)))
+    # groundwater temperature of a typical day: its cluster's mean (the aquifer lags the weather by weeks)
+    gw = GROUNDWATER_REPRESENTATION(groundwater_year_c(scenario), grid) if len(wells) else np.zeros((0, len(steps)))
     well_cop, well_cop_hw = {}, {}
     for row in techs[techs["kind"] == "groundwater_heat_pump"].itertuples(index=False):
         well_cop[row.technology_id] = heatpump.heat_pump_cop(

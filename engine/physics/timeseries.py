@@ -800,6 +800,51 @@ def keep_cost_duration_curve(driver_year, companion_years, grid: TimeGrid, withi
     return out
 
 
+def period_mean(year_values, grid: TimeGrid) -> np.ndarray:
+    """Values at the model steps: for each typical day, the mean over the calendar days it stands for at the same
+    hour of the day (the centroid of its cluster); extreme days keep their own values.
+
+    For series that vary slowly over the season and hardly within a day, such as the groundwater temperature:
+    a medoid day's own value would stand for days weeks apart (days are clustered by their weather, and the
+    aquifer lags the air by weeks), while the cluster's mean keeps the year's weighted sum exactly and each
+    cluster's mean. Representing a cluster by its centroid rather than its medoid is the centroid representation
+    compared in Kotzur, L., Markewitz, P., Robinius, M. and Stolten, D. (2018). Impact of different time series
+    aggregation methods on optimal energy system design. Renewable Energy 117, 474-487.
+
+    Parameters
+    ----------
+    year_values : array_like
+        Hourly values, shape (rows, n_hours) or (n_hours,). [any unit]
+    grid : TimeGrid
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape (rows, n_steps) (or (n_steps,) for a 1-D input); for the full year the hourly values as they are.
+
+    Raises
+    ------
+    ValueError
+        If the rows do not hold ``grid.n_hours`` finite values.
+    """
+    values = np.asarray(year_values, dtype=float)
+    year = np.atleast_2d(values)
+    if year.ndim != 2 or year.shape[1] != grid.n_hours:
+        raise ValueError(f"year_values must have {grid.n_hours} hourly values per row; got shape {values.shape}")
+    if not np.all(np.isfinite(year)):
+        raise ValueError("year_values must be finite")
+    out = year[:, grid.year_hour].copy()
+    if not grid.is_full_year:
+        extreme = (np.asarray(grid.extreme_period, dtype=bool) if grid.extreme_period is not None
+                   else np.zeros(grid.n_periods, dtype=bool))
+        by_day = year.reshape(year.shape[0], -1, HOURS_PER_DAY)
+        for period in np.flatnonzero(~extreme):
+            days = np.flatnonzero(grid.day_period == period)
+            steps = np.flatnonzero(grid.period == period)
+            out[:, steps] = by_day[:, days, :].mean(axis=1)[:, grid.hour_of_day[steps]]
+    return out if values.ndim == 2 else out[0]
+
+
 def daily_features(hourly_table) -> np.ndarray:
     """Per-day feature vectors from hourly series: the 24 hours of each series side by side.
 
