@@ -39,16 +39,27 @@ def _relative_pct(value: float, reference: float) -> float:
     return 100.0 * (value - reference) / abs(reference) if abs(reference) > 1e-9 else math.nan
 
 
+STORE_TECHNOLOGIES = ("heat_store",)
+"""Technologies whose annual 'heat' is the net of charging and discharging (their losses), not a supply."""
+
+
 def compare(result, reference, floor_mwh: float = 100.0) -> dict:
-    """Cost error and the largest error of a technology's annual heat (technologies above ``floor_mwh``) [%],
-    with that technology's error in MWh/a and as a share of the city's heat [%], and its share of the heat."""
+    """Cost error and the largest error of a supply technology's annual heat (above ``floor_mwh``; stores, whose
+    annual figure is their net losses, are listed but not counted as the worst) [%],
+    with that technology's error in MWh/a and as a share of the city's heat [%], and its share of the heat; the
+    misplaced heat (heat supplied by another technology than in the full year) as a share of the city's heat."""
     heat = result.heat_by_technology_mwh_per_a()
     ref_heat = reference.heat_by_technology_mwh_per_a()
     total = reference.heat_demand_mwh_per_a
     errors = {t: _relative_pct(heat.get(t, 0.0), v) for t, v in ref_heat.items() if abs(v) >= floor_mwh}
-    worst = max(errors, key=lambda t: abs(errors[t])) if errors else ""
+    supplies = [t for t in errors if t not in STORE_TECHNOLOGIES]
+    worst = max(supplies, key=lambda t: abs(errors[t])) if supplies else ""
     absolute = heat.get(worst, 0.0) - ref_heat.get(worst, 0.0) if worst else 0.0
+    # heat supplied by another technology than in the full year: half the absolute differences (stores left out)
+    misplaced = 0.5 * sum(abs(heat.get(t, 0.0) - ref_heat.get(t, 0.0)) for t in set(heat) | set(ref_heat)
+                          if t not in STORE_TECHNOLOGIES)
     return {
+        "misplaced_heat_pct": 100.0 * misplaced / total if total > 0 else math.nan,
         "cost_error_pct": _relative_pct(result.total_cost_eur_per_a, reference.total_cost_eur_per_a),
         "co2_error_pct": _relative_pct(result.co2_t_per_a, reference.co2_t_per_a),
         "heat_error_max_pct": abs(errors[worst]) if worst else 0.0,
@@ -267,7 +278,8 @@ def main(argv=None) -> int:
         if "error" in row:
             print(f"  {name}: {row['error']}")
             continue
-        print(f"  {name}: cost {row['cost_error_pct']:+.3f} %, CO2 {row['co2_error_pct']:+.3f} %, worst heat "
+        print(f"  {name}: cost {row['cost_error_pct']:+.3f} %, CO2 {row['co2_error_pct']:+.3f} %, misplaced heat "
+              f"{row['misplaced_heat_pct']:.2f} % of the city's heat, worst heat "
               f"{row['heat_error_max_pct']:.3f} % ({row['heat_error_worst_technology']}: "
               f"{row['heat_error_worst_mwh_per_a']:+,.0f} MWh/a, {row['heat_error_worst_pct_of_heat']:+.3f} % of the "
               f"city's heat, its share {row['heat_share_worst_pct']:.2f} %), clustering {row['cluster_s']:.3f} s, "
