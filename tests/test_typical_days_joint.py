@@ -11,8 +11,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from engine.physics.timeseries import (full_year_grid, grid_from_medoids, keep_cost_duration_curve, keep_duration_curve,
-                                      period_mean)
+from engine.physics.carrier_curves import keep_cost_duration_curve, period_mean
+from engine.physics.timeseries import full_year_grid, grid_from_medoids, keep_duration_curve
 
 
 def two_clusters():

@@ -20,8 +20,8 @@ from engine.physics import heatpump
 from engine.physics import water
 from engine.physics import wells as wells_mod
 from engine.scenario.inputs import EffectivePrices, Scenario, Settings, apply_cost_case, hot_water_temp_c
-from engine.physics.timeseries import (TimeGrid, daily_features, full_year_grid, keep_cost_duration_curve,
-                                      keep_duration_curve, period_mean, typical_day_grid)
+from engine.physics.carrier_curves import keep_cost_duration_curve, period_mean
+from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, keep_duration_curve, typical_day_grid
 from engine.units import SECONDS_PER_HOUR
 
 
@@ -293,13 +293,13 @@ DEMAND_REPRESENTATION = keep_duration_curve
 PRICE_REPRESENTATION = "period"
 """How prices and CO2 factors of the typical days stand for the year: ``"period"`` (default) ranks the steps of
 each typical day by the carrier's cost and gives them its cluster's hours ranked the same way
-(:func:`engine.physics.timeseries.keep_cost_duration_curve`), ``"year"`` does so over all clustered hours, None
+(:func:`engine.physics.carrier_curves.keep_cost_duration_curve`), ``"year"`` does so over all clustered hours, None
 takes the medoid hours' own values (the former method, for the comparison in bench/typical_days.py)."""
 
 
 GROUNDWATER_REPRESENTATION = period_mean
 """How the groundwater temperature of the typical days stands for the year: each typical day's cluster mean at
-the same hour (:func:`engine.physics.timeseries.period_mean`); ``lambda year, grid: year[:, grid.year_hour]``
+the same hour (:func:`engine.physics.carrier_curves.period_mean`); ``lambda year, grid: year[:, grid.year_hour]``
 takes the medoid hours' own values (the former method)."""
 
 
