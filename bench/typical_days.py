@@ -4,6 +4,8 @@
     python bench/typical_days.py --tsam           # also the same typical-day count chosen by tsam's clustering
     python bench/typical_days.py --single-factor  # also the demand rescaled by one factor (the former method)
     python bench/typical_days.py --sweep 8,12,16,24   # error and solve time per number of typical days
+    python bench/typical_days.py --former         # also the former days and prices (medoid hours' own prices)
+    python bench/typical_days.py --districts      # also where the heat by technology differs, per district
 
 The full year takes minutes; it is solved once and kept in the temporary folder, keyed by the input hash. All
 clusterings get the same inputs (the daily features the engine clusters, the extreme days taken out and kept
@@ -37,16 +39,27 @@ def _relative_pct(value: float, reference: float) -> float:
     return 100.0 * (value - reference) / abs(reference) if abs(reference) > 1e-9 else math.nan
 
 
+STORE_TECHNOLOGIES = ("heat_store",)
+"""Technologies whose annual 'heat' is the net of charging and discharging (their losses), not a supply."""
+
+
 def compare(result, reference, floor_mwh: float = 100.0) -> dict:
-    """Cost error and the largest error of a technology's annual heat (technologies above ``floor_mwh``) [%],
-    with that technology's error in MWh/a and as a share of the city's heat [%], and its share of the heat."""
+    """Cost error and the largest error of a supply technology's annual heat (above ``floor_mwh``; stores, whose
+    annual figure is their net losses, are listed but not counted as the worst) [%],
+    with that technology's error in MWh/a and as a share of the city's heat [%], and its share of the heat; the
+    misplaced heat (heat supplied by another technology than in the full year) as a share of the city's heat."""
     heat = result.heat_by_technology_mwh_per_a()
     ref_heat = reference.heat_by_technology_mwh_per_a()
     total = reference.heat_demand_mwh_per_a
     errors = {t: _relative_pct(heat.get(t, 0.0), v) for t, v in ref_heat.items() if abs(v) >= floor_mwh}
-    worst = max(errors, key=lambda t: abs(errors[t])) if errors else ""
+    supplies = [t for t in errors if t not in STORE_TECHNOLOGIES]
+    worst = max(supplies, key=lambda t: abs(errors[t])) if supplies else ""
     absolute = heat.get(worst, 0.0) - ref_heat.get(worst, 0.0) if worst else 0.0
+    # heat supplied by another technology than in the full year: half the absolute differences (stores left out)
+    misplaced = 0.5 * sum(abs(heat.get(t, 0.0) - ref_heat.get(t, 0.0)) for t in set(heat) | set(ref_heat)
+                          if t not in STORE_TECHNOLOGIES)
     return {
+        "misplaced_heat_pct": 100.0 * misplaced / total if total > 0 else math.nan,
         "cost_error_pct": _relative_pct(result.total_cost_eur_per_a, reference.total_cost_eur_per_a),
         "co2_error_pct": _relative_pct(result.co2_t_per_a, reference.co2_t_per_a),
         "heat_error_max_pct": abs(errors[worst]) if worst else 0.0,
@@ -58,14 +71,22 @@ def compare(result, reference, floor_mwh: float = 100.0) -> dict:
     }
 
 
+def district_differences(result, reference, floor_mwh: float = 20.0):
+    """Per district and technology: capacity and annual heat of the full year and of ``result``, and their
+    differences, for the rows whose heat differs by more than ``floor_mwh`` [kW, MWh/a]."""
+    def table(run):
+        return run.tables["supply"].groupby(["district_id", "technology_id"])[["capacity_kw", "heat_mwh_per_a"]].sum()
+
+    year, typical = table(reference), table(result)
+    both = year.merge(typical, how="outer", left_index=True, right_index=True, suffixes=("", "_typical")).fillna(0.0)
+    both["heat_difference_mwh_per_a"] = both["heat_mwh_per_a_typical"] - both["heat_mwh_per_a"]
+    both["capacity_difference_kw"] = both["capacity_kw_typical"] - both["capacity_kw"]
+    return both[both["heat_difference_mwh_per_a"].abs() > floor_mwh].sort_values("heat_difference_mwh_per_a")
+
+
 def _features(scenario, settings):
     heat, cool = prepare_mod.demand_year_kw(scenario, settings)
-    hourly = scenario.hourly
-    columns = [hourly["outdoor_temp_c"].to_numpy(float), heat.sum(axis=0),
-               hourly["electricity_price_eur_per_mwh"].to_numpy(float),
-               hourly["network_price_eur_per_mwh"].to_numpy(float), hourly["grid_co2_kg_per_mwh"].to_numpy(float)]
-    if cool.sum() > 0:
-        columns.append(cool.sum(axis=0))
+    columns = prepare_mod.CLUSTER_SERIES(scenario, heat, cool)
     extremes = sorted(set(prepare_mod.extreme_days(scenario, heat, cool).values()))
     return daily_features(np.column_stack(columns)), extremes
 
@@ -145,6 +166,35 @@ def solve_single_factor(scenario, settings):
         prepare_mod.DEMAND_REPRESENTATION = original
 
 
+def former_series(scenario, heat, cool):
+    """The series the days were clustered on before: outdoor temperature, city heat, electricity and network
+    prices, grid CO2 factor (no network CO2 factor) and city cooling."""
+    hourly = scenario.hourly
+    columns = [hourly["outdoor_temp_c"].to_numpy(float), heat.sum(axis=0),
+               hourly["electricity_price_eur_per_mwh"].to_numpy(float),
+               hourly["network_price_eur_per_mwh"].to_numpy(float), hourly["grid_co2_kg_per_mwh"].to_numpy(float)]
+    if cool.sum() > 0:
+        columns.append(cool.sum(axis=0))
+    return columns
+
+
+def solve_former(scenario, settings):
+    """The run with the former choice of days (:func:`former_series`) and the medoid hours' own prices, CO2
+    factors (``prepare.PRICE_REPRESENTATION = None``) and groundwater temperatures."""
+    names = ("CLUSTER_SERIES", "PRICE_REPRESENTATION", "GROUNDWATER_REPRESENTATION")
+    original = [getattr(prepare_mod, name) for name in names]
+    former = (former_series, None, lambda year, grid: year[:, grid.year_hour])
+    for name, value in zip(names, former):
+        setattr(prepare_mod, name, value)
+    prepare_mod.clear_grid_memo()
+    try:
+        return solve_scenario(scenario, settings=settings)
+    finally:
+        for name, value in zip(names, original):
+            setattr(prepare_mod, name, value)
+        prepare_mod.clear_grid_memo()
+
+
 def timed_solve(scenario, settings, repeats: int = 3):
     """The run and its median wall time over ``repeats`` solves, the grid memo cleared before each [s]."""
     seconds = []
@@ -157,7 +207,7 @@ def timed_solve(scenario, settings, repeats: int = 3):
 
 
 def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, single_factor: bool = False,
-                  sweep=()) -> dict:
+                  sweep=(), districts: bool = False, former: bool = False) -> dict:
     """The demo at its default resolution (or ``typical_days``) against the full year; optionally tsam's days,
     the former single-factor rescaling, and other numbers of typical days (``sweep``)."""
     scenario = load_scenario(resolve_scenario_path("demo"))
@@ -169,11 +219,24 @@ def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, sing
     out = {"typical_days": settings.typical_days, "full_year_s": year_s,
            "own": {**compare(ours, reference), "solve_s": solve_s,
                    "cluster_s": own_grid_seconds(scenario, settings)}}
+    if districts:
+        out["districts"] = district_differences(ours, reference)
     if single_factor:
         started = time.perf_counter()
         result = solve_single_factor(scenario, settings)
         out["own_single_factor"] = {**compare(result, reference), "solve_s": time.perf_counter() - started,
                                     "cluster_s": out["own"]["cluster_s"]}
+    if former:
+        started = time.perf_counter()
+        result = solve_former(scenario, settings)
+        out["own_former"] = {**compare(result, reference), "solve_s": time.perf_counter() - started,
+                             "cluster_s": out["own"]["cluster_s"]}
+        for days in sweep:
+            other = run_settings(scenario, typical_days=days)
+            started = time.perf_counter()
+            result = solve_former(scenario, other)
+            out[f"own_former_{days}_days"] = {**compare(result, reference), "solve_s": time.perf_counter() - started,
+                                              "cluster_s": math.nan}
     for days in sweep:
         other = run_settings(scenario, typical_days=days)
         result, seconds = timed_solve(scenario, other)
@@ -201,10 +264,12 @@ def main(argv=None) -> int:
     parser.add_argument("--typical-days", type=int, default=None)
     parser.add_argument("--single-factor", action="store_true", help="also the former single-factor rescaling")
     parser.add_argument("--sweep", default="", help="numbers of typical days to compare, e.g. 8,12,16,24")
+    parser.add_argument("--districts", action="store_true", help="also the heat by technology per district")
+    parser.add_argument("--former", action="store_true", help="also the former days and prices")
     args = parser.parse_args(argv)
     sweep = [int(d) for d in args.sweep.split(",") if d.strip()]
     load = os.getloadavg()[0]
-    figures = demo_fidelity(args.tsam, args.typical_days, args.single_factor, sweep)
+    figures = demo_fidelity(args.tsam, args.typical_days, args.single_factor, sweep, args.districts, args.former)
     print(f"demo, {figures['typical_days']} typical days + extreme days; full year solved in "
           f"{figures['full_year_s']:.1f} s")
     for name, row in figures.items():
@@ -213,12 +278,16 @@ def main(argv=None) -> int:
         if "error" in row:
             print(f"  {name}: {row['error']}")
             continue
-        print(f"  {name}: cost {row['cost_error_pct']:+.3f} %, CO2 {row['co2_error_pct']:+.3f} %, worst heat "
+        print(f"  {name}: cost {row['cost_error_pct']:+.3f} %, CO2 {row['co2_error_pct']:+.3f} %, misplaced heat "
+              f"{row['misplaced_heat_pct']:.2f} % of the city's heat, worst heat "
               f"{row['heat_error_max_pct']:.3f} % ({row['heat_error_worst_technology']}: "
               f"{row['heat_error_worst_mwh_per_a']:+,.0f} MWh/a, {row['heat_error_worst_pct_of_heat']:+.3f} % of the "
               f"city's heat, its share {row['heat_share_worst_pct']:.2f} %), clustering {row['cluster_s']:.3f} s, "
               f"solve {row.get('solve_s', math.nan):.2f} s; heat errors " + ", ".join(
                   f"{t} {e:+.2f} %" for t, e in sorted(row["heat_errors_pct"].items())))
+    if args.districts:
+        print("per district (capacity kW, heat MWh/a; full year, typical days, difference):")
+        print(figures["districts"].round(0).to_string())
     print(f"1-min load average {load:.1f} before / {os.getloadavg()[0]:.1f} after, {os.cpu_count()} cores")
     print(f"fidelity_cost_error_pct={figures['own']['cost_error_pct']:.3f}")
     return 0

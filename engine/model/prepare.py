@@ -20,6 +20,7 @@ from engine.physics import heatpump
 from engine.physics import water
 from engine.physics import wells as wells_mod
 from engine.scenario.inputs import EffectivePrices, Scenario, Settings, apply_cost_case, hot_water_temp_c
+from engine.physics.carrier_curves import keep_cost_duration_curve, period_mean
 from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, keep_duration_curve, typical_day_grid
 from engine.units import SECONDS_PER_HOUR
 
@@ -154,6 +155,31 @@ def extreme_days(scenario: Scenario, heat_year_kw: np.ndarray, cool_year_kw: np.
     return days
 
 
+def clustering_series(scenario: Scenario, heat_year_kw: np.ndarray, cool_year_kw: np.ndarray) -> list:
+    """The hourly series whose daily profiles the typical days are clustered on: outdoor temperature, the city's
+    heat demand, what a MWh of grid electricity and of network heat costs (price plus the scenario's CO2 price
+    times the carrier's CO2 factor: what decides between a heat pump, the network and a boiler in each hour) and,
+    if there is cooling, the city's cooling demand."""
+    hourly = scenario.hourly
+    co2_eur_per_kg = float(scenario.prices.co2_eur_per_t) / 1000.0
+    city_cool = cool_year_kw.sum(axis=0)
+    columns = [
+        hourly["outdoor_temp_c"].to_numpy(float),
+        heat_year_kw.sum(axis=0),
+        hourly["electricity_price_eur_per_mwh"].to_numpy(float)
+        + co2_eur_per_kg * hourly["grid_co2_kg_per_mwh"].to_numpy(float),
+        hourly["network_price_eur_per_mwh"].to_numpy(float)
+        + co2_eur_per_kg * hourly["network_co2_kg_per_mwh"].to_numpy(float),
+    ]
+    if city_cool.max(initial=0.0) > 0:
+        columns.append(city_cool)
+    return columns
+
+
+CLUSTER_SERIES = clustering_series
+"""The series :func:`build_time_grid` clusters on (a benchmark may swap it to compare choices)."""
+
+
 def build_time_grid(scenario: Scenario, settings: Settings, heat_year_kw: np.ndarray,
                     cool_year_kw: np.ndarray | None = None) -> TimeGrid:
     """Full year when ``settings.typical_days`` is 0, else k-medoids typical days plus the extreme days
@@ -164,18 +190,7 @@ def build_time_grid(scenario: Scenario, settings: Settings, heat_year_kw: np.nda
         return full_year_grid(n_hours)
     if cool_year_kw is None:
         cool_year_kw = np.zeros_like(heat_year_kw)
-    hourly = scenario.hourly
-    city_heat = heat_year_kw.sum(axis=0)
-    city_cool = cool_year_kw.sum(axis=0)
-    columns = [
-        hourly["outdoor_temp_c"].to_numpy(float),
-        city_heat,
-        hourly["electricity_price_eur_per_mwh"].to_numpy(float),
-        hourly["network_price_eur_per_mwh"].to_numpy(float),
-        hourly["grid_co2_kg_per_mwh"].to_numpy(float),
-    ]
-    if city_cool.max(initial=0.0) > 0:
-        columns.append(city_cool)
+    columns = CLUSTER_SERIES(scenario, heat_year_kw, cool_year_kw)
     features = daily_features(np.column_stack(columns))
     extremes = tuple(sorted(set(extreme_days(scenario, heat_year_kw, cool_year_kw).values())))
     # the grid depends on these alone: a cost case, an objective or a study's re-solve finds it again
@@ -275,6 +290,29 @@ def cop_bound_report(cops: dict, weight_h: np.ndarray, label: str) -> dict:
 DEMAND_REPRESENTATION = keep_duration_curve
 """How the demand of the typical days is made to stand for the year (docs/model.md section 8)."""
 
+PRICE_REPRESENTATION = "period"
+"""How prices and CO2 factors of the typical days stand for the year: ``"period"`` (default) ranks the steps of
+each typical day by the carrier's cost and gives them its cluster's hours ranked the same way
+(:func:`engine.physics.carrier_curves.keep_cost_duration_curve`), ``"year"`` does so over all clustered hours, None
+takes the medoid hours' own values (the former method, for the comparison in bench/typical_days.py)."""
+
+
+GROUNDWATER_REPRESENTATION = period_mean
+"""How the groundwater temperature of the typical days stands for the year: each typical day's cluster mean at
+the same hour (:func:`engine.physics.carrier_curves.period_mean`); ``lambda year, grid: year[:, grid.year_hour]``
+takes the medoid hours' own values (the former method)."""
+
+
+def carrier_at_steps(grid: TimeGrid, price, co2_kg_per_mwh, co2_eur_per_t: float):
+    """A carrier's price [EUR/MWh] and CO2 factor [kg/MWh] at the model steps (:data:`PRICE_REPRESENTATION`)."""
+    price = np.asarray(price, dtype=float)
+    co2 = np.asarray(co2_kg_per_mwh, dtype=float)
+    if PRICE_REPRESENTATION is None or grid.is_full_year:
+        return price[grid.year_hour], co2[grid.year_hour]
+    cost = price + float(co2_eur_per_t) * co2 / 1000.0
+    both = keep_cost_duration_curve(cost, np.vstack([price, co2]), grid, PRICE_REPRESENTATION)
+    return both[0], both[1]
+
 
 def cop_bound_note(cop_bounds: dict, used_technologies=None) -> str:
     """One sentence naming the heat pumps whose COP the model held at a clip (:data:`COP_MIN`, :data:`COP_MAX`),
@@ -330,7 +368,8 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
     wells = scenario.wells
     district_index = {d: i for i, d in enumerate(districts["district_id"])}
     well_district = np.array([district_index[d] for d in wells["district_id"]], dtype=int)
-    gw = groundwater_year_c(scenario)[:, steps] if len(wells) else np.zeros((0, len(steps)))
+    # groundwater temperature of a typical day: its cluster's mean (the aquifer lags the weather by weeks)
+    gw = GROUNDWATER_REPRESENTATION(groundwater_year_c(scenario), grid) if len(wells) else np.zeros((0, len(steps)))
     well_cop, well_cop_hw = {}, {}
     for row in techs[techs["kind"] == "groundwater_heat_pump"].itertuples(index=False):
         well_cop[row.technology_id] = heatpump.heat_pump_cop(
@@ -361,6 +400,12 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
         for row in techs.itertuples(index=False)
     }
     hourly = scenario.hourly
+    # prices and CO2 factors at the steps: each typical day keeps its cluster's duration curve of what a MWh of
+    # electricity and of network heat costs (sums exact)
+    electricity_price, grid_co2 = carrier_at_steps(grid, prices.electricity_eur_per_mwh,
+                                                   hourly["grid_co2_kg_per_mwh"].to_numpy(float), prices.co2_eur_per_t)
+    network_price, network_co2 = carrier_at_steps(grid, prices.network_eur_per_mwh,
+                                                  hourly["network_co2_kg_per_mwh"].to_numpy(float), prices.co2_eur_per_t)
     return PreparedRun(
         scenario=scenario,
         settings=settings,
@@ -388,10 +433,10 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
         well_density_kg_per_m3=rho,
         spread_heating_k=spread_h,
         spread_cooling_k=spread_c,
-        electricity_eur_per_mwh=prices.electricity_eur_per_mwh[steps],
-        network_eur_per_mwh=prices.network_eur_per_mwh[steps],
-        grid_co2_kg_per_mwh=hourly["grid_co2_kg_per_mwh"].to_numpy(float)[steps],
-        network_co2_kg_per_mwh=hourly["network_co2_kg_per_mwh"].to_numpy(float)[steps],
+        electricity_eur_per_mwh=electricity_price,
+        network_eur_per_mwh=network_price,
+        grid_co2_kg_per_mwh=grid_co2,
+        network_co2_kg_per_mwh=network_co2,
         annuity=annuity,
         aggregation=aggregation,
         cop_bounds={

@@ -17,7 +17,10 @@ Typical days keep the sequence of hours inside a day but not the sequence of day
 multi-day cold spells are not represented. Extreme days (peak heating, peak cooling, coldest) are kept as periods
 of their own with weight one day (:func:`typical_day_grid` ``extreme_days``; Kotzur et al. 2018), and
 :func:`keep_duration_curve` gives the demand of the clustered steps the year's duration curve, which keeps the
-annual sums exactly and the heat above any level to within one step's weight (docs/model.md section 8).
+annual sums exactly and the heat above any level to within one step's weight (docs/model.md section 8), and
+:func:`engine.physics.carrier_curves.keep_cost_duration_curve` gives a carrier's price and CO2 factor at the steps of each typical day its
+cluster's duration curve of the carrier's cost, so that the hours in which one supply is cheaper than another are
+as many as in the days it stands for.
 :func:`rescale_to_annual`, one factor per row, is the former method, kept for the comparison in
 bench/typical_days.py.
 
@@ -693,16 +696,25 @@ def keep_duration_curve(year_values, grid: TimeGrid):
     if steps.size == 0:
         return out, error
     for r in range(year.shape[0]):
-        curve = np.sort(year[r, clustered_hours])[::-1]  # duration curve of the clustered days
-        cumulative = np.r_[0.0, np.cumsum(curve)]
-        order = steps[np.argsort(-values[r, steps], kind="stable")]
-        edges = np.r_[0.0, np.cumsum(w[order])]
-        edges = np.clip(edges * (curve.size / edges[-1]), 0.0, curve.size)  # weights sum to those hours
-        whole = np.minimum(np.floor(edges).astype(int), curve.size - 1)
-        energy = cumulative[whole] + (edges - whole) * curve[whole]  # area under the curve up to each edge
-        weight = w[order]
-        out[r, order] = np.where(weight > 0, np.diff(energy) / np.where(weight > 0, weight, 1.0), values[r, order])
+        out[r, steps] = _duration_curve_bands(year[r, clustered_hours], values[r, steps], w[steps])
     return out, error
+
+
+def _duration_curve_bands(year_values: np.ndarray, own_values: np.ndarray, weight: np.ndarray) -> np.ndarray:
+    """Values of steps (own values ``own_values``, weights ``weight`` summing to the hours ``year_values``
+    covers) that take, ranked highest first, the mean of consecutive bands of the sorted ``year_values``."""
+    curve = np.sort(year_values)[::-1]
+    cumulative = np.r_[0.0, np.cumsum(curve)]
+    order = np.argsort(-own_values, kind="stable")
+    edges = np.r_[0.0, np.cumsum(weight[order])]
+    edges = np.clip(edges * (curve.size / edges[-1]), 0.0, curve.size)  # weights sum to those hours
+    whole = np.minimum(np.floor(edges).astype(int), curve.size - 1)
+    energy = cumulative[whole] + (edges - whole) * curve[whole]  # area under the curve up to each edge
+    ordered_weight = weight[order]
+    out = np.empty_like(own_values, dtype=float)
+    out[order] = np.where(ordered_weight > 0, np.diff(energy) / np.where(ordered_weight > 0, ordered_weight, 1.0),
+                          own_values[order])
+    return out
 
 
 def daily_features(hourly_table) -> np.ndarray:
