@@ -57,10 +57,11 @@ def test_cbc_gives_the_direct_highs_total(tiny, direct):
     assert mean[1] == pytest.approx(mean[0], rel=1e-4)
 
 
-CO2_AGREEMENT_REL = 1e-8
+CO2_AGREEMENT_REL = 1e-7
 """How closely two LP solvers find the same least CO2: both stop within a feasibility tolerance of 1e-7 on their
-scaled rows (HiGHS ``primal_feasibility_tolerance``, CBC ``primalTolerance``), measured 8e-10 to 2.5e-9 apart
-on the tiny city; the check allows four times the larger."""
+scaled rows (HiGHS ``primal_feasibility_tolerance``, CBC ``primalTolerance``; their documented defaults), so the
+check allows that tolerance as a relative difference. Measured on the tiny city: 8e-10 to 2.5e-9 apart with
+earlier releases, 1.4e-8 (old_town, 4.6e-5 t of 3,278 t) with highspy 1.15.1 and the CBC of PuLP 3.3.2."""
 
 
 def test_co2_objective_through_pulp(tiny):
