@@ -245,6 +245,23 @@ def supply_units(prepared: PreparedRun, districts: np.ndarray) -> tuple[SupplyUn
     return units, stores
 
 
+def fixed_new_bounds(prepared: PreparedRun, units: SupplyUnits, stores: StoreUnits):
+    """Bounds of the new capacities: 0 .. potential - existing, or, where ``prepared.fixed_new`` holds a plan
+    (``(district_id, technology_id, well_id)`` -> new kW, kWh for stores, well_id "" off the wells), fixed at the
+    plan's value clipped into those bounds; a unit the plan does not name is fixed at 0 (the plan builds none)."""
+    if prepared.fixed_new is None:
+        return 0.0, units.max_new_kw, 0.0, stores.max_new_kwh
+    ids, wells = prepared.district_ids, list(prepared.well_ids) + [""]
+    plan = prepared.fixed_new
+    unit_new = np.array([plan.get((str(ids[d]), t, str(wells[w])), 0.0) for d, t, w in
+                         zip(units.district, units.technology_id, units.well)], float)
+    store_new = np.array([plan.get((str(ids[d]), t, ""), 0.0) for d, t in zip(stores.district, stores.technology_id)],
+                         float)
+    unit_new = np.clip(unit_new, 0.0, units.max_new_kw)
+    store_new = np.clip(store_new, 0.0, stores.max_new_kwh)
+    return unit_new, unit_new, store_new, store_new
+
+
 def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
     """Build the LP for ``districts`` (indices; all by default). The city-wide limits of the settings (None for
     no limit) apply to those districts."""
@@ -266,9 +283,10 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
     cols, rows = {}, {}
 
     # ---------------------------------------------------------------- variables
-    cols["new"] = lp.add_variables("new_capacity_kw", n_u, 0.0, units.max_new_kw)
+    new_lower, new_upper, store_lower, store_upper = fixed_new_bounds(prepared, units, stores)
+    cols["new"] = lp.add_variables("new_capacity_kw", n_u, new_lower, new_upper)
     cols["out"] = lp.add_variables("output_kw", (n_u, n_t), 0.0, units.output_upper)
-    cols["store_new"] = lp.add_variables("store_new_kwh", n_s, 0.0, stores.max_new_kwh)
+    cols["store_new"] = lp.add_variables("store_new_kwh", n_s, store_lower, store_upper)
     cols["level"] = lp.add_variables("store_level_kwh", (n_s, n_t))
     cols["charge"] = lp.add_variables("store_charge_kw", (n_s, n_t))
     cols["discharge"] = lp.add_variables("store_discharge_kw", (n_s, n_t))
@@ -642,19 +660,21 @@ def capacity_columns(model: DistrictModel) -> CapacityColumns:
 
 
 def solve_model(model: DistrictModel, objective: str = "cost", time_limit_s=None, cancel=None,
-                solver: str = DIRECT, co2_within_cost_pct: float = 0.0, start_basis=None) -> LpSolution:
+                solver: str = DIRECT, co2_within_cost_pct: float = 0.0, start_basis=None,
+                fixed_start=None) -> LpSolution:
     """Solve for least cost, or for least CO2 and then least cost at that CO2 (lexicographic).
 
     ``solver`` names the solver (:mod:`engine.model.solvers`; HiGHS directly by default). With
     ``objective="co2"`` and ``co2_within_cost_pct > 0`` the CO2 is the least reachable at a cost no more than
     that many percent above the least cost of this LP (the cost optimum is solved first). ``start_basis``
     starts the first CO2 stage from a basis of this LP (see :func:`_staged_co2`; ignored for the cost objective
-    and with ``co2_within_cost_pct``).
+    and with ``co2_within_cost_pct``). ``fixed_start`` (cost objective, HiGHS): columns and values to start
+    from (:func:`engine.model.solve.plan_start`).
     """
     lp = model.lp
     if objective == "cost":
         lp.set_objective(model.money)
-        return solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel)
+        return solve_lp(lp, solver, time_limit_s=time_limit_s, cancel=cancel, fixed_start=fixed_start)
     if objective != "co2":
         raise ValueError(f"objective must be 'cost' or 'co2', got {objective!r}")
     limit = None

@@ -246,16 +246,21 @@ class LinearProgram:
             raise OSError(f"HiGHS could not write the model to {path}")
 
     def solve(self, time_limit_s: float | None = None, threads: int | None = None, cancel=None, basis=None,
-              keep_basis: bool = False) -> LpSolution:
+              keep_basis: bool = False, fixed_start=None) -> LpSolution:
         """Solve with HiGHS. ``cancel`` is an optional callable; when it returns True the solve is interrupted.
 
         ``basis`` (column statuses, row statuses; see :attr:`LpSolution.basis`) starts the simplex method there
         instead of from HiGHS's own crash basis (a basis HiGHS rejects is ignored: the solve then starts cold);
-        ``keep_basis`` returns the optimal basis with the solution."""
+        ``keep_basis`` returns the optimal basis with the solution. ``fixed_start`` ``(columns, values)`` starts
+        from the optimum with those columns fixed at those values (:meth:`HighsSession.solve_from_fixed`; the
+        answer is this program's optimum all the same)."""
         session = HighsSession(self, time_limit_s, threads, cancel, lean=basis is None and not keep_basis)
         if basis is not None:
             session.set_basis(basis)
-        solution = session.solve()
+        if fixed_start is not None and basis is None:
+            solution = session.solve_from_fixed(*fixed_start, time_limit_s=time_limit_s)
+        else:
+            solution = session.solve()
         if keep_basis and solution.status == "optimal":
             solution.basis = session.basis()
         return solution
@@ -439,6 +444,54 @@ class HighsSession:
             return False
         return True
 
+    def solve_from_fixed(self, cols, values, time_limit_s: float | None = None) -> LpSolution:
+        """The program's optimum, reached from the optimum with columns ``cols`` fixed at ``values``.
+
+        Two runs of HiGHS on the held program (docs/model.md section 9, "The plan start"): first with the bounds of
+        ``cols`` set to ``values`` (clipped into their bounds; presolve and dual simplex as usual), then, from that
+        optimum's basis, with their own bounds back, by the primal simplex method: the first optimum is a vertex of
+        the program, so the second run starts primal feasible and ends at the program's optimum. Where the first
+        run ends without an optimum (the fixed values leave no feasible point), the program is solved from
+        scratch. ``solve_s`` is the time of both runs; ``info["fixed_start"]`` the runs' seconds and simplex
+        iterations and whether the start was used. The program must not have changed since it was handed over.
+        """
+        h = self.highs
+        strategy = h.getOptionValue("simplex_strategy")
+        strategy = int(strategy[1] if isinstance(strategy, tuple) else strategy)  # highspy versions differ
+        cols = np.asarray(cols, np.int64).ravel()
+        values = np.asarray(values, float).ravel()
+        if self.lean is not None:
+            cols, values = self.lean.held_columns(cols, values)
+        lower, upper = (np.asarray(v, float)[cols] for v in
+                        ((self.lean.col_lower, self.lean.col_upper) if self.lean is not None
+                         else (self.lp.col_lower, self.lp.col_upper)))
+        fixed = np.clip(values, lower, upper)
+        cols32 = cols.astype(np.int32)
+        h.changeColsBounds(len(cols32), cols32, fixed, fixed)
+        first = self.solve()
+        first_iterations = int(h.getInfo().simplex_iteration_count)
+        h.changeColsBounds(len(cols32), cols32, *_highs_bounds(lower, upper))
+        info = {"used": first.status == "optimal", "fixed_columns": int(len(cols)),
+                "first_s": round(first.solve_s, 4), "first_iterations": first_iterations}
+        if first.status in ("interrupted", "time_limit"):
+            first.info["fixed_start"] = info
+            return first
+        if first.status == "optimal":
+            h.setOptionValue("simplex_strategy", 4)  # primal: the fixed optimum is a feasible vertex
+        else:
+            h.clearSolver()
+        if time_limit_s:
+            h.setOptionValue("time_limit", max(float(time_limit_s) - first.solve_s, 1.0))
+        second = self.solve()
+        h.setOptionValue("simplex_strategy", strategy)
+        if time_limit_s:
+            h.setOptionValue("time_limit", float(time_limit_s))
+        info["second_iterations"] = int(h.getInfo().simplex_iteration_count)
+        info["second_s"] = round(second.solve_s, 4)
+        second.solve_s += first.solve_s
+        second.info["fixed_start"] = info
+        return second
+
     def basis(self) -> tuple[np.ndarray, np.ndarray]:
         """The basis HiGHS holds now (column statuses, row statuses; of the trimmed program in a lean session)."""
         found = self.highs.getBasis()
@@ -498,6 +551,21 @@ class LeanProgram:
     @property
     def n_rows(self) -> int:
         return self.matrix.shape[0]
+
+    def held_columns(self, cols: np.ndarray, values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """The trimmed program's columns that are the program's columns ``cols`` as they are (x = y), and the
+        entries of ``values`` for them; a column dropped (fixed at zero) or changed by a flow pair is left out."""
+        t = self.to_original.tocsr()
+        entries_of_row = np.diff(t.indptr)
+        entries_of_column = np.diff(t.tocsc().indptr)
+        keep = np.zeros(len(cols), bool)
+        held = np.full(len(cols), -1, np.int64)
+        for k, c in enumerate(cols):
+            if entries_of_row[c] == 1:
+                j = t.indices[t.indptr[c]]
+                if t.data[t.indptr[c]] == 1.0 and entries_of_column[j] == 1:
+                    keep[k], held[k] = True, j
+        return held[keep], values[keep]
 
     def to_highs(self, time_limit_s: float | None = None, threads: int | None = None):
         h = new_highs()

@@ -60,6 +60,12 @@ class PreparedRun:
     well_cop_hot_water: dict = dataclasses.field(default_factory=dict)
     aggregation: dict = dataclasses.field(default_factory=dict)  # what the typical days change (summary)
     cop_bounds: dict = dataclasses.field(default_factory=dict)  # hours at the COP clips (summary)
+    fixed_new: dict | None = None
+    """A plan whose new capacities the LPs take as given (:func:`engine.model.formulation.fixed_new_bounds`):
+    ``(district_id, technology_id, well_id)`` -> new kW (kWh for stores); None to choose them."""
+    plan_start: "PreparedRun | None" = None
+    """A full-year run's twin on typical days, whose plan starts the full-year LPs with a store
+    (:func:`engine.model.solve.plan_start`); None where there is none."""
 
     @property
     def n_steps(self) -> int:

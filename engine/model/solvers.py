@@ -93,10 +93,13 @@ def resolve_solver(name: str | None) -> str:
     return PULP_PREFIX + pulp_name
 
 
-def solve_lp(lp: LinearProgram, solver: str = DIRECT, time_limit_s: float | None = None, cancel=None) -> LpSolution:
-    """Solve ``lp`` with the named solver (see the module's docstring for the names)."""
+def solve_lp(lp: LinearProgram, solver: str = DIRECT, time_limit_s: float | None = None, cancel=None,
+             fixed_start=None) -> LpSolution:
+    """Solve ``lp`` with the named solver (see the module's docstring for the names). ``fixed_start``
+    ``(columns, values)``: HiGHS starts from the optimum with those columns fixed there
+    (:meth:`engine.model.lp.HighsSession.solve_from_fixed`); other solvers ignore it."""
     if resolve_solver(solver) == DIRECT:
-        return lp.solve(time_limit_s=time_limit_s, cancel=cancel)
+        return lp.solve(time_limit_s=time_limit_s, cancel=cancel, fixed_start=fixed_start)
     return solve_with_pulp(lp, solver, time_limit_s, cancel)
 
 
