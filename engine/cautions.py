@@ -46,3 +46,9 @@ HEAT_PLAN = (
 
 HEAT_PLAN_SHORT = "A designation is a screening-level planning proposal, not a decision."
 """The line under the designation map's legend."""
+
+YEAR_CHECK = (
+    "The full-year check runs the plan on the same inputs: it confirms the hours the typical days leave out, not "
+    "the inputs. Designs defer to licensed engineers, well permits to the water authority."
+)
+"""Under a plan's check over the full year (the run results page)."""

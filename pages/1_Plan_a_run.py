@@ -212,7 +212,7 @@ with st.container(border=True):
         else:
             st.caption("Annual cost within about 1 % of the full year's on the demo; the heat of near-equal peak "
                        "units (electric or oil boiler) can differ by tens of percent. Confirm a chosen plan over "
-                       "the full year.")
+                       "every hour with the Full-year check on the Run results page (about 20 s on the demo).")
     with st.expander("Advanced"):
         solvers = solver_choices()
         if state.get("setup_solver") not in solvers:  # kept in hm_setup across pages, like the other choices

@@ -13,7 +13,7 @@ from pages._support.describe import (
     demand_note, describe_choices, markdown_literal, resolution_note, run_kpis, suggested_run_name,
 )
 from pages._support.tables import (
-    district_results_table, styled, supply_results_table, table_height, well_results_table,
+    district_results_table, styled, supply_results_table, table_height, well_results_table, year_check_table,
 )
 from pages._support.library import run_choices
 from engine.outputs.figures import (
@@ -25,6 +25,7 @@ from engine.outputs.figures import (
 )
 from engine.outputs.maps import MEASURES, district_map
 from engine.storage.store import StoreError
+from engine.studies.year_check import check_over_year
 from pages._support.shell import open_store, route_through_app, run_with_cancel, show_cancelled
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
@@ -35,7 +36,7 @@ MEASURE_LABELS = {
     "co2_kg_per_mwh": "CO2 per MWh of demand [kg/MWh]",
     "change_total_cost": "Change of annual cost against a baseline run [€/a]",
 }
-TABS = ["Map", "Load curves", "Costs", "Tables", "Manage run"]
+TABS = ["Map", "Load curves", "Costs", "Tables", "Full-year check", "Manage run"]
 
 
 state = st.session_state
@@ -170,6 +171,53 @@ def show_tables() -> None:
     st.caption(cautions.WELLS + " A binding limit means the permit, not the heat pump, sets the well's output.")
 
 
+def show_year_check() -> None:
+    if int(result.settings.get("typical_days", 0) or 0) == 0:
+        st.info("This run is solved over every hour of the year already: there is nothing to check.")
+        return
+    st.caption("Keeps this run's capacities (every unit and store it builds) and runs them hour by hour over the "
+               "full year: what the plan really costs, whether any hour is left short, how the wells stand against "
+               "their permits, and how much heat each technology makes where the typical days count hours in "
+               "blocks. About 20 seconds on the demo city, where the full-year optimisation takes many minutes.")
+    checks = state.setdefault("hm_year_checks", {})
+    key = (picked if picked != CURRENT else f"current-{id(result)}", result.input_hash)
+    show_cancelled("year_check_job", "full-year check")
+    if key not in checks:
+        if st.button("Check this plan over the full year", key="year_check_button", icon=":material/event_repeat:",
+                     disabled=scenario is None):
+            check = run_with_cancel(
+                lambda progress, cancel: check_over_year(scenario, result, progress=progress, cancel=cancel),
+                key="year_check_job",
+            )
+            checks.clear()  # one check at a time: a full-year run holds every hour's tables
+            checks[key] = check
+        if scenario is None:
+            st.info("The scenario files of this run are not available, so the plan cannot be checked.")
+        if key not in checks:
+            return
+    check = checks[key]
+    if not check.solved:
+        st.error(check.summary())
+        return
+    year = check.year
+    m = st.columns(4)
+    m[0].metric("Cost over the full year [M€/a]", f"{year.total_cost_eur_per_a / 1e6:,.2f}",
+                f"{check.cost_difference_pct:+.2f} % against the typical days", delta_color="off")
+    m[1].metric("CO2 over the full year [t/a]", f"{year.co2_t_per_a:,.0f}",
+                f"{year.co2_t_per_a - result.co2_t_per_a:+,.0f} t/a", delta_color="off")
+    m[2].metric("Unserved heat [MWh/a]", f"{check.unserved_heat_mwh_per_a:,.0f}")
+    m[3].metric("Wells beyond a permit", f"{check.wells_beyond_permit}")
+    (st.warning if check.unserved_heat_mwh_per_a > 0.5 or check.wells_beyond_permit else st.success)(
+        check.summary())
+    table = year_check_table(check, technologies)
+    st.dataframe(styled(table), hide_index=True, width="stretch", height=table_height(table),
+                 column_config=numbers(table))
+    st.caption("Capacities are the plan's (heat stores in kWh, not shown). Where two supplies cost nearly the same, "
+               "the heat each makes can shift by tens of percent between typical days and the full year while the "
+               "cost moves by a fraction of a percent.")
+    st.caption(cautions.YEAR_CHECK)
+
+
 def show_manage() -> None:
     if info is None:
         st.info("This run is not in the library yet; save it on the Plan a run page.")
@@ -237,7 +285,7 @@ if demand_note(scenario, result):
 
 # The tabs keep their selection across reruns (rename, re-solve ...), and only the open one is drawn.
 tabs = st.tabs(TABS, key="results_tab", on_change="rerun")
-for tab, draw in zip(tabs, (show_map, show_load_curves, show_costs, show_tables, show_manage)):
+for tab, draw in zip(tabs, (show_map, show_load_curves, show_costs, show_tables, show_year_check, show_manage)):
     if tab.open:
         with tab:
             draw()

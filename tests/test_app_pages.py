@@ -179,6 +179,34 @@ def test_results_page_shows_a_saved_run_and_reopens_it(session):
     assert "Saved run" in _texts(at)
 
 
+def test_results_page_checks_a_saved_plan_over_the_full_year(session):
+    """The full-year check of a saved 12-day run shows the plan's cost over every hour, its unserved heat and the
+    heat per technology; the engine's check of the same run (engine.studies.year_check, tested against hand
+    calculations in tests/test_year_check.py) is the reference for the cost shown."""
+    at = session["at"]
+    at.switch_page(RESULTS).run()
+    with ScenarioStore(session["store"]) as store:
+        runs = store.list_runs()
+    reference_id = int(runs[runs["name"] == "Reference prices"]["run_id"].iloc[0])
+    at.selectbox(key="results_run").select(reference_id).run()
+    at.session_state["results_tab"] = "Full-year check"
+    at.run()
+    assert not at.exception, at.exception
+    at.button(key="year_check_button").click().run(timeout=600)
+    assert not at.exception, at.exception
+    labels = [m.label for m in at.metric]
+    assert "Cost over the full year [M€/a]" in labels
+    check = at.session_state["hm_year_checks"]
+    (only,) = check.values()
+    assert only.solved and len(only.year.tables["steps"]) == 8760
+    shown = at.metric[labels.index("Cost over the full year [M€/a]")].value
+    assert shown == f"{only.year.total_cost_eur_per_a / 1e6:,.2f}"
+    assert abs(only.cost_difference_pct) < 2.0  # the demo's 12-day plan holds over the year (docs/model.md 9)
+    assert "Over every hour of the year" in _texts(at)
+    table = at.dataframe[0].value
+    assert "heat over the full year [MWh/a]" in table.columns and len(table) >= 5
+
+
 def test_share_page_and_overview_list_the_runs(session):
     """The share page offers its downloads for saved runs and the overview's library lists both runs."""
     at = session["at"]

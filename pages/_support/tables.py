@@ -186,3 +186,22 @@ def blanks_as_text(frame: pd.DataFrame) -> pd.DataFrame:
         if out[column].dtype.kind == "f" and out[column].isna().any():
             out[column] = [format_number(v, column) for v in out[column]]
     return out
+
+
+def year_check_table(check, technologies: pd.DataFrame | None = None) -> pd.DataFrame:
+    """The plan's heat per technology on typical days and over the full year, for reading
+    (:class:`engine.studies.year_check.YearCheck`); technologies that make no heat either way are left out."""
+    table = check.technologies
+    if table is None or table.empty:
+        return pd.DataFrame()
+    names = technology_names(technologies)
+    shown = table[(table["planned_heat_mwh_per_a"].abs() + table["year_heat_mwh_per_a"].abs()) > 0.5]
+    store = shown["kind"] == "heat_store"
+    return pd.DataFrame({
+        "technology": [names.get(str(t), str(t)) for t in shown["technology_id"]],
+        "capacity [kW]": shown["capacity_kw"].where(~store).to_numpy(float),
+        "heat on typical days [MWh/a]": shown["planned_heat_mwh_per_a"].to_numpy(float),
+        "heat over the full year [MWh/a]": shown["year_heat_mwh_per_a"].to_numpy(float),
+        "difference [MWh/a]": shown["difference_mwh_per_a"].to_numpy(float),
+        "difference [%]": shown["difference_pct"].to_numpy(float),
+    })
