@@ -28,6 +28,12 @@ In quick mode two lines before it give the demo city's interactive figures (:fun
 ``interactive_ratio=R`` (read and solve the demo end to end, over HiGHS alone on the same LPs) and
 ``study_ratio=R`` (a seven-point trade-off curve over seven single solves).
 
+Before them, the demo at its default resolution against the full year (cached in the temporary folder): the cost
+error of the typical days (``fidelity_cost_error_pct=E``, printed just before the last line), the largest error of a
+technology's heat (``fidelity_heat_error_max_pct=E``) and the cost of the typical-day plan run over the full year
+with its capacities fixed against the full year's optimum (``fidelity_checked_plan_cost_pct=E``,
+:mod:`engine.studies.year_check`).
+
 The last line of the output is ``overhead_ratio=R``: the ratio of the largest monolithic case run (in quick mode
 a full-year city of at least 100 000 variables).
 """
@@ -437,6 +443,13 @@ def main(argv=None) -> int:
           f"({own['heat_error_worst_technology']}: {own['heat_error_worst_mwh_per_a']:+,.0f} MWh/a, "
           f"{own['heat_error_worst_pct_of_heat']:+.3f} % of the city's heat, its share "
           f"{own['heat_share_worst_pct']:.2f} %; technologies above 100 MWh/a)")
+    checked = fidelity["checked"]
+    print(f"demo city, the {fidelity['typical_days']}-day plan run over the full year with its capacities fixed "
+          f"(engine.studies.year_check, {checked['solve_s']:.1f} s): total cost {checked['cost_error_pct']:+.3f} % "
+          f"against the full year's optimum ({checked['against_estimate_pct']:+.3f} % against its typical-day "
+          f"estimate), unserved heat {checked['unserved_heat_mwh_per_a']:,.1f} MWh/a, largest difference of a "
+          f"technology's heat {checked['heat_error_max_pct']:.2f} % ({checked['heat_error_worst_technology']})")
+    print(f"fidelity_checked_plan_cost_pct={checked['cost_error_pct']:.3f}")
     print(f"fidelity_heat_error_max_pct={own['heat_error_max_pct']:.3f}")
     print(f"benchmark wall time {time.perf_counter() - started:.0f} s")
     if args.json:

@@ -219,6 +219,13 @@ def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, sing
     out = {"typical_days": settings.typical_days, "full_year_s": year_s,
            "own": {**compare(ours, reference), "solve_s": solve_s,
                    "cluster_s": own_grid_seconds(scenario, settings)}}
+    from engine.studies.year_check import check_over_year
+
+    started = time.perf_counter()
+    check = check_over_year(scenario, ours)
+    out["checked"] = {**compare(check.year, reference), "solve_s": time.perf_counter() - started,
+                      "unserved_heat_mwh_per_a": check.unserved_heat_mwh_per_a,
+                      "against_estimate_pct": check.cost_difference_pct}
     if districts:
         out["districts"] = district_differences(ours, reference)
     if single_factor:
