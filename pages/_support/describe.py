@@ -44,7 +44,8 @@ def resolution_note(scenario, result: RunResult) -> str:
     note = fidelity_note(table, days) if table is not None else ""
     return note or (
         f"Solved with {days} typical days. Their error against the full year has not been measured for these "
-        "inputs yet: the Trade-offs and sweeps page measures it once (fidelity tab)."
+        "inputs yet: the Full-year check tab below runs this plan over every hour, and the Trade-offs and sweeps "
+        "page measures the resolution itself once (fidelity tab)."
     )
 
 def describe_choices(result: RunResult) -> str:
