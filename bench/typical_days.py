@@ -6,6 +6,7 @@
     python bench/typical_days.py --sweep 8,12,16,24   # error and solve time per number of typical days
     python bench/typical_days.py --former         # also the former days and prices (medoid hours' own prices)
     python bench/typical_days.py --districts      # also where the heat by technology differs, per district
+    python bench/typical_days.py --groundwater-mean --sweep 16,24   # also the groundwater at its cluster's mean
 
 The full year takes minutes; it is solved once and kept in the temporary folder, keyed by the input hash. All
 clusterings get the same inputs (the daily features the engine clusters, the extreme days taken out and kept
@@ -195,6 +196,21 @@ def solve_former(scenario, settings):
         prepare_mod.clear_grid_memo()
 
 
+def solve_groundwater_mean(scenario, settings):
+    """The run with the groundwater temperature of each typical day at its cluster's mean at the same hour
+    (:func:`engine.physics.carrier_curves.period_mean`, the representation before the cluster's distribution)."""
+    from engine.physics.carrier_curves import period_mean
+
+    original = prepare_mod.GROUNDWATER_REPRESENTATION
+    prepare_mod.GROUNDWATER_REPRESENTATION = period_mean
+    prepare_mod.clear_grid_memo()
+    try:
+        return solve_scenario(scenario, settings=settings)
+    finally:
+        prepare_mod.GROUNDWATER_REPRESENTATION = original
+        prepare_mod.clear_grid_memo()
+
+
 def timed_solve(scenario, settings, repeats: int = 3):
     """The run and its median wall time over ``repeats`` solves, the grid memo cleared before each [s]."""
     seconds = []
@@ -207,7 +223,7 @@ def timed_solve(scenario, settings, repeats: int = 3):
 
 
 def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, single_factor: bool = False,
-                  sweep=(), districts: bool = False, former: bool = False) -> dict:
+                  sweep=(), districts: bool = False, former: bool = False, groundwater_mean: bool = False) -> dict:
     """The demo at its default resolution (or ``typical_days``) against the full year; optionally tsam's days,
     the former single-factor rescaling, and other numbers of typical days (``sweep``)."""
     scenario = load_scenario(resolve_scenario_path("demo"))
@@ -244,6 +260,13 @@ def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, sing
             result = solve_former(scenario, other)
             out[f"own_former_{days}_days"] = {**compare(result, reference), "solve_s": time.perf_counter() - started,
                                               "cluster_s": math.nan}
+    if groundwater_mean:
+        for days in [settings.typical_days, *sweep]:
+            other = run_settings(scenario, typical_days=days)
+            started = time.perf_counter()
+            result = solve_groundwater_mean(scenario, other)
+            out[f"own_groundwater_mean_{days}_days"] = {**compare(result, reference), "cluster_s": math.nan,
+                                                        "solve_s": time.perf_counter() - started}
     for days in sweep:
         other = run_settings(scenario, typical_days=days)
         result, seconds = timed_solve(scenario, other)
@@ -273,10 +296,13 @@ def main(argv=None) -> int:
     parser.add_argument("--sweep", default="", help="numbers of typical days to compare, e.g. 8,12,16,24")
     parser.add_argument("--districts", action="store_true", help="also the heat by technology per district")
     parser.add_argument("--former", action="store_true", help="also the former days and prices")
+    parser.add_argument("--groundwater-mean", action="store_true",
+                        help="also the groundwater temperature at its cluster's mean (the representation before)")
     args = parser.parse_args(argv)
     sweep = [int(d) for d in args.sweep.split(",") if d.strip()]
     load = os.getloadavg()[0]
-    figures = demo_fidelity(args.tsam, args.typical_days, args.single_factor, sweep, args.districts, args.former)
+    figures = demo_fidelity(args.tsam, args.typical_days, args.single_factor, sweep, args.districts, args.former,
+                            args.groundwater_mean)
     print(f"demo, {figures['typical_days']} typical days + extreme days; full year solved in "
           f"{figures['full_year_s']:.1f} s")
     for name, row in figures.items():
@@ -289,7 +315,7 @@ def main(argv=None) -> int:
               f"{row['misplaced_heat_pct']:.2f} % of the city's heat, worst heat "
               f"{row['heat_error_max_pct']:.3f} % ({row['heat_error_worst_technology']}: "
               f"{row['heat_error_worst_mwh_per_a']:+,.0f} MWh/a, {row['heat_error_worst_pct_of_heat']:+.3f} % of the "
-              f"city's heat, its share {row['heat_share_worst_pct']:.2f} %), clustering {row['cluster_s']:.3f} s, "
+              f"city's heat, its share {row['heat_share_worst_pct']:.2f} %), clustering {row.get('cluster_s', math.nan):.3f} s, "
               f"solve {row.get('solve_s', math.nan):.2f} s; heat errors " + ", ".join(
                   f"{t} {e:+.2f} %" for t, e in sorted(row["heat_errors_pct"].items())))
     if args.districts:

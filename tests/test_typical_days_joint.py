@@ -1,8 +1,8 @@
 """Typical days that keep what drives the choice between supplies: each cluster's duration curve of what a MWh of
 electricity or network heat costs, carried to the price and the CO2 factor it is made of (the duration-curve
 criterion of Poncelet et al. 2017, IEEE Trans. Power Syst. 32(3), per cluster as in the distribution-preserving
-representation of Hoffmann, Kotzur & Stolten 2022, Applied Energy 315, 119029, from memory), and the cluster mean
-of slowly varying series (groundwater temperature). Checks against hand calculations written out in each test and
+representation of Hoffmann, Kotzur & Stolten 2022, Applied Energy 315, 119029, from memory), each cluster's
+distribution of a series on its own (groundwater temperature) and the cluster mean of slowly varying series. Checks against hand calculations written out in each test and
 against plain numpy sums of the hourly year the test builds.
 """
 
@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from engine.physics.carrier_curves import keep_cost_duration_curve, period_mean
+from engine.physics.carrier_curves import keep_cost_duration_curve, keep_period_distribution, period_mean
 from engine.physics.timeseries import full_year_grid, grid_from_medoids, keep_duration_curve
 
 
@@ -99,3 +99,55 @@ def test_period_mean_by_hand():
     np.testing.assert_array_equal(period_mean(year, full_year_grid(96)), year)
     with pytest.raises(ValueError, match="hourly values"):
         period_mean(year[:95], grid)
+
+
+def test_period_distribution_by_hand():
+    """By hand, with the days of :func:`test_period_mean_by_hand` (1, 3 with hour 5 at 7, 8, 4; A = days 0-1,
+    medoid day 0; B = days 2-3, medoid day 2; every step 2 h). The medoid days are flat, so their steps rank in
+    step order. A's hours sorted highest first: 7, 3 (23 times), 1 (24 times); step 0 takes the band of hours
+    0-1, (7 + 3) / 2 = 5, steps 1-11 take 3, steps 12-23 take 1. B: 8 (24 hours), then 4: steps 0-11 take 8,
+    steps 12-23 take 4. Each cluster's sum is its days' (A: 2 h * (5 + 33 + 12) = 100 = 24 + 69 + 7; B: 2 h * 144 =
+    288 = 192 + 96), as with the cluster mean, but the heat above 4 is kept: the year has 3 (hour 5 of day 1) + 96
+    (day 2) = 99, this representation 2 h * (1 + 12 * 4) = 98 (within one band of 2 h), the cluster mean
+    (A: 2, hour 5 4; B: 6) 2 h * 24 * 2 = 96."""
+    year = np.repeat([1.0, 3.0, 8.0, 4.0], 24)
+    year[24 + 5] = 7.0
+    grid = grid_from_medoids([0, 2], [0, 1, 2, 3], [0, 0, 1, 1], [], 4)
+    values = keep_period_distribution(year, grid)
+    a, b = grid.period == 0, grid.period == 1
+    np.testing.assert_allclose(values[a], np.r_[5.0, np.full(11, 3.0), np.full(12, 1.0)], rtol=1e-12)
+    np.testing.assert_allclose(values[b], np.r_[np.full(12, 8.0), np.full(12, 4.0)], rtol=1e-12)
+    w = grid.weight_h
+    assert values[a] @ w[a] == pytest.approx(100.0, rel=1e-12) and values[b] @ w[b] == pytest.approx(288.0)
+    above = lambda v: float(np.maximum(v - 4.0, 0.0) @ w)  # noqa: E731
+    assert np.maximum(year - 4.0, 0.0).sum() == pytest.approx(99.0)
+    assert above(values) == pytest.approx(98.0, rel=1e-12)
+    assert above(period_mean(year, grid)) == pytest.approx(96.0, rel=1e-12)
+    np.testing.assert_array_equal(keep_period_distribution(year, full_year_grid(96)), year)
+    with pytest.raises(ValueError, match="hourly values"):
+        keep_period_distribution(year[:95], grid)
+
+
+def test_period_distribution_keeps_each_clusters_sorted_hours():
+    """Noisy seasonal series over 30 days, 3 clusters of 9-10 days, day 7 extreme. Against plain numpy: each
+    cluster's steps, sorted, are the means of consecutive bands of n hours of its days' hours sorted (n = its
+    number of days, so every step stands for n hours); each cluster's weighted sum is its days'; the extreme day
+    keeps its values; a 2-row input gives each row its own curve."""
+    rng = np.random.default_rng(11)
+    hours = np.arange(720)
+    year = 9.0 + 3.0 * np.sin(2 * np.pi * hours / 720) + rng.normal(0.0, 0.4, 720)
+    clustered = np.setdiff1d(np.arange(30), [7])
+    labels = np.arange(29) % 3
+    medoids = [clustered[np.flatnonzero(labels == k)[0]] for k in range(3)]
+    grid = grid_from_medoids(medoids, clustered, labels, [7], 30)
+    values = keep_period_distribution(np.vstack([year, -year]), grid)
+    by_day = year.reshape(30, 24)
+    for k in range(3):
+        days = clustered[labels == k]
+        period = grid.day_period[medoids[k]]
+        steps = grid.period == period
+        own = np.sort(by_day[days].ravel())[::-1].reshape(24, len(days)).mean(axis=1)
+        np.testing.assert_allclose(np.sort(values[0, steps])[::-1], own, rtol=1e-12)
+        np.testing.assert_allclose(np.sort(values[1, steps]), -own, rtol=1e-12)
+        assert values[0, steps] @ grid.weight_h[steps] == pytest.approx(by_day[days].sum(), rel=1e-12)
+    np.testing.assert_array_equal(values[0, grid.is_extreme_step], year[7 * 24:8 * 24])

@@ -20,7 +20,7 @@ from engine.physics import heatpump
 from engine.physics import water
 from engine.physics import wells as wells_mod
 from engine.scenario.inputs import EffectivePrices, Scenario, Settings, apply_cost_case, hot_water_temp_c
-from engine.physics.carrier_curves import keep_cost_duration_curve, period_mean
+from engine.physics.carrier_curves import keep_cost_duration_curve, keep_period_distribution
 from engine.physics.timeseries import TimeGrid, daily_features, full_year_grid, keep_duration_curve, typical_day_grid
 from engine.units import SECONDS_PER_HOUR
 
@@ -303,10 +303,11 @@ each typical day by the carrier's cost and gives them its cluster's hours ranked
 takes the medoid hours' own values (the former method, for the comparison in bench/typical_days.py)."""
 
 
-GROUNDWATER_REPRESENTATION = period_mean
-"""How the groundwater temperature of the typical days stands for the year: each typical day's cluster mean at
-the same hour (:func:`engine.physics.carrier_curves.period_mean`); ``lambda year, grid: year[:, grid.year_hour]``
-takes the medoid hours' own values (the former method)."""
+GROUNDWATER_REPRESENTATION = keep_period_distribution
+"""How the groundwater temperature of the typical days stands for the year: each typical day's steps take the
+distribution of the hours its cluster stands for (:func:`engine.physics.carrier_curves.keep_period_distribution`);
+:func:`engine.physics.carrier_curves.period_mean` takes the cluster's mean at the same hour (the representation
+before), ``lambda year, grid: year[:, grid.year_hour]`` the medoid hours' own values (the one before that)."""
 
 
 def carrier_at_steps(grid: TimeGrid, price, co2_kg_per_mwh, co2_eur_per_t: float):

@@ -1,9 +1,10 @@
 """Prices, CO2 factors and slowly varying series at the steps of typical days.
 
 :func:`keep_cost_duration_curve` gives a price and its CO2 factor at the steps of each typical day the duration
-curve, within the days it stands for, of the cost they set together; :func:`period_mean` gives a slowly varying
-series (the groundwater temperature) its cluster's mean. The demand's duration curve is
-:func:`engine.physics.timeseries.keep_duration_curve`; docs/model.md section 8 describes all three.
+curve, within the days it stands for, of the cost they set together; :func:`keep_period_distribution` gives a
+series on its own (the groundwater temperature) each cluster's duration curve; :func:`period_mean` gives a slowly
+varying series its cluster's mean (the former groundwater representation). The demand's duration curve is
+:func:`engine.physics.timeseries.keep_duration_curve`; docs/model.md section 8 describes them.
 """
 
 from __future__ import annotations
@@ -138,4 +139,50 @@ def period_mean(year_values, grid: TimeGrid) -> np.ndarray:
             days = np.flatnonzero(grid.day_period == period)
             steps = np.flatnonzero(grid.period == period)
             out[:, steps] = by_day[:, days, :].mean(axis=1)[:, grid.hour_of_day[steps]]
+    return out if values.ndim == 2 else out[0]
+
+
+def keep_period_distribution(year_values, grid: TimeGrid) -> np.ndarray:
+    """Values of series at the model steps that keep, for each typical day, the distribution of the hours its
+    cluster stands for: row by row, :func:`keep_cost_duration_curve` with the series as its own driver, within
+    each period.
+
+    The steps of a typical day are ranked by their own (medoid) values, highest first (ties in step order); the
+    step of rank i, of weight w_i, takes the mean of the band sum_{j<i} w_j .. sum_{j<=i} w_j of the cluster's
+    hours sorted highest first. So each cluster's weighted sum and mean are its days' exactly (as with
+    :func:`period_mean`), and its duration curve is kept to within one band, so that for any level L the
+    weighted sum of max(value - L, 0) and of min(value, L) is the cluster's to within one band at L.
+
+    Why, for the groundwater temperature: a groundwater heat pump's heat at the permitted flow is about
+    flow x c_p x (T - floor), capped by its capacity, a concave function of T; a cluster's mean temperature
+    overstates the capped sum over its days (Jensen's inequality), so the heat pump looked able to use more
+    capacity in the late-winter weeks of the coldest water than it is and was sized too large (docs/model.md
+    section 8). Keeping each cluster's distribution is the distribution-preserving representation of Hoffmann, M.,
+    Kotzur, L. and Stolten, D. (2022). The Pareto-optimal temporal aggregation of energy system models. Applied
+    Energy 315, 119029 (from memory); the duration-curve criterion is Poncelet et al. (2017, see
+    :func:`keep_cost_duration_curve`).
+
+    Parameters
+    ----------
+    year_values : array_like
+        Hourly values, shape (rows, n_hours) or (n_hours,). [any unit]
+    grid : TimeGrid
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape (rows, n_steps) (or (n_steps,) for a 1-D input); for the full year the hourly values as they are;
+        extreme days keep their own values.
+
+    Raises
+    ------
+    ValueError
+        If the rows do not hold ``grid.n_hours`` finite values.
+    """
+    values = np.asarray(year_values, dtype=float)
+    year = np.atleast_2d(values)
+    if year.ndim != 2 or year.shape[1] != grid.n_hours:
+        raise ValueError(f"year_values must have {grid.n_hours} hourly values per row; got shape {values.shape}")
+    out = (np.vstack([keep_cost_duration_curve(row, row, grid, "period") for row in year]) if len(year)
+           else year[:, grid.year_hour].copy())
     return out if values.ndim == 2 else out[0]
