@@ -25,7 +25,7 @@ from engine.outputs.figures import (
 )
 from engine.outputs.maps import MEASURES, district_map
 from engine.storage.store import StoreError
-from engine.studies.year_check import check_over_year
+from engine.studies.year_check import check_over_year, holds_a_plan, resolve_held_plan
 from pages._support.shell import open_store, route_through_app, run_with_cancel, show_cancelled
 
 PLAN_PAGE = "pages/1_Plan_a_run.py"
@@ -172,6 +172,10 @@ def show_tables() -> None:
 
 
 def show_year_check() -> None:
+    if holds_a_plan(result):
+        st.info("This run is a plan held over every hour of the year (a saved full-year check): its capacities "
+                "are the plan's, its dispatch the full year's. Compare it with the plan on the Compare runs page.")
+        return
     if int(result.settings.get("typical_days", 0) or 0) == 0:
         st.info("This run is solved over every hour of the year already: there is nothing to check.")
         return
@@ -216,6 +220,35 @@ def show_year_check() -> None:
                "the heat each makes can shift by tens of percent between typical days and the full year while the "
                "cost moves by a fraction of a percent.")
     st.caption(cautions.YEAR_CHECK)
+    save_year_check(year, key)
+
+
+def save_year_check(year, key) -> None:
+    """Save the checked plan's full year as a run of its own, to compare with the plan and share."""
+    st.markdown("**Keep the check in the library**")
+    st.caption("Saves the plan's full year as a run of its own, with this run's input files: it can then be "
+               "compared with the typical-day plan on the Compare runs page and shared. It is marked as a held "
+               "plan, so it never stands in for an optimised full-year run of the same files.")
+    kept = state.setdefault("hm_year_checks_saved", {})
+    if key in kept:
+        st.caption(f"This check is saved as run #{kept[key]}.")
+        return
+    left, right = st.columns([3, 1], vertical_alignment="bottom")
+    default = f"{run_name} · plan over the full year"
+    name = left.text_input("Name of the saved check", value=default[:200], max_chars=200, key="year_check_name")
+    if right.button("Save the check", key="year_check_save", icon=":material/save:"):
+        source = f"run #{run_id} “{run_name}”" if run_id is not None else "the current (unsaved) run"
+        try:
+            new_id = store.save_run(year, name, note=f"The plan of {source} held over every hour of the year.",
+                                    inputs=files, tags="full-year check")
+        except StoreError as error:
+            st.error(str(error))
+            return
+        kept.clear()  # like the checks: one at a time
+        kept[key] = new_id
+        state["hm_flash"] = (f"Saved the full-year check as run #{new_id}. Compare it with the plan on the "
+                             "Compare runs page.")
+        st.rerun()
 
 
 def show_manage() -> None:
@@ -253,19 +286,29 @@ def show_manage() -> None:
         st.markdown("**Re-solve**")
         st.caption("Solves the run again from its saved files; the result should match to solver precision.")
         show_cancelled("results_job", "re-solve")
+        if holds_a_plan(result):
+            st.caption("A held plan is solved again with the same capacities; re-opened on the Plan a run page, a "
+                       "solve optimises the capacities afresh.")
         if st.button("Re-solve", key="results_resolve", icon=":material/replay:", disabled=scenario is None):
-            again, _ = run_with_cancel(
-                lambda progress, cancel: resolve_saved_run(
-                    solved, scenario, files, result, f"re-solve of “{info['name']}”", progress=progress, cancel=cancel,
-                ),
-                key="results_job",
-            )
-            if again.result.solved:
-                delta = again.result.total_cost_eur_per_a - result.total_cost_eur_per_a
-                st.success(f"Re-solved: total cost {again.result.total_cost_eur_per_a:,.0f} €/a (saved "
+            if holds_a_plan(result):
+                again = run_with_cancel(
+                    lambda progress, cancel: resolve_held_plan(scenario, result, progress=progress, cancel=cancel),
+                    key="results_job",
+                )
+            else:
+                again = run_with_cancel(
+                    lambda progress, cancel: resolve_saved_run(
+                        solved, scenario, files, result, f"re-solve of “{info['name']}”", progress=progress,
+                        cancel=cancel,
+                    )[0].result,
+                    key="results_job",
+                )
+            if again.solved:
+                delta = again.total_cost_eur_per_a - result.total_cost_eur_per_a
+                st.success(f"Re-solved: total cost {again.total_cost_eur_per_a:,.0f} €/a (saved "
                            f"{result.total_cost_eur_per_a:,.0f} €/a, difference {delta:,.0f} €/a).")
             else:
-                st.error(f"The re-solve failed: {again.result.message}")
+                st.error(f"The re-solve failed: {again.message}")
 
 
 if not result.solved:

@@ -205,6 +205,27 @@ def test_results_page_checks_a_saved_plan_over_the_full_year(session):
     assert "Over every hour of the year" in _texts(at)
     table = at.dataframe[0].value
     assert "heat over the full year [MWh/a]" in table.columns and len(table) >= 5
+    # kept in the library as a run of its own, marked as a held plan (never answering for an optimised run)
+    at.button(key="year_check_save").click().run()
+    assert not at.exception, at.exception
+    with ScenarioStore(session["store"]) as store:
+        runs = store.list_runs()
+        saved_id = int(runs[runs["name"] == "Reference prices · plan over the full year"]["run_id"].iloc[0])
+        saved = store.load_run(saved_id)
+        reference = store.load_run(reference_id)
+    try:
+        assert any(f"Saved the full-year check as run #{saved_id}" in str(s.value) for s in at.success)
+        assert f"This check is saved as run #{saved_id}." in _texts(at)  # saved once, not again
+        assert not [b for b in at.button if b.key == "year_check_save"]
+        assert saved.extras["fixed_plan"] and saved.input_hash != reference.input_hash
+        assert saved.total_cost_eur_per_a == pytest.approx(only.year.total_cost_eur_per_a, rel=1e-12)
+        at.selectbox(key="results_run").select(saved_id).run()
+        assert not at.exception, at.exception
+        assert "capacities held from a plan" in _texts(at)
+        assert "a saved full-year check" in _texts(at)
+    finally:  # the later tests count the library's runs
+        with ScenarioStore(session["store"]) as store:
+            store.delete_run(saved_id)
 
 
 def test_share_page_and_overview_list_the_runs(session):

@@ -16,7 +16,9 @@ import pytest
 import scenario_factory as f
 from engine.model.solve import solve_scenario
 from engine.scenario.inputs import Prices, Settings
-from engine.studies.year_check import check_over_year
+from engine.scenario.inputs import input_hash
+from engine.storage.store import ScenarioStore
+from engine.studies.year_check import check_over_year, holds_a_plan, resolve_held_plan, year_settings
 
 HOURS = 8760
 GAS_EUR_PER_MWH = 40.0
@@ -98,3 +100,34 @@ def test_a_plan_that_names_no_unit_builds_nothing_and_a_run_without_a_plan_has_n
     failed.status = "infeasible"
     with pytest.raises(ValueError, match="solved run"):
         check_over_year(scenario, failed)
+
+
+def test_a_held_plan_has_its_own_fingerprint_and_solves_again_to_the_same_cost(tmp_path):
+    """A check is the plan's dispatch, not the optimum of its inputs: saved to the library it must never answer
+    for a full-year run of the same inputs (the library hands back a saved run of the same fingerprint without
+    solving). Its fingerprint differs from the inputs' (kept in extras), the same plan gives the same one, another
+    plan another; re-solved from its own supply table it costs the same (hand value of the first test)."""
+    scenario, demand = boiler_city()
+    planned = solve_scenario(scenario)
+    check = check_over_year(scenario, planned)
+    inputs = input_hash(scenario, planned.cost_case, year_settings(planned))
+    assert holds_a_plan(check.year) and not holds_a_plan(planned)
+    assert check.year.extras["fixed_plan"]["inputs_hash"] == inputs
+    assert check.year.input_hash != inputs
+    assert check_over_year(scenario, planned).year.input_hash == check.year.input_hash
+    smaller = planned.tables["supply"].copy()
+    smaller["new_kw"] *= 0.9
+    other = planned.__class__(**{**planned.__dict__, "tables": {**planned.tables, "supply": smaller}})
+    assert check_over_year(scenario, other).year.input_hash != check.year.input_hash
+    with ScenarioStore(tmp_path / "runs.sqlite") as store:
+        run_id = store.save_run(check.year, "checked")
+        assert store.find_by_hash(inputs) is None
+        back = store.load_run(run_id)
+    assert holds_a_plan(back) and back.input_hash == check.year.input_hash
+    again = resolve_held_plan(scenario, back)
+    capacity = float(planned.tables["supply"]["new_kw"].sum())
+    hand = capacity * 100.0 * annuity() + demand.sum() / 0.9 / 1000 * GAS_EUR_PER_MWH
+    assert again.total_cost_eur_per_a == pytest.approx(hand, rel=1e-9)
+    assert again.input_hash == back.input_hash
+    with pytest.raises(ValueError, match="does not hold a plan"):
+        resolve_held_plan(scenario, planned)

@@ -11,6 +11,7 @@ pulp drives. :func:`build_programs` builds the same LPs without solving them, fo
 from __future__ import annotations
 
 import dataclasses
+import hashlib
 import os
 import time
 from concurrent.futures import ProcessPoolExecutor, as_completed
@@ -97,6 +98,16 @@ def plan_capacities(plan: pd.DataFrame) -> dict:
     keys = zip(plan["district_id"].astype(str), plan["technology_id"].astype(str), wells)
     values = pd.to_numeric(plan["new_kw"], errors="coerce").fillna(0.0).to_numpy(float)
     return {key: float(v) for key, v in zip(keys, values)}
+
+
+def held_plan_hash(inputs_hash: str, plan: dict) -> str:
+    """The fingerprint of a run whose new capacities are held at ``plan`` (:func:`plan_capacities`) on inputs of
+    fingerprint ``inputs_hash``: SHA-256 over both, capacities to the watt. A run with a held plan is a plan's
+    dispatch, not the optimum of its inputs, so it must never answer for a run of those inputs alone (the library
+    hands back a saved run of the same fingerprint without solving); the same plan on the same inputs gives the
+    same fingerprint."""
+    entries = ";".join(f"{d}/{t}/{w}={v:.3f}" for (d, t, w), v in sorted(plan.items()))
+    return hashlib.sha256(f"{inputs_hash}|held plan|{entries}".encode()).hexdigest()
 
 
 def plan_start(prepared, districts, model: DistrictModel, cancel=None):
@@ -651,7 +662,8 @@ def solve_scenario(
     pool are not held.
     ``fixed_plan`` (a result's ``supply`` table, or any table with ``district_id``, ``technology_id``, ``well_id``
     and ``new_kw``) fixes the new capacities at that plan's (kWh for stores; units it does not name build none):
-    the run is then the plan's dispatch, as in :func:`engine.studies.year_check.check_over_year`.
+    the run is then the plan's dispatch, as in :func:`engine.studies.year_check.check_over_year`; its
+    ``input_hash`` is :func:`held_plan_hash` of the inputs' (kept in ``extras["fixed_plan"]["inputs_hash"]``).
     """
     started = time.perf_counter()
     solver = resolve_solver(solver)
@@ -677,7 +689,8 @@ def solve_scenario(
     prepared = prepare_run(scenario, cost_case, settings)
     if fixed_plan is not None:
         prepared.fixed_new = plan_capacities(fixed_plan)
-        result.extras["fixed_plan"] = {"units": len(prepared.fixed_new)}
+        result.extras["fixed_plan"] = {"units": len(prepared.fixed_new), "inputs_hash": result.input_hash}
+        result.input_hash = held_plan_hash(result.input_hash, prepared.fixed_new)
     attach_plan_start(scenario, cost_case, settings, prepared, solver, held)
     result.extras["time_aggregation"] = prepared.aggregation
     result.extras["cop_bounds"] = prepared.cop_bounds

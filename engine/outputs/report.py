@@ -126,7 +126,9 @@ def assumptions_table(results: Mapping[str, RunResult], scenario) -> pd.DataFram
             "objective": objective_label(r.objective),
             "cost case": cost_case_label(r.cost_case),
             "CO2 cap [t/a]": _number(cap, "{:,.0f}") if float(cap) > 0 else "none",
-            "time resolution": f"{days} typical days" if days > 0 else "full hourly year",
+            "time resolution": (f"{days} typical days" if days > 0 else
+                                "full hourly year, capacities held from a plan" if (r.extras or {}).get("fixed_plan")
+                                else "full hourly year"),
             "discount rate [%/a]": _number(100 * float(_setting(r, scenario, "discount_rate", float("nan"))), "{:.2f}"),
             "target year": str(_setting(r, scenario, "target_year", "–")),
             "reinjection window [°C]": (

@@ -130,3 +130,21 @@ def check_over_year(scenario: Scenario, planned: RunResult, workers: int | None 
         return YearCheck(planned, year, pd.DataFrame(), pd.DataFrame())
     wells = screen_wells(year, scenario) if len(scenario.wells) else pd.DataFrame()
     return YearCheck(planned, year, technology_comparison(planned, year), wells)
+
+
+def holds_a_plan(result: RunResult) -> bool:
+    """Whether ``result`` is a plan's dispatch with its new capacities held (a saved full-year check), not an
+    optimum of its inputs."""
+    return bool((result.extras or {}).get("fixed_plan"))
+
+
+def resolve_held_plan(scenario: Scenario, held: RunResult, workers: int | None = None,
+                      progress: Progress | None = None, cancel: Cancel | None = None) -> RunResult:
+    """Solve a run with a held plan (:func:`holds_a_plan`) again from ``scenario``: the same settings and the
+    same capacities (its own ``supply`` table), so the answer should equal ``held`` to solver precision."""
+    if not holds_a_plan(held) or "supply" not in held.tables:
+        raise ValueError("this run does not hold a plan")
+    known = {f.name for f in dataclasses.fields(Settings)}
+    settings = Settings(**{k: v for k, v in (held.settings or {}).items() if k in known})
+    return solve_scenario(scenario, held.cost_case, settings=settings, workers=workers, progress=progress,
+                          cancel=cancel, fixed_plan=held.tables["supply"])

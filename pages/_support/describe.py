@@ -54,9 +54,10 @@ def describe_choices(result: RunResult) -> str:
     objective = "lowest CO2" if choice["objective"] == "co2" else "lowest cost"
     cap = choice["co2_cap_t_per_a"]
     days = choice["typical_days"]
+    held = " · capacities held from a plan (a full-year check)" if (result.extras or {}).get("fixed_plan") else ""
     return (
         f"Cost case **{markdown_literal(cost_case_label(choice['cost_case']))}** · objective **{objective}** · CO2 cap "
-        f"{f'{cap:,.0f} t/a' if cap else 'none'} · {f'{days} typical days' if days else 'full year'}"
+        f"{f'{cap:,.0f} t/a' if cap else 'none'} · {f'{days} typical days' if days else 'full year'}{held}"
     )
 
 def suggested_run_name(result: RunResult) -> str:
