@@ -124,12 +124,7 @@ def period_mean(year_values, grid: TimeGrid) -> np.ndarray:
     ValueError
         If the rows do not hold ``grid.n_hours`` finite values.
     """
-    values = np.asarray(year_values, dtype=float)
-    year = np.atleast_2d(values)
-    if year.ndim != 2 or year.shape[1] != grid.n_hours:
-        raise ValueError(f"year_values must have {grid.n_hours} hourly values per row; got shape {values.shape}")
-    if not np.all(np.isfinite(year)):
-        raise ValueError("year_values must be finite")
+    values, year = _hourly_rows(year_values, grid)
     out = year[:, grid.year_hour].copy()
     if not grid.is_full_year:
         extreme = (np.asarray(grid.extreme_period, dtype=bool) if grid.extreme_period is not None
@@ -162,27 +157,21 @@ def keep_period_distribution(year_values, grid: TimeGrid) -> np.ndarray:
     Energy 315, 119029 (from memory); the duration-curve criterion is Poncelet et al. (2017, see
     :func:`keep_cost_duration_curve`).
 
-    Parameters
-    ----------
-    year_values : array_like
-        Hourly values, shape (rows, n_hours) or (n_hours,). [any unit]
-    grid : TimeGrid
-
-    Returns
-    -------
-    numpy.ndarray
-        Shape (rows, n_steps) (or (n_steps,) for a 1-D input); for the full year the hourly values as they are;
-        extreme days keep their own values.
-
-    Raises
-    ------
-    ValueError
-        If the rows do not hold ``grid.n_hours`` finite values.
+    ``year_values`` and the result are shaped as in :func:`period_mean` (rows of hourly values, or one row;
+    the full year comes back as it is, extreme days keep their own values), and so is the ValueError.
     """
+    values, year = _hourly_rows(year_values, grid)
+    out = (np.vstack([keep_cost_duration_curve(row, row, grid, "period") for row in year]) if len(year)
+           else year[:, grid.year_hour].copy())
+    return out if values.ndim == 2 else out[0]
+
+
+def _hourly_rows(year_values, grid: TimeGrid):
+    """``year_values`` as an array and as rows of ``grid.n_hours`` finite values (ValueError otherwise)."""
     values = np.asarray(year_values, dtype=float)
     year = np.atleast_2d(values)
     if year.ndim != 2 or year.shape[1] != grid.n_hours:
         raise ValueError(f"year_values must have {grid.n_hours} hourly values per row; got shape {values.shape}")
-    out = (np.vstack([keep_cost_duration_curve(row, row, grid, "period") for row in year]) if len(year)
-           else year[:, grid.year_hour].copy())
-    return out if values.ndim == 2 else out[0]
+    if not np.all(np.isfinite(year)):
+        raise ValueError("year_values must be finite")
+    return values, year
