@@ -375,7 +375,7 @@ def prepare_run(scenario: Scenario, cost_case: str, settings: Settings | None = 
     wells = scenario.wells
     district_index = {d: i for i, d in enumerate(districts["district_id"])}
     well_district = np.array([district_index[d] for d in wells["district_id"]], dtype=int)
-    # groundwater temperature of a typical day: its cluster's mean (the aquifer lags the weather by weeks)
+    # groundwater temperature of a typical day: its cluster's distribution (the aquifer lags the weather by weeks)
     gw = GROUNDWATER_REPRESENTATION(groundwater_year_c(scenario), grid) if len(wells) else np.zeros((0, len(steps)))
     well_cop, well_cop_hw = {}, {}
     for row in techs[techs["kind"] == "groundwater_heat_pump"].itertuples(index=False):
