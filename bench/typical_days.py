@@ -7,6 +7,7 @@
     python bench/typical_days.py --former         # also the former days and prices (medoid hours' own prices)
     python bench/typical_days.py --districts      # also where the heat by technology differs, per district
     python bench/typical_days.py --groundwater-mean --sweep 16,24   # also the groundwater at its cluster's mean
+    python bench/typical_days.py --cyclic-stores --sweep 16,24,48,96   # also stores cyclic within each day
 
 The full year takes minutes; it is solved once and kept in the temporary folder, keyed by the input hash. All
 clusterings get the same inputs (the daily features the engine clusters, the extreme days taken out and kept
@@ -196,6 +197,19 @@ def solve_former(scenario, settings):
         prepare_mod.clear_grid_memo()
 
 
+def solve_cyclic_stores(scenario, settings):
+    """The run with the stores cyclic within each typical day (``formulation.LINK_STORES = False``, the
+    representation before stores followed the calendar from day to day)."""
+    from engine.model import formulation
+
+    original = formulation.LINK_STORES
+    formulation.LINK_STORES = False
+    try:
+        return solve_scenario(scenario, settings=settings)
+    finally:
+        formulation.LINK_STORES = original
+
+
 def solve_groundwater_mean(scenario, settings):
     """The run with the groundwater temperature of each typical day at its cluster's mean at the same hour
     (:func:`engine.physics.carrier_curves.period_mean`, the representation before the cluster's distribution)."""
@@ -223,7 +237,8 @@ def timed_solve(scenario, settings, repeats: int = 3):
 
 
 def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, single_factor: bool = False,
-                  sweep=(), districts: bool = False, former: bool = False, groundwater_mean: bool = False) -> dict:
+                  sweep=(), districts: bool = False, former: bool = False, groundwater_mean: bool = False,
+                  cyclic_stores: bool = False) -> dict:
     """The demo at its default resolution (or ``typical_days``) against the full year; optionally tsam's days,
     the former single-factor rescaling, and other numbers of typical days (``sweep``)."""
     scenario = load_scenario(resolve_scenario_path("demo"))
@@ -267,6 +282,13 @@ def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, sing
             result = solve_groundwater_mean(scenario, other)
             out[f"own_groundwater_mean_{days}_days"] = {**compare(result, reference), "cluster_s": math.nan,
                                                         "solve_s": time.perf_counter() - started}
+    if cyclic_stores:
+        for days in [settings.typical_days, *sweep]:
+            other = run_settings(scenario, typical_days=days)
+            started = time.perf_counter()
+            result = solve_cyclic_stores(scenario, other)
+            out[f"own_cyclic_stores_{days}_days"] = {**compare(result, reference), "cluster_s": math.nan,
+                                                     "solve_s": time.perf_counter() - started}
     for days in sweep:
         other = run_settings(scenario, typical_days=days)
         result, seconds = timed_solve(scenario, other)
@@ -298,11 +320,13 @@ def main(argv=None) -> int:
     parser.add_argument("--former", action="store_true", help="also the former days and prices")
     parser.add_argument("--groundwater-mean", action="store_true",
                         help="also the groundwater temperature at its cluster's mean (the representation before)")
+    parser.add_argument("--cyclic-stores", action="store_true",
+                        help="also the stores cyclic within each typical day (the representation before)")
     args = parser.parse_args(argv)
     sweep = [int(d) for d in args.sweep.split(",") if d.strip()]
     load = os.getloadavg()[0]
     figures = demo_fidelity(args.tsam, args.typical_days, args.single_factor, sweep, args.districts, args.former,
-                            args.groundwater_mean)
+                            args.groundwater_mean, args.cyclic_stores)
     print(f"demo, {figures['typical_days']} typical days + extreme days; full year solved in "
           f"{figures['full_year_s']:.1f} s")
     for name, row in figures.items():

@@ -28,6 +28,7 @@ from engine.scenario.kinds import COOLING_KINDS, FUELS, WELL_KINDS
 from engine.model.lp import INF, HighsSession, LinearProgram, LpSolution
 from engine.model.prepare import PreparedRun
 from engine.model.solvers import DIRECT, resolve_solver, solve_lp
+from engine.physics.timeseries import HOURS_PER_DAY
 from engine.units import KG_PER_T, KWH_PER_MWH, SECONDS_PER_HOUR
 
 UNSERVED_CO2_EQUIVALENT_T_PER_MWH = 10.0
@@ -262,6 +263,96 @@ def fixed_new_bounds(prepared: PreparedRun, units: SupplyUnits, stores: StoreUni
     return unit_new, unit_new, store_new, store_new
 
 
+LINK_STORES = True
+"""Typical days: stores carry heat from one calendar day to the next (:func:`_linked_store_rows`); False makes
+them cyclic within each typical day (the representation before, kept for the comparison in
+bench/typical_days.py)."""
+
+
+def stores_linked(grid, technologies=None) -> bool:
+    """True when the stores of ``grid`` follow the calendar: typical days of 24 hourly steps (not the full year,
+    where the one period is the year and the level is cyclic over it) and no store of ``technologies`` (the
+    scenario's table, optional) loses more than :data:`MAX_LINKED_LOSS_PER_H` per hour."""
+    if technologies is not None and len(technologies):
+        stores = technologies[technologies["kind"] == "heat_store"]
+        if len(stores) and float(stores["store_loss_pct_per_h"].max()) / 100.0 > MAX_LINKED_LOSS_PER_H:
+            return False
+    return bool(LINK_STORES and not grid.is_full_year and grid.n_steps == grid.n_periods * HOURS_PER_DAY
+                and np.all(np.bincount(grid.period, minlength=grid.n_periods) == HOURS_PER_DAY))
+
+
+MAX_LINKED_LOSS_PER_H = 0.25
+"""Stores losing more than this share of their heat per hour stay cyclic within each typical day: over a day
+they keep less than 1e-3 of it, and keep^-(h+1) would scale the rows badly."""
+
+
+def _linked_store_rows(lp: LinearProgram, grid, stores: StoreUnits, cols: dict, rows: dict, keep: np.ndarray) -> None:
+    """Store rows of typical days linked in calendar order (docs/model.md section 4, constraint 8b).
+
+    Builds on the superposition of Kotzur, L., Markewitz, P., Robinius, M. and Stolten, D. (2018). Time series
+    aggregation for energy system design: Modeling seasonal storage. Applied Energy 213, 123-135: one start level
+    ``B[d]`` per store and calendar day (cyclic over the year) and one level ``l[k, h]`` within each typical day
+    k, the same for every day it stands for. Here ``l`` is counted in start-of-day units, so that the level at
+    hour h of day d is ``keep^(h+1) (B[d] + l[k(d), h])`` with ``l[k, h] = l[k, h-1] + keep^-(h+1) (sqrt(eta)
+    Q+ - Q- / sqrt(eta))``, ``l[k, -1] = 0``, and ``B[d+1] = keep^24 (B[d] + l[k(d), 23])``. The level stays in
+    [0, capacity] at every hour of every calendar day exactly when ``B[d] + min_h l[k(d), h] >= 0`` and
+    ``B[d] + max_h (l[k(d), h] - c_h capacity) <= capacity`` with ``c_h = keep^-(h+1) - 1``; the lowest and
+    highest are columns of their own per typical day, so the rows grow with days and typical days, not hours.
+    """
+    n_s = len(stores.technology_id)
+    period_steps = np.stack([np.flatnonzero(grid.period == p) for p in range(grid.n_periods)])  # hour order
+    last = period_steps[:, -1]
+    position = np.empty(grid.n_steps, dtype=int)  # hour within the typical day, 0..23
+    position[period_steps.ravel()] = np.tile(np.arange(HOURS_PER_DAY), grid.n_periods)
+    not_first = (position > 0).astype(float)
+    decay = keep[:, None] ** (position[None, :] + 1.0)  # keep^(h+1), (stores, steps)
+    prev = grid.previous_step()
+    # decay * (l[h] - l[h-1]) = sqrt(eta) Q+ - Q- / sqrt(eta)
+    rows["store_balance"] = lp.add_rows(
+        "store_balance",
+        [
+            (cols["level"], decay),
+            (cols["level"][:, prev], -decay * not_first[None, :]),
+            (cols["charge"], -stores.charge_efficiency[:, None]),
+            (cols["discharge"], 1.0 / stores.discharge_efficiency[:, None]),
+        ],
+        lower=0.0,
+        upper=0.0,
+    )
+    n_days = grid.day_period.size
+    day_period = np.asarray(grid.day_period, dtype=int)
+    day_keep = keep[:, None] ** HOURS_PER_DAY
+    following = np.r_[np.arange(1, n_days), 0]
+    rows["store_day_chain"] = lp.add_rows(
+        "store_day_chain",
+        [
+            (cols["store_day_start"][:, following], 1.0),
+            (cols["store_day_start"], -day_keep),
+            (cols["level"][:, last[day_period]], -day_keep),
+        ],
+        lower=0.0,
+        upper=0.0,
+    )
+    rows["store_day_lowest"] = lp.add_rows(
+        "store_day_lowest", [(cols["level"], 1.0), (cols["store_low"][:, grid.period], -1.0)], lower=0.0
+    )
+    headroom = 1.0 / decay - 1.0  # c_h
+    rows["store_day_highest"] = lp.add_rows(
+        "store_day_highest",
+        [(cols["level"], 1.0), (cols["store_high"][:, grid.period], -1.0), (cols["store_new"][:, None], -headroom)],
+        upper=stores.existing_kwh[:, None] * headroom,
+    )
+    rows["store_empty"] = lp.add_rows(
+        "store_empty", [(cols["store_day_start"], 1.0), (cols["store_low"][:, day_period], 1.0)], lower=0.0
+    )
+    rows["store_level"] = lp.add_rows(
+        "store_level",
+        [(cols["store_day_start"], 1.0), (cols["store_high"][:, day_period], 1.0),
+         (cols["store_new"][:, None], -1.0)],
+        upper=stores.existing_kwh[:, None] * np.ones((1, n_days)),
+    )
+
+
 def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
     """Build the LP for ``districts`` (indices; all by default). The city-wide limits of the settings (None for
     no limit) apply to those districts."""
@@ -287,7 +378,13 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
     cols["new"] = lp.add_variables("new_capacity_kw", n_u, new_lower, new_upper)
     cols["out"] = lp.add_variables("output_kw", (n_u, n_t), 0.0, units.output_upper)
     cols["store_new"] = lp.add_variables("store_new_kwh", n_s, store_lower, store_upper)
-    cols["level"] = lp.add_variables("store_level_kwh", (n_s, n_t))
+    linked = stores_linked(prepared.grid, prepared.scenario.technologies)
+    # linked: the level within each typical day, counted from the day's start level (any sign; section 4, 8b)
+    cols["level"] = lp.add_variables("store_level_kwh", (n_s, n_t), -INF if linked else 0.0)
+    if linked:  # the level at the start of each calendar day; the lowest and highest level within each typical day
+        cols["store_day_start"] = lp.add_variables("store_day_start_kwh", (n_s, prepared.grid.day_period.size))
+        cols["store_low"] = lp.add_variables("store_day_lowest_kwh", (n_s, prepared.grid.n_periods), -INF)
+        cols["store_high"] = lp.add_variables("store_day_highest_kwh", (n_s, prepared.grid.n_periods), -INF)
     cols["charge"] = lp.add_variables("store_charge_kw", (n_s, n_t))
     cols["discharge"] = lp.add_variables("store_discharge_kw", (n_s, n_t))
     unserved_upper = INF if settings.allow_unserved_heat else 0.0
@@ -392,23 +489,26 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
 
     # ---------------------------------------------------------------- stores
     if n_s:
-        prev = prepared.grid.previous_step()
         keep = 1.0 - stores.loss_per_h
-        rows["store_balance"] = lp.add_rows(
-            "store_balance",
-            [
-                (cols["level"], 1.0),
-                (cols["level"][:, prev], -keep[:, None]),
-                (cols["charge"], -stores.charge_efficiency[:, None]),
-                (cols["discharge"], 1.0 / stores.discharge_efficiency[:, None]),
-            ],
-            lower=0.0,
-            upper=0.0,
-        )
         exist = stores.existing_kwh[:, None] * np.ones((1, n_t))
-        rows["store_level"] = lp.add_rows(
-            "store_level", [(cols["level"], 1.0), (cols["store_new"][:, None], -1.0)], upper=exist
-        )
+        if linked:
+            _linked_store_rows(lp, prepared.grid, stores, cols, rows, keep)
+        else:
+            prev = prepared.grid.previous_step()
+            rows["store_balance"] = lp.add_rows(
+                "store_balance",
+                [
+                    (cols["level"], 1.0),
+                    (cols["level"][:, prev], -keep[:, None]),
+                    (cols["charge"], -stores.charge_efficiency[:, None]),
+                    (cols["discharge"], 1.0 / stores.discharge_efficiency[:, None]),
+                ],
+                lower=0.0,
+                upper=0.0,
+            )
+            rows["store_level"] = lp.add_rows(
+                "store_level", [(cols["level"], 1.0), (cols["store_new"][:, None], -1.0)], upper=exist
+            )
         rate = 1.0 / stores.hours[:, None]
         for name in ("charge", "discharge"):
             rows[f"store_{name}"] = lp.add_rows(
