@@ -204,3 +204,25 @@ def test_full_year_store_is_unchanged():
     assert not formulation.stores_linked(prepared.grid)
     model = formulation.build_model(prepared)
     assert "store_day_start" not in model.cols
+
+
+def test_a_run_saved_before_the_stores_were_linked_is_not_handed_back(tmp_path, monkeypatch):
+    """The input hash carries the model revision: a run saved under the revision before (stores cyclic within
+    each typical day) keeps its place in the library but is not found again for the same files."""
+    from engine.scenario import inputs
+    from engine.storage.store import ScenarioStore
+
+    scenario = windy_instance(0.0)
+    revision = inputs.MODEL_REVISION
+    monkeypatch.setattr(inputs, "MODEL_REVISION", revision - 1)
+    monkeypatch.setattr(formulation, "LINK_STORES", False)
+    saved_before = solve_scenario(scenario)
+    monkeypatch.setattr(inputs, "MODEL_REVISION", revision)
+    monkeypatch.setattr(formulation, "LINK_STORES", True)
+    now = solve_scenario(scenario)
+    assert saved_before.input_hash != now.input_hash
+    with ScenarioStore(tmp_path / "library.sqlite") as store:
+        run_id = store.save_run(saved_before, name="saved before")
+        assert store.find_by_hash(now.input_hash) is None
+        assert store.find_by_hash(saved_before.input_hash) == run_id
+        assert store.load_run(run_id).total_cost_eur_per_a == pytest.approx(saved_before.total_cost_eur_per_a)

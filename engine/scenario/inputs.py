@@ -270,15 +270,23 @@ def _frame_digest(frame: pd.DataFrame | None) -> str:
     return hashlib.sha256(text.encode()).hexdigest()
 
 
+MODEL_REVISION = 2
+"""Revision of what the engine makes of the inputs (the formulation of docs/model.md, the typical days): raise it
+with every change that moves a run's numbers for the same files, so that :func:`input_hash` changes and a run
+saved before is no longer handed back as if solved now (it stays in the library, to open and compare).
+2: stores follow the calendar from day to day on typical days (docs/model.md section 4, constraint 8b)."""
+
+
 def input_hash(scenario: Scenario, cost_case: str, settings: Settings | None = None) -> str:
     """SHA-256 fingerprint of all that decides a run's numbers.
 
     Covers every table, the settings (objective, cap, resolution ...), prices, aquifer and the chosen cost case,
-    but not the folder the scenario was read from.
+    and :data:`MODEL_REVISION`, but not the folder the scenario was read from.
     """
     settings = settings or scenario.settings
     case = scenario.cost_cases.get(cost_case)
     parts: dict[str, Any] = {
+        "model_revision": MODEL_REVISION,
         "settings": dataclasses.asdict(settings),
         "prices": dataclasses.asdict(scenario.prices),
         "aquifer": dataclasses.asdict(scenario.aquifer),
