@@ -7,7 +7,7 @@
     python bench/typical_days.py --former         # also the former days and prices (medoid hours' own prices)
     python bench/typical_days.py --districts      # also where the heat by technology differs, per district
     python bench/typical_days.py --groundwater-mean --sweep 16,24   # also the groundwater at its cluster's mean
-    python bench/typical_days.py --cyclic-stores --sweep 16,24,48,96   # also stores cyclic within each day
+    python bench/typical_days.py --linked-stores --sweep 16,24,48,96   # also stores linked from day to day
 
 The full year takes minutes; it is solved once and kept in the temporary folder, keyed by the input hash. All
 clusterings get the same inputs (the daily features the engine clusters, the extreme days taken out and kept
@@ -197,17 +197,15 @@ def solve_former(scenario, settings):
         prepare_mod.clear_grid_memo()
 
 
-def solve_cyclic_stores(scenario, settings):
-    """The run with the stores cyclic within each typical day (``formulation.LINK_STORES = False``, the
-    representation before stores followed the calendar from day to day)."""
-    from engine.model import formulation
+def solve_linked_stores(scenario, settings):
+    """The run with the stores carrying heat from day to day (``stores_between_days = true``) and its full-year
+    check's unserved heat [MWh/a] (what the plan leaves unserved over the hourly year)."""
+    import dataclasses
 
-    original = formulation.LINK_STORES
-    formulation.LINK_STORES = False
-    try:
-        return solve_scenario(scenario, settings=settings)
-    finally:
-        formulation.LINK_STORES = original
+    from engine.studies.year_check import check_over_year
+
+    result = solve_scenario(scenario, settings=dataclasses.replace(settings, stores_between_days=True))
+    return result, check_over_year(scenario, result).unserved_heat_mwh_per_a
 
 
 def solve_groundwater_mean(scenario, settings):
@@ -238,7 +236,7 @@ def timed_solve(scenario, settings, repeats: int = 3):
 
 def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, single_factor: bool = False,
                   sweep=(), districts: bool = False, former: bool = False, groundwater_mean: bool = False,
-                  cyclic_stores: bool = False) -> dict:
+                  linked_stores: bool = False) -> dict:
     """The demo at its default resolution (or ``typical_days``) against the full year; optionally tsam's days,
     the former single-factor rescaling, and other numbers of typical days (``sweep``)."""
     scenario = load_scenario(resolve_scenario_path("demo"))
@@ -282,13 +280,14 @@ def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, sing
             result = solve_groundwater_mean(scenario, other)
             out[f"own_groundwater_mean_{days}_days"] = {**compare(result, reference), "cluster_s": math.nan,
                                                         "solve_s": time.perf_counter() - started}
-    if cyclic_stores:
+    if linked_stores:
         for days in [settings.typical_days, *sweep]:
             other = run_settings(scenario, typical_days=days)
             started = time.perf_counter()
-            result = solve_cyclic_stores(scenario, other)
-            out[f"own_cyclic_stores_{days}_days"] = {**compare(result, reference), "cluster_s": math.nan,
-                                                     "solve_s": time.perf_counter() - started}
+            result, unserved = solve_linked_stores(scenario, other)
+            out[f"own_linked_stores_{days}_days"] = {**compare(result, reference), "cluster_s": math.nan,
+                                                     "solve_s": time.perf_counter() - started,
+                                                     "checked_unserved_heat_mwh_per_a": unserved}
     for days in sweep:
         other = run_settings(scenario, typical_days=days)
         result, seconds = timed_solve(scenario, other)
@@ -310,6 +309,11 @@ def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, sing
     return out
 
 
+def _unserved(row: dict):
+    """Unserved heat of a plan held over the full year [MWh/a], where the row has it."""
+    return row.get("checked_unserved_heat_mwh_per_a", row.get("unserved_heat_mwh_per_a"))
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--tsam", action="store_true")
@@ -320,13 +324,13 @@ def main(argv=None) -> int:
     parser.add_argument("--former", action="store_true", help="also the former days and prices")
     parser.add_argument("--groundwater-mean", action="store_true",
                         help="also the groundwater temperature at its cluster's mean (the representation before)")
-    parser.add_argument("--cyclic-stores", action="store_true",
-                        help="also the stores cyclic within each typical day (the representation before)")
+    parser.add_argument("--linked-stores", action="store_true",
+                        help="also the stores linked from day to day, and what their plan leaves unserved")
     args = parser.parse_args(argv)
     sweep = [int(d) for d in args.sweep.split(",") if d.strip()]
     load = os.getloadavg()[0]
     figures = demo_fidelity(args.tsam, args.typical_days, args.single_factor, sweep, args.districts, args.former,
-                            args.groundwater_mean, args.cyclic_stores)
+                            args.groundwater_mean, args.linked_stores)
     print(f"demo, {figures['typical_days']} typical days + extreme days; full year solved in "
           f"{figures['full_year_s']:.1f} s")
     for name, row in figures.items():
@@ -340,7 +344,9 @@ def main(argv=None) -> int:
               f"{row['heat_error_max_pct']:.3f} % ({row['heat_error_worst_technology']}: "
               f"{row['heat_error_worst_mwh_per_a']:+,.0f} MWh/a, {row['heat_error_worst_pct_of_heat']:+.3f} % of the "
               f"city's heat, its share {row['heat_share_worst_pct']:.2f} %), clustering {row.get('cluster_s', math.nan):.3f} s, "
-              f"solve {row.get('solve_s', math.nan):.2f} s; heat errors " + ", ".join(
+              f"solve {row.get('solve_s', math.nan):.2f} s; "
+              + (f"unserved heat over the full year {_unserved(row):.1f} MWh/a; " if _unserved(row) is not None else "")
+              + "heat errors " + ", ".join(
                   f"{t} {e:+.2f} %" for t, e in sorted(row["heat_errors_pct"].items())))
     if args.districts:
         print("per district (capacity kW, heat MWh/a; full year, typical days, difference):")

@@ -1,4 +1,4 @@
-"""Stores on typical days follow the calendar (docs/model.md section 4, constraint 8b).
+"""Stores on typical days that follow the calendar (``stores_between_days``; docs/model.md section 4, 8b).
 
 The engine writes the level of a store on typical days as a start-of-day level per calendar day plus a level
 within each typical day (the superposition of Kotzur et al. 2018, Applied Energy 213, 123-135). The check here is
@@ -55,7 +55,7 @@ def windy_instance(loss_pct_per_h: float):
         f.hourly(HOURS, electricity=electricity, network=80.0, grid_co2=0.0, network_co2=0.0),
         heat_demand_hourly_kw=pd.DataFrame({"A": demand}),
         prices=Prices(gas_eur_per_mwh=70.0, co2_eur_per_t=0.0),
-        settings=Settings(typical_days=4, value_of_unserved_heat_eur_per_mwh=3000.0),
+        settings=Settings(typical_days=4, value_of_unserved_heat_eur_per_mwh=3000.0, stores_between_days=True),
     )
 
 
@@ -181,17 +181,19 @@ def test_lossy_store_matches_the_calendar_rebuild_and_stays_within_bounds():
     assert highest <= capacity * (1 + 1e-6)
 
 
-def test_cyclic_within_each_day_is_the_representation_before_and_costs_more_here():
-    """``LINK_STORES = False`` gives the store cyclic within each day: the calendar LP with each day's level back
-    at its start; on the windy instance that rules out keeping heat for the dear days, so it costs more."""
+def test_cyclic_within_each_day_is_the_default_and_costs_more_here():
+    """``stores_between_days = false`` (the default) keeps each store cyclic within its typical day: the calendar
+    LP with each day's level back at its start; on the windy instance that rules out keeping heat for the dear
+    days, so it costs more."""
+    import dataclasses
+
+    assert Settings().stores_between_days is False
     scenario = windy_instance(0.0)
     linked = solve_scenario(scenario).total_cost_eur_per_a
-    original = formulation.LINK_STORES
-    formulation.LINK_STORES = False
-    try:
-        daily = solve_scenario(scenario).total_cost_eur_per_a
-    finally:
-        formulation.LINK_STORES = original
+    scenario.settings = dataclasses.replace(scenario.settings, stores_between_days=False)
+    prepared = prepare_run(scenario, "reference")
+    assert not formulation.stores_linked(prepared.grid, scenario.technologies, scenario.settings)
+    daily = solve_scenario(scenario).total_cost_eur_per_a
     reference, _ = calendar_rebuild(scenario, cyclic_within_day=True)
     assert daily == pytest.approx(reference, rel=1e-6)
     assert daily > linked * 1.01
@@ -200,25 +202,31 @@ def test_cyclic_within_each_day_is_the_representation_before_and_costs_more_here
 def test_full_year_store_is_unchanged():
     """The full year has one period (the year) and keeps its cyclic level without the day variables."""
     scenario = windy_instance(0.5)
-    prepared = prepare_run(scenario, "reference", Settings(typical_days=0))
-    assert not formulation.stores_linked(prepared.grid)
+    prepared = prepare_run(scenario, "reference", Settings(typical_days=0, stores_between_days=True))
+    assert not formulation.stores_linked(prepared.grid, scenario.technologies, prepared.settings)
     model = formulation.build_model(prepared)
     assert "store_day_start" not in model.cols
 
 
-def test_a_run_saved_before_the_stores_were_linked_is_not_handed_back(tmp_path, monkeypatch):
-    """The input hash carries the model revision: a run saved under the revision before (stores cyclic within
-    each typical day) keeps its place in the library but is not found again for the same files."""
+def test_a_store_losing_most_of_its_heat_each_hour_stays_cyclic():
+    """Above 25 %/h of loss a store keeps under 1e-3 of its heat over a day; it stays cyclic within the day."""
+    scenario = windy_instance(30.0)
+    prepared = prepare_run(scenario, "reference")
+    assert not formulation.stores_linked(prepared.grid, scenario.technologies, scenario.settings)
+    assert formulation.stores_linked(prepared.grid, windy_instance(0.5).technologies, scenario.settings)
+
+
+def test_a_run_saved_under_an_earlier_model_revision_is_not_handed_back(tmp_path, monkeypatch):
+    """The input hash carries the model revision: a run saved under an earlier revision keeps its place in the
+    library but is not found again for the same files."""
     from engine.scenario import inputs
     from engine.storage.store import ScenarioStore
 
     scenario = windy_instance(0.0)
     revision = inputs.MODEL_REVISION
     monkeypatch.setattr(inputs, "MODEL_REVISION", revision - 1)
-    monkeypatch.setattr(formulation, "LINK_STORES", False)
     saved_before = solve_scenario(scenario)
     monkeypatch.setattr(inputs, "MODEL_REVISION", revision)
-    monkeypatch.setattr(formulation, "LINK_STORES", True)
     now = solve_scenario(scenario)
     assert saved_before.input_hash != now.input_hash
     with ScenarioStore(tmp_path / "library.sqlite") as store:
@@ -226,3 +234,24 @@ def test_a_run_saved_before_the_stores_were_linked_is_not_handed_back(tmp_path, 
         assert store.find_by_hash(now.input_hash) is None
         assert store.find_by_hash(saved_before.input_hash) == run_id
         assert store.load_run(run_id).total_cost_eur_per_a == pytest.approx(saved_before.total_cost_eur_per_a)
+
+
+def test_the_setting_is_read_from_the_run_section(tmp_path):
+    """``stores_between_days`` in ``[run]`` of scenario.toml reaches the run's settings (docs/input_format.md);
+    absent, it is false; a value that is not a boolean is an error that names the file and the key."""
+    import shutil
+
+    from engine.scenario import DEMO_DIR, load_scenario
+    from engine.scenario.problems import InputError
+
+    folder = tmp_path / "city"
+    shutil.copytree(DEMO_DIR, folder)
+    assert load_scenario(folder).settings.stores_between_days is False
+    toml = folder / "scenario.toml"
+    text = toml.read_text(encoding="utf-8")
+    toml.write_text(text.replace("[run]\n", "[run]\nstores_between_days = true\n", 1), encoding="utf-8")
+    assert load_scenario(folder).settings.stores_between_days is True
+    toml.write_text(text.replace("[run]\n", '[run]\nstores_between_days = "often"\n', 1), encoding="utf-8")
+    with pytest.raises(InputError) as caught:
+        load_scenario(folder)
+    assert "scenario.toml" in str(caught.value) and "stores_between_days" in str(caught.value)

@@ -8,6 +8,8 @@ type into a table, how a table names a bad cell) is marked "common practice".
 
 from __future__ import annotations
 
+import dataclasses
+
 import csv
 import io
 import math
@@ -328,6 +330,8 @@ def test_choices_of_a_run_restore_the_set_up(tiny, tiny_cache):
     assert suggested_run_name(run.result) == f"Reference, lowest cost, {TINY_DAYS} typical days"
     assert describe_choices(run.result) == (
         f"Cost case **Reference** · objective **lowest cost** · CO2 cap none · {TINY_DAYS} typical days")
+    linked = dataclasses.replace(run.result, settings={**run.result.settings, "stores_between_days": True})
+    assert describe_choices(linked).endswith(f"{TINY_DAYS} typical days · stores carry heat from day to day")
 
 
 def test_result_tables_for_reading_add_up_to_the_city_figures(tiny, tiny_cache):

@@ -263,21 +263,19 @@ def fixed_new_bounds(prepared: PreparedRun, units: SupplyUnits, stores: StoreUni
     return unit_new, unit_new, store_new, store_new
 
 
-LINK_STORES = True
-"""Typical days: stores carry heat from one calendar day to the next (:func:`_linked_store_rows`); False makes
-them cyclic within each typical day (the representation before, kept for the comparison in
-bench/typical_days.py)."""
-
-
-def stores_linked(grid, technologies=None) -> bool:
-    """True when the stores of ``grid`` follow the calendar: typical days of 24 hourly steps (not the full year,
-    where the one period is the year and the level is cyclic over it) and no store of ``technologies`` (the
-    scenario's table, optional) loses more than :data:`MAX_LINKED_LOSS_PER_H` per hour."""
+def stores_linked(grid, technologies=None, settings=None) -> bool:
+    """True when the stores of ``grid`` follow the calendar (:func:`_linked_store_rows`): the run asks for it
+    (``settings.stores_between_days``; None counts as asked), the grid is typical days of 24 hourly steps (not the
+    full year, whose one period is the year, the level cyclic over it) and no store of ``technologies`` (the
+    scenario's table, optional) loses more than :data:`MAX_LINKED_LOSS_PER_H` per hour. Otherwise each store is
+    cyclic within its typical day."""
+    if settings is not None and not getattr(settings, "stores_between_days", False):
+        return False
     if technologies is not None and len(technologies):
         stores = technologies[technologies["kind"] == "heat_store"]
         if len(stores) and float(stores["store_loss_pct_per_h"].max()) / 100.0 > MAX_LINKED_LOSS_PER_H:
             return False
-    return bool(LINK_STORES and not grid.is_full_year and grid.n_steps == grid.n_periods * HOURS_PER_DAY
+    return bool(not grid.is_full_year and grid.n_steps == grid.n_periods * HOURS_PER_DAY
                 and np.all(np.bincount(grid.period, minlength=grid.n_periods) == HOURS_PER_DAY))
 
 
@@ -378,7 +376,7 @@ def build_model(prepared: PreparedRun, districts=None) -> DistrictModel:
     cols["new"] = lp.add_variables("new_capacity_kw", n_u, new_lower, new_upper)
     cols["out"] = lp.add_variables("output_kw", (n_u, n_t), 0.0, units.output_upper)
     cols["store_new"] = lp.add_variables("store_new_kwh", n_s, store_lower, store_upper)
-    linked = stores_linked(prepared.grid, prepared.scenario.technologies)
+    linked = stores_linked(prepared.grid, prepared.scenario.technologies, settings)
     # linked: the level within each typical day, counted from the day's start level (any sign; section 4, 8b)
     cols["level"] = lp.add_variables("store_level_kwh", (n_s, n_t), -INF if linked else 0.0)
     if linked:  # the level at the start of each calendar day; the lowest and highest level within each typical day

@@ -1,8 +1,8 @@
 """Time resolution of the model: the full hourly year or a set of typical days.
 
 A :class:`TimeGrid` lists the model's time steps, the hours each step stands for (its weight), the period each
-step belongs to (the whole year, or a typical day) and, per calendar day, the typical day that stands for it
-(stores follow the calendar through it: docs/model.md section 4, constraint 8). With the full year there is one period, the whole year, and every step has weight 1 h. With typical
+step belongs to (the whole year, or a typical day; stores are cyclic within it unless linked from day to day,
+docs/model.md section 4, constraint 8) and, per calendar day, the typical day that stands for it. With the full year there is one period, the whole year, and every step has weight 1 h. With typical
 days, the calendar days are clustered by k-medoids on their hourly profiles; each medoid day becomes a period of
 24 hourly steps whose weight is the number of days in its cluster, so the weights sum to the hours of the year.
 Results of a typical-day run are rebuilt to the hourly year by copying each typical day into every day it stands
@@ -13,8 +13,8 @@ Rousseeuw 2021), run from its BUILD start and from a few seeded random starts th
 (Park & Jun 2009) brings close to a local optimum first; the best result wins. A year's days (365 or 366) cluster
 in well under a second for the usual 8 to 24 typical days.
 
-Typical days keep the sequence of hours inside a day; the sequence of days is kept for the stores only
-(``day_period`` in calendar order; :mod:`engine.model.formulation` links their levels from day to day). Extreme days (peak heating, peak cooling, coldest) are kept as periods
+Typical days keep the sequence of hours inside a day but not the sequence of days, except for stores where the
+run asks for it (``day_period`` in calendar order; ``Settings.stores_between_days``). Extreme days (peak heating, peak cooling, coldest) are kept as periods
 of their own with weight one day (:func:`typical_day_grid` ``extreme_days``; Kotzur et al. 2018), and
 :func:`keep_duration_curve` gives the demand of the clustered steps the year's duration curve, which keeps the
 annual sums exactly and the heat above any level to within one step's weight (docs/model.md section 8), and
@@ -423,8 +423,8 @@ class TimeGrid:
         """Index of the step before each step, cyclic within its period.
 
         The first step of a period is preceded by the last step of the same period: the store level is cyclic
-        over the year for the full year (and within each typical day where typical-day stores are not linked
-        from day to day, :data:`engine.model.formulation.LINK_STORES`).
+        over the year for the full year, and within each typical day unless the run links the stores from day
+        to day (``Settings.stores_between_days``, :func:`engine.model.formulation.stores_linked`).
 
         Returns
         -------

@@ -86,6 +86,13 @@ DEFAULTS = (
         "far above any supply cost, so heat is left unserved only where nothing can supply it",
     ),
     Default(_SCENARIO, "run.allow_unserved_heat", True, "a run always gives an answer that shows the gap"),
+    Default(
+        _SCENARIO,
+        "run.stores_between_days",
+        False,
+        "typical days: each store returns to its level within every day, so each day serves itself and a cold spell "
+        "is never bridged from days typical days only stand for",
+    ),
     Default(_SCENARIO, "run.co2_cap_t_per_a", NO_LIMIT, "limit rule"),
     Default(_SCENARIO, "run.network_plant_limit_kw", NO_LIMIT, "limit rule"),
     Default(

@@ -74,6 +74,9 @@ class Settings:
     typical_days: int = _RUN["typical_days"]
     value_of_unserved_heat_eur_per_mwh: float = _RUN["value_of_unserved_heat_eur_per_mwh"]
     allow_unserved_heat: bool = _RUN["allow_unserved_heat"]
+    stores_between_days: bool = _RUN["stores_between_days"]
+    """Typical days: stores carry heat from one calendar day to the next (docs/model.md section 4, constraint 8b;
+    a seasonal store needs it); false keeps each store cyclic within its typical day. No effect on the full year."""
     co2_cap_t_per_a: float | None = _RUN["co2_cap_t_per_a"]
     network_plant_limit_kw: float | None = _RUN["network_plant_limit_kw"]
     heating_base_temp_c: float = _RUN["heating_base_temp_c"]
@@ -274,7 +277,8 @@ MODEL_REVISION = 2
 """Revision of what the engine makes of the inputs (the formulation of docs/model.md, the typical days): raise it
 with every change that moves a run's numbers for the same files, so that :func:`input_hash` changes and a run
 saved before is no longer handed back as if solved now (it stays in the library, to open and compare).
-2: stores follow the calendar from day to day on typical days (docs/model.md section 4, constraint 8b)."""
+1 (implied before the revision was hashed); 2: the groundwater temperature of typical days takes each cluster's
+distribution (docs/model.md section 8), and stores may carry heat from day to day (``stores_between_days``)."""
 
 
 def input_hash(scenario: Scenario, cost_case: str, settings: Settings | None = None) -> str:

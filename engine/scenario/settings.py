@@ -44,6 +44,7 @@ RUN_KEYS = (
         high=MAX_PRICE_EUR_PER_MWH * 10,
     ),
     Column("allow_unserved_heat", "bool", default=_RUN["allow_unserved_heat"]),
+    Column("stores_between_days", "bool", default=_RUN["stores_between_days"]),
     Column("co2_cap_t_per_a", default=_RUN["co2_cap_t_per_a"], low=0),
     Column("network_plant_limit_kw", default=_RUN["network_plant_limit_kw"], low=0),
     Column("heating_base_temp_c", default=_RUN["heating_base_temp_c"], low=-10, high=30),

@@ -55,9 +55,11 @@ def describe_choices(result: RunResult) -> str:
     cap = choice["co2_cap_t_per_a"]
     days = choice["typical_days"]
     held = " · capacities held from a plan (a full-year check)" if (result.extras or {}).get("fixed_plan") else ""
+    linked = (" · stores carry heat from day to day" if days and (result.settings or {}).get("stores_between_days")
+              else "")
     return (
         f"Cost case **{markdown_literal(cost_case_label(choice['cost_case']))}** · objective **{objective}** · CO2 cap "
-        f"{f'{cap:,.0f} t/a' if cap else 'none'} · {f'{days} typical days' if days else 'full year'}{held}"
+        f"{f'{cap:,.0f} t/a' if cap else 'none'} · {f'{days} typical days' if days else 'full year'}{linked}{held}"
     )
 
 def suggested_run_name(result: RunResult) -> str:
