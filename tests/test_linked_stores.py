@@ -4,7 +4,8 @@ The engine writes the level of a store on typical days as a start-of-day level p
 within each typical day (the superposition of Kotzur et al. 2018, Applied Energy 213, 123-135). The check here is
 independent of that: the same instance is written out as matrices with one level variable for every hour of the
 calendar year, the level following the hours in calendar order, each calendar day dispatched as the typical day
-that stands for it, and solved with ``scipy.optimize.linprog``. For a store without losses both are the same
+that stands for it, each extreme day ending at the level it started with, and solved with
+``scipy.optimize.linprog``. For a store without losses both are the same
 program, so the optima agree, with and without losses; the engine's dispatch, replayed hour by hour over the
 calendar, keeps the level within [0, capacity].
 """
@@ -118,6 +119,10 @@ def calendar_rebuild(scenario, cyclic_within_day: bool = False):
             eq_rhs.append(0.0)
             ub.append({level[d, h]: 1.0, cap_st: -1.0})
             ub_rhs.append(0.0)
+        if not cyclic_within_day and grid.extreme_period[grid.day_period[d]]:
+            # an extreme day ends at the level it started with (docs/model.md section 4, constraint 8b)
+            eq.append({level[d, 23]: 1.0, level[(d - 1) % n_days, 23]: -1.0})
+            eq_rhs.append(0.0)
 
     def matrix(rows):
         r, c, v = [], [], []
@@ -179,6 +184,10 @@ def test_lossy_store_matches_the_calendar_rebuild_and_stays_within_bounds():
             lowest, highest = min(lowest, level), max(highest, level)
     assert lowest >= -1e-6 * capacity
     assert highest <= capacity * (1 + 1e-6)
+    start = x[model.cols["store_day_start"][0]]
+    extreme = np.flatnonzero(grid.extreme_period[grid.day_period])
+    assert extreme.size  # the peak-heating and coldest days
+    assert np.allclose(start[(extreme + 1) % start.size], start[extreme], atol=1e-6 * max(1.0, capacity))
 
 
 def test_cyclic_within_each_day_is_the_default_and_costs_more_here():

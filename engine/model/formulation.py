@@ -279,6 +279,10 @@ def stores_linked(grid, technologies=None, settings=None) -> bool:
                 and np.all(np.bincount(grid.period, minlength=grid.n_periods) == HOURS_PER_DAY))
 
 
+EXTREME_DAYS_SERVE_THEMSELVES = True
+"""Linked stores: each extreme day ends at the level it started with (no heat carried in from the days around
+it, which typical days represent milder than the days of a real cold spell)."""
+
 MAX_LINKED_LOSS_PER_H = 0.25
 """Stores losing more than this share of their heat per hour stay cyclic within each typical day: over a day
 they keep less than 1e-3 of it, and keep^-(h+1) would scale the rows badly."""
@@ -331,6 +335,17 @@ def _linked_store_rows(lp: LinearProgram, grid, stores: StoreUnits, cols: dict, 
         lower=0.0,
         upper=0.0,
     )
+    extreme_days = (np.flatnonzero(np.asarray(grid.extreme_period, dtype=bool)[day_period])
+                    if grid.extreme_period is not None else np.zeros(0, dtype=int))
+    if EXTREME_DAYS_SERVE_THEMSELVES and extreme_days.size:
+        # an extreme day ends at the level it started with: no heat carried in from the days around it
+        rows["store_extreme_day"] = lp.add_rows(
+            "store_extreme_day",
+            [(cols["store_day_start"][:, following[extreme_days]], 1.0),
+             (cols["store_day_start"][:, extreme_days], -1.0)],
+            lower=0.0,
+            upper=0.0,
+        )
     rows["store_day_lowest"] = lp.add_rows(
         "store_day_lowest", [(cols["level"], 1.0), (cols["store_low"][:, grid.period], -1.0)], lower=0.0
     )

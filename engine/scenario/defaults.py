@@ -90,8 +90,8 @@ DEFAULTS = (
         _SCENARIO,
         "run.stores_between_days",
         False,
-        "typical days: each store returns to its level within every day, so each day serves itself and a cold spell "
-        "is never bridged from days typical days only stand for",
+        "typical days: each store returns to its level within every day, so each typical day serves itself "
+        "(docs/model.md section 8 compares the stores linked from day to day)",
     ),
     Default(_SCENARIO, "run.co2_cap_t_per_a", NO_LIMIT, "limit rule"),
     Default(_SCENARIO, "run.network_plant_limit_kw", NO_LIMIT, "limit rule"),

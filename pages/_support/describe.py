@@ -48,10 +48,10 @@ def resolution_note(scenario, result: RunResult) -> str:
         "page measures the resolution itself once (fidelity tab)."
     )
     if (result.settings or {}).get("stores_between_days"):
-        note += (" Stores carry heat from day to day here (stores_between_days in scenario.toml): typical days "
-                 "can then bridge a cold spell with heat kept from milder days that the real days of the spell do "
-                 "not leave (on the demo such plans left 46 to 57 MWh/a unserved over the hourly year). Run the "
-                 "Full-year check before relying on the capacities.")
+        note += (" Stores carry heat from day to day here (stores_between_days in scenario.toml): the typical "
+                 "days around a cold spell are milder than its real days, so heat kept on them may not be there "
+                 "when the spell comes (extreme days are held to serve themselves). Run the Full-year check before "
+                 "relying on the capacities.")
     return note
 
 def describe_choices(result: RunResult) -> str:
