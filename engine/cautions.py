@@ -52,3 +52,10 @@ YEAR_CHECK = (
     "the inputs. Designs defer to licensed engineers, well permits to the water authority."
 )
 """Under a plan's check over the full year (the run results page)."""
+
+FIRMNESS = (
+    "The ranges say which figures this model and these inputs fix, not which plans are buildable: a plan at either "
+    "end of a range still needs its wells, network connections and investments checked with the water authority, "
+    "the network operator and licensed engineers."
+)
+"""Under the near-optimal ranges of a run's technologies (the run results page)."""

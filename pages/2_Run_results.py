@@ -13,7 +13,8 @@ from pages._support.describe import (
     demand_note, describe_choices, markdown_literal, resolution_note, run_kpis, suggested_run_name,
 )
 from pages._support.tables import (
-    district_results_table, styled, supply_results_table, table_height, well_results_table, year_check_table,
+    district_results_table, firmness_summary, firmness_table, styled, supply_results_table, table_height, well_results_table,
+    year_check_table,
 )
 from pages._support.library import run_choices
 from engine.outputs.figures import (
@@ -25,6 +26,7 @@ from engine.outputs.figures import (
 )
 from engine.outputs.maps import MEASURES, district_map
 from engine.storage.store import StoreError
+from engine.studies.alternatives import FIRMNESS_SLACK_PCT, run_firmness
 from engine.studies.year_check import check_over_year, holds_a_plan, resolve_held_plan
 from pages._support.shell import open_store, route_through_app, run_with_cancel, show_cancelled
 
@@ -36,7 +38,7 @@ MEASURE_LABELS = {
     "co2_kg_per_mwh": "CO2 per MWh of demand [kg/MWh]",
     "change_total_cost": "Change of annual cost against a baseline run [€/a]",
 }
-TABS = ["Map", "Load curves", "Costs", "Tables", "Full-year check", "Manage run"]
+TABS = ["Map", "Load curves", "Costs", "Tables", "Full-year check", "How firm", "Manage run"]
 
 
 state = st.session_state
@@ -251,6 +253,57 @@ def save_year_check(year, key) -> None:
         st.rerun()
 
 
+def show_firmness() -> None:
+    st.caption("How firm is the split between technologies? Plans that cost at most the slack more than the "
+               "least-cost plan are searched for the least and the most heat of each technology (near-optimal "
+               "alternatives, docs/model.md section 8). Where a range is wide, two supplies cost almost the same "
+               "there: the run's figure for that technology is one of many near-equal answers, and a small change "
+               "of a price or of the time resolution can move it across the range.")
+    if holds_a_plan(result):
+        st.info("This run holds a plan over the full year (a saved full-year check), it was not optimised: open "
+                "the plan's own run for its ranges.")
+        return
+    if result.objective != "cost":
+        st.info("This run minimises CO2; the ranges are of plans near the least cost. Solve the lowest-cost run "
+                "of the same inputs and open its ranges here.")
+        return
+    if scenario is None:
+        st.info("The scenario files of this run are not available, so the ranges cannot be computed.")
+        return
+    days = int(result.settings.get("typical_days", 0) or 0)
+    left, right = st.columns([1, 3], vertical_alignment="bottom")
+    slack = float(left.number_input(
+        "Cost slack [%]", 0.0, 20.0, FIRMNESS_SLACK_PCT, 0.1, key="firmness_slack_pct",
+        help="How much more than the least cost a plan may cost to count. The typical days' own cost error is "
+             "about 0.2 % on the demo city; uncertain prices move the cost by far more, so try 2 to 5 % for them."))
+    right.caption(f"+{slack:g} % is {slack / 100 * result.total_cost_eur_per_a / 1e3:,.0f} k€/a on this run.")
+    ranges_done = state.setdefault("hm_firmness", {})
+    key = (picked if picked != CURRENT else f"current-{id(result)}", result.input_hash, round(slack, 6))
+    show_cancelled("firmness_job", "near-optimal ranges")
+    if key not in ranges_done:
+        where = (f"on this run's {days} typical days" if days else
+                 "on typical days (the full year would take hours: two LPs per district and technology over "
+                 "every hour)")
+        if st.button("Find the ranges", key="firmness_button", icon=":material/straighten:"):
+            ranges_done.clear()
+            ranges_done[key] = run_with_cancel(
+                lambda progress, cancel: run_firmness(scenario, result, slack, progress=progress, cancel=cancel),
+                key="firmness_job")
+        else:
+            st.caption(f"Solved {where}; seconds per district.")
+            return
+    ranges = ranges_done[key]
+    table = firmness_table(ranges, result, technologies)
+    if not days:
+        st.info(f"This run is over the full hourly year; the ranges were solved on {ranges.typical_days} typical "
+                "days, so they bracket the typical days' least-cost plan rather than this run (on the demo city "
+                "the 12-day ranges within +0.01 % held every technology's full-year heat, docs/model.md section 8).")
+    st.dataframe(styled(table), hide_index=True, width="stretch", height=table_height(table),
+                 column_config=numbers(table))
+    st.caption(firmness_summary(table, slack))
+    st.caption(cautions.FIRMNESS)
+
+
 def show_manage() -> None:
     if info is None:
         st.info("This run is not in the library yet; save it on the Plan a run page.")
@@ -328,7 +381,8 @@ if demand_note(scenario, result):
 
 # The tabs keep their selection across reruns (rename, re-solve ...), and only the open one is drawn.
 tabs = st.tabs(TABS, key="results_tab", on_change="rerun")
-for tab, draw in zip(tabs, (show_map, show_load_curves, show_costs, show_tables, show_year_check, show_manage)):
+for tab, draw in zip(tabs, (show_map, show_load_curves, show_costs, show_tables, show_year_check,
+                                  show_firmness, show_manage)):
     if tab.open:
         with tab:
             draw()

@@ -228,6 +228,40 @@ def test_results_page_checks_a_saved_plan_over_the_full_year(session):
             store.delete_run(saved_id)
 
 
+def test_results_page_shows_how_firm_each_technology_is(session):
+    """The How-firm tab of a saved 12-day run gives each technology's heat in the run beside the least and the most
+    within the cost slack. The run is the least-cost plan of the same LPs, so each range must hold the run's own
+    heat (the ranges themselves are checked against hand calculations in tests/test_firmness.py)."""
+    at = session["at"]
+    at.switch_page(RESULTS).run()
+    with ScenarioStore(session["store"]) as store:
+        runs = store.list_runs()
+        reference_id = int(runs[runs["name"] == "Reference prices"]["run_id"].iloc[0])
+        run = store.load_run(reference_id)
+    at.selectbox(key="results_run").select(reference_id).run()
+    at.session_state["results_tab"] = "How firm"
+    at.run()
+    assert not at.exception, at.exception
+    assert "How firm is the split between technologies?" in _texts(at)
+    at.number_input(key="firmness_slack_pct").set_value(0.2).run()
+    at.button(key="firmness_button").click().run(timeout=600)
+    assert not at.exception, at.exception
+    table = at.dataframe[0].value
+    assert list(table.columns[:4]) == ["technology", "this run [MWh/a]", "least [MWh/a]", "most [MWh/a]"]
+    own = run.heat_by_technology_mwh_per_a()
+    technologies = load_scenario("demo").technologies
+    names = dict(zip(technologies["name"], technologies["technology_id"]))
+    assert len(table) >= 5
+    for _, row in table.iterrows():
+        assert row["this run [MWh/a]"] == pytest.approx(own[names[row["technology"]]], rel=1e-9)
+        assert row["least [MWh/a]"] <= row["this run [MWh/a]"] + 1.0 <= row["most [MWh/a]"] + 2.0
+    # the widest range relative to its heat is named first (on the demo a peak boiler, docs/model.md section 8)
+    width = table["most against this run [%]"] - table["least against this run [%]"]
+    widest = table.loc[width.idxmax(), "technology"]
+    assert f"Least firm within +0.2 % of the least cost: {widest} (" in _texts(at)
+    assert "water authority" in _texts(at)
+
+
 def test_share_page_and_overview_list_the_runs(session):
     """The share page offers its downloads for saved runs and the overview's library lists both runs."""
     at = session["at"]
