@@ -32,7 +32,9 @@ Before them, the demo at its default resolution against the full year (cached in
 error of the typical days (``fidelity_cost_error_pct=E``, printed just before the last line), the largest error of a
 technology's heat (``fidelity_heat_error_max_pct=E``) and the cost of the typical-day plan run over the full year
 with its capacities fixed against the full year's optimum (``fidelity_checked_plan_cost_pct=E``,
-:mod:`engine.studies.year_check`).
+:mod:`engine.studies.year_check`), and for how many technologies the typical days' near-optimal ranges within
++0.01 % of the least cost hold the full year's heat (``fidelity_full_year_within_ranges=K/N``, docs/model.md
+section 8).
 
 The last line of the output is ``overhead_ratio=R``: the ratio of the largest monolithic case run (in quick mode
 a full-year city of at least 100 000 variables).
@@ -52,6 +54,8 @@ from concurrent.futures import ProcessPoolExecutor
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
+FIRMNESS_CHECK_SLACK_PCT = 0.01
+"""Cost slack of the fidelity's near-optimal ranges [%] (docs/model.md section 8: 2,962 EUR/a on the demo)."""
 if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
@@ -308,7 +312,7 @@ def _child(spec: dict) -> None:
     elif spec["kind"] == "fidelity":
         from bench.typical_days import demo_fidelity
 
-        record = demo_fidelity()
+        record = demo_fidelity(firmness_slacks=(FIRMNESS_CHECK_SLACK_PCT,))
     else:
         record = run_case(spec["districts"], spec["typical_days"], spec["path"], spec["workers"], spec["sample"])
     print("BENCH-JSON " + json.dumps(record), flush=True)
@@ -449,6 +453,11 @@ def main(argv=None) -> int:
           f"against the full year's optimum ({checked['against_estimate_pct']:+.3f} % against its typical-day "
           f"estimate), unserved heat {checked['unserved_heat_mwh_per_a']:,.1f} MWh/a, largest difference of a "
           f"technology's heat {checked['heat_error_max_pct']:.2f} % ({checked['heat_error_worst_technology']})")
+    for row in fidelity.get("firmness", []):
+        print(f"demo city, the {fidelity['typical_days']} typical days' near-optimal ranges within "
+              f"+{row['slack_pct']:g} % of the least cost ({row['seconds']:.1f} s; docs/model.md section 8) hold the "
+              f"full year's heat of {row['inside']} of {row['technologies']} technologies")
+        print(f"fidelity_full_year_within_ranges={row['inside']}/{row['technologies']}")
     print(f"fidelity_checked_plan_cost_pct={checked['cost_error_pct']:.3f}")
     print(f"fidelity_heat_error_max_pct={own['heat_error_max_pct']:.3f}")
     print(f"benchmark wall time {time.perf_counter() - started:.0f} s")

@@ -8,6 +8,8 @@
     python bench/typical_days.py --districts      # also where the heat by technology differs, per district
     python bench/typical_days.py --groundwater-mean --sweep 16,24   # also the groundwater at its cluster's mean
     python bench/typical_days.py --linked-stores --sweep 16,24,48,96   # also stores linked from day to day
+    python bench/typical_days.py --firmness 0,0.01,0.05,0.17   # also the typical days' near-optimal ranges
+    python bench/typical_days.py --sensitivity electric_boiler:efficiency=0.98   # the full year, one input changed
 
 The full year takes minutes; it is solved once and kept in the temporary folder, keyed by the input hash. All
 clusterings get the same inputs (the daily features the engine clusters, the extreme days taken out and kept
@@ -236,7 +238,7 @@ def timed_solve(scenario, settings, repeats: int = 3):
 
 def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, single_factor: bool = False,
                   sweep=(), districts: bool = False, former: bool = False, groundwater_mean: bool = False,
-                  linked_stores: bool = False) -> dict:
+                  linked_stores: bool = False, firmness_slacks=()) -> dict:
     """The demo at its default resolution (or ``typical_days``) against the full year; optionally tsam's days,
     the former single-factor rescaling, and other numbers of typical days (``sweep``)."""
     scenario = load_scenario(resolve_scenario_path("demo"))
@@ -255,6 +257,11 @@ def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, sing
     out["checked"] = {**compare(check.year, reference), "solve_s": time.perf_counter() - started,
                       "unserved_heat_mwh_per_a": check.unserved_heat_mwh_per_a,
                       "against_estimate_pct": check.cost_difference_pct}
+    if firmness_slacks:
+        out["firmness"] = [
+            {"slack_pct": row["slack_pct"], "inside": int(row["table"]["holds_full_year"].sum()),
+             "technologies": len(row["table"]), "incomplete": row["incomplete"], "seconds": row["seconds"]}
+            for row in firmness(scenario, settings, reference, firmness_slacks)]
     if districts:
         out["districts"] = district_differences(ours, reference)
     if single_factor:
@@ -309,6 +316,52 @@ def demo_fidelity(with_tsam: bool = False, typical_days: int | None = None, sing
     return out
 
 
+def firmness(scenario, settings, reference, slacks) -> list:
+    """Per cost slack [%]: the typical days' near-optimal range of each technology's city heat
+    (:func:`engine.studies.alternatives.near_optimal_ranges` on the default typical days) beside the full year's
+    heat, and whether the range holds it: how far the typical days' technology split can be read."""
+    from engine.studies.alternatives import near_optimal_ranges
+
+    year = reference.heat_by_technology_mwh_per_a()
+    out = []
+    for slack in slacks:
+        started = time.perf_counter()
+        ranges = near_optimal_ranges(scenario, slack_pct=slack, settings=settings)
+        table = ranges.technology_heat()
+        table["full_year_mwh_per_a"] = table["technology_id"].map(lambda t: year.get(t, 0.0))
+        table["holds_full_year"] = ((table["full_year_mwh_per_a"] >= table["minimum_mwh_per_a"] - 0.5)
+                                    & (table["full_year_mwh_per_a"] <= table["maximum_mwh_per_a"] + 0.5))
+        out.append({"slack_pct": slack, "seconds": time.perf_counter() - started, "table": table,
+                    "incomplete": int((ranges.ranges["status"] != "optimal").sum())})
+    return out
+
+
+def sensitivity(scenario, reference, changes) -> list:
+    """The full year again with one technology input changed per entry (``"technology_id:column=value"``): how
+    much the reference itself moves, per technology's heat [%] and in total cost [%], for a small change of input
+    (each full year solved once and kept like :func:`full_year`)."""
+    import copy
+
+    base = reference.heat_by_technology_mwh_per_a()
+    out = []
+    for change in changes:
+        target, value = change.split("=", 1)
+        tech, column = target.split(":", 1)
+        changed = copy.deepcopy(scenario)
+        rows = changed.technologies["technology_id"] == tech
+        if not rows.any() or column not in changed.technologies.columns:
+            raise SystemExit(f"--sensitivity {change}: no technology {tech!r} or column {column!r}")
+        before = changed.technologies.loc[rows, column].iloc[0]
+        changed.technologies.loc[rows, column] = float(value)
+        year, seconds = full_year(changed)
+        heat = year.heat_by_technology_mwh_per_a()
+        out.append({"change": f"{tech} {column} {before} -> {value}", "seconds": seconds,
+                    "cost_pct": _relative_pct(year.total_cost_eur_per_a, reference.total_cost_eur_per_a),
+                    "heat_pct": {t: _relative_pct(heat.get(t, 0.0), v) for t, v in base.items() if abs(v) >= 100.0
+                                 and t not in STORE_TECHNOLOGIES}})
+    return out
+
+
 def _unserved(row: dict):
     """Unserved heat of a plan held over the full year [MWh/a], where the row has it."""
     return row.get("checked_unserved_heat_mwh_per_a", row.get("unserved_heat_mwh_per_a"))
@@ -326,6 +379,11 @@ def main(argv=None) -> int:
                         help="also the groundwater temperature at its cluster's mean (the representation before)")
     parser.add_argument("--linked-stores", action="store_true",
                         help="also the stores linked from day to day, and what their plan leaves unserved")
+    parser.add_argument("--firmness", default="",
+                        help="cost slacks [%%] at which to give the typical days' near-optimal ranges, e.g. 0,0.05")
+    parser.add_argument("--sensitivity", default="",
+                        help="full-year runs with one input changed, e.g. electric_boiler:efficiency=0.98 (comma-"
+                             "separated; minutes each)")
     args = parser.parse_args(argv)
     sweep = [int(d) for d in args.sweep.split(",") if d.strip()]
     load = os.getloadavg()[0]
@@ -351,6 +409,28 @@ def main(argv=None) -> int:
     if args.districts:
         print("per district (capacity kW, heat MWh/a; full year, typical days, difference):")
         print(figures["districts"].round(0).to_string())
+    slacks = [float(x) for x in args.firmness.split(",") if x.strip()]
+    if slacks:
+        scenario = load_scenario(resolve_scenario_path("demo"))
+        reference, _ = full_year(scenario)
+        for row in firmness(scenario, run_settings(scenario, typical_days=args.typical_days), reference, slacks):
+            table = row["table"]
+            print(f"near-optimal ranges of the typical days within +{row['slack_pct']:g} % of the least cost "
+                  f"({row['seconds']:.1f} s, {row['incomplete']} rows incomplete): the full year's heat inside for "
+                  f"{int(table['holds_full_year'].sum())} of {len(table)} technologies")
+            for _, r in table.iterrows():
+                print(f"    {r['technology_id']}: typical days {r['heat_mwh_per_a']:,.0f} MWh/a, range "
+                      f"{r['minimum_mwh_per_a']:,.0f} to {r['maximum_mwh_per_a']:,.0f} ({r['below_pct']:+.1f} % / "
+                      f"{r['above_pct']:+.1f} %), full year {r['full_year_mwh_per_a']:,.0f}"
+                      f"{'' if r['holds_full_year'] else ' (outside)'}")
+    changes = [c.strip() for c in args.sensitivity.split(",") if c.strip()]
+    if changes:
+        scenario = load_scenario(resolve_scenario_path("demo"))
+        reference, _ = full_year(scenario)
+        for row in sensitivity(scenario, reference, changes):
+            print(f"full year with {row['change']} ({row['seconds']:.0f} s) against the full year: cost "
+                  f"{row['cost_pct']:+.3f} %; heat " + ", ".join(
+                      f"{t} {e:+.2f} %" for t, e in sorted(row["heat_pct"].items())))
     print(f"1-min load average {load:.1f} before / {os.getloadavg()[0]:.1f} after, {os.cpu_count()} cores")
     print(f"fidelity_cost_error_pct={figures['own']['cost_error_pct']:.3f}")
     return 0

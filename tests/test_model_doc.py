@@ -13,6 +13,7 @@ from pathlib import Path
 import pytest
 
 from engine.model import extract, formulation, prepare
+from engine.studies import alternatives
 from engine.scenario.defaults import HOT_WATER_TEMP_C, default
 
 DOC = (Path(__file__).resolve().parents[1] / "docs" / "model.md").read_text(encoding="utf-8")
@@ -41,6 +42,7 @@ def test_every_section_is_there():
     f"default {_g(default('scenario.toml', 'run.reinjection_min_temp_c'))} °C .. "
     f"{_g(default('scenario.toml', 'run.reinjection_max_temp_c'))} °C",
     f"default {_g(HOT_WATER_TEMP_C)} °C",
+    f"cost <= (1 + s) C* + {_g(alternatives.COST_LIMIT_TOLERANCE)} C*",
 ])
 def test_doc_states_the_codes_numbers(text):
     """Each phrase is built from the constant the code uses; a changed constant without a changed document fails."""
@@ -55,6 +57,7 @@ def test_doc_states_the_codes_numbers(text):
     ("extreme-period", "Kotzur"),
     ("duration curve", "Poncelet"),
     ("epsilon-constraint", "Haimes"),
+    ("generate alternatives", "DeCarolis"),
 ])
 def test_methods_are_cited(method, citation):
     flat = DOC.replace("\n", " ")
