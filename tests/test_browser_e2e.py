@@ -306,7 +306,7 @@ def test_every_page_after_a_refused_upload_reads_cleanly_in_chromium(server, tmp
 
             _nav(page, "Run results")
             page.get_by_role("heading", name="Run results").wait_for()
-            for tab in ("Map", "Load curves", "Costs", "Tables", "Manage run"):
+            for tab in ("Map", "Load curves", "Costs", "Tables", "How firm", "Manage run"):
                 _click_tab(page, tab)
                 faults += _page_faults(page, ids, f"results {tab}")
 

@@ -20,6 +20,7 @@ def test_unmeasured_resolution_says_where_to_measure(tmp_path, monkeypatch):
     monkeypatch.setenv("HEATMOSAIC_STORE", str(tmp_path / "store.sqlite"))
     note = resolution_note(load_scenario(DEMO_DIR), _result(12))
     assert "12 typical days" in note and "not been measured" in note
+    assert "How firm tab" in note  # where the technology split's range is (tests/test_firmness.py)
 
 
 def test_stores_from_day_to_day_ask_for_the_full_year_check(tmp_path, monkeypatch):

@@ -47,6 +47,8 @@ def resolution_note(scenario, result: RunResult) -> str:
         "inputs yet: the Full-year check tab below runs this plan over every hour, and the Trade-offs and sweeps "
         "page measures the resolution itself once (fidelity tab)."
     )
+    note += (" Where two supplies cost almost the same (on the demo the peak boilers), a technology's heat is not "
+             "fixed by the model: the How firm tab gives its range.")
     if (result.settings or {}).get("stores_between_days"):
         note += (" Stores carry heat from day to day here (stores_between_days in scenario.toml): the typical "
                  "days around a cold spell are milder than its real days, so heat kept on them may not be there "
