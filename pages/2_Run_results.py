@@ -290,7 +290,8 @@ def show_firmness() -> None:
                 lambda progress, cancel: run_firmness(scenario, result, slack, progress=progress, cancel=cancel),
                 key="firmness_job")
         else:
-            st.caption(f"Solved {where}; seconds per district.")
+            st.caption(f"Solved {where}: seconds per district; with a city-wide CO2 cap or network plant limit "
+                       "all districts are one LP (about 1.5 minutes on the demo city).")
             return
     ranges = ranges_done[key]
     table = firmness_table(ranges, result, technologies)
