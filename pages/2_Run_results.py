@@ -13,7 +13,7 @@ from pages._support.describe import (
     demand_note, describe_choices, markdown_literal, resolution_note, run_kpis, suggested_run_name,
 )
 from pages._support.tables import (
-    district_results_table, firmness_summary, firmness_table, styled, supply_results_table, table_height, well_results_table,
+    district_results_table, firmness_display_table, styled, supply_results_table, table_height, well_results_table,
     year_check_table,
 )
 from pages._support.library import run_choices
@@ -24,6 +24,7 @@ from engine.outputs.figures import (
     load_curve_figure,
     load_duration_figure,
 )
+from engine.outputs.firmness import firmness_summary
 from engine.outputs.maps import MEASURES, district_map
 from engine.storage.store import StoreError
 from engine.studies.alternatives import FIRMNESS_SLACK_PCT, run_firmness
@@ -294,7 +295,7 @@ def show_firmness() -> None:
                        "all districts are one LP (about 1.5 minutes on the demo city).")
             return
     ranges = ranges_done[key]
-    table = firmness_table(ranges, result, technologies)
+    table = firmness_display_table(ranges, result, technologies)
     if not days:
         st.info(f"This run is over the full hourly year; the ranges were solved on {ranges.typical_days} typical "
                 "days, so they bracket the typical days' least-cost plan rather than this run (on the demo city "

@@ -9,7 +9,8 @@ from engine import cautions
 from pages._support.cache import load_saved_run, scenario_for_files
 from pages._support.describe import markdown_literal
 from pages._support.library import (
-    bundle_bytes, import_library_bytes, library_bytes, run_choices, safe_file_name, unique_run_names, zip_purpose,
+    bundle_bytes, firmness_for_report, import_library_bytes, library_bytes, run_choices, safe_file_name,
+    unique_run_names, zip_purpose,
 )
 from engine.outputs.export import tables_csv_zip, tables_xlsx
 from engine.outputs.report import html_report
@@ -58,12 +59,18 @@ else:
             if plan is not None and not st.checkbox("Include the heat plan computed in this session",
                                                     value=True, key="share_heat_plan"):
                 plan = None
+            firmness = firmness_for_report(state.get("hm_firmness", {}), picked, names, results)
+            if firmness and not st.checkbox(
+                    "Include the technology ranges computed on Run results in this session (How firm): "
+                    + ", ".join(firmness), value=True, key="share_firmness"):
+                firmness = {}
             if scenario is None:
                 st.info("The scenario files of the first run are not available, so no report can be written.")
             else:
                 st.download_button(
                     "Download the HTML summary",
-                    data=lambda: html_report(results, scenario, technologies, title, heat_plan=plan),
+                    data=lambda: html_report(results, scenario, technologies, title, heat_plan=plan,
+                                             firmness=firmness),
                     file_name=f"{stem}.html", mime="text/html", icon=":material/description:",
                     key="share_html", on_click="ignore",
                 )

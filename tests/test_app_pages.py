@@ -259,6 +259,12 @@ def test_results_page_shows_how_firm_each_technology_is(session):
     width = table["most against this run [%]"] - table["least against this run [%]"]
     widest = table.loc[width.idxmax(), "technology"]
     assert f"Least firm within +0.2 % of the least cost: {widest} (" in _texts(at)
+    # the Share page offers them for the summary of this run
+    at.switch_page(SHARE).run()
+    assert not at.exception, at.exception
+    at.multiselect(key="share_runs").set_value([reference_id]).run()
+    assert not at.exception, at.exception
+    assert at.checkbox(key="share_firmness").value is True
     assert "water authority" in _texts(at)
 
 

@@ -130,3 +130,17 @@ def test_an_end_not_solved_stays_unknown():
     city = ranges.ranges[ranges.ranges["scope"] == "city"].set_index("subject")
     assert city.loc["gas", "status"] == "incomplete" and np.isnan(city.loc["gas", "minimum"])
     assert city.loc["gas", "maximum"] == pytest.approx(1.0, abs=1e-6)  # both districts' ends known
+
+
+def test_the_report_takes_the_ranges_of_the_runs_it_shares():
+    """The Share page hands the report the ranges computed on Run results for a chosen saved run, matched by its
+    id and its input hash (a run re-solved from other files does not get them)."""
+    from pages._support.library import firmness_for_report
+
+    run = dataclasses.replace(solve_scenario(_two_boilers()), input_hash="abc")
+    ranges = near_optimal_ranges(_two_boilers(), slack_pct=1.0, workers=1)
+    computed = {(7, "abc", 1.0): ranges, ("current-1", "abc", 1.0): ranges}
+    assert firmness_for_report(computed, [7, 8], {7: "Reference", 8: "Other"}, {"Reference": run}) == {
+        "Reference": ranges}
+    other = dataclasses.replace(run, input_hash="def")
+    assert firmness_for_report(computed, [7], {7: "Reference"}, {"Reference": other}) == {}

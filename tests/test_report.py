@@ -285,3 +285,27 @@ def test_summary_draws_every_figure_offline_in_chromium(report, tmp_path):
     assert len(seen["heights"]) == len(specs)
     assert all(h >= 200 for h in seen["heights"]), seen["heights"]
     assert seen["traces"] == [len(spec["data"]) for spec in specs]
+
+
+def test_report_shows_how_firm_a_runs_split_is():
+    """A run given near-optimal ranges gains their section: each technology's heat in the run, the least and the
+    most (here half and twice the run's heat: -50 % and +100 %, by construction), the least firm named, and the
+    caution; a run without ranges gains none."""
+    from engine.studies.alternatives import RANGE_COLUMNS, NearOptimalRanges
+
+    runs = {"reference": result_with_wells(), "other": result_with_wells(cost_case="high_co2")}
+    heat = {t: v for t, v in runs["reference"].heat_by_technology_mwh_per_a().items() if v > 1.0}
+    demand = 2.0 * sum(heat.values())
+    rows = [("city", t, "technology_share", v / demand, 0.5 * v / demand, 2.0 * v / demand, 0.2, "optimal")
+            for t, v in heat.items()]
+    ranges = NearOptimalRanges("reference", 0.2, pd.DataFrame(rows, columns=list(RANGE_COLUMNS)), demand, 12)
+    html = html_report(runs, synthetic_scenario(), TECHNOLOGIES, firmness={"reference": ranges})
+    assert html.count("How firm the technology split is (within +0.2 % of the least cost)") == 1
+    assert "solved on 12 typical days" in html and cautions.FIRMNESS in html
+    for value in heat.values():
+        for figure in (value, 0.5 * value, 2.0 * value):
+            assert format_value(figure, "least [MWh/a]") in html
+    assert format_value(-50.0, "least against this run [%]") in html
+    assert format_value(100.0, "most against this run [%]") in html
+    assert "Least firm within +0.2 % of the least cost" in html
+    assert "How firm" not in html_report(runs, synthetic_scenario(), TECHNOLOGIES)

@@ -34,6 +34,7 @@ from engine.outputs.figures import (
     supply_mix_figure,
 )
 from engine import cautions
+from engine.outputs.firmness import firmness_summary, firmness_table
 from engine.outputs.htmlpack import FigureSet
 from engine.outputs.labels import AQUIFER_LABELS, cost_case_label, objective_label, status_label, words
 from engine.outputs.maps import shared_value_range, svg_district_map
@@ -169,8 +170,28 @@ def cost_case_table(results: Mapping[str, RunResult], scenario) -> pd.DataFrame:
     return pd.DataFrame(rows)
 
 
+def firmness_section(ranges, result: RunResult, technologies=None) -> str:
+    """A run's near-optimal ranges (:func:`engine.studies.alternatives.run_firmness`) as an HTML section: the
+    table, the least and most firm technologies and the caution."""
+    names = ({} if technologies is None else
+             dict(zip(technologies["technology_id"].astype(str), technologies["name"].astype(str))))
+    table = firmness_table(ranges, result, names)
+    full_year_run = not int((result.settings or {}).get("typical_days", 0) or 0)
+    where = (f"solved on {ranges.typical_days} typical days" if ranges.typical_days
+             else "solved over the full year")
+    if ranges.typical_days and full_year_run:
+        where += ", while this run is over the full year: they bracket the typical days' least-cost plan"
+    return (f"<h4>How firm the technology split is (within +{ranges.slack_pct:g} % of the least cost)</h4>"
+            "<p class='note'>The least and the most heat of each technology among the plans that cost at most "
+            f"+{ranges.slack_pct:g} % more than the least-cost plan ({escape(where)}; near-optimal alternatives, "
+            "docs/model.md section 8). A wide range marks a near-tie: the model leaves that figure open.</p>"
+            + _table_html(format_table(table), _numeric_columns(table))
+            + f"<p class='note'>{escape(firmness_summary(table, ranges.slack_pct))}</p>"
+            + f"<p class='note'>{escape(cautions.FIRMNESS)}</p>")
+
+
 def html_report(results: Mapping[str, RunResult], scenario, technologies=None, title: str | None = None,
-                heat_plan: HeatPlan | None = None) -> str:
+                heat_plan: HeatPlan | None = None, firmness: Mapping | None = None) -> str:
     """The report as one HTML document (a string); write it to a ``.html`` file to share it.
 
     Parameters
@@ -185,6 +206,9 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
         Defaults to "Heat supply screening: <scenario name>".
     heat_plan : HeatPlan, optional
         A pathway and/or designation: the report gains a heat-plan chapter (:mod:`engine.outputs.plan_report`).
+    firmness : dict of run name -> NearOptimalRanges, optional
+        The runs' near-optimal ranges (:func:`engine.studies.alternatives.run_firmness`): each named run gains a
+        section on how firm its technology split is (:func:`firmness_section`).
     """
     if not isinstance(results, Mapping) or not results:
         raise ValueError("results: expected a non-empty dict of run name -> RunResult")
@@ -262,6 +286,8 @@ def html_report(results: Mapping[str, RunResult], scenario, technologies=None, t
         body.append("<p class='note'>Hover a district or a well for its figures.</p>")
         body.append(_figure_html(district_supply_figure(r, technologies)))
         body.append(_figure_html(load_curve_figure(r, technologies)))
+        if (firmness or {}).get(name) is not None:
+            body.append(firmness_section(firmness[name], r, technologies))
 
     body.append("<h2 id='duration'>Load duration</h2>")
     body.append(_figure_html(load_duration_figure(solved, technologies=technologies)))

@@ -99,3 +99,15 @@ def safe_file_name(name: str, suffix: str) -> str:
     """A download file name made of the run name (letters, digits, '-' and '_' only)."""
     stem = "".join(c if c.isalnum() or c in "-_" else "_" for c in str(name)).strip("_") or "heatmosaic"
     return f"{stem[:60]}{suffix}"
+
+
+def firmness_for_report(computed: dict, picked, names: dict, results: dict) -> dict:
+    """The near-optimal ranges computed on the Run results page (``hm_firmness``, keyed by (saved run id, input
+    hash, slack)) that belong to the runs chosen for a report: report name -> ranges."""
+    found = {}
+    for (run, digest, _slack), ranges in computed.items():
+        for run_id in picked:
+            name = names.get(run_id)
+            if run == run_id and name in results and results[name].input_hash == digest:
+                found[name] = ranges
+    return found
