@@ -144,3 +144,39 @@ def test_the_report_takes_the_ranges_of_the_runs_it_shares():
         "Reference": ranges}
     other = dataclasses.replace(run, input_hash="def")
     assert firmness_for_report(computed, [7], {7: "Reference"}, {"Reference": other}) == {}
+
+
+def test_a_stalled_warm_start_is_solved_again_from_scratch(monkeypatch):
+    """When a range LP started from the least-cost basis stops short (here: an iteration limit of 0 on the
+    maximisation of the electric boiler, the third LP: least cost, its minimum, its maximum), it is solved once more
+    from scratch and the range is the hand-calculated one (+5 %: at most 0.5 electric)."""
+    import highspy
+
+    original = highspy.Highs.run
+    calls = {"n": 0}
+
+    def run(self):
+        calls["n"] += 1
+        if calls["n"] == 3:
+            self.setOptionValue("simplex_iteration_limit", 0)
+            try:
+                return original(self)
+            finally:
+                self.setOptionValue("simplex_iteration_limit", 2**31 - 1)
+        return original(self)
+
+    cleared = {"n": 0}
+    clear = highspy.Highs.clearSolver
+
+    def counted_clear(self):
+        cleared["n"] += 1
+        return clear(self)
+
+    monkeypatch.setattr(highspy.Highs, "run", run)
+    monkeypatch.setattr(highspy.Highs, "clearSolver", counted_clear)
+    ranges = near_optimal_ranges(_two_boilers(), slack_pct=5.0, workers=1)
+    assert cleared["n"] == 1 and calls["n"] == 6  # least cost, 2 x 2 ranges, one retry
+    heat = _heat(ranges)
+    assert (ranges.ranges["status"] == "optimal").all()
+    assert heat.loc["eboiler", "maximum_mwh_per_a"] == pytest.approx(0.5 * DEMAND_MWH, rel=REL)
+    assert heat.loc["gas", "minimum_mwh_per_a"] == pytest.approx(0.5 * DEMAND_MWH, rel=REL)
