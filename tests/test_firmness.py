@@ -180,3 +180,15 @@ def test_a_stalled_warm_start_is_solved_again_from_scratch(monkeypatch):
     assert (ranges.ranges["status"] == "optimal").all()
     assert heat.loc["eboiler", "maximum_mwh_per_a"] == pytest.approx(0.5 * DEMAND_MWH, rel=REL)
     assert heat.loc["gas", "minimum_mwh_per_a"] == pytest.approx(0.5 * DEMAND_MWH, rel=REL)
+
+
+def test_the_ranges_through_pulp_keep_the_cap():
+    """The same hand case as above through pulp's CBC (every objective from the solver's own start): the run's
+    CO2 cap gives [0.5, 0.71] of the heat electric within +2 %."""
+    scenario = _two_boilers()
+    factor_t = scenario.prices.co2_kg_per_mwh["gas"] / 1000.0
+    capped = dataclasses.replace(scenario.settings, co2_cap_t_per_a=0.5 * DEMAND_MWH * factor_t)
+    ranges = near_optimal_ranges(scenario, slack_pct=2.0, workers=1, solver="cbc", settings=capped)
+    heat = _heat(ranges)
+    assert heat.loc["eboiler", "minimum_mwh_per_a"] == pytest.approx(0.5 * DEMAND_MWH, rel=REL)
+    assert heat.loc["eboiler", "maximum_mwh_per_a"] == pytest.approx(0.71 * DEMAND_MWH, rel=REL)
