@@ -160,6 +160,7 @@ def test_two_cost_cases_solved_saved_and_compared_in_chromium(server):
             assert "Reference prices" in key_figures and "High CO2 price" in key_figures
 
             frames = page.locator("iframe[title='streamlit_folium.st_folium']")
+            frames.nth(1).wait_for(timeout=STEP_TIMEOUT_MS)  # drawn after the tables: later on a busy machine
             assert frames.count() == 2
             frames.first.scroll_into_view_if_needed()
             map_frame = page.frame_locator("iframe[title='streamlit_folium.st_folium']").first
