@@ -264,6 +264,9 @@ def show_firmness() -> None:
         st.info("This run holds a plan over the full year (a saved full-year check), it was not optimised: open "
                 "the plan's own run for its ranges.")
         return
+    if not result.solved:
+        st.info("This run has no solution, so there is no plan to range.")
+        return
     if result.objective != "cost":
         st.info("This run minimises CO2; the ranges are of plans near the least cost. Solve the lowest-cost run "
                 "of the same inputs and open its ranges here.")
@@ -295,6 +298,9 @@ def show_firmness() -> None:
                        "all districts are one LP (about 1.5 minutes on the demo city).")
             return
     ranges = ranges_done[key]
+    if (ranges.ranges["status"] != "optimal").any():
+        st.warning("Some ranges could not be solved (status incomplete): their ends are left blank, and the city "
+                   "figures of those technologies with them.")
     table = firmness_display_table(ranges, result, technologies)
     if not days:
         st.info(f"This run is over the full hourly year; the ranges were solved on {ranges.typical_days} typical "
