@@ -268,6 +268,31 @@ def test_results_page_shows_how_firm_each_technology_is(session):
     assert "water authority" in _texts(at)
 
 
+def test_results_page_flags_ranges_left_incomplete(session, monkeypatch):
+    """A range the solver could not finish is flagged above the table (its end is blank, not the optimum)."""
+    import engine.studies.alternatives as alternatives
+
+    real = alternatives.run_firmness
+
+    def partly(*args, **kwargs):
+        ranges = real(*args, **kwargs)
+        ranges.ranges.loc[ranges.ranges.index[0], ["minimum", "status"]] = [float("nan"), "incomplete"]
+        return ranges
+
+    monkeypatch.setattr(alternatives, "run_firmness", partly)
+    at = session["at"]
+    at.switch_page(RESULTS).run()
+    with ScenarioStore(session["store"]) as store:
+        runs = store.list_runs()
+    at.selectbox(key="results_run").select(int(runs[runs["name"] == "Reference prices"]["run_id"].iloc[0])).run()
+    at.session_state["results_tab"] = "How firm"
+    at.run()
+    at.number_input(key="firmness_slack_pct").set_value(0.3).run()
+    at.button(key="firmness_button").click().run(timeout=600)
+    assert not at.exception, at.exception
+    assert any("could not be solved" in str(w.value) for w in at.warning)
+
+
 def test_share_page_and_overview_list_the_runs(session):
     """The share page offers its downloads for saved runs and the overview's library lists both runs."""
     at = session["at"]
